@@ -1,0 +1,80 @@
+"""widgetkit: Jupyter widgets and a replayable session model for vibrational
+spectroscopy.
+
+The headless API (no widget is imported by ``import widgetkit``)::
+
+    import widgetkit as wk
+    s = wk.Session.from_file("band.jdx")
+    s.find_peaks(min_snr=8)
+    s.fit_lines(shape="voigt")
+    s.assign_band(wk.Diatomic("H", "Cl"))
+    s.constants
+
+Sub-packages ``wk.lines``, ``wk.levels``, ``wk.oscillator``, ``wk.simulate``,
+``wk.processing`` and ``wk.io`` load on first use; the widgets live in
+``widgetkit.widgets`` and load only when that is imported.
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import Any
+
+from .errors import (
+    AssignmentError,
+    FitError,
+    SessionFormatError,
+    SessionStateError,
+    SpectrumFormatError,
+    WidgetkitError,
+)
+from .spectrum import Spectrum
+
+__version__ = "0.1.0"
+
+__all__ = [
+    "__version__",
+    "Spectrum",
+    "read_spectrum",
+    "Session",
+    "Step",
+    "VerifyReport",
+    "Diatomic",
+    "WidgetkitError",
+    "SpectrumFormatError",
+    "SessionFormatError",
+    "SessionStateError",
+    "FitError",
+    "AssignmentError",
+    "io",
+    "processing",
+    "lines",
+    "levels",
+    "oscillator",
+    "simulate",
+]
+
+_SUBMODULES = {"io", "processing", "lines", "levels", "oscillator", "simulate", "widgets",
+               "session", "report", "cli", "demo"}
+_LAZY_NAMES = {
+    "read_spectrum": ("io", "read_spectrum"),
+    "Session": ("session", "Session"),
+    "Step": ("session", "Step"),
+    "VerifyReport": ("session", "VerifyReport"),
+    "Diatomic": ("levels", "Diatomic"),
+}
+
+
+def __getattr__(name: str) -> Any:
+    if name in _SUBMODULES:
+        return importlib.import_module(f".{name}", __name__)
+    if name in _LAZY_NAMES:
+        mod, attr = _LAZY_NAMES[name]
+        value = getattr(importlib.import_module(f".{mod}", __name__), attr)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'widgetkit' has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__))

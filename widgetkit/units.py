@@ -1,0 +1,78 @@
+"""Unit conversion at the edges: everything inside widgetkit is wavenumber in
+cm⁻¹ (vacuum), ascending, float64.
+
+Conversions (CODATA constants from :mod:`scipy.constants`):
+
+* wavelength λ in nm: ν̃ = 10⁷ / λ
+* wavelength λ in µm: ν̃ = 10⁴ / λ
+* frequency ν in THz: ν̃ = ν·10¹² / (100 c), 1 THz ≈ 33.35641 cm⁻¹
+"""
+
+from __future__ import annotations
+
+import re
+
+import numpy as np
+
+__all__ = ["X_UNITS", "normalise_x_unit", "to_wavenumber", "C_CM_PER_S"]
+
+#: speed of light in cm/s (CODATA exact value, 299 792 458 m/s)
+C_CM_PER_S = 299_792_458.0 * 100.0
+
+#: canonical x-unit names understood everywhere
+X_UNITS = ("cm-1", "nm", "um", "THz")
+
+_ALIASES = {
+    "cm-1": "cm-1", "cm^-1": "cm-1", "1/cm": "cm-1", "cm−1": "cm-1", "cm⁻¹": "cm-1",
+    "wavenumber": "cm-1", "wavenumbers": "cm-1", "kayser": "cm-1",
+    "nm": "nm", "nanometer": "nm", "nanometers": "nm", "nanometre": "nm", "nanometres": "nm",
+    "um": "um", "µm": "um", "μm": "um", "micron": "um", "microns": "um", "micrometer": "um",
+    "micrometers": "um", "micrometre": "um", "micrometres": "um",
+    "thz": "THz", "terahertz": "THz",
+}
+
+
+def normalise_x_unit(unit: str) -> str:
+    """Return the canonical name (one of :data:`X_UNITS`) of an x unit.
+
+    Raises
+    ------
+    ValueError
+        When the unit is not known; the message lists the accepted names.
+    """
+    key = re.sub(r"\s+", "", str(unit)).lower().replace("−", "-")
+    key = key.replace("cm**-1", "cm-1").replace("cm{-1}", "cm-1")
+    if key in _ALIASES:
+        return _ALIASES[key]
+    raise ValueError(
+        f"unknown x unit {unit!r}; use one of {', '.join(X_UNITS)} "
+        "(wavenumber cm-1, wavelength nm or um, frequency THz)"
+    )
+
+
+def to_wavenumber(values, unit: str) -> np.ndarray:
+    """Convert x values in ``unit`` to wavenumber in cm⁻¹ (vacuum).
+
+    Parameters
+    ----------
+    values : array_like
+        x values in ``unit``; wavelengths and frequencies must be > 0.
+    unit : str
+        Any name :func:`normalise_x_unit` accepts.
+
+    Returns
+    -------
+    ndarray of float64, same shape (not sorted: wavelength order reverses).
+    """
+    unit = normalise_x_unit(unit)
+    v = np.asarray(values, dtype=np.float64)
+    if unit == "cm-1":
+        return v.copy()
+    if np.any(v <= 0):
+        raise ValueError(f"{unit} values must be positive to convert to wavenumber")
+    if unit == "nm":
+        return 1.0e7 / v
+    if unit == "um":
+        return 1.0e4 / v
+    # THz -> Hz -> cm^-1
+    return v * 1.0e12 / C_CM_PER_S
