@@ -1,1 +1,57 @@
-"""(filled in by its issue)"""
+"""Spectrum processing: crop, absorbance/transmittance, baselines, noise,
+peaks and display decimation.
+
+All functions are pure: they take a :class:`~widgetkit.spectrum.Spectrum` or
+plain arrays and return new values, record nothing and print nothing. The
+session (:mod:`widgetkit.session`) calls them and records each call as a step.
+
+Modules: :mod:`.transform` (crop, to_absorbance, to_transmittance),
+:mod:`.baseline` (baseline_poly, baseline_als, subtract_baseline),
+:mod:`.peaks` (estimate_noise, find_peaks, nearest_maximum, peak_row,
+peak_table), :mod:`.decimate` (decimate_minmax).
+"""
+
+from __future__ import annotations
+
+from ._common import ProcessingError
+from .baseline import (
+    BASELINE_METHODS,
+    baseline_als,
+    baseline_options,
+    baseline_poly,
+    second_difference_penalty,
+    subtract_baseline,
+)
+from .decimate import decimate_minmax
+from .peaks import (
+    PEAK_COLUMNS,
+    estimate_noise,
+    find_peaks,
+    nearest_maximum,
+    peak_row,
+    peak_table,
+    refine_parabola,
+)
+from .transform import MAX_TRANSMITTANCE, crop, to_absorbance, to_transmittance
+
+__all__ = [
+    "ProcessingError",
+    "crop",
+    "to_absorbance",
+    "to_transmittance",
+    "MAX_TRANSMITTANCE",
+    "baseline_poly",
+    "baseline_als",
+    "baseline_options",
+    "second_difference_penalty",
+    "subtract_baseline",
+    "BASELINE_METHODS",
+    "estimate_noise",
+    "find_peaks",
+    "nearest_maximum",
+    "peak_row",
+    "peak_table",
+    "refine_parabola",
+    "PEAK_COLUMNS",
+    "decimate_minmax",
+]
