@@ -1,1 +1,13 @@
-"""(filled in by its issue)"""
+"""The session: source data plus ordered steps, replayable and verifiable.
+
+See :class:`Session`. Step kinds are registered in ``kinds_*`` modules; adding
+one is a small class (see :mod:`widgetkit.session.steps`).
+"""
+
+from . import kinds_basic  # noqa: F401  (registers the step kinds)
+from .session import Session, SessionEvent
+from .steps import STEP_KINDS, State, Step, StepKind, register_step
+from .verify import VerifyReport
+
+__all__ = ["Session", "SessionEvent", "Step", "State", "StepKind", "STEP_KINDS", "register_step",
+           "VerifyReport"]

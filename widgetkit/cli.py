@@ -1,0 +1,57 @@
+"""The ``widgetkit`` command line.
+
+``widgetkit verify FILE``
+    Replay a saved session; exit 0 when it reproduces its recorded results,
+    1 when it does not (the mismatches are printed), 2 when the file is unreadable.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+__all__ = ["main"]
+
+
+def _cmd_verify(args: argparse.Namespace) -> int:
+    from .errors import WidgetkitError
+    from .session import Session
+
+    try:
+        session = Session.load(args.file)
+    except FileNotFoundError:
+        print(f"widgetkit verify: {args.file}: no such file", file=sys.stderr)
+        return 2
+    except (WidgetkitError, OSError) as exc:
+        print(f"widgetkit verify: cannot read the session: {exc}", file=sys.stderr)
+        return 2
+    report = session.verify()
+    print(f"{args.file}: {report}")
+    return 0 if report.ok else 1
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="widgetkit",
+        description="Vibrational spectroscopy sessions: verify, report, demo.")
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    p = sub.add_parser("verify", help="replay a saved session and compare with its record")
+    p.add_argument("file", help="a saved session (.json)")
+    p.set_defaults(func=_cmd_verify)
+    for register in _EXTRA_COMMANDS:
+        register(sub)
+    return parser
+
+
+#: functions that add further sub-commands (report, demo) to the parser
+_EXTRA_COMMANDS: list = []
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    return int(args.func(args))
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,159 @@
+"""The session file: JSON with ``format``/``version``, a shipped JSON Schema,
+explicit array encoding with hashes, ordered migrations and atomic saves.
+
+Layout (version 1)::
+
+    {"format": "widgetkit-session", "version": 1,
+     "created": ISO time, "modified": ISO time, "software": {...},
+     "sources": [{"id", "path", "sha256", "size", "format", "y_kind", "meta",
+                  "read_options", "data": {"x": ARRAY, "y": ARRAY} or null}],
+     "steps": [{"kind", "params", "at", "summary", "result", "software"}]}
+
+    ARRAY = {"dtype": "<f8", "shape": [n], "encoding": "base64",
+             "sha256": hex of the raw bytes, "data": base64 text}
+
+No pickle, no code: a file is data only.
+"""
+
+from __future__ import annotations
+
+import base64
+import binascii
+import hashlib
+import json
+import os
+import tempfile
+from collections.abc import Callable
+from functools import lru_cache
+from importlib import resources
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import SessionFormatError
+
+__all__ = ["FORMAT", "VERSION", "MIGRATIONS", "encode_array", "decode_array", "migrate",
+           "validate", "atomic_write_text", "read_document"]
+
+FORMAT = "widgetkit-session"
+#: the version this code writes
+VERSION = 1
+#: MIGRATIONS[k] turns a version k+1 document into a version k+2 document
+MIGRATIONS: list[Callable[[dict], dict]] = []
+
+
+def encode_array(a: np.ndarray) -> dict:
+    """Encode a float64 array as base64 little-endian bytes with dtype, shape and sha256."""
+    raw = np.ascontiguousarray(a, dtype="<f8").tobytes()
+    return {"dtype": "<f8", "shape": list(np.shape(a)), "encoding": "base64",
+            "sha256": hashlib.sha256(raw).hexdigest(),
+            "data": base64.b64encode(raw).decode("ascii")}
+
+
+def decode_array(d: dict, *, where: str) -> tuple[np.ndarray, bool]:
+    """Decode an encoded array; returns the array and whether its sha256 matches.
+
+    Raises :class:`SessionFormatError` naming ``where`` when the data cannot be decoded.
+    """
+    if d.get("dtype") != "<f8" or d.get("encoding") != "base64":
+        raise SessionFormatError(f"{where}: only base64 '<f8' arrays are supported, "
+                                 f"got dtype {d.get('dtype')!r}, encoding {d.get('encoding')!r}")
+    try:
+        raw = base64.b64decode(d["data"], validate=True)
+    except (binascii.Error, ValueError) as exc:
+        raise SessionFormatError(f"{where}: the base64 data is corrupt ({exc})") from None
+    n = int(np.prod(d["shape"])) if d["shape"] else 1
+    if len(raw) != 8 * n:
+        raise SessionFormatError(
+            f"{where}: holds {len(raw)} bytes but shape {d['shape']} needs {8 * n}")
+    ok = hashlib.sha256(raw).hexdigest() == d["sha256"]
+    return np.frombuffer(raw, dtype="<f8").reshape(d["shape"]).astype(np.float64), ok
+
+
+@lru_cache(maxsize=4)
+def _schema(version: int) -> dict:
+    text = resources.files("widgetkit.session").joinpath(
+        f"schema/session-v{version}.schema.json").read_text(encoding="utf-8")
+    return json.loads(text)
+
+
+def validate(doc: dict, *, path: str | None = None) -> None:
+    """Check a current-version document against the shipped JSON Schema."""
+    import jsonschema
+
+    validator = jsonschema.Draft202012Validator(_schema(VERSION))
+    errors = sorted(validator.iter_errors(doc), key=lambda e: list(e.absolute_path))
+    if errors:
+        e = errors[0]
+        field = "/".join(str(p) for p in e.absolute_path) or "(top level)"
+        more = f" (and {len(errors) - 1} more problem(s))" if len(errors) > 1 else ""
+        raise SessionFormatError(f"field {field}: {e.message}{more}", path=path)
+
+
+def migrate(doc: dict, *, path: str | None = None) -> dict:
+    """Bring a document to :data:`VERSION` through :data:`MIGRATIONS`, in order.
+
+    A document newer than this code is refused, naming both versions.
+    """
+    if not isinstance(doc, dict) or doc.get("format") != FORMAT:
+        got = doc.get("format") if isinstance(doc, dict) else type(doc).__name__
+        raise SessionFormatError(
+            f"not a widgetkit session file (format is {got!r}, expected {FORMAT!r})", path=path)
+    version = doc.get("version")
+    if not isinstance(version, int) or isinstance(version, bool) or version < 1:
+        raise SessionFormatError(f"field version: must be a positive integer, got {version!r}",
+                                 path=path)
+    if version > VERSION:
+        raise SessionFormatError(
+            f"the file is session format version {version}, but this widgetkit reads versions "
+            f"up to {VERSION}; upgrade widgetkit to open it", path=path)
+    while version < VERSION:
+        doc = MIGRATIONS[version - 1](dict(doc))
+        version += 1
+        doc["version"] = version
+    return doc
+
+
+def read_document(path: str | os.PathLike) -> dict:
+    """Read, migrate and validate a session file; raises SessionFormatError on any problem."""
+    p = str(path)
+    try:
+        text = Path(p).read_text(encoding="utf-8")
+    except UnicodeDecodeError as exc:
+        raise SessionFormatError(f"not a text (UTF-8 JSON) file: {exc}", path=p) from None
+    try:
+        doc = json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise SessionFormatError(
+            f"invalid JSON at line {exc.lineno}, column {exc.colno}: {exc.msg}", path=p) from None
+    doc = migrate(doc, path=p)
+    validate(doc, path=p)
+    return doc
+
+
+def atomic_write_text(path: str | os.PathLike, text: str) -> None:
+    """Write ``text`` to ``path`` atomically: temporary file in the same folder, flush,
+    fsync, rename. On any failure the previous file is left untouched."""
+    target = Path(path)
+    folder = target.parent if str(target.parent) else Path(".")
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, target)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except FileNotFoundError:
+            pass
+        raise
+    try:  # make the rename durable where the platform allows it
+        dfd = os.open(folder, os.O_RDONLY)
+        try:
+            os.fsync(dfd)
+        finally:
+            os.close(dfd)
+    except OSError:  # pragma: no cover - not every filesystem allows fsync on a folder
+        pass

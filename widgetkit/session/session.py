@@ -1,0 +1,459 @@
+"""The :class:`Session`: the single source of truth of an analysis.
+
+A session holds the source data (embedded, with hashes) and an ordered list of
+:class:`~widgetkit.session.steps.Step` records. The state after each step is
+kept, so undo and stepping through the record are cheap; every state is a pure
+function of the sources and the steps, which is what :meth:`Session.verify`
+checks by replaying them.
+
+Changes flow one way: a method validates its arguments, runs the step kind,
+appends the step and notifies the observers (``subscribe``). A step that
+raises leaves the session unchanged.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from collections.abc import Callable
+from dataclasses import dataclass
+from datetime import datetime, timezone
+from typing import Any
+
+import pandas as pd
+
+from ..errors import SessionFormatError, SessionStateError, WidgetkitError
+from ..spectrum import Spectrum
+from . import codec
+from .steps import STEP_KINDS, Context, State, Step, software_versions, table_to_json
+from .verify import VerifyReport, compare_results
+
+__all__ = ["Session", "SessionEvent"]
+
+LINE_COLUMNS = ["line_id", "position", "position_err", "area", "area_err", "height", "fwhm",
+                "fwhm_err"]
+ASSIGNMENT_COLUMNS = ["line_id", "position", "isotopologue", "v_upper", "v_lower", "J_upper",
+                      "J_lower", "label", "calc", "obs_minus_calc", "outlier"]
+CONSTANT_COLUMNS = ["isotopologue", "name", "value", "stderr", "unit"]
+
+
+def _now() -> str:
+    return datetime.now(timezone.utc).isoformat(timespec="milliseconds")
+
+
+def _json_params(kind: str, params: dict) -> dict:
+    try:
+        return json.loads(json.dumps(params, allow_nan=False))
+    except (TypeError, ValueError) as exc:
+        raise SessionStateError(
+            f"{kind}: parameters must be plain data (numbers, strings, lists, dicts): {exc}"
+        ) from None
+
+
+@dataclass(frozen=True)
+class SessionEvent:
+    """What an observer is told: ``kind`` is ``"step"``, ``"undo"`` or ``"view"``."""
+
+    kind: str
+    step: Step | None
+    index: int
+
+
+class Session:
+    """A recorded, replayable analysis of one spectrum.
+
+    Parameters
+    ----------
+    spectrum : Spectrum
+        The raw data. Its ``source`` (path, sha256 of the file) is kept when present;
+        the arrays are embedded in saved files with their own sha256.
+
+    Examples
+    --------
+    >>> s = Session.from_file("band.csv")                    # doctest: +SKIP
+    >>> s.subtract_baseline("als", lam=1e6); s.find_peaks(min_snr=10)  # doctest: +SKIP
+    >>> s.save("band.session.json"); Session.load("band.session.json").verify().ok  # doctest: +SKIP
+    True
+    """
+
+    def __init__(self, spectrum: Spectrum, *, read_options: dict | None = None):
+        if not isinstance(spectrum, Spectrum):
+            raise SessionStateError(
+                f"Session needs a widgetkit Spectrum, got {type(spectrum).__name__}; "
+                "use Session.from_file(path) to read a file")
+        src = spectrum.source or {}
+        record = {
+            "id": "src1", "path": src.get("path"), "sha256": src.get("sha256"),
+            "size": src.get("size"), "format": src.get("format"), "y_kind": spectrum.y_kind,
+            "meta": _json_params("load", spectrum.meta), "read_options": dict(read_options or {}),
+        }
+        self._init_empty()
+        self._add_source(record, spectrum)
+        self._run("load", {"source": "src1"})
+
+    def _init_empty(self) -> None:
+        self._sources: list[dict] = []
+        self._source_spectra: dict[str, Spectrum] = {}
+        self._source_problems: list[str] = []
+        self._steps: list[Step] = []
+        self._states: list[State] = []
+        self._cursor: int | None = None
+        self._observers: list[Callable] = []
+        self._pending: list[SessionEvent] = []
+        self._notifying = False
+        self.created = _now()
+        self.path: str | None = None
+
+    def _add_source(self, record: dict, spectrum: Spectrum) -> None:
+        record = dict(record)
+        record["data_sha256"] = spectrum.data_sha256()
+        self._sources.append(record)
+        self._source_spectra[record["id"]] = spectrum
+
+    @property
+    def _ctx(self) -> Context:
+        return Context(sources=self._source_spectra)
+
+    # ------------------------------------------------------------------ constructors
+    @classmethod
+    def from_file(cls, path: str | os.PathLike, **read_opts) -> Session:
+        """Read a spectrum file (see :func:`widgetkit.read_spectrum`) and start a session."""
+        from ..io import read_spectrum
+
+        return cls(read_spectrum(path, **read_opts), read_options=read_opts)
+
+    @classmethod
+    def load(cls, path: str | os.PathLike) -> Session:
+        """Reopen a saved session and replay its steps.
+
+        Raises
+        ------
+        SessionFormatError
+            When the file is not valid JSON, fails the schema, is of a newer
+            version than this code, or a step cannot be replayed.
+        """
+        doc = codec.read_document(path)
+        self = cls.__new__(cls)
+        self._init_empty()
+        self.created = doc["created"]
+        self.path = str(path)
+        for rec in doc["sources"]:
+            self._add_source(*self._decode_source(rec, str(path)))
+        self._steps = [Step(**s) for s in doc["steps"]]
+        if self._steps[0].kind != "load":
+            raise SessionFormatError("field steps/0/kind: the first step must be 'load'", path=path)
+        state = State()
+        for i, step in enumerate(self._steps):
+            kind = STEP_KINDS.get(step.kind)
+            if kind is None:
+                raise SessionFormatError(
+                    f"field steps/{i}/kind: unknown step kind {step.kind!r} "
+                    f"(known: {', '.join(sorted(STEP_KINDS))})", path=path)
+            try:
+                state, _, _ = kind.apply(state, dict(step.params), self._ctx)
+            except WidgetkitError as exc:
+                raise SessionFormatError(
+                    f"step {i + 1} ({step.kind}) cannot be replayed: {exc}", path=path) from exc
+            self._states.append(state)
+        return self
+
+    def _decode_source(self, rec: dict, path: str) -> tuple[dict, Spectrum]:
+        sid = rec["id"]
+        meta = rec.get("meta", {})
+        if rec["data"] is not None:
+            x, okx = codec.decode_array(rec["data"]["x"], where=f"sources/{sid}/data/x")
+            y, oky = codec.decode_array(rec["data"]["y"], where=f"sources/{sid}/data/y")
+            for name, ok in (("x", okx), ("y", oky)):
+                if not ok:
+                    self._source_problems.append(
+                        f"source {sid} field data.{name}: the embedded data does not match its "
+                        "recorded sha256 (the data were changed after saving)")
+            try:
+                sp = Spectrum(x, y, y_kind=rec["y_kind"], meta=meta,
+                              source=_source_of(rec))
+            except WidgetkitError as exc:
+                raise SessionFormatError(f"sources/{sid}: embedded data invalid: {exc}",
+                                         path=path) from None
+            return rec, sp
+        # not embedded: re-read the original file and check its hash
+        from ..io import read_spectrum
+
+        src_path = rec["path"]
+        if not src_path or not os.path.exists(src_path):
+            raise SessionFormatError(
+                f"sources/{sid}: the session was saved without embedded data and the source file "
+                f"{src_path!r} is not there; put the file back or save sessions with embed=True",
+                path=path)
+        sp = read_spectrum(src_path, **rec.get("read_options", {}))
+        if rec["sha256"] and (sp.source or {}).get("sha256") != rec["sha256"]:
+            self._source_problems.append(
+                f"source {sid} field sha256: the file {src_path} has changed since the session "
+                "was saved (its sha256 differs)")
+        return rec, sp
+
+    # ------------------------------------------------------------------ running steps
+    def _run(self, kind: str, params: dict) -> Step:
+        if self._cursor is not None:
+            raise SessionStateError(
+                f"the session is showing step {self._cursor + 1} of {len(self._steps)}; call "
+                "view_latest() before changing the analysis (nothing was changed)")
+        params = _json_params(kind, params)
+        previous = self._states[-1] if self._states else State()
+        new_state, result, summary = STEP_KINDS[kind].apply(previous, params, self._ctx)
+        step = Step(kind=kind, params=params, at=_now(), summary=summary,
+                    result=json.loads(json.dumps(result, allow_nan=False)),
+                    software=software_versions())
+        self._steps.append(step)
+        self._states.append(new_state)
+        self._notify(SessionEvent("step", step, len(self._steps) - 1))
+        return step
+
+    def crop(self, lo: float, hi: float) -> None:
+        """Keep ``lo <= x <= hi`` (cm⁻¹)."""
+        self._run("crop", {"lo": float(lo), "hi": float(hi)})
+
+    def to_absorbance(self) -> None:
+        """Convert a transmittance spectrum to absorbance, A = −log₁₀ T."""
+        self._run("to_absorbance", {})
+
+    def subtract_baseline(self, method: str = "poly", **opts) -> None:
+        """Subtract a baseline: ``"poly"`` (``degree=``) or ``"als"`` (``lam=``, ``p=``).
+
+        See :func:`widgetkit.processing.subtract_baseline` for every option.
+        """
+        self._run("subtract_baseline", {"method": method, **opts})
+
+    def find_peaks(self, *, min_snr: float = 5.0, min_separation: float | None = None
+                   ) -> pd.DataFrame:
+        """Find peaks whose prominence exceeds ``min_snr`` times the noise; replaces the peak table."""
+        self._run("find_peaks", {"min_snr": float(min_snr),
+                                 "min_separation": None if min_separation is None
+                                 else float(min_separation)})
+        return self.peaks
+
+    def add_peak(self, position: float, *, snap: bool = True) -> int:
+        """Add a peak at ``position`` (moved to the nearest local maximum when ``snap``)."""
+        step = self._run("add_peak", {"position": float(position), "snap": bool(snap)})
+        return int(step.result["peak_id"])
+
+    def remove_peak(self, peak_id: int) -> None:
+        """Remove the peak ``peak_id``."""
+        self._run("remove_peak", {"peak_id": int(peak_id)})
+
+    def note(self, text: str) -> None:
+        """Add a note to the record."""
+        self._run("note", {"text": str(text)})
+
+    def undo(self) -> Step:
+        """Drop the last step (the first, ``load``, cannot be undone); returns it."""
+        if self._cursor is not None:
+            raise SessionStateError("call view_latest() before undo (nothing was changed)")
+        if len(self._steps) <= 1:
+            raise SessionStateError("nothing to undo: the session holds only its load step")
+        step = self._steps.pop()
+        self._states.pop()
+        self._notify(SessionEvent("undo", step, len(self._steps) - 1))
+        return step
+
+    # ------------------------------------------------------------------ stepping through the record
+    def view(self, index: int) -> None:
+        """Show the state after step ``index`` (0-based; negative counts from the end).
+
+        Every property (``spectrum``, ``peaks``, ``lines``, ...) then reflects that
+        state until :meth:`view_latest`; analysis methods refuse to run meanwhile.
+        """
+        n = len(self._steps)
+        i = index + n if index < 0 else index
+        if not 0 <= i < n:
+            raise SessionStateError(f"view: step index {index} is out of range (0..{n - 1})")
+        self._cursor = None if i == n - 1 else i
+        self._notify(SessionEvent("view", self._steps[i], i))
+
+    def view_latest(self) -> None:
+        """Show the latest state again."""
+        self.view(-1)
+
+    @property
+    def viewing(self) -> int:
+        """Index of the step whose state is shown (the last one unless :meth:`view` was used)."""
+        return len(self._steps) - 1 if self._cursor is None else self._cursor
+
+    @property
+    def state(self) -> State:
+        """The state shown (see :meth:`view`)."""
+        return self._states[self.viewing]
+
+    def state_at(self, index: int) -> State:
+        """The state after step ``index``."""
+        return self._states[index]
+
+    # ------------------------------------------------------------------ observers
+    def subscribe(self, callback: Callable[[Session, SessionEvent], Any]) -> Callable:
+        """Call ``callback(session, event)`` after every change; returns the callback."""
+        if callback not in self._observers:
+            self._observers.append(callback)
+        return callback
+
+    def unsubscribe(self, callback: Callable) -> None:
+        """Stop calling ``callback`` (no error when it was not subscribed)."""
+        if callback in self._observers:
+            self._observers.remove(callback)
+
+    def _notify(self, event: SessionEvent) -> None:
+        # The one re-entrancy guard: an observer that changes the session from inside a
+        # notification queues its event; it is delivered after the current one, in order.
+        self._pending.append(event)
+        if self._notifying:
+            return
+        self._notifying = True
+        errors: list[BaseException] = []
+        try:
+            while self._pending:
+                ev = self._pending.pop(0)
+                for cb in list(self._observers):
+                    try:
+                        cb(self, ev)
+                    except Exception as exc:  # every observer still hears of the change
+                        errors.append(exc)
+        finally:
+            self._notifying = False
+        if errors:
+            raise errors[0]
+
+    # ------------------------------------------------------------------ views of the state
+    @property
+    def spectrum(self) -> Spectrum:
+        """The current processed spectrum."""
+        return self.state.require_spectrum()
+
+    @property
+    def source_spectrum(self) -> Spectrum:
+        """The raw spectrum as loaded."""
+        return self._source_spectra[self._sources[0]["id"]]
+
+    @property
+    def baseline(self):
+        """The last baseline subtracted (ndarray on ``spectrum.x``) or None."""
+        return self.state.baseline
+
+    @property
+    def peaks(self) -> pd.DataFrame:
+        """The peak table: ``peak_id, position, height, snr`` (+ ``prominence, origin``)."""
+        return self.state.peaks.copy()
+
+    @property
+    def line_fit(self):
+        """The last accepted :class:`widgetkit.lines.LineFit`, or None."""
+        return self.state.line_fit
+
+    @property
+    def lines(self) -> pd.DataFrame:
+        """The fitted lines (columns as :func:`widgetkit.lines.fit`), empty before a fit."""
+        fit = self.state.line_fit
+        return pd.DataFrame(columns=LINE_COLUMNS) if fit is None else fit.table.copy()
+
+    @property
+    def fit_result(self):
+        """The lmfit result of the last accepted fit, or None."""
+        fit = self.state.line_fit
+        return None if fit is None else fit.result
+
+    @property
+    def assignment(self):
+        """The last band assignment / progression result object, or None."""
+        return self.state.assignment
+
+    @property
+    def assignments(self) -> pd.DataFrame:
+        a = self.state.assignment
+        return pd.DataFrame(columns=ASSIGNMENT_COLUMNS) if a is None else a.assignments.copy()
+
+    @property
+    def constants(self) -> pd.DataFrame:
+        """Fitted and derived constants: ``isotopologue, name, value, stderr, unit``."""
+        a = self.state.assignment
+        return pd.DataFrame(columns=CONSTANT_COLUMNS) if a is None else a.constants.copy()
+
+    @property
+    def locks(self) -> dict:
+        """Manual assignments: line_id -> labels."""
+        return {k: dict(v) for k, v in self.state.locks.items()}
+
+    @property
+    def history(self) -> list[Step]:
+        """The steps, oldest first (a copy)."""
+        return list(self._steps)
+
+    @property
+    def sources(self) -> list[dict]:
+        """Where the data came from: id, path, sha256, size, format (copies)."""
+        return [{k: v for k, v in r.items()} for r in self._sources]
+
+    def __repr__(self) -> str:
+        sp = self._states[-1].spectrum
+        return f"<Session: {len(self._steps)} steps, {sp!r}>"
+
+    # ------------------------------------------------------------------ files
+    def to_document(self, *, embed: bool = True) -> dict:
+        """The session as a JSON-able document (see :mod:`widgetkit.session.codec`)."""
+        sources = []
+        for rec in self._sources:
+            sp = self._source_spectra[rec["id"]]
+            out = {k: rec[k] for k in ("id", "path", "sha256", "size", "format", "y_kind",
+                                       "meta", "read_options")}
+            out["data"] = ({"x": codec.encode_array(sp.x), "y": codec.encode_array(sp.y)}
+                           if embed else None)
+            sources.append(out)
+        if not embed and not all(r["path"] for r in sources):
+            raise SessionStateError("save(embed=False) needs a source file path; this session "
+                                    "was made from an in-memory spectrum, so save it embedded")
+        return {"format": codec.FORMAT, "version": codec.VERSION, "created": self.created,
+                "modified": _now(), "software": software_versions(), "sources": sources,
+                "steps": [s.to_json() for s in self._steps]}
+
+    def save(self, path: str | os.PathLike, *, embed: bool = True) -> None:
+        """Write the session to ``path`` atomically (the previous file survives a failure).
+
+        With ``embed=True`` (default) the file holds the source data and is self-contained.
+        """
+        text = json.dumps(self.to_document(embed=embed), allow_nan=False, separators=(",", ":"))
+        codec.atomic_write_text(path, text)
+        self.path = str(path)
+
+    # ------------------------------------------------------------------ verification
+    def verify(self) -> VerifyReport:
+        """Replay every step from the source data and compare with the recorded results.
+
+        Integers, labels and booleans must match exactly; floats to 1e-9 relative unless
+        the step kind declares its own tolerance. A changed source hash is a mismatch too.
+        """
+        mismatches = list(self._source_problems)
+        for rec in self._sources:
+            sp = self._source_spectra[rec["id"]]
+            if sp.data_sha256() != rec["data_sha256"]:  # pragma: no cover - spectra are immutable
+                mismatches.append(f"source {rec['id']}: data changed in memory")
+        state = State()
+        checked = 0
+        for i, step in enumerate(self._steps):
+            kind = STEP_KINDS[step.kind]
+            where = f"step {i + 1} ({step.kind})"
+            try:
+                state, result, _ = kind.apply(state, dict(step.params), self._ctx)
+            except WidgetkitError as exc:
+                mismatches.append(f"{where}: replay failed: {exc}")
+                break
+            checked += 1
+            result = json.loads(json.dumps(result, allow_nan=False))
+            compare_results(step.result, result, rtol=kind.tolerance, where=f"{where} result",
+                            out=mismatches)
+        return VerifyReport(ok=not mismatches, mismatches=mismatches, steps_checked=checked)
+
+
+def _source_of(rec: dict) -> dict | None:
+    if not rec.get("path") and not rec.get("sha256"):
+        return None
+    return {k: rec.get(k) for k in ("path", "sha256", "format", "size")}
+
+
+# keep table_to_json importable from here for step kinds defined elsewhere
+__all__ += ["table_to_json"]

@@ -1,0 +1,88 @@
+"""Comparison of recorded and replayed results, and the :class:`VerifyReport`."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+__all__ = ["VerifyReport", "compare_results"]
+
+
+@dataclass(frozen=True)
+class VerifyReport:
+    """The outcome of :meth:`Session.verify`.
+
+    Attributes
+    ----------
+    ok : bool
+        True when every source hash and every recorded result was reproduced.
+    mismatches : list of str
+        One line per difference, naming the step (1-based number and kind) or source and the field.
+    steps_checked : int
+    """
+
+    ok: bool
+    mismatches: list[str] = field(default_factory=list)
+    steps_checked: int = 0
+
+    def __bool__(self) -> bool:
+        return self.ok
+
+    def __str__(self) -> str:
+        if self.ok:
+            return f"verified: {self.steps_checked} steps replayed to their recorded results"
+        lines = [f"NOT verified: {len(self.mismatches)} mismatch(es) in {self.steps_checked} steps"]
+        lines += [f"  - {m}" for m in self.mismatches]
+        return "\n".join(lines)
+
+
+def _close(a: float, b: float, rtol: float) -> bool:
+    if a == b:
+        return True
+    return abs(a - b) <= rtol * max(abs(a), abs(b)) or abs(a - b) <= 1e-300
+
+
+def compare_results(recorded, replayed, *, rtol: float, where: str, out: list[str],
+                    limit: int = 5) -> None:
+    """Append to ``out`` a line for every difference between two JSON values.
+
+    Integers, strings, booleans and None compare exactly; floats within ``rtol``
+    (relative). Lists compare element by element (at most ``limit`` lines per list).
+    """
+    if isinstance(recorded, bool) or isinstance(replayed, bool):
+        if recorded is not replayed:
+            out.append(f"{where}: recorded {recorded!r}, replayed {replayed!r}")
+        return
+    if isinstance(recorded, int) and isinstance(replayed, int):
+        if recorded != replayed:
+            out.append(f"{where}: recorded {recorded}, replayed {replayed}")
+        return
+    if isinstance(recorded, (int, float)) and isinstance(replayed, (int, float)):
+        a, b = float(recorded), float(replayed)
+        if not (math.isfinite(a) and math.isfinite(b)) or not _close(a, b, rtol):
+            if not (a != a and b != b):
+                out.append(f"{where}: recorded {recorded!r}, replayed {replayed!r} "
+                           f"(tolerance {rtol:g} relative)")
+        return
+    if isinstance(recorded, dict) and isinstance(replayed, dict):
+        for k in recorded.keys() | replayed.keys():
+            if k not in replayed:
+                out.append(f"{where}.{k}: recorded but not produced on replay")
+            elif k not in recorded:
+                out.append(f"{where}.{k}: produced on replay but not recorded")
+            else:
+                compare_results(recorded[k], replayed[k], rtol=rtol, where=f"{where}.{k}", out=out)
+        return
+    if isinstance(recorded, list) and isinstance(replayed, list):
+        if len(recorded) != len(replayed):
+            out.append(f"{where}: recorded {len(recorded)} values, replayed {len(replayed)}")
+            return
+        sub: list[str] = []
+        for i, (a, b) in enumerate(zip(recorded, replayed)):
+            compare_results(a, b, rtol=rtol, where=f"{where}[{i}]", out=sub)
+        out.extend(sub[:limit])
+        if len(sub) > limit:
+            out.append(f"{where}: … and {len(sub) - limit} more differences")
+        return
+    if recorded != replayed:
+        out.append(f"{where}: recorded {recorded!r}, replayed {replayed!r}")
