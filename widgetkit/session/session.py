@@ -240,6 +240,46 @@ class Session:
         """Remove the peak ``peak_id``."""
         self._run("remove_peak", {"peak_id": int(peak_id)})
 
+    def fit_lines(self, *, shape: str = "voigt", shared_width=False, baseline: str | None = "linear",
+                  region=None, **options) -> pd.DataFrame:
+        """Fit every peak (inside ``region``) with a line shape; see :func:`widgetkit.lines.fit`.
+
+        A fit that does not converge raises :class:`~widgetkit.errors.FitError` (its ``.fit``
+        holds the unconverged result) and leaves the previous lines in place.
+        Returns :attr:`lines`.
+        """
+        params = {"shape": shape, "shared_width": shared_width, "baseline": baseline,
+                  "region": None if region is None else [float(region[0]), float(region[1])],
+                  **options}
+        self._run("fit_lines", params)
+        return self.lines
+
+    def assign_band(self, molecule, *, kind: str = "rovibrational", temperature: float | None = None,
+                    **options) -> pd.DataFrame:
+        """Assign the fitted lines to transitions of ``molecule`` and fit its constants.
+
+        ``molecule`` is a :class:`widgetkit.Diatomic` or a formula (``"HCl"``); ``kind`` is
+        ``"rovibrational"`` (P/R branches, isotopologues) or ``"progression"`` (band centres).
+        Returns :attr:`assignments`; constants are in :attr:`constants`.
+        """
+        if hasattr(molecule, "to_dict"):
+            molecule = molecule.to_dict()
+        params = {"molecule": molecule, "kind": kind,
+                  "temperature": None if temperature is None else float(temperature), **options}
+        self._run("assign_band", params)
+        return self.assignments
+
+    def set_assignment(self, line_id: int, **labels) -> None:
+        """Lock the assignment of one line (``label="R(3)"``, ``isotopologue=``, ``v_upper=``, ...).
+
+        Locked assignments always win; the last ``assign_band`` is re-run with the locks.
+        """
+        self._run("set_assignment", {"line_id": int(line_id), "labels": labels})
+
+    def clear_assignment(self, line_id: int) -> None:
+        """Leave one line unassigned (locked so; e.g. a blend or an impurity line)."""
+        self._run("clear_assignment", {"line_id": int(line_id)})
+
     def note(self, text: str) -> None:
         """Add a note to the record."""
         self._run("note", {"text": str(text)})
@@ -254,6 +294,29 @@ class Session:
         self._states.pop()
         self._notify(SessionEvent("undo", step, len(self._steps) - 1))
         return step
+
+    def replay_with(self, index: int, **params) -> Session:
+        """A new session in which step ``index`` has its parameters updated by ``params``
+        and every later step is re-run with its own parameters (results recomputed).
+
+        The original session is not changed: use it to see how one choice (a different
+        baseline, say) moves the results.
+        """
+        n = len(self._steps)
+        i = index + n if index < 0 else index
+        if not 0 < i < n:
+            raise SessionStateError(f"replay_with: step index {index} must be in 1..{n - 1} "
+                                    "(the load step cannot be changed)")
+        new = Session.__new__(Session)
+        new._init_empty()
+        for rec in self._sources:
+            new._add_source(rec, self._source_spectra[rec["id"]])
+        new._steps = self._steps[:i]
+        new._states = self._states[:i]
+        for j, step in enumerate(self._steps[i:], start=i):
+            p = {**step.params, **params} if j == i else dict(step.params)
+            new._run(step.kind, p)
+        return new
 
     # ------------------------------------------------------------------ stepping through the record
     def view(self, index: int) -> None:
