@@ -151,9 +151,10 @@ def _empty_table() -> pd.DataFrame:
 def _check_noise(noise, y: np.ndarray) -> float:
     if noise is None:
         sigma = estimate_noise(y)
-        if sigma <= 0:
+        if sigma <= 1e-12 * float(np.max(np.abs(y))):
             raise ProcessingError(
-                "the noise estimated from the data is 0 (noise-free or linear data), so a "
+                f"the noise estimated from the data is {sigma:.3g}, at the level of rounding "
+                "(noise-free or linear data), so a "
                 "signal-to-noise threshold means nothing; pass noise= explicitly (in y units)"
             )
         return sigma
