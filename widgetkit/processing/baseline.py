@@ -164,7 +164,9 @@ def baseline_als(y, *, lam: float = 1e5, p: float = 0.01, max_iter: int = 10) ->
     which for fixed weights is the linear system (W + λ D′D) z = W y with
     W = diag(w) and D the second-difference matrix. Starting from w = 1, each
     iteration solves it and sets wᵢ = p where yᵢ > zᵢ (points above the
-    baseline: peaks) and wᵢ = 1 − p elsewhere; iterations stop after
+    baseline: peaks) and wᵢ = 1 − p elsewhere (the published code gives an
+    exact tie yᵢ = zᵢ weight 0; here it gets 1 − p, which keeps the system
+    positive definite); iterations stop after
     ``max_iter`` or as soon as the weights repeat (a further step would give
     the same z). W + λ D′D is symmetric positive definite and pentadiagonal, so
     each step is a banded Cholesky solve (:func:`scipy.linalg.solveh_banded`),
@@ -182,7 +184,9 @@ def baseline_als(y, *, lam: float = 1e5, p: float = 0.01, max_iter: int = 10) ->
         Smoothness λ > 0.
     p : float, default 0.01
         Asymmetry, 0 < p < 1 (small: the baseline stays under the peaks;
-        p = 0.5 gives the symmetric Whittaker smoother).
+        p = 0.5 gives the symmetric Whittaker smoother: with every weight ½ the
+        converged z solves (I + 2λ D′D) z = y, and ``max_iter=1`` (w = 1)
+        solves (I + λ D′D) z = y).
     max_iter : int, default 10
         Most reweighting iterations (the published procedure uses 10).
 

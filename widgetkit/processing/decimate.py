@@ -24,7 +24,7 @@ def decimate_minmax(
 
     The window [lo, hi] (default the whole x range; the order of the two does
     not matter) is cut into ``n_bins`` bins of equal width. Bin b holds the
-    samples with lo + b·w ≤ x < lo + (b+1)·w, w = (hi − lo)/n_bins (the last
+    samples with e_b ≤ x < e_(b+1), e_b = lo + (hi − lo)·b/n_bins (the last
     bin also holds x = hi). From each non-empty bin the samples with the lowest
     and the highest y are kept (the first of equal ones), in x order, once if
     they are the same sample. The nearest sample outside each end of the

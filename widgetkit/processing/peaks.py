@@ -178,6 +178,10 @@ def find_peaks(
     min_snr : float, default 5.0
         Minimum prominence in units of the noise σ: passed to
         :func:`scipy.signal.find_peaks` as ``prominence=min_snr * noise``.
+        Prominence is measured from the lowest point on either side, so on a
+        long stretch of pure noise the highest wiggle can reach a prominence
+        of 5-7 σ (the range of thousands of Gaussian samples); use 8 or more
+        to keep noise out of long noisy spectra.
     min_separation : float, optional
         Minimum distance between peaks in cm⁻¹, converted to samples with the
         median spacing: ``distance = max(1, ceil(min_separation / median(diff(x))))``.
