@@ -70,24 +70,19 @@ class SubtractBaseline(StepKind):
                 f"subtracted a {method} baseline (mean {b.mean():.4g})")
 
 
-def _noise(sp) -> float:
-    return float(processing.estimate_noise(sp.y))
-
-
 @register_step
 class FindPeaks(StepKind):
     kind = "find_peaks"
 
     def apply(self, state, params, ctx):
         sp = state.require_spectrum()
-        noise = _noise(sp)
+        noise = state.noise()
         peaks = processing.find_peaks(sp.x, sp.y, min_snr=params.get("min_snr", 5.0),
                                       min_separation=params.get("min_separation"), noise=noise)
         peaks = peaks.assign(origin="found")
-        cols = [c for c in ("peak_id", "position", "height", "snr", "prominence", "origin")
-                if c in peaks.columns]
-        peaks = peaks[cols].reset_index(drop=True)
-        result = {"noise": noise, "peaks": table_to_json(peaks[[c for c in cols if c != "origin"]])}
+        peaks = peaks.drop(columns=["index"], errors="ignore").reset_index(drop=True)
+        cols = [c for c in peaks.columns if c != "origin"]
+        result = {"noise": noise, "peaks": table_to_json(peaks[cols])}
         return (state.evolve(peaks=peaks), result,
                 f"found {len(peaks)} peaks above SNR {params.get('min_snr', 5.0):g} (noise {noise:.3g})")
 
@@ -103,16 +98,14 @@ class AddPeak(StepKind):
             raise SessionStateError(
                 f"add_peak: position {pos:g} cm-1 is outside the spectrum "
                 f"({sp.x[0]:.6g}–{sp.x[-1]:.6g} cm-1)")
+        noise = state.noise()
         if params.get("snap", True):
-            pos = float(processing.nearest_maximum(sp.x, sp.y, pos))
-        height = float(np.interp(pos, sp.x, sp.y))
-        noise = _noise(sp)
+            pos = float(processing.nearest_maximum(sp.x, sp.y, pos, noise=noise))
         peaks = state.peaks
         pid = int(peaks["peak_id"].max()) + 1 if len(peaks) else 1
-        row = {"peak_id": pid, "position": pos, "height": height,
-               "snr": height / noise if noise > 0 else float("inf"), "origin": "manual"}
-        if "prominence" in peaks.columns:
-            row["prominence"] = float("nan")
+        row = {"peak_id": pid, **processing.peak_row(sp.x, sp.y, pos, noise), "origin": "manual"}
+        row.pop("index", None)
+        height = row["height"]
         new = pd.concat([peaks, pd.DataFrame([row])], ignore_index=True) if len(peaks) else \
             pd.DataFrame([row])
         new = new.sort_values("position", kind="stable").reset_index(drop=True)

@@ -120,10 +120,22 @@ class State:
     assignment: Any = None
     assign_spec: dict | None = None
     locks: Mapping[int, dict] = field(default_factory=dict)
+    _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     def evolve(self, **changes) -> State:
-        """A copy with some fields changed."""
-        return dataclasses.replace(self, **changes)
+        """A copy with some fields changed (values derived from the spectrum are kept
+        while the spectrum stays the same)."""
+        cache = self._cache if "spectrum" not in changes else {}
+        return dataclasses.replace(self, **changes, _cache=cache)
+
+    def noise(self) -> float:
+        """Robust noise σ of the current spectrum (:func:`widgetkit.processing.estimate_noise`),
+        computed once per state."""
+        if "noise" not in self._cache:
+            from ..processing import estimate_noise
+
+            self._cache["noise"] = float(estimate_noise(self.require_spectrum().y))
+        return self._cache["noise"]
 
     def require_spectrum(self) -> Spectrum:
         if self.spectrum is None:
