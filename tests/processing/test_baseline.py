@@ -212,3 +212,9 @@ def test_subtract_baseline_refuses_transmittance_and_says_to_convert():
     s = Spectrum([1.0, 2.0, 3.0, 4.0], [0.9, 0.5, 0.9, 0.9], y_kind="transmittance")
     with pytest.raises(ProcessingError, match="to_absorbance"):
         subtract_baseline(s)
+
+
+def test_poly_baseline_raises_fit_error_when_the_mask_has_not_settled_in_max_iter():
+    x, _, _, _, y = _demo_band()
+    with pytest.raises(FitError, match="raise max_iter"):
+        baseline_poly(x, y, degree=3, max_iter=1)
