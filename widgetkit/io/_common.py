@@ -1,0 +1,246 @@
+"""Shared pieces of the readers: file access with hashing, label parsing, and the final
+validation that turns raw columns into a :class:`~widgetkit.spectrum.Spectrum`."""
+
+from __future__ import annotations
+
+import hashlib
+import io
+import os
+import re
+from typing import Any
+
+import numpy as np
+
+from ..errors import SpectrumFormatError
+from ..spectrum import Y_KINDS, Spectrum
+from ..units import normalise_x_unit, to_wavenumber
+
+#: fraction transmittance above this maximum is taken as percent (common practice: a
+#: measured fraction hardly exceeds 1 by more than noise, percent values run to 100)
+PERCENT_THRESHOLD = 1.5
+#: above this maximum, "transmittance" is neither a fraction nor percent
+PERCENT_LIMIT = 150.0
+
+
+def absolute_path(path) -> str:
+    """The absolute path of ``path`` as a string (``~`` expanded)."""
+    return os.path.abspath(os.path.expanduser(os.fspath(path)))
+
+
+def read_bytes(path: str) -> bytes:
+    """All bytes of a file. A missing file raises :class:`FileNotFoundError`; a directory
+    or unreadable file raises :class:`SpectrumFormatError`."""
+    try:
+        with open(path, "rb") as f:
+            return f.read()
+    except FileNotFoundError:
+        raise
+    except (IsADirectoryError, PermissionError, OSError) as exc:
+        raise SpectrumFormatError(f"cannot read the file ({exc.strerror or exc}); "
+                                  "give the path of a readable spectrum file", path=path) from exc
+
+
+def source_of(path: str, data: bytes, fmt: str) -> dict[str, Any]:
+    """The ``Spectrum.source`` record of a file read as ``fmt``."""
+    return {"path": path, "sha256": hashlib.sha256(data).hexdigest(), "format": fmt,
+            "size": len(data)}
+
+
+class HashingReader(io.RawIOBase):
+    """A read-only binary stream that hashes (sha256) and counts the bytes passing through."""
+
+    def __init__(self, raw):
+        super().__init__()
+        self._raw = raw
+        self.sha = hashlib.sha256()
+        self.size = 0
+
+    def readable(self) -> bool:
+        return True
+
+    def readinto(self, buf) -> int:
+        n = self._raw.readinto(buf)
+        if n:
+            self.sha.update(memoryview(buf)[:n])
+            self.size += n
+        return n or 0
+
+    def drain(self) -> None:
+        """Read (and hash) whatever is left of the stream."""
+        while True:
+            chunk = self._raw.read(1 << 20)
+            if not chunk:
+                return
+            self.sha.update(chunk)
+            self.size += len(chunk)
+
+
+def decode_text(data: bytes) -> str:
+    """Text of a file: UTF-8 (optional BOM), else Latin-1 (which never fails)."""
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        return data.decode("latin-1")
+
+
+def check_not_binary(data: bytes, path: str) -> None:
+    """Raise when ``data`` holds NUL bytes (binary files, not text)."""
+    i = data.find(b"\x00")
+    if i >= 0:
+        line = data.count(b"\n", 0, i) + 1
+        raise SpectrumFormatError("the file holds binary data (a NUL byte); widgetkit reads "
+                                  "delimited text and JCAMP-DX; export the spectrum as one of "
+                                  "these", path=path, line=line)
+
+
+_PAREN = re.compile(r"[\(\[\{]\s*([^\)\]\}]*?)\s*[\)\]\}]")
+_SLASH = re.compile(r"^([^\W\d][\w .'-]*?)\s*/\s*(\S.*)$")
+_X_WORDS = (("raman shift", "cm-1"), ("wavenumber", "cm-1"), ("wave number", "cm-1"),
+            ("shift", "cm-1"), ("wavelength", None), ("frequency", None), ("lambda", None))
+
+
+def parse_x_label(label: str | None) -> tuple[str | None, str | None]:
+    """Unit and quantity named by an x column label.
+
+    ``"Wavenumber (cm-1)" -> ("cm-1", "wavenumber")``, ``"wavelength / nm" -> ("nm",
+    "wavelength")``, ``"Raman shift (cm-1)" -> ("cm-1", "raman shift")``,
+    ``"wavelength" -> (None, "wavelength")`` (a quantity without unit), ``"x" -> (None, None)``.
+    """
+    if not label:
+        return None, None
+    low = label.strip().lower()
+    quantity = next((w for w, _ in _X_WORDS if w in low), None)
+    candidates = [m.group(1) for m in _PAREN.finditer(low)]
+    m = _SLASH.match(low)
+    if m:
+        candidates.append(m.group(2))
+    candidates += [low, low.split()[-1] if low.split() else low]
+    for c in candidates:
+        c = c.replace("rel.", "").replace("relative", "").strip()
+        try:
+            return normalise_x_unit(c), quantity
+        except ValueError:
+            continue
+    default = next((u for w, u in _X_WORDS if w == quantity), None)
+    return default, quantity
+
+
+def parse_y_label(label: str | None) -> tuple[str | None, bool | None, str | None]:
+    """What a y column label says: ``(y_kind, percent, quantity)``.
+
+    ``percent`` is True for "%" or "percent", False for "(fraction)", else None.
+    ``"Transmittance (%)" -> ("transmittance", True, "transmittance")``,
+    ``"Absorbance" -> ("absorbance", None, "absorbance")``, ``"Intensity (counts)" ->
+    ("intensity", None, "intensity")``, ``"Reflectance" -> ("intensity", None, "reflectance")``.
+    """
+    if not label:
+        return None, None, None
+    low = label.strip().lower()
+    percent = True if ("%" in low or "percent" in low) else (
+        False if "fraction" in low else None)
+    if "absorb" in low:
+        return "absorbance", percent, "absorbance"
+    if "transmi" in low or re.fullmatch(r"%\s*t|t\s*\(?%\)?", low):
+        return "transmittance", percent, "transmittance"
+    if "reflect" in low:
+        return "intensity", percent, "reflectance"
+    for word in ("intens", "count", "raman", "emission", "signal", "a.u", "arb", "cps"):
+        if word in low:
+            return "intensity", percent, "intensity"
+    return None, percent, None
+
+
+def resolve_x_unit(x_unit: str | None, from_file: str | None, quantity: str | None,
+                   *, path: str, where: str) -> tuple[str, str]:
+    """The x unit to use and where it came from (``"argument"``, ``"file"``, ``"default"``)."""
+    if x_unit is not None:
+        try:
+            return normalise_x_unit(x_unit), "argument"
+        except ValueError as exc:
+            raise SpectrumFormatError(f"x_unit={x_unit!r}: {exc}", path=path) from None
+    if from_file is not None:
+        return from_file, "file"
+    if quantity in ("wavelength", "frequency", "lambda"):
+        raise SpectrumFormatError(
+            f"the {where} names a {quantity} but no unit; pass x_unit= "
+            "('nm' or 'um' for wavelength, 'THz' for frequency)", path=path)
+    return "cm-1", "default"
+
+
+def resolve_y_kind(y_kind: str | None, from_file: str | None, *, path: str,
+                   where: str) -> tuple[str, str]:
+    """The y kind to use and where it came from (``"argument"`` or ``"file"``)."""
+    if y_kind is not None:
+        if y_kind not in Y_KINDS:
+            raise SpectrumFormatError(f"y_kind must be one of {', '.join(Y_KINDS)}, "
+                                      f"got {y_kind!r}", path=path)
+        return y_kind, "argument"
+    if from_file is not None:
+        return from_file, "file"
+    raise SpectrumFormatError(
+        f"the {where} does not say what the y values are; pass "
+        "y_kind='absorbance', 'transmittance' or 'intensity'", path=path)
+
+
+def finish(x: np.ndarray, y: np.ndarray, *, x_unit: str, y_kind: str, percent: bool | None,
+           meta: dict[str, Any], source: dict[str, Any], path: str,
+           row_lines: np.ndarray | None = None) -> Spectrum:
+    """Validate raw columns in file order and build the spectrum.
+
+    Converts x to cm⁻¹ (vacuum, :func:`widgetkit.units.to_wavenumber`), turns percent
+    transmittance into a fraction (``percent`` True, or None and max(y) > 1.5), sorts by x
+    and refuses non-finite values, fewer than 3 points and duplicate x. ``row_lines`` gives
+    the 1-based file line of each row for the messages.
+    """
+
+    def line_of(i) -> int | None:
+        return None if row_lines is None else int(row_lines[int(i)])
+
+    x = np.asarray(x, np.float64)
+    y = np.asarray(y, np.float64)
+    if x.size < 3:
+        raise SpectrumFormatError(f"the file holds {x.size} data point(s); a spectrum needs "
+                                  "at least 3", path=path)
+    for name, arr in (("x", x), ("y", y)):
+        bad = ~np.isfinite(arr)
+        if bad.any():
+            i = int(np.argmax(bad))
+            raise SpectrumFormatError(
+                f"{name} value {arr[i]!r} is not finite ({int(bad.sum())} such value(s)); "
+                "remove or replace NaN and inf", path=path, line=line_of(i))
+    if x_unit != "cm-1":
+        bad = x <= 0
+        if bad.any():
+            i = int(np.argmax(bad))
+            raise SpectrumFormatError(f"x value {x[i]!r} in {x_unit} is not positive and has "
+                                      "no wavenumber; check the x column or x_unit",
+                                      path=path, line=line_of(i))
+        x = to_wavenumber(x, x_unit)
+        meta["x_converted"] = f"{x_unit} -> cm-1 (vacuum)"
+    if y_kind == "transmittance":
+        ymax = float(np.max(y))
+        if percent is None:
+            percent = ymax > PERCENT_THRESHOLD
+            if percent:
+                meta["percent_detected_from"] = f"values (max {ymax!r} > {PERCENT_THRESHOLD})"
+        if percent and ymax > PERCENT_LIMIT:
+            raise SpectrumFormatError(
+                f"transmittance values reach {ymax!r}, beyond percent (<= {PERCENT_LIMIT}); "
+                "pass y_kind='intensity' if these are not transmittance", path=path)
+        if percent:
+            y = y / 100.0
+        meta["transmittance_percent"] = bool(percent)
+    dx = np.diff(x)
+    if np.any(dx <= 0):
+        order = np.argsort(x, kind="stable")
+        xs = x[order]
+        same = np.flatnonzero(xs[1:] == xs[:-1])
+        if same.size:
+            i, j = sorted((int(order[same[0]]), int(order[same[0] + 1])))
+            where = "" if row_lines is None else f" (lines {line_of(i)} and {line_of(j)})"
+            raise SpectrumFormatError(
+                f"duplicate x value {xs[same[0]]!r}{where}; each x may appear once: "
+                "remove or average the repeated rows", path=path, line=line_of(j))
+        x, y = xs, y[order]
+        meta["sorted"] = "ascending wavenumber (file order differed)"
+    return Spectrum(x, y, y_kind=y_kind, meta=meta, source=source)
