@@ -1,0 +1,274 @@
+"""Rovibrational line lists of a diatomic from molecular constants.
+
+Term values (Herzberg, *Spectra of Diatomic Molecules*), for each
+isotopologue with its constants scaled from the main one by
+:func:`widgetkit.levels.scale_constants` (ρ = sqrt(μ_main/μ_iso)):
+
+    G(v)   = ω_e(v+½) − ω_e x_e(v+½)² + ω_e y_e(v+½)³
+    B_v    = B_e − α_e(v+½) + γ_e(v+½)²,   D_v = D_e + β_e(v+½)
+    F_v(J) = B_v J(J+1) − D_v J²(J+1)²
+    ν      = G(v′) − G(v″) + F_v′(J′) − F_v″(J″)
+
+Integrated line intensity (absorption, relative), per line:
+
+    I ∝ a_iso · ν · L(J″) · (1 + C m)² · |M_v′v″|²/|M_10|² · exp(−c₂ E″/T) · (1 − exp(−c₂ ν/T)) / Q(T)
+
+with a_iso the isotopologue's abundance, E″ = G(v″) − G(0) + F_v″(J″) (each
+isotopologue from its own lowest level), Q(T) = Σ_v Σ_J (2J+1) exp(−c₂ E/T)
+summed directly, c₂ = hc/k, the Hönl–London factors of a ¹Σ–¹Σ band
+L = J″+1 for R(J″) and J″ for P(J″) (the 2J″+1 cancels against the
+degeneracy), m = J″+1 for R and −J″ for P, C the Herman–Wallis coefficient,
+and the band factor from the numerical oscillator (see :func:`line_list`).
+Intensities are then divided by the strongest line's, so the strongest is 1.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+
+import numpy as np
+import pandas as pd
+
+from ..errors import WidgetkitError
+from ..levels.molecule import Diatomic, scale_constants
+from ..levels.terms import rot_constant, rot_term, vib_term
+from ..oscillator import (
+    C2,
+    OscillatorError,
+    harmonic,
+    morse,
+    solve,
+    transition_moments,
+)
+
+__all__ = ["SimulationError", "CONSTANT_NAMES", "line_list", "check_constants", "partition_sum"]
+
+#: names understood in a constants mapping (cm⁻¹; r_e in Å)
+CONSTANT_NAMES = ("omega_e", "omega_e_x_e", "omega_e_y_e", "B_e", "alpha_e", "gamma_e",
+                  "D_e", "beta_e", "r_e")
+_J_CAP = 400
+
+
+class SimulationError(WidgetkitError, ValueError):
+    """Bad input to the spectrum simulator (the message names the parameter)."""
+
+
+def check_constants(constants: Mapping[str, float]) -> dict[str, float]:
+    """Validate names and values; return a full dict with absent names as 0."""
+    if not isinstance(constants, Mapping):
+        raise SimulationError(
+            f"constants must be a mapping of names to cm-1 values, got {type(constants).__name__}"
+        )
+    unknown = [k for k in constants if k not in CONSTANT_NAMES]
+    if unknown:
+        raise SimulationError(
+            f"unknown constant name(s) {', '.join(map(repr, unknown))}; the simulator knows "
+            f"{', '.join(CONSTANT_NAMES)} (D_e is the centrifugal constant)"
+        )
+    out = dict.fromkeys(CONSTANT_NAMES, 0.0)
+    for k, v in constants.items():
+        try:
+            out[k] = float(v)
+        except (TypeError, ValueError):
+            raise SimulationError(f"constant {k!r} must be a number, got {v!r}") from None
+        if not math.isfinite(out[k]):
+            raise SimulationError(f"constant {k!r} must be finite, got {v!r}")
+    for k in ("omega_e", "B_e"):
+        if not out[k] > 0:
+            raise SimulationError(f"constant {k!r} is required and must be > 0, got {constants.get(k)!r}")
+    if out["omega_e_x_e"] < 0 or out["D_e"] < 0:
+        raise SimulationError("omega_e_x_e and D_e must not be negative")
+    return out
+
+
+def check_temperature(temperature) -> float:
+    try:
+        t = float(temperature)
+    except (TypeError, ValueError):
+        raise SimulationError(f"temperature must be a number of kelvin, got {temperature!r}") from None
+    if not (math.isfinite(t) and t > 0):
+        raise SimulationError(
+            f"temperature must be a positive number of kelvin, got {temperature!r}"
+        )
+    return t
+
+
+def check_bands(bands) -> tuple[tuple[int, int], ...]:
+    try:
+        out = tuple((int(a), int(b)) for a, b in bands)
+    except (TypeError, ValueError):
+        raise SimulationError(
+            f"bands must be pairs (v_upper, v_lower) such as ((1, 0), (2, 0)), got {bands!r}"
+        ) from None
+    for a, b in out:
+        if b < 0 or a <= b:
+            raise SimulationError(
+                f"band ({a}, {b}) is not an absorption band: need v_upper > v_lower >= 0"
+            )
+    if not out:
+        raise SimulationError("bands is empty; give at least one (v_upper, v_lower)")
+    return out
+
+
+def _terms(c: Mapping[str, float]):
+    def g(v):
+        return vib_term(v, c["omega_e"], c["omega_e_x_e"], c["omega_e_y_e"])
+
+    def f(v, J):
+        d = c["D_e"] + c["beta_e"] * (np.asarray(v, dtype=float) + 0.5)
+        return rot_term(J, rot_constant(v, c["B_e"], c["alpha_e"], c["gamma_e"]), d)
+
+    return g, f
+
+
+def _j_limit(c: Mapping[str, float], v: int, temperature: float, rel: float) -> int:
+    """Highest J worth keeping in v: population below rel × its maximum, or where F stops rising."""
+    _, f = _terms(c)
+    J = np.arange(_J_CAP + 1)
+    F = f(v, J)
+    rising = np.flatnonzero(np.diff(F) <= 0)
+    top = int(rising[0]) if rising.size else _J_CAP
+    w = (2 * J[: top + 1] + 1) * np.exp(-C2 * (F[: top + 1] - F[0]) / temperature)
+    big = np.flatnonzero(w >= rel * w.max())
+    return int(big[-1]) + 1 if big.size and big[-1] < top else top
+
+
+def partition_sum(c: Mapping[str, float], temperature: float) -> float:
+    """Q(T) = Σ_v Σ_J (2J+1) exp(−c₂ (G(v) − G(0) + F_v(J)) / T), summed to 1e-16."""
+    g, f = _terms(c)
+    q = 0.0
+    v = 0
+    vmax = (c["omega_e"] / (2 * c["omega_e_x_e"]) - 0.5) if c["omega_e_x_e"] > 0 else 1e9
+    while v < vmax:
+        ev = g(v) - g(0)
+        if v > 0 and math.exp(-C2 * ev / temperature) < 1e-16:
+            break
+        jm = _j_limit(c, v, temperature, 1e-16)
+        J = np.arange(jm + 1)
+        q += float(np.sum((2 * J + 1) * np.exp(-C2 * (ev + f(v, J)) / temperature)))
+        v += 1
+    return q
+
+
+def _band_factors(c: Mapping[str, float], reduced_mass: float, bands, dipole) -> dict:
+    """|M_v'v''|² (D²) from the oscillator for the potential implied by ω_e (and ω_e x_e)."""
+    n = max(a for a, _ in bands) + 1
+    re = c["r_e"] if c["r_e"] > 0 else 1.0
+    pot = (morse(c["omega_e"], c["omega_e_x_e"], r_e=re) if c["omega_e_x_e"] > 0
+           else harmonic(c["omega_e"], r_e=re))
+    try:
+        lv = solve(pot, reduced_mass, n_levels=n)
+    except OscillatorError as exc:
+        raise SimulationError(f"cannot compute band strengths: {exc}") from exc
+    if lv.n_levels < n:
+        raise SimulationError(
+            f"the Morse potential of these constants has only {lv.n_levels} bound levels; "
+            f"a band up to v={n - 1} cannot be simulated"
+        )
+    m = transition_moments(lv, dipole)
+    return {(a, b): float(m[a, b]) ** 2 for a, b in bands} | {(1, 0): float(m[1, 0]) ** 2}
+
+
+def line_list(molecule: Diatomic, constants: Mapping[str, float], *,
+              bands: Sequence[tuple[int, int]] = ((1, 0),), temperature: float = 296.0,
+              J_max: int | None = None, min_relative: float = 1e-4, herman_wallis: float = 0.0,
+              q_branch: bool = False, dipole: Sequence[float] | None = None) -> pd.DataFrame:
+    """Lines of the given bands for every isotopologue of ``molecule``.
+
+    Parameters
+    ----------
+    molecule : Diatomic
+        Its isotopologues and natural abundances are used.
+    constants : mapping
+        Constants (cm⁻¹, r_e Å) of the MOST ABUNDANT isotopologue
+        (``molecule.isotopologues[0]``), names from :data:`CONSTANT_NAMES`;
+        ``omega_e`` and ``B_e`` are required.
+    bands : sequence of (v_upper, v_lower)
+        Default the fundamental ((1, 0),).
+    temperature : float
+        K (default 296).
+    J_max : int, optional
+        Highest lower-level J; default where the rotational population falls
+        below 1e-3 × ``min_relative`` of its maximum.
+    min_relative : float
+        Lines weaker than this fraction of the strongest are left out.
+    herman_wallis : float
+        C in the factor (1 + C m)².
+    q_branch : bool
+        Add a Q branch (ΔJ = 0). All branches then take the Hönl–London
+        factors of a ΔΛ = +1 (¹Π←¹Σ-like) band: R (J″+2)/2, Q (2J″+1)/2,
+        P (J″−1)/2; by default there is no Q branch (¹Σ–¹Σ).
+    dipole : sequence of float, optional
+        (c_0, c_1, ...) of μ(r) in D/Å^k for the band factor
+        |M_v′v″|²/|M_10|², computed per isotopologue by :func:`widgetkit.oscillator.solve`
+        on the Morse potential of its ω_e and ω_e x_e (harmonic if ω_e x_e = 0)
+        and normalised by the main isotopologue's |M_10|². Default: a linear
+        dipole when ``bands`` holds more than the fundamental; with only (1, 0)
+        and no dipole the band factor is 1 for every isotopologue.
+
+    Returns
+    -------
+    DataFrame sorted by position with columns ``isotopologue, v_upper,
+    v_lower, J_upper, J_lower, branch, label, band, position`` (cm⁻¹),
+    ``intensity`` (relative integrated, strongest = 1; formula in the module
+    docstring), ``E_lower`` (cm⁻¹ above the isotopologue's lowest level),
+    ``mass`` (u, of the isotopologue).
+    """
+    if not isinstance(molecule, Diatomic):
+        raise SimulationError(f"molecule must be a widgetkit Diatomic, got {type(molecule).__name__}")
+    c0 = check_constants(constants)
+    t = check_temperature(temperature)
+    bands = check_bands(bands)
+    if J_max is not None and (isinstance(J_max, bool) or int(J_max) != J_max or J_max < 1):
+        raise SimulationError(f"J_max must be a positive integer, got {J_max!r}")
+    if not (0 <= float(min_relative) < 1):
+        raise SimulationError(f"min_relative must be in [0, 1), got {min_relative!r}")
+    use_osc = dipole is not None or any(b != (1, 0) for b in bands)
+    dip = (0.0, 1.0) if dipole is None else dipole
+    main = molecule.isotopologues[0]
+    ref_m10 = None
+    frames = []
+    for iso in molecule.isotopologues:
+        rho = math.sqrt(main.reduced_mass / iso.reduced_mass)
+        c = check_constants(scale_constants({k: v for k, v in c0.items() if k != "r_e"}, rho))
+        c["r_e"] = c0["r_e"]
+        g, f = _terms(c)
+        if use_osc:
+            bf = _band_factors(c, iso.reduced_mass, bands, dip)
+            if ref_m10 is None:
+                ref_m10 = bf[(1, 0)]
+            bf = {k: v / ref_m10 for k, v in bf.items()}
+        q = partition_sum(c, t)
+        for vu, vl in bands:
+            jm = int(J_max) if J_max is not None else _j_limit(c, vl, t, 1e-3 * max(min_relative, 1e-12))
+            Jl = np.arange(0, jm + 1)
+            parts = [("R", Jl, Jl + 1)]
+            parts.append(("P", Jl[Jl >= 1], Jl[Jl >= 1] - 1))
+            if q_branch:
+                parts.append(("Q", Jl[Jl >= 1], Jl[Jl >= 1]))
+            for branch, jl, ju in parts:
+                if q_branch:
+                    hl = {"R": (jl + 2) / 2, "Q": (2 * jl + 1) / 2, "P": (jl - 1) / 2}[branch]
+                else:
+                    hl = {"R": jl + 1.0, "P": jl * 1.0}[branch]
+                m = {"R": jl + 1.0, "P": -jl * 1.0, "Q": 0.0 * jl}[branch]
+                pos = g(vu) - g(vl) + f(vu, ju) - f(vl, jl)
+                e_low = g(vl) - g(0) + f(vl, jl)
+                inten = (iso.abundance * pos * hl * (1 + herman_wallis * m) ** 2
+                         * (bf[(vu, vl)] if use_osc else 1.0)
+                         * np.exp(-C2 * e_low / t) * -np.expm1(-C2 * pos / t) / q)
+                frames.append(pd.DataFrame({
+                    "isotopologue": iso.name, "v_upper": vu, "v_lower": vl,
+                    "J_upper": ju.astype(int), "J_lower": jl.astype(int), "branch": branch,
+                    "label": [f"{branch}({j})" for j in jl], "band": f"{vu}-{vl}",
+                    "position": pos, "intensity": inten, "E_lower": e_low, "mass": iso.mass,
+                }))
+    table = pd.concat(frames, ignore_index=True)
+    table = table[(table["intensity"] > 0) & (table["position"] > 0)]
+    top = float(table["intensity"].max()) if len(table) else 0.0
+    if not top > 0:
+        raise SimulationError("no line has a positive intensity; check bands, dipole and temperature")
+    table = table.assign(intensity=table["intensity"] / top)
+    table = table[table["intensity"] >= min_relative]
+    return table.sort_values("position", kind="stable").reset_index(drop=True)
