@@ -23,6 +23,7 @@ from typing import Any
 from .errors import (
     AssignmentError,
     FitError,
+    ProcessingError,
     SessionFormatError,
     SessionStateError,
     SpectrumFormatError,
@@ -44,6 +45,7 @@ __all__ = [
     "SpectrumFormatError",
     "SessionFormatError",
     "SessionStateError",
+    "ProcessingError",
     "FitError",
     "AssignmentError",
     "io",

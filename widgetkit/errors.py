@@ -16,6 +16,7 @@ __all__ = [
     "SpectrumFormatError",
     "SessionFormatError",
     "SessionStateError",
+    "ProcessingError",
     "FitError",
     "AssignmentError",
 ]
@@ -64,6 +65,10 @@ class SessionFormatError(WidgetkitError, ValueError):
 class SessionStateError(WidgetkitError, ValueError):
     """A session method was called when the session cannot do it (for example
     fitting lines before any peak exists)."""
+
+
+class ProcessingError(WidgetkitError, ValueError):
+    """A processing function was given an option, method or value it cannot use."""
 
 
 class FitError(WidgetkitError, RuntimeError):

@@ -1,4 +1,4 @@
-"""Shared checks and the processing error type (private).
+"""Shared checks (private); :class:`ProcessingError` lives in :mod:`widgetkit.errors`.
 
 :class:`ProcessingError` is the ``ValueError``-type widgetkit error for a
 processing call given an option, method or value it cannot use. It derives from
@@ -10,13 +10,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..errors import WidgetkitError
+from ..errors import ProcessingError
 
 __all__ = ["ProcessingError", "as_xy", "as_y", "describe_runs"]
-
-
-class ProcessingError(WidgetkitError, ValueError):
-    """A processing function was given an option, method or value it cannot use."""
 
 
 def as_y(y, *, name: str = "y", min_points: int = 3) -> np.ndarray:
