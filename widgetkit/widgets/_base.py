@@ -1,0 +1,142 @@
+"""The base of every panel: one session, one subscription, one status line.
+
+A panel holds view state only (zoom, selection, control values not yet
+applied). Every analysis action calls a session method through
+:meth:`Panel._call`, which shows a :class:`~widgetkit.errors.WidgetkitError`
+in the status line instead of raising it. The session then notifies every
+subscribed panel (``Session.subscribe``, the one notification path, whose
+re-entrancy guard lives in the session) and each panel re-renders from the
+session in :meth:`Panel.render`.
+"""
+
+from __future__ import annotations
+
+import html
+from collections.abc import Callable
+from typing import Any
+
+import ipywidgets as ipw
+
+from ..errors import SessionStateError, WidgetkitError
+
+__all__ = ["Panel", "status_html"]
+
+_STATUS_STYLE = {
+    "ok": "color:#1e6b30",
+    "error": "color:#b03a2e;font-weight:bold",
+    "info": "color:#555",
+    "busy": "color:#1f4e79;font-style:italic",
+}
+
+
+def status_html(kind: str, text: str) -> str:
+    """The status line's HTML: ``kind`` in ok, error, info, busy."""
+    return (f'<div class="wk-status wk-status-{kind}" style="{_STATUS_STYLE[kind]}">'
+            f"{html.escape(text)}</div>")
+
+
+class Panel(ipw.VBox):
+    """Base class of the panels; subclasses implement ``_build`` and ``render``.
+
+    Parameters
+    ----------
+    session : widgetkit.Session or None
+        The session to show. ``None`` shows an empty panel (load data from the
+        Spectrum panel or assign ``panel.session`` later).
+    owner : object, optional
+        The app holding this panel; a panel that opens a new session (load,
+        reopen) hands it to ``owner.use_session`` so every panel switches.
+    """
+
+    title = "Panel"
+
+    def __init__(self, session=None, *, owner=None, **kwargs):
+        super().__init__(**kwargs)
+        self.add_class("wk-panel")
+        self._session = None
+        self._owner = owner
+        self._action_widgets: list[ipw.Widget] = []
+        #: the error of the last action (None when it succeeded)
+        self.last_error: Exception | None = None
+        self.status = ipw.HTML(status_html("info", ""), layout=ipw.Layout(min_height="1.6em"))
+        self.status.add_class("wk-status-line")
+        self._build()
+        self.session = session
+
+    # ------------------------------------------------------------------ session binding
+    @property
+    def session(self):
+        """The session shown (assigning another one re-subscribes and re-renders)."""
+        return self._session
+
+    @session.setter
+    def session(self, new) -> None:
+        if self._session is not None:
+            self._session.unsubscribe(self._on_session_change)
+        self._session = new
+        if new is not None:
+            new.subscribe(self._on_session_change)
+        self._render_all()
+
+    def _on_session_change(self, session, event) -> None:
+        # the one path by which a panel learns of a change
+        self._render_all()
+
+    def _render_all(self) -> None:
+        read_only = self._session is not None and self._session.viewing != len(
+            self._session.history) - 1
+        for w in self._action_widgets:
+            w.disabled = self._session is None or read_only
+        self.render()
+
+    def _use_session(self, new) -> None:
+        if self._owner is not None:
+            self._owner.use_session(new)
+        else:
+            self.session = new
+
+    def close(self) -> None:
+        if self._session is not None:
+            self._session.unsubscribe(self._on_session_change)
+        super().close()
+
+    # ------------------------------------------------------------------ to override
+    def _build(self) -> None:  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def render(self) -> None:  # pragma: no cover - abstract
+        """Show the session's state (called after every session change)."""
+        raise NotImplementedError
+
+    # ------------------------------------------------------------------ helpers
+    def _actions(self, *widgets: ipw.Widget) -> None:
+        """Widgets that change the analysis: disabled when there is no session or the
+        session shows an earlier step (read-only walk-through)."""
+        self._action_widgets.extend(widgets)
+
+    def show_status(self, kind: str, text: str) -> None:
+        self.status.value = status_html(kind, text)
+
+    def _call(self, what: str, fn: Callable | str, *args, ok: str | None = None, **kwargs) -> Any:
+        """Run a session method (given by name, or any callable); show its error, if any.
+
+        Returns the result, or None when a :class:`WidgetkitError` was raised
+        (the session is then unchanged; the message is in the status line).
+        """
+        self.last_error = None
+        if isinstance(fn, str):
+            name, fn = fn, getattr(self._session, fn, None)
+            if fn is None:
+                self.last_error = SessionStateError(
+                    "no session yet; load a spectrum first" if self._session is None else
+                    f"this session has no method {name}(); update widgetkit")
+                self.show_status("error", f"{what}: {self.last_error}")
+                return None
+        try:
+            result = fn(*args, **kwargs)
+        except WidgetkitError as exc:
+            self.last_error = exc
+            self.show_status("error", f"{what}: {exc}")
+            return None
+        self.show_status("ok", ok or f"{what}: done")
+        return result

@@ -1,0 +1,265 @@
+"""The Spectrum panel: open a file, see its labels, crop, baseline, absorbance."""
+
+from __future__ import annotations
+
+import html
+import os
+import tempfile
+
+import ipywidgets as ipw
+import numpy as np
+
+from .. import processing
+from ..errors import WidgetkitError
+from ._base import Panel
+from ._plot import COLORS, SpectrumFigure
+
+__all__ = ["SpectrumPanel"]
+
+BASELINE_CHOICES = [("polynomial (masked peaks)", "poly"), ("asymmetric least squares", "als")]
+UPLOAD_SUFFIXES = ".csv,.txt,.tsv,.dat,.jdx,.dx,.jcamp"
+
+
+def reverse_by_default(y_kind: str | None) -> bool:
+    """Wavenumber high to low for absorbance and transmittance (common practice in infrared)."""
+    return y_kind in ("absorbance", "transmittance")
+
+
+class SpectrumPanel(Panel):
+    """Load a spectrum, show its metadata, crop, preview and subtract a baseline.
+
+    Parameters
+    ----------
+    session : widgetkit.Session, optional
+    reverse_x : bool, optional
+        Wavenumber axis from high to low; default on for absorbance and
+        transmittance, off for intensity.
+    n_bins : int, optional
+        Bins of the display decimation.
+
+    Notes
+    -----
+    The baseline preview is computed here with the pure functions of
+    :mod:`widgetkit.processing` and drawn dashed; only "Subtract baseline"
+    changes the session.
+    """
+
+    title = "Spectrum"
+
+    def __init__(self, session=None, *, reverse_x: bool | None = None, n_bins: int | None = None,
+                 owner=None, **kwargs):
+        self._reverse_x = reverse_x
+        self._n_bins = n_bins
+        self._shown_spectrum = None
+        self._shown_kind = None
+        self._preview_key = None
+        self._upload_dir: str | None = None
+        super().__init__(session, owner=owner, **kwargs)
+
+    # ------------------------------------------------------------------ layout
+    def _build(self) -> None:
+        kw = {"n_bins": self._n_bins} if self._n_bins else {}
+        self.plot = SpectrumFigure(title="Spectrum", reverse_x=True, **kw)
+        self.plot.add_curve("data")
+        self.plot.add_curve("baseline", color=COLORS["baseline"], dashed=True)
+        self.plot.on_brush(self._on_brush)
+
+        self.path_text = ipw.Text(placeholder="path to a .csv, .txt or .jdx file",
+                                  description="File", layout=ipw.Layout(width="420px"))
+        self.open_button = ipw.Button(description="Open file", icon="folder-open")
+        self.open_button.on_click(self._on_open_click)
+        self.upload = ipw.FileUpload(accept=UPLOAD_SUFFIXES, multiple=False,
+                                     description="Upload")
+        self.upload.observe(self._on_upload_change, names=["value"])
+        self.meta_html = ipw.HTML()
+
+        self.mouse_mode = ipw.ToggleButtons(options=[("zoom", "zoom"), ("select region", "select")],
+                                            value="zoom", description="Mouse",
+                                            style={"button_width": "100px"})
+        self.mouse_mode.observe(self._on_mouse_mode_change, names=["value"])
+        self.reset_zoom_button = ipw.Button(description="Whole range", icon="arrows-h")
+        self.reset_zoom_button.on_click(lambda _: self.plot.reset_window())
+        self.high_to_low = ipw.Checkbox(value=True, description="wavenumber high → low",
+                                        indent=False)
+        self.high_to_low.observe(self._on_axis_direction_change, names=["value"])
+
+        self.crop_lo = ipw.FloatText(description="from", layout=ipw.Layout(width="160px"))
+        self.crop_hi = ipw.FloatText(description="to", layout=ipw.Layout(width="160px"))
+        self.crop_button = ipw.Button(description="Crop", icon="crop")
+        self.crop_button.on_click(self._on_crop_click)
+
+        self.absorbance_button = ipw.Button(description="To absorbance", icon="exchange")
+        self.absorbance_button.on_click(self._on_absorbance_click)
+
+        self.baseline_method = ipw.Dropdown(options=BASELINE_CHOICES, value="poly",
+                                            description="Baseline")
+        self.baseline_degree = ipw.BoundedIntText(value=3, min=0, max=15, description="degree",
+                                                  continuous_update=False)
+        self.baseline_lam = ipw.FloatLogSlider(value=1e6, base=10, min=2, max=11,
+                                               description="smoothness λ",
+                                               continuous_update=False, readout_format=".1e")
+        self.baseline_p = ipw.FloatLogSlider(value=0.01, base=10, min=-4, max=-0.5,
+                                             description="asymmetry p",
+                                             continuous_update=False, readout_format=".3f")
+        self.baseline_preview = ipw.Checkbox(value=True, description="preview", indent=False)
+        self.subtract_button = ipw.Button(description="Subtract baseline", icon="minus",
+                                          button_style="primary")
+        self.subtract_button.on_click(self._on_subtract_click)
+        for w in (self.baseline_method, self.baseline_degree, self.baseline_lam,
+                  self.baseline_p, self.baseline_preview):
+            w.observe(self._on_baseline_option_change, names=["value"])
+
+        self._actions(self.crop_button, self.absorbance_button, self.subtract_button)
+        self.baseline_box = ipw.VBox()
+        self.children = [
+            ipw.HBox([self.path_text, self.open_button, self.upload]),
+            self.meta_html,
+            ipw.HBox([self.mouse_mode, self.reset_zoom_button, self.high_to_low]),
+            *self.plot.widgets(),
+            ipw.HBox([ipw.Label("Crop:"), self.crop_lo, self.crop_hi, self.crop_button,
+                      self.absorbance_button]),
+            ipw.HBox([self.baseline_method, self.baseline_box, self.baseline_preview,
+                      self.subtract_button]),
+            self.status,
+        ]
+        self._show_baseline_options()
+
+    # ------------------------------------------------------------------ rendering
+    def render(self) -> None:
+        s = self.session
+        if s is None:
+            self.meta_html.value = "<i>No spectrum yet: open a file or upload one.</i>"
+            self.plot.clear("data", "baseline")
+            self._shown_spectrum = None
+            return
+        sp = s.spectrum
+        if sp is not self._shown_spectrum:
+            new_range = (self._shown_spectrum is None
+                         or sp.x[0] != self._shown_spectrum.x[0]
+                         or sp.x[-1] != self._shown_spectrum.x[-1])
+            self._shown_spectrum = sp
+            rev = self._reverse_x if self._reverse_x is not None else reverse_by_default(sp.y_kind)
+            if sp.y_kind != self._shown_kind:
+                self._shown_kind = sp.y_kind
+                self.high_to_low.value = rev
+            self.plot.y_axis.label = sp.y_kind
+            with self.plot.figure.hold_sync():
+                self.plot.set_curve("data", sp.x, sp.y)
+                if new_range:
+                    self.plot.reset_window()
+                    self.crop_lo.value, self.crop_hi.value = float(sp.x[0]), float(sp.x[-1])
+        self.meta_html.value = self._meta_html()
+        self.absorbance_button.disabled = (self.absorbance_button.disabled
+                                           or sp.y_kind != "transmittance")
+        self._update_preview()
+
+    def _meta_html(self) -> str:
+        s = self.session
+        sp = s.spectrum
+        src = s.sources[0] if s.sources else {}
+        items = [("points", f"{sp.x.size}"), ("range", f"{sp.x[0]:.6g} – {sp.x[-1]:.6g} cm⁻¹"),
+                 ("y", sp.y_kind)]
+        if src.get("path"):
+            items.append(("file", os.path.basename(str(src["path"]))))
+        if src.get("format"):
+            items.append(("format", str(src["format"])))
+        if src.get("sha256"):
+            items.append(("sha256", str(src["sha256"])[:12] + "…"))
+        for k, v in list(s.source_spectrum.meta.items())[:12]:
+            items.append((str(k), str(v)[:80]))
+        cells = " · ".join(f"<b>{html.escape(k)}</b> {html.escape(v)}" for k, v in items)
+        return f'<div class="wk-meta" style="font-size:12px">{cells}</div>'
+
+    # ------------------------------------------------------------------ baseline preview
+    def _baseline_opts(self) -> tuple[str, dict]:
+        m = self.baseline_method.value
+        if m == "poly":
+            return m, {"degree": int(self.baseline_degree.value)}
+        return m, {"lam": float(self.baseline_lam.value), "p": float(self.baseline_p.value)}
+
+    def _show_baseline_options(self) -> None:
+        self.baseline_box.children = ([self.baseline_degree] if self.baseline_method.value == "poly"
+                                      else [self.baseline_lam, self.baseline_p])
+
+    def preview_baseline(self) -> np.ndarray | None:
+        """The baseline the current options give on the current spectrum (not applied)."""
+        sp = self.session.spectrum
+        method, opts = self._baseline_opts()
+        if method == "poly":
+            return processing.baseline_poly(sp.x, sp.y, **opts)
+        return processing.baseline_als(sp.y, **opts)
+
+    def _update_preview(self) -> None:
+        s = self.session
+        if s is None or not self.baseline_preview.value or s.spectrum.y_kind == "transmittance":
+            self._preview_key = None
+            self.plot.clear("baseline")
+            return
+        method, opts = self._baseline_opts()
+        key = (id(s.spectrum), method, tuple(sorted(opts.items())))
+        if key == self._preview_key:
+            return
+        try:
+            b = self.preview_baseline()
+        except WidgetkitError as exc:
+            self.show_status("error", f"baseline preview: {exc}")
+            self.plot.clear("baseline")
+            self._preview_key = None
+            return
+        self._preview_key = key
+        self.plot.set_curve("baseline", s.spectrum.x, b)
+
+    def _on_baseline_option_change(self, change) -> None:
+        self._show_baseline_options()
+        self._update_preview()
+
+    # ------------------------------------------------------------------ actions
+    def _on_subtract_click(self, _button) -> None:
+        method, opts = self._baseline_opts()
+        self._call("subtract baseline", "subtract_baseline", method, **opts,
+                   ok=f"subtracted a {method} baseline")
+
+    def _on_crop_click(self, _button) -> None:
+        lo, hi = sorted((float(self.crop_lo.value), float(self.crop_hi.value)))
+        self._call("crop", "crop", lo, hi, ok=f"cropped to {lo:.6g}–{hi:.6g} cm⁻¹")
+
+    def _on_absorbance_click(self, _button) -> None:
+        self._call("to absorbance", "to_absorbance", ok="converted to absorbance, A = −log10 T")
+
+    def _on_brush(self, lo: float, hi: float) -> None:
+        self.crop_lo.value, self.crop_hi.value = lo, hi
+        self.show_status("info", f"region {lo:.6g}–{hi:.6g} cm⁻¹ selected; press Crop to keep it")
+
+    def _on_mouse_mode_change(self, change) -> None:
+        self.plot.set_mode(change["new"])
+
+    def _on_axis_direction_change(self, change) -> None:
+        self.plot.x_scale.reverse = bool(change["new"])
+
+    def _open(self, path: str) -> None:
+        from ..session import Session
+
+        new = self._call("open", Session.from_file, path, ok=f"opened {os.path.basename(path)}")
+        if new is not None:
+            self._use_session(new)
+
+    def _on_open_click(self, _button) -> None:
+        path = self.path_text.value.strip()
+        if not path:
+            self.show_status("error", "open: type the path of a spectrum file first")
+            return
+        self._open(os.path.expanduser(path))
+
+    def _on_upload_change(self, change) -> None:
+        files = change["new"]
+        if not files:
+            return
+        f = files[0]
+        name = os.path.basename(str(f["name"])) or "upload.txt"
+        if self._upload_dir is None:
+            self._upload_dir = tempfile.mkdtemp(prefix="widgetkit-upload-")
+        path = os.path.join(self._upload_dir, name)
+        with open(path, "wb") as fh:
+            fh.write(bytes(f["content"]))
+        self.path_text.value = path
+        self._open(path)
