@@ -17,15 +17,14 @@ import json
 import os
 from collections.abc import Callable
 from dataclasses import dataclass
-from datetime import datetime, timezone
 from typing import Any
 
 import pandas as pd
 
-from ..errors import SessionFormatError, SessionStateError, WidgetkitError
+from ..errors import SessionStateError, WidgetkitError
 from ..spectrum import Spectrum
-from . import codec
-from .steps import STEP_KINDS, Context, State, Step, software_versions, table_to_json
+from . import codec, persist
+from .steps import STEP_KINDS, Context, State, Step, software_versions, utc_now
 from .verify import VerifyReport, compare_results
 
 __all__ = ["Session", "SessionEvent"]
@@ -35,10 +34,6 @@ LINE_COLUMNS = ["line_id", "position", "position_err", "area", "area_err", "heig
 ASSIGNMENT_COLUMNS = ["line_id", "position", "isotopologue", "v_upper", "v_lower", "J_upper",
                       "J_lower", "label", "calc", "obs_minus_calc", "outlier"]
 CONSTANT_COLUMNS = ["isotopologue", "name", "value", "stderr", "unit"]
-
-
-def _now() -> str:
-    return datetime.now(timezone.utc).isoformat(timespec="milliseconds")
 
 
 def _json_params(kind: str, params: dict) -> dict:
@@ -101,7 +96,7 @@ class Session:
         self._observers: list[Callable] = []
         self._pending: list[SessionEvent] = []
         self._notifying = False
-        self.created = _now()
+        self.created = utc_now()
         self.path: str | None = None
 
     def _add_source(self, record: dict, spectrum: Spectrum) -> None:
@@ -138,58 +133,10 @@ class Session:
         self.created = doc["created"]
         self.path = str(path)
         for rec in doc["sources"]:
-            self._add_source(*self._decode_source(rec, str(path)))
+            self._add_source(rec, persist.decode_source(rec, str(path), self._source_problems))
         self._steps = [Step(**s) for s in doc["steps"]]
-        if self._steps[0].kind != "load":
-            raise SessionFormatError("field steps/0/kind: the first step must be 'load'", path=path)
-        state = State()
-        for i, step in enumerate(self._steps):
-            kind = STEP_KINDS.get(step.kind)
-            if kind is None:
-                raise SessionFormatError(
-                    f"field steps/{i}/kind: unknown step kind {step.kind!r} "
-                    f"(known: {', '.join(sorted(STEP_KINDS))})", path=path)
-            try:
-                state, _, _ = kind.apply(state, dict(step.params), self._ctx)
-            except WidgetkitError as exc:
-                raise SessionFormatError(
-                    f"step {i + 1} ({step.kind}) cannot be replayed: {exc}", path=path) from exc
-            self._states.append(state)
+        self._states = persist.replay_for_load(self._steps, self._ctx, str(path))
         return self
-
-    def _decode_source(self, rec: dict, path: str) -> tuple[dict, Spectrum]:
-        sid = rec["id"]
-        meta = rec.get("meta", {})
-        if rec["data"] is not None:
-            x, okx = codec.decode_array(rec["data"]["x"], where=f"sources/{sid}/data/x")
-            y, oky = codec.decode_array(rec["data"]["y"], where=f"sources/{sid}/data/y")
-            for name, ok in (("x", okx), ("y", oky)):
-                if not ok:
-                    self._source_problems.append(
-                        f"source {sid} field data.{name}: the embedded data does not match its "
-                        "recorded sha256 (the data were changed after saving)")
-            try:
-                sp = Spectrum(x, y, y_kind=rec["y_kind"], meta=meta,
-                              source=_source_of(rec))
-            except WidgetkitError as exc:
-                raise SessionFormatError(f"sources/{sid}: embedded data invalid: {exc}",
-                                         path=path) from None
-            return rec, sp
-        # not embedded: re-read the original file and check its hash
-        from ..io import read_spectrum
-
-        src_path = rec["path"]
-        if not src_path or not os.path.exists(src_path):
-            raise SessionFormatError(
-                f"sources/{sid}: the session was saved without embedded data and the source file "
-                f"{src_path!r} is not there; put the file back or save sessions with embed=True",
-                path=path)
-        sp = read_spectrum(src_path, **rec.get("read_options", {}))
-        if rec["sha256"] and (sp.source or {}).get("sha256") != rec["sha256"]:
-            self._source_problems.append(
-                f"source {sid} field sha256: the file {src_path} has changed since the session "
-                "was saved (its sha256 differs)")
-        return rec, sp
 
     # ------------------------------------------------------------------ running steps
     def _run(self, kind: str, params: dict) -> Step:
@@ -200,7 +147,7 @@ class Session:
         params = _json_params(kind, params)
         previous = self._states[-1] if self._states else State()
         new_state, result, summary = STEP_KINDS[kind].apply(previous, params, self._ctx)
-        step = Step(kind=kind, params=params, at=_now(), summary=summary,
+        step = Step(kind=kind, params=params, at=utc_now(), summary=summary,
                     result=json.loads(json.dumps(result, allow_nan=False)),
                     software=software_versions())
         self._steps.append(step)
@@ -459,20 +406,8 @@ class Session:
     # ------------------------------------------------------------------ files
     def to_document(self, *, embed: bool = True) -> dict:
         """The session as a JSON-able document (see :mod:`widgetkit.session.codec`)."""
-        sources = []
-        for rec in self._sources:
-            sp = self._source_spectra[rec["id"]]
-            out = {k: rec[k] for k in ("id", "path", "sha256", "size", "format", "y_kind",
-                                       "meta", "read_options")}
-            out["data"] = ({"x": codec.encode_array(sp.x), "y": codec.encode_array(sp.y)}
-                           if embed else None)
-            sources.append(out)
-        if not embed and not all(r["path"] for r in sources):
-            raise SessionStateError("save(embed=False) needs a source file path; this session "
-                                    "was made from an in-memory spectrum, so save it embedded")
-        return {"format": codec.FORMAT, "version": codec.VERSION, "created": self.created,
-                "modified": _now(), "software": software_versions(), "sources": sources,
-                "steps": [s.to_json() for s in self._steps]}
+        return persist.session_document(self._sources, self._source_spectra, self._steps,
+                                        created=self.created, embed=embed)
 
     def save(self, path: str | os.PathLike, *, embed: bool = True) -> None:
         """Write the session to ``path`` atomically (the previous file survives a failure).
@@ -510,13 +445,3 @@ class Session:
             compare_results(step.result, result, rtol=kind.tolerance, where=f"{where} result",
                             out=mismatches)
         return VerifyReport(ok=not mismatches, mismatches=mismatches, steps_checked=checked)
-
-
-def _source_of(rec: dict) -> dict | None:
-    if not rec.get("path") and not rec.get("sha256"):
-        return None
-    return {k: rec.get(k) for k in ("path", "sha256", "format", "size")}
-
-
-# keep table_to_json importable from here for step kinds defined elsewhere
-__all__ += ["table_to_json"]

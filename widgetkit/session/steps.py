@@ -26,6 +26,7 @@ import dataclasses
 import platform
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from datetime import datetime, timezone
 from importlib import metadata
 from typing import Any, ClassVar
 
@@ -36,9 +37,14 @@ from ..errors import SessionStateError
 from ..spectrum import Spectrum
 
 __all__ = ["Step", "State", "StepKind", "STEP_KINDS", "register_step", "software_versions",
-           "Context", "table_to_json"]
+           "Context", "table_to_json", "utc_now"]
 
 PEAK_COLUMNS = ["peak_id", "position", "height", "snr"]
+
+
+def utc_now() -> str:
+    """The current UTC time in ISO 8601 with milliseconds."""
+    return datetime.now(timezone.utc).isoformat(timespec="milliseconds")
 
 
 def software_versions() -> dict[str, str]:

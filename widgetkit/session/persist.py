@@ -1,0 +1,92 @@
+"""Reading and writing the session's sources and record (used by :class:`Session`)."""
+
+from __future__ import annotations
+
+import os
+
+from ..errors import SessionFormatError, SessionStateError, WidgetkitError
+from ..spectrum import Spectrum
+from . import codec
+from .steps import STEP_KINDS, Context, State, Step, software_versions, utc_now
+
+__all__ = ["decode_source", "replay_for_load", "session_document"]
+
+
+def _source_of(rec: dict) -> dict | None:
+    if not rec.get("path") and not rec.get("sha256"):
+        return None
+    return {k: rec.get(k) for k in ("path", "sha256", "format", "size")}
+
+
+def decode_source(rec: dict, path: str, problems: list[str]) -> Spectrum:
+    """The spectrum of one source record: from its embedded data, or else by re-reading
+    the original file. Hash mismatches are appended to ``problems`` (``verify`` reports them)."""
+    sid = rec["id"]
+    meta = rec.get("meta", {})
+    if rec["data"] is not None:
+        x, okx = codec.decode_array(rec["data"]["x"], where=f"sources/{sid}/data/x")
+        y, oky = codec.decode_array(rec["data"]["y"], where=f"sources/{sid}/data/y")
+        for name, ok in (("x", okx), ("y", oky)):
+            if not ok:
+                problems.append(
+                    f"source {sid} field data.{name}: the embedded data does not match its "
+                    "recorded sha256 (the data were changed after saving)")
+        try:
+            return Spectrum(x, y, y_kind=rec["y_kind"], meta=meta, source=_source_of(rec))
+        except WidgetkitError as exc:
+            raise SessionFormatError(f"sources/{sid}: embedded data invalid: {exc}",
+                                     path=path) from None
+    from ..io import read_spectrum
+
+    src_path = rec["path"]
+    if not src_path or not os.path.exists(src_path):
+        raise SessionFormatError(
+            f"sources/{sid}: the session was saved without embedded data and the source file "
+            f"{src_path!r} is not there; put the file back or save sessions with embed=True",
+            path=path)
+    sp = read_spectrum(src_path, **rec.get("read_options", {}))
+    if rec["sha256"] and (sp.source or {}).get("sha256") != rec["sha256"]:
+        problems.append(
+            f"source {sid} field sha256: the file {src_path} has changed since the session "
+            "was saved (its sha256 differs)")
+    return sp
+
+
+def replay_for_load(steps: list[Step], ctx: Context, path: str) -> list[State]:
+    """The state after each step; a step that cannot be replayed is a format error."""
+    if steps[0].kind != "load":
+        raise SessionFormatError("field steps/0/kind: the first step must be 'load'", path=path)
+    states: list[State] = []
+    state = State()
+    for i, step in enumerate(steps):
+        kind = STEP_KINDS.get(step.kind)
+        if kind is None:
+            raise SessionFormatError(
+                f"field steps/{i}/kind: unknown step kind {step.kind!r} "
+                f"(known: {', '.join(sorted(STEP_KINDS))})", path=path)
+        try:
+            state, _, _ = kind.apply(state, dict(step.params), ctx)
+        except WidgetkitError as exc:
+            raise SessionFormatError(
+                f"step {i + 1} ({step.kind}) cannot be replayed: {exc}", path=path) from exc
+        states.append(state)
+    return states
+
+
+def session_document(sources: list[dict], spectra: dict[str, Spectrum], steps: list[Step], *,
+                     created: str, embed: bool) -> dict:
+    """The JSON document of a session (layout in :mod:`widgetkit.session.codec`)."""
+    out_sources = []
+    for rec in sources:
+        sp = spectra[rec["id"]]
+        out = {k: rec[k] for k in ("id", "path", "sha256", "size", "format", "y_kind",
+                                   "meta", "read_options")}
+        out["data"] = ({"x": codec.encode_array(sp.x), "y": codec.encode_array(sp.y)}
+                       if embed else None)
+        out_sources.append(out)
+    if not embed and not all(r["path"] for r in out_sources):
+        raise SessionStateError("save(embed=False) needs a source file path; this session "
+                                "was made from an in-memory spectrum, so save it embedded")
+    return {"format": codec.FORMAT, "version": codec.VERSION, "created": created,
+            "modified": utc_now(), "software": software_versions(), "sources": out_sources,
+            "steps": [s.to_json() for s in steps]}
