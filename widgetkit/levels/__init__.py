@@ -2,10 +2,31 @@
 isotopologues, term models, candidate transitions, rovibrational band and
 progression fits."""
 
+from .bandfit import (
+    BandFit,
+    combination_differences,
+    equilibrium_constants,
+    fit_band,
+    rotational_temperature,
+)
+from .candidates import (
+    band_label,
+    candidate_transitions,
+    format_label,
+    honl_london,
+    parse_label,
+    rotational_partition,
+)
 from .molecule import Diatomic, Isotope, Isotopologue, isotope, scale_constants
+from .rovib import BandAssignment, assign_rovibrational
 from .terms import line_position, rot_constant, rot_term, vib_term
 
 __all__ = [
     "Diatomic", "Isotope", "Isotopologue", "isotope", "scale_constants",
     "vib_term", "rot_constant", "rot_term", "line_position",
+    "candidate_transitions", "parse_label", "format_label", "band_label", "honl_london",
+    "rotational_partition",
+    "BandFit", "fit_band", "combination_differences", "equilibrium_constants",
+    "rotational_temperature",
+    "BandAssignment", "assign_rovibrational",
 ]

@@ -1,0 +1,243 @@
+"""Predict -> match -> refit rounds of the rovibrational assignment (private)."""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy.optimize import linear_sum_assignment
+
+from ..errors import AssignmentError
+from ._rovib_core import _BIG, Lines, Model, State, fit_model
+from ._seed import scaled_band_constants
+from .candidates import format_label
+
+__all__ = ["match", "refine", "locate_isotopologue"]
+
+
+def _predictions(models: dict, lo: float, hi: float, frac: float):
+    iso_l, ju_l, jl_l, c_l, e_l, w_l = [], [], [], [], [], []
+    for iso, mdl in models.items():
+        J = np.arange(0, mdl.jmax + 1)
+        for Ju, Jl in ((J + 1, J), (J[1:] - 1, J[1:])):
+            c, e = mdl.predict(Ju, Jl)
+            d = np.abs(np.diff(c))
+            sp = np.minimum(np.r_[np.inf, d], np.r_[d, np.inf])
+            inside = (c >= lo) & (c <= hi)
+            iso_l += [iso] * int(inside.sum())
+            ju_l.append(Ju[inside])
+            jl_l.append(Jl[inside])
+            c_l.append(c[inside])
+            e_l.append(e[inside])
+            w_l.append(frac * sp[inside])
+    cat = lambda a, t: np.concatenate(a).astype(t) if a else np.zeros(0, t)  # noqa: E731
+    return (np.array(iso_l, dtype=object), cat(ju_l, int), cat(jl_l, int), cat(c_l, float),
+            cat(e_l, float), cat(w_l, float))
+
+
+def _obs_sigma(data: Lines, models: dict, iso_of_pred: np.ndarray, rows: np.ndarray) -> np.ndarray:
+    """σ of observed lines (rows) against each prediction's isotopologue scale."""
+    scale = np.array([models[i].scatter for i in iso_of_pred]) if len(iso_of_pred) else np.zeros(0)
+    if data.sigma is None:
+        return np.broadcast_to(scale, (len(rows), len(scale)))
+    return data.sigma[rows][:, None] * scale[None, :]
+
+
+def match(data: Lines, locks: dict, models: dict, frac: float, seed_iso: str) -> State:
+    """One optimal matching of observed lines to the predictions of ``models``."""
+    n = data.n
+    pad = 1.0
+    lo, hi = float(data.x.min()) - pad, float(data.x.max()) + pad
+    piso, pju, pjl, pc, pe, pw = _predictions(models, lo, hi, frac)
+    fixed = {i: v for i, v in locks.items() if v[1] is not None}
+    taken = {(v[0], v[1], v[2]) for v in fixed.values()}
+    keep = np.array([(piso[k], pju[k], pjl[k]) not in taken for k in range(len(pc))], dtype=bool)
+    piso, pju, pjl, pc, pe, pw = piso[keep], pju[keep], pjl[keep], pc[keep], pe[keep], pw[keep]
+    rows = np.array([i for i in range(n) if i not in fixed], dtype=int)
+    iso = np.full(n, None, dtype=object)
+    Ju = np.full(n, -1)
+    Jl = np.full(n, -1)
+    for i, (li, lju, ljl) in fixed.items():
+        iso[i], Ju[i], Jl[i] = li, lju, ljl
+    if len(rows) and len(pc):
+        so = _obs_sigma(data, models, piso, rows)
+        diff = data.x[rows][:, None] - pc[None, :]
+        cost = diff**2 / (so**2 + pe[None, :] ** 2 + 1e-300)
+        allowed = np.abs(diff) <= pw[None, :]
+        for k, r in enumerate(rows):
+            if r in locks and locks[r][1] is None:
+                allowed[k] &= piso == locks[r][0]
+        cost = np.where(allowed, np.minimum(cost, 1e9), _BIG)
+        ri, ci = linear_sum_assignment(cost)
+        ok = cost[ri, ci] < _BIG
+        for r, c in zip(rows[ri[ok]], ci[ok], strict=True):
+            iso[r], Ju[r], Jl[r] = piso[c], pju[c], pjl[c]
+        matched_pred = np.zeros(len(pc), dtype=bool)
+        matched_pred[ci[ok]] = True
+    else:
+        matched_pred = np.zeros(len(pc), dtype=bool)
+    st = State(iso=iso, Ju=Ju, Jl=Jl, calc=np.full(n, np.nan), calc_err=np.full(n, np.nan),
+               outlier=np.zeros(n, dtype=bool), blended=np.zeros(n, dtype=bool),
+               blend_with=np.full(n, None, dtype=object), models=dict(models), seed_iso=seed_iso)
+    _mark_blends(data, st, models, piso[~matched_pred], pju[~matched_pred], pjl[~matched_pred],
+                 pc[~matched_pred], pe[~matched_pred], pw[~matched_pred])
+    return st
+
+
+def _mark_blends(data, st, models, piso, pju, pjl, pc, pe, pw):
+    asg = np.nonzero(st.iso != None)[0]  # noqa: E711
+    if not len(asg) or not len(pc):
+        return
+    xa = data.x[asg]
+    order = np.argsort(xa, kind="stable")
+    xs = xa[order]
+    k = np.clip(np.searchsorted(xs, pc), 1, max(len(xs) - 1, 1))
+    for p in range(len(pc)):
+        cands = [j for j in (k[p] - 1, k[p]) if 0 <= j < len(xs)]
+        j = min(cands, key=lambda j: abs(xs[j] - pc[p]))
+        o = asg[order[j]]
+        so = (data.sigma[o] if data.sigma is not None else 1.0) * models[st.iso[o]].scatter
+        thr = max(4 * np.hypot(so, pe[p]), 0.5 * data.fwhm[o] if data.fwhm is not None
+                  and np.isfinite(data.fwhm[o]) else 0.0)
+        if abs(xs[j] - pc[p]) <= min(thr, pw[p]):
+            st.blended[o] = True
+            other = f"{format_label(pju[p], pjl[p])} of {piso[p]}"
+            st.blend_with[o] = other if st.blend_with[o] is None else f"{st.blend_with[o]}; {other}"
+
+
+def locate_isotopologue(data: Lines, st: State, seed: Model, seed_mu: float, iso, band, opts):
+    """Locate a further sub-band by mass scaling from the seed and an offset search.
+
+    Returns (Model or None, message or None).
+    """
+    rho = float(np.sqrt(seed_mu / iso.reduced_mass))
+    vals, anh = scaled_band_constants(seed.values, band[0], band[1], rho)
+    J = np.arange(0, seed.jmax + 1)
+    probe = Model(vals, np.zeros((5, 5)), "scaled", seed.scatter, 0.0, None, "scaled", seed.jmax)
+    cR, _ = probe.predict(J + 1, J)
+    cP, _ = probe.predict(J[1:] - 1, J[1:])
+    calc0 = np.r_[cR, cP]
+    free = np.nonzero((st.iso == None) | st.outlier)[0]  # noqa: E711
+    if len(free) < 3:
+        return None, f"no lines left for {iso.name} (expected near {vals['band_origin']:.2f} cm-1)"
+    xf = np.sort(data.x[free])
+    sig = float(np.median(data.sigma)) * seed.scatter if data.sigma is not None else seed.scatter
+    spacing = vals["B_upper"] + vals["B_lower"]
+    W = min(0.45 * spacing, max(2 * abs(anh), 10 * sig, 0.02))
+    tol = max(3 * sig, 0.01 * spacing)
+    deltas = []
+    for c in calc0:
+        a, b = np.searchsorted(xf, [c - W, c + W])
+        deltas.extend((xf[a:b] - c).tolist())
+    if not deltas:
+        return None, (f"no lines of {iso.name} found near the predicted sub-band "
+                      f"(origin {vals['band_origin']:.2f} cm-1)")
+    deltas = np.unique(np.round(np.array(deltas), 12))
+    counts = np.empty(len(deltas), dtype=int)
+    for k, d in enumerate(deltas):
+        s = calc0 + d
+        i = np.clip(np.searchsorted(xf, s), 1, len(xf) - 1)
+        near = np.minimum(np.abs(xf[i] - s), np.abs(xf[i - 1] - s))
+        counts[k] = int(np.sum(near <= tol))
+    best = int(counts.max())
+    if best < 3:
+        return None, (f"no sub-band of {iso.name} found: at most {best} lines near the prediction "
+                      f"scaled from {st.seed_iso} (origin {vals['band_origin']:.2f} cm-1)")
+    top = deltas[counts == best]
+    if best >= 5 and np.ptp(top) > 2 * tol:
+        raise AssignmentError(
+            f"ambiguous isotopologue split: the sub-band of {iso.name} fits {best} lines at offsets "
+            f"{top.min():+.3f} and {top.max():+.3f} cm-1 from its mass-scaled prediction; lock one "
+            f"of its lines by hand, e.g. s.set_assignment(line_id, isotopologue='{iso.name}', "
+            "label='R(0)')")
+    d = float(top[np.argmin(np.abs(top))])
+    vals = dict(vals, band_origin=vals["band_origin"] + d)
+    return Model(vals, np.zeros((5, 5)), "scaled", seed.scatter, tol / 2, None, "scaled",
+                 seed.jmax), None
+
+
+def _fit_all(data, locks, st: State, opts):
+    models, msgs = {}, []
+    for iso_name, mdl in st.models.items():
+        sel = np.nonzero((st.iso == iso_name) & ~st.blended)[0]
+        locked = np.array([i in locks for i in sel], dtype=bool)
+        try:
+            new, out, msg = fit_model(
+                st.Ju[sel], st.Jl[sel], data.x[sel], None if data.sigma is None else data.sigma[sel],
+                locked, centrifugal=opts["centrifugal"], outlier_sigma=opts["outlier_sigma"],
+                fixed=mdl, allow_offset=iso_name != st.seed_iso)
+        except AssignmentError:
+            if iso_name == st.seed_iso:
+                raise
+            msgs.append(f"{iso_name}: too few lines ({len(sel)}) to fit; left unassigned")
+            st.iso[sel] = None
+            st.Ju[sel] = st.Jl[sel] = -1
+            st.blended[sel] = False
+            continue
+        if msg:
+            msgs.append(f"{iso_name}: {msg}")
+        st.outlier[sel] = out
+        new.jmax = int(max(st.Jl[sel].max(initial=0), st.Ju[sel].max(initial=0))) + 8
+        models[iso_name] = new
+    for i in np.nonzero(st.iso != None)[0]:  # noqa: E711
+        m = models.get(st.iso[i])
+        if m is None:
+            continue
+        c, e = m.predict(st.Ju[i:i + 1], st.Jl[i:i + 1])
+        st.calc[i], st.calc_err[i] = c[0], e[0]
+    st.models = models
+    return msgs
+
+
+def _score(data: Lines, st: State, molecule) -> float:
+    good = (st.iso != None) & ~st.outlier & ~st.blended  # noqa: E711
+    score = float(good.sum()) - 0.5 * float(st.outlier.sum())
+    ab = {i.name: i.abundance for i in molecule.isotopologues}
+    lab = {}
+    for i in np.nonzero(good & np.isfinite(data.area) & (data.area > 0))[0]:
+        lab.setdefault(st.iso[i], {})[(int(st.Ju[i]), int(st.Jl[i]))] = data.area[i]
+    ref = lab.get(st.seed_iso, {})
+    for iso_name, d in lab.items():
+        if iso_name == st.seed_iso:
+            continue
+        common = sorted(set(d) & set(ref))
+        if len(common) >= 2:
+            r = sum(d[k] for k in common) / sum(ref[k] for k in common)
+            z = np.log(r / (ab[iso_name] / ab[st.seed_iso])) / 0.35
+            score -= min(float(z**2), 50.0)
+    return score
+
+
+def refine(data: Lines, locks: dict, models0: dict, seed_iso: str, opts: dict, *,
+           max_rounds: int, min_rounds: int) -> State:
+    """Iterate predict -> match -> refit from the seed sub-band until the assignment is stable."""
+    molecule = opts["molecule"]
+    isos = {i.name: i for i in molecule.isotopologues}
+    models = {seed_iso: models0[seed_iso]}
+    prev, st, notes = None, None, {}
+    r = 0
+    for r in range(1, max(1, max_rounds) + 1):
+        st = match(data, locks, models, opts["match_fraction"], seed_iso)
+        added = False
+        for name, iso in isos.items():
+            if name in models:
+                continue
+            mdl, note = locate_isotopologue(data, st, models[seed_iso],
+                                            isos[seed_iso].reduced_mass, iso, opts["band"], opts)
+            if mdl is not None:
+                models[name] = mdl
+                added = True
+                notes.pop(name, None)
+            else:
+                notes[name] = note
+        if added:
+            st = match(data, locks, models, opts["match_fraction"], seed_iso)
+        msgs = _fit_all(data, locks, st, opts)
+        models = dict(st.models)
+        sig = st.signature
+        st.messages = msgs
+        if sig == prev and r >= min_rounds:
+            break
+        prev = sig
+    st.rounds = r
+    st.messages = st.messages + [n for n in notes.values() if n]
+    st.score = _score(data, st, molecule)
+    return st

@@ -1,0 +1,152 @@
+"""Finding a band without prior constants (private).
+
+1. **Gap search.** A ¹Σ–¹Σ band has no line at its origin: P(1) and R(0) lie
+   2(B′+B″) apart while neighbouring lines are about B′+B″ apart. Every pair of
+   near-neighbour lines (i, j) is a hypothesis "i = P(1), j = R(0)"; it is
+   kept when the lines a spacing further out, P(2) and R(1), exist.
+2. **Bootstrap.** From a kept pair, lines are indexed by m (m = J″+1 for R,
+   m = −J″ for P) one at a time outward: the next line is predicted by a
+   polynomial in m fitted to the lines indexed so far (degree rising from 1
+   to 4 with their number; the band model is exactly a quartic in m) and
+   accepted when an observed line lies within a fraction of the local
+   spacing. A branch stops after a few consecutive misses (missing lines are
+   skipped). The hypothesis that indexes most lines (then the larger total
+   area) wins.
+3. **Isotopologue estimate.** Constants of another isotopologue follow from
+   the seed band by mass scaling; ωe and ωexe, which a single band does not
+   give, are estimated from the Pekeris relation
+   αe = 6 sqrt(ωexe Be³)/ωe − 6Be²/ωe together with the band origin (only to
+   predict the small anharmonic part of the isotope shift; the sub-band is
+   then located by an offset search and fitted on its own).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numpy.polynomial import polynomial as npp
+
+__all__ = ["gap_hypotheses", "bootstrap", "m_to_J", "scaled_band_constants"]
+
+
+def m_to_J(m) -> tuple[np.ndarray, np.ndarray]:
+    """Running index m -> (J_upper, J_lower): m > 0 is R(m−1), m < 0 is P(−m)."""
+    m = np.asarray(m, dtype=int)
+    return np.where(m > 0, m, -m - 1), np.where(m > 0, m - 1, -m)
+
+
+def _nearest_free(x, taken, target, tol):
+    k = int(np.searchsorted(x, target))
+    best, bd = -1, tol
+    for i in range(max(k - 2, 0), min(k + 2, len(x))):
+        d = abs(x[i] - target)
+        if d <= bd and i not in taken:
+            best, bd = i, d
+    return best
+
+
+def gap_hypotheses(x, *, frac: float = 0.25, reach: int = 3) -> list[tuple[int, int]]:
+    """Pairs (i, j) of indices into ascending ``x`` that may be (P(1), R(0)).
+
+    Kept when lines near x_j + d/2 (R(1)) and x_i − d/2 (P(2)) exist within
+    ``frac`` × d/2, d = x_j − x_i; if no pair has both, pairs with one of them.
+    """
+    n = len(x)
+    pairs = [(i, j) for i in range(n) for j in range(i + 1, min(i + 1 + reach, n))]
+    if not pairs:
+        return []
+    I = np.array([p[0] for p in pairs])
+    J = np.array([p[1] for p in pairs])
+    d = x[J] - x[I]
+    found = np.zeros(len(pairs), dtype=int)
+    for target in (x[J] + d / 2, x[I] - d / 2):
+        k = np.clip(np.searchsorted(x, target), 1, n - 1)
+        near = np.minimum(np.abs(x[k] - target), np.abs(x[k - 1] - target))
+        found += near <= frac * d / 2
+    for need in (2, 1):
+        keep = (found >= need) & (d > 0)
+        if keep.any():
+            return [pairs[k] for k in np.nonzero(keep)[0]]
+    return []
+
+
+def _degree(n: int) -> int:
+    return 1 if n < 4 else 2 if n < 7 else 3 if n < 10 else 4
+
+
+def bootstrap(x, init: dict[int, int], *, frac: float = 0.25, max_miss: int = 2,
+              forbidden: frozenset = frozenset()) -> dict[int, int]:
+    """Index lines by m outward from ``init`` (m -> index into ascending ``x``)."""
+    got = dict(init)
+    taken = set(got.values()) | set(forbidden)
+    lo, hi = float(x[0]), float(x[-1])
+    nxt = {1: max([m for m in got if m > 0], default=0) + 1,
+           -1: min([m for m in got if m < 0], default=0) - 1}
+    miss = {1: 0, -1: 0}
+    active = {1: True, -1: True}
+    scale = 30.0
+    while active[1] or active[-1]:
+        ms = np.fromiter(got.keys(), dtype=float)
+        xs = x[np.fromiter(got.values(), dtype=int)]
+        coef = npp.polyfit(ms / scale, xs, min(_degree(len(ms)), len(ms) - 1))
+        for side in (1, -1):
+            if not active[side]:
+                continue
+            m = nxt[side]
+            pred = npp.polyval(m / scale, coef)
+            spacing = abs(pred - npp.polyval((m - side) / scale, coef))
+            if not (lo - spacing <= pred <= hi + spacing) or spacing <= 0:
+                active[side] = False
+                continue
+            i = _nearest_free(x, taken, pred, frac * spacing)
+            if i >= 0:
+                got[m] = i
+                taken.add(i)
+                miss[side] = 0
+            else:
+                miss[side] += 1
+                if miss[side] > max_miss:
+                    active[side] = False
+            nxt[side] = m + side
+    return got
+
+
+def scaled_band_constants(values: dict, v_upper: int, v_lower: int, rho: float) -> tuple[dict, float]:
+    """Band constants of another isotopologue, and the anharmonic part of its origin shift.
+
+    Parameters
+    ----------
+    values : dict
+        band_origin, B_upper, B_lower, D_upper, D_lower of the seed isotopologue.
+    rho : float
+        ρ = sqrt(μ_seed/μ_other).
+
+    Returns
+    -------
+    (dict of the five band constants, anharmonic shift estimate in cm⁻¹)
+    """
+    dv = v_upper - v_lower
+    hu, hl = v_upper + 0.5, v_lower + 0.5
+    q = hu**2 - hl**2
+    Bl, Bu = values["B_lower"], values["B_upper"]
+    alpha = (Bl - Bu) / dv
+    Be = Bl + alpha * hl
+    nu0 = values["band_origin"]
+    wx = 0.0
+    if Be > 0 and alpha > 0:
+        for _ in range(30):
+            we = (nu0 + wx * q) / dv
+            wx = ((alpha * we + 6 * Be**2) / 6) ** 2 / Be**3
+    we = (nu0 + wx * q) / dv
+    if not (np.isfinite(wx) and 0 <= wx < 0.1 * we):
+        wx, we = 0.0, nu0 / dv
+    we2, wx2 = we * rho, wx * rho**2
+    Be2, a2 = Be * rho**2, alpha * rho**3
+    out = {
+        "band_origin": we2 * dv - wx2 * q,
+        "B_upper": Be2 - a2 * hu,
+        "B_lower": Be2 - a2 * hl,
+        "D_upper": values["D_upper"] * rho**4,
+        "D_lower": values["D_lower"] * rho**4,
+    }
+    anh = out["band_origin"] - rho * nu0
+    return out, float(anh)

@@ -1,0 +1,199 @@
+"""Assignment of a rovibrational band of a diatomic, with no prior constants.
+
+Pipeline (:func:`assign_rovibrational`):
+
+1. find the band-origin gap and index the lines of one sub-band by m
+   (:mod:`._seed`);
+2. for each hypothesis of which isotopologue that sub-band belongs to,
+   predict the other sub-bands by mass scaling, locate each by an offset
+   search, and iterate *predict -> match -> refit*:
+
+   * matching is optimal (``scipy.optimize.linear_sum_assignment``) on the
+     cost ((obs − calc)/σ)², σ² = σ_obs² + σ_calc², allowed only within
+     ``match_fraction`` of the local line spacing; the number of matches is
+     maximised first;
+   * an unmatched prediction that agrees with an already matched line as well
+     (within 4σ or half its FWHM) makes that line a *blend*: kept in the table,
+     left out of the fits;
+   * each sub-band is fitted by weighted linear least squares
+     (:func:`.bandfit.fit_band`); lines more than ``outlier_sigma`` σ_eff from
+     the fit are flagged and refitted without (σ_eff = σ_obs × max(1, robust
+     Birge ratio), or the robust scatter without stated errors);
+   * rounds stop when the assignment no longer changes;
+
+   the hypothesis with most well-fitted lines, penalised when the areas
+   contradict the natural abundances, wins; a tie is an error;
+3. report constants with standard errors, combination differences, B_e, α_e,
+   r_e, the rotational temperature and the abundance ratio.
+
+Locked lines (``locks``) keep their labels, are never dropped as outliers and
+take part in every fit.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+
+import pandas as pd
+
+from ..errors import AssignmentError
+from ._rovib_core import parse_locks, prepare_lines, seed_band
+from ._rovib_match import refine
+from ._rovib_report import analyse
+from .molecule import Diatomic
+
+__all__ = ["BandAssignment", "assign_rovibrational"]
+
+
+@dataclass(frozen=True)
+class BandAssignment:
+    """Result of :func:`assign_rovibrational`.
+
+    Attributes
+    ----------
+    assignments : DataFrame
+        One row per input line (input order): ``line_id, position,
+        position_err, isotopologue, v_upper, v_lower, J_upper, J_lower, label,
+        m, calc, calc_err, obs_minus_calc, outlier, blended, locked, weight``
+        (weight = 1/σ² in the fit, 0 when left out); unassigned lines have
+        missing labels.
+    constants : DataFrame
+        ``isotopologue, name, value, stderr, unit``.
+    covariance : dict of str -> DataFrame
+        Covariance of the fitted band constants of each isotopologue.
+    combination_differences : DataFrame
+        ``isotopologue, state, J, lines, value, stderr, calc, obs_minus_calc``.
+    rounds : int
+        Predict–match–refit rounds of the chosen hypothesis.
+    messages : list of str
+        What was flagged, left out, degraded or cross-checked, and why.
+    band : tuple of int
+        (v_upper, v_lower).
+    """
+
+    assignments: pd.DataFrame
+    constants: pd.DataFrame
+    covariance: dict = field(repr=False)
+    combination_differences: pd.DataFrame = field(repr=False)
+    rounds: int = 0
+    messages: list = field(default_factory=list)
+    band: tuple = (1, 0)
+
+    def constant(self, name: str, isotopologue: str | None = None) -> tuple[float, float]:
+        """(value, stderr) of one constant (of the first isotopologue listed when not given)."""
+        c = self.constants
+        sel = c[c["name"] == name]
+        if isotopologue is not None:
+            sel = sel[sel["isotopologue"] == isotopologue]
+        if sel.empty:
+            raise KeyError(f"no constant {name!r}" + (f" for {isotopologue}" if isotopologue else ""))
+        return float(sel["value"].iloc[0]), float(sel["stderr"].iloc[0])
+
+
+def assign_rovibrational(
+    lines: pd.DataFrame,
+    molecule: Diatomic,
+    *,
+    temperature: float | None = None,
+    locks: Mapping | None = None,
+    outlier_sigma: float = 4.0,
+    max_rounds: int = 20,
+    band: tuple[int, int] = (1, 0),
+    centrifugal: str = "separate",
+    match_fraction: float = 0.3,
+    seed_fraction: float = 0.25,
+    min_rounds: int = 1,
+) -> BandAssignment:
+    """Assign the P and R lines of a v′ ← v″ band and fit the molecular constants.
+
+    Parameters
+    ----------
+    lines : DataFrame
+        ``line_id, position`` (cm⁻¹) and preferably ``position_err`` (standard
+        error, cm⁻¹; weights 1/σ²) and ``area`` (``area_err``, ``fwhm``
+        optional): the columns of ``Session.lines``.
+    molecule : Diatomic
+        Its isotopologues (names, abundances, reduced masses) define the
+        sub-bands that are looked for.
+    temperature : float, optional
+        K; a first guess for the stimulated-emission factor of the Boltzmann
+        plot (300 K when not given). The rotational temperature itself is
+        fitted from the areas.
+    locks : mapping, optional
+        line_id -> dict with any of ``isotopologue, v_upper, v_lower, J_upper,
+        J_lower, label`` ("R(3)", "P(2)"). A lock with a label or J values
+        fixes that line; a lock with only an isotopologue restricts it to that
+        sub-band. Locked lines always keep their labels. Unnamed isotopologue
+        means the most abundant one; unnamed v the ``band``.
+    outlier_sigma : float
+        Lines with |obs − calc| > outlier_sigma × σ_eff are flagged and left out
+        of the fit (default 4).
+    max_rounds, min_rounds : int
+        Bounds on the predict–match–refit rounds.
+    band : (int, int)
+        (v_upper, v_lower) of the band (default the fundamental 1-0); a single
+        band does not tell its vibrational numbering, so give it for an
+        overtone or hot band.
+    centrifugal : {"separate", "shared", "none"}
+        Centrifugal distortion model (D′ and D″, D′ = D″, or none). A sub-band
+        with too few lines for it falls back to a simpler one (reported).
+    match_fraction : float
+        Matching window as a fraction of the local line spacing.
+    seed_fraction : float
+        Acceptance window of the bootstrap, as a fraction of the spacing.
+
+    Returns
+    -------
+    BandAssignment
+
+    Raises
+    ------
+    AssignmentError
+        Bad input (missing columns, duplicate ids, non-finite positions),
+        contradictory locks, no band-origin gap, too few lines for the
+        parameters, or an ambiguous isotopologue split; the message says what
+        to do (usually: lock two lines by hand with
+        ``s.set_assignment(line_id, label='R(0)')``).
+
+    Notes
+    -----
+    Constants reported per isotopologue (cm⁻¹ unless stated): band_origin,
+    B_upper, B_lower, D_upper, D_lower (fitted); B_e = B″ + α_e(v″+½),
+    alpha_e = (B″ − B′)/(v′ − v″), r_e = sqrt(h/(8π²cμB_e)) (Å);
+    B_lower_cd, D_lower_cd, B_upper_cd, D_upper_cd and B_*_cd_diff from the
+    combination differences; T_rot (K) from the Boltzmann plot;
+    abundance_ratio (minor/most abundant, from the areas, with the expected
+    natural value in the messages); n_lines and rms (cm⁻¹).
+    """
+    if not (isinstance(band, tuple | list) and len(band) == 2 and int(band[0]) > int(band[1]) >= 0):
+        raise AssignmentError(f"band must be (v_upper, v_lower) with v_upper > v_lower >= 0, got {band!r}")
+    band = (int(band[0]), int(band[1]))
+    if not outlier_sigma > 0:
+        raise AssignmentError(f"outlier_sigma must be > 0, got {outlier_sigma}")
+    data = prepare_lines(lines)
+    lk = parse_locks(locks, data, molecule, band)
+    isos = [i.name for i in molecule.isotopologues]
+    opts = dict(outlier_sigma=float(outlier_sigma), match_fraction=float(match_fraction),
+                centrifugal=centrifugal, band=band, molecule=molecule,
+                temperature=None if temperature is None else float(temperature))
+    seed, seed_iso = seed_band(data, lk, molecule, band, frac=seed_fraction, centrifugal=centrifugal)
+    hyps = [seed_iso] if seed_iso is not None else isos
+    trials = []
+    for k_iso in hyps:
+        st = refine(data, lk, {k_iso: seed}, k_iso, opts, max_rounds=min(2, max_rounds),
+                    min_rounds=1)
+        trials.append((st.score, isos.index(k_iso), k_iso, st))
+    trials.sort(key=lambda t: (-t[0], t[1]))
+    if len(trials) > 1 and trials[0][0] - trials[1][0] < 1.0 \
+            and trials[0][3].signature != trials[1][3].signature:
+        a, b = trials[0][2], trials[1][2]
+        raise AssignmentError(
+            f"ambiguous isotopologue split: the strongest sub-band fits as {a} or as {b} equally well "
+            f"(score {trials[0][0]:.1f} vs {trials[1][0]:.1f}); lock one line of each by hand, e.g. "
+            f"s.set_assignment(line_id, isotopologue='{a}', label='R(0)')"
+        )
+    k_iso = trials[0][2]
+    final = refine(data, lk, {k_iso: seed}, k_iso, opts, max_rounds=max_rounds, min_rounds=min_rounds)
+    return analyse(data, lk, final, opts, BandAssignment)
+
