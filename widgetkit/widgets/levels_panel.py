@@ -1,0 +1,222 @@
+"""The Levels panel: assign lines to transitions, edit assignments, Fortrat and obs − calc plots,
+the constants."""
+
+from __future__ import annotations
+
+import bqplot as bq
+import ipywidgets as ipw
+import numpy as np
+import pandas as pd
+
+from ._base import Panel
+from ._plot import COLORS
+from ._tables import html_table
+
+__all__ = ["LevelsPanel", "fortrat_m"]
+
+KIND_CHOICES = [("rovibrational band (P/R lines)", "rovibrational"),
+                ("vibrational progression (band centres)", "progression")]
+ASSIGNMENT_COLUMNS = ["line_id", "position", "isotopologue", "label", "v_upper", "v_lower",
+                      "J_upper", "J_lower", "calc", "obs_minus_calc", "outlier"]
+CONSTANT_COLUMNS = ["isotopologue", "name", "value", "stderr", "unit"]
+ISO_COLORS = ["#1f4e79", "#c0392b", "#27ae60", "#8e44ad", "#d35400", "#16a085"]
+
+
+def fortrat_m(J_upper, J_lower) -> np.ndarray:
+    """The running number m of a ¹Σ–¹Σ band: m = J″ + 1 for R lines (J′ = J″ + 1),
+    m = −J″ for P lines (J′ = J″ − 1); NaN otherwise (Q lines, unassigned)."""
+    ju = pd.to_numeric(pd.Series(J_upper), errors="coerce").to_numpy(float)
+    jl = pd.to_numeric(pd.Series(J_lower), errors="coerce").to_numpy(float)
+    return np.where(ju == jl + 1, jl + 1, np.where(ju == jl - 1, -jl, np.nan))
+
+
+def _small_figure(title: str, x_label: str, y_label: str):
+    xs, ys = bq.LinearScale(), bq.LinearScale()
+    fig = bq.Figure(marks=[], title=title,
+                    axes=[bq.Axis(scale=xs, label=x_label, grid_lines="none"),
+                          bq.Axis(scale=ys, orientation="vertical", label=y_label,
+                                  tick_format=".4g", grid_lines="none")],
+                    fig_margin={"top": 30, "bottom": 40, "left": 70, "right": 10},
+                    layout=ipw.Layout(width="50%", height="280px"),
+                    min_aspect_ratio=0.01, max_aspect_ratio=100, animation_duration=0)
+    return fig, xs, ys
+
+
+class LevelsPanel(Panel):
+    """Assign the fitted lines of a molecule, edit single assignments, see the constants.
+
+    "Lock" fixes the assignment of the selected line (``Session.set_assignment``),
+    "Leave unassigned" keeps it out of the fit (``Session.clear_assignment``);
+    both re-run the last assignment with the locks. A click on a point of
+    either plot selects its line.
+    """
+
+    title = "Levels"
+
+    def __init__(self, session=None, *, owner=None, **kwargs):
+        self._shown_assignment = 0  # a value no assignment is
+        self._plot_ids: list[int] = []
+        super().__init__(session, owner=owner, **kwargs)
+
+    def _build(self) -> None:
+        self.molecule = ipw.Text(value="HCl", description="molecule",
+                                 placeholder="formula, e.g. HCl or CO",
+                                 layout=ipw.Layout(width="230px"))
+        self.kind = ipw.Dropdown(options=KIND_CHOICES, value="rovibrational", description="band",
+                                 layout=ipw.Layout(width="380px"))
+        self.temperature = ipw.BoundedFloatText(value=0.0, min=0.0, max=1e5,
+                                                description="T / K",
+                                                tooltip="0 = not given",
+                                                layout=ipw.Layout(width="160px"))
+        self.assign_button = ipw.Button(description="Assign", icon="tags", button_style="primary")
+        self.assign_button.add_class("wk-assign")
+        self.assign_button.on_click(self._on_assign_click)
+
+        self.edit_line = ipw.Dropdown(options=[], description="line",
+                                      layout=ipw.Layout(width="260px"))
+        self.edit_label = ipw.Text(description="label", placeholder="R(3), P(1) or 2-0",
+                                   layout=ipw.Layout(width="210px"))
+        self.edit_isotopologue = ipw.Text(description="isotopologue", placeholder="optional",
+                                          layout=ipw.Layout(width="230px"))
+        self.lock_button = ipw.Button(description="Lock", icon="lock")
+        self.lock_button.on_click(self._on_lock_click)
+        self.clear_button = ipw.Button(description="Leave unassigned", icon="ban")
+        self.clear_button.on_click(self._on_clear_click)
+
+        self.fortrat_fig, fx, fy = _small_figure("Fortrat plot", "m", "position / cm⁻¹")
+        self.fortrat_obs = bq.Scatter(x=np.zeros(0), y=np.zeros(0), scales={"x": fx, "y": fy},
+                                      colors=[COLORS["data"]], default_size=24)
+        self.fortrat_calc = bq.Lines(x=np.zeros(0), y=np.zeros(0), scales={"x": fx, "y": fy},
+                                     colors=[COLORS["model"]], stroke_width=1)
+        self.fortrat_fig.marks = [self.fortrat_calc, self.fortrat_obs]
+        self.residual_fig, rx, ry = _small_figure("obs − calc", "position / cm⁻¹",
+                                                  "obs − calc / cm⁻¹")
+        self.residual_points = bq.Scatter(x=np.zeros(0), y=np.zeros(0),
+                                          scales={"x": rx, "y": ry}, colors=[COLORS["data"]],
+                                          default_size=24)
+        self.residual_fig.marks = [self.residual_points]
+        for mark in (self.fortrat_obs, self.residual_points):
+            mark.on_element_click(self._on_point_click)
+
+        self.assignment_table = ipw.HTML()
+        self.constants_table = ipw.HTML()
+        self._actions(self.assign_button, self.lock_button, self.clear_button)
+        self.children = [
+            ipw.HBox([self.molecule, self.kind, self.temperature, self.assign_button]),
+            self.status,
+            ipw.HBox([self.fortrat_fig, self.residual_fig]),
+            ipw.HTML("<b>Constants</b>"),
+            self.constants_table,
+            ipw.HBox([self.edit_line, self.edit_label, self.edit_isotopologue, self.lock_button,
+                      self.clear_button]),
+            ipw.HTML("<b>Assignments</b> (red: outlier; 🔒: locked)"),
+            self.assignment_table,
+        ]
+
+    # ------------------------------------------------------------------ rendering
+    def render(self) -> None:
+        s = self.session
+        if s is None:
+            self.edit_line.options = []
+            self.assignment_table.value = self.constants_table.value = ""
+            return
+        lines = s.lines
+        options = [(f"{int(r.line_id)} at {r.position:.4f} cm⁻¹", int(r.line_id))
+                   for r in lines.itertuples()]
+        if list(self.edit_line.options) != options:
+            keep = self.edit_line.value
+            self.edit_line.options = options
+            if keep in [o[1] for o in options]:
+                self.edit_line.value = keep
+        a = s.assignments
+        locks = s.locks
+        if "line_id" in a:
+            a = a.assign(locked=["🔒" if int(i) in locks else "" for i in a["line_id"]])
+        self.assignment_table.value = html_table(
+            a, name="assignments", columns=[*ASSIGNMENT_COLUMNS, "locked"],
+            headers={"obs_minus_calc": "obs − calc"},
+            row_class=lambda r: "wk-outlier" if bool(r.get("outlier", False)) else "",
+            empty="no assignment yet: fit lines, then press Assign")
+        self.constants_table.value = html_table(s.constants, name="constants",
+                                                columns=CONSTANT_COLUMNS, empty="no constants yet")
+        if s.assignment is not self._shown_assignment:
+            self._shown_assignment = s.assignment
+            self._render_plots(a)
+
+    def _render_plots(self, a: pd.DataFrame) -> None:
+        if len(a) == 0:
+            for m in (self.fortrat_obs, self.fortrat_calc, self.residual_points):
+                m.x, m.y = np.zeros(0), np.zeros(0)
+            self._plot_ids = []
+            return
+        a = a[a["label"].notna()].reset_index(drop=True)
+        self._plot_ids = [int(i) for i in a["line_id"]]
+        pos = a["position"].to_numpy(float)
+        calc = pd.to_numeric(a["calc"], errors="coerce").to_numpy(float)
+        omc = pd.to_numeric(a["obs_minus_calc"], errors="coerce").to_numpy(float)
+        isos = a["isotopologue"].astype(str).tolist()
+        colors = [ISO_COLORS[sorted(set(isos)).index(i) % len(ISO_COLORS)] for i in isos]
+        if self.kind.value == "rovibrational" or a["J_lower"].notna().any():
+            m = fortrat_m(a["J_upper"], a["J_lower"])
+            self.fortrat_fig.axes[0].label = "m"
+        else:
+            m = pd.to_numeric(a["v_upper"], errors="coerce").to_numpy(float)
+            self.fortrat_fig.axes[0].label = "v′"
+        order = np.argsort(np.where(np.isfinite(m), m, np.inf), kind="stable")
+        with self.fortrat_obs.hold_sync():
+            self.fortrat_obs.x, self.fortrat_obs.y = m, pos
+            self.fortrat_obs.colors = colors
+        ok = np.isfinite(m[order]) & np.isfinite(calc[order])
+        with self.fortrat_calc.hold_sync():
+            self.fortrat_calc.x, self.fortrat_calc.y = m[order][ok], calc[order][ok]
+        with self.residual_points.hold_sync():
+            self.residual_points.x, self.residual_points.y = pos, np.nan_to_num(omc)
+            self.residual_points.colors = [
+                "#b03a2e" if bool(o) else c for o, c in zip(a["outlier"].tolist(), colors)]
+
+    # ------------------------------------------------------------------ actions
+    def assign_options(self) -> dict:
+        """The arguments "Assign" passes to ``Session.assign_band``."""
+        t = float(self.temperature.value)
+        return {"molecule": self.molecule.value.strip(), "kind": self.kind.value,
+                "temperature": t if t > 0 else None}
+
+    def _on_assign_click(self, _button) -> None:
+        opts = self.assign_options()
+        molecule = opts.pop("molecule")
+        self._call("assign", "assign_band", molecule, **opts)
+        if self.last_error is None:
+            n = int(self.session.assignments["label"].notna().sum())
+            self.show_status("ok", f"assigned {n} of {len(self.session.assignments)} lines")
+
+    def _on_lock_click(self, _button) -> None:
+        lid = self.edit_line.value
+        if lid is None:
+            self.show_status("error", "lock: choose a line first")
+            return
+        labels = {"label": self.edit_label.value.strip()}
+        if self.edit_isotopologue.value.strip():
+            labels["isotopologue"] = self.edit_isotopologue.value.strip()
+        if not labels["label"]:
+            self.show_status("error", "lock: type a label, e.g. R(3), P(1) or 2-0")
+            return
+        self._call("lock", "set_assignment", int(lid), **labels,
+                   ok=f"line {lid} locked as {labels['label']}")
+
+    def _on_clear_click(self, _button) -> None:
+        lid = self.edit_line.value
+        if lid is None:
+            self.show_status("error", "leave unassigned: choose a line first")
+            return
+        self._call("leave unassigned", "clear_assignment", int(lid),
+                   ok=f"line {lid} left unassigned")
+
+    def _on_point_click(self, _mark, content: dict) -> None:
+        i = (content.get("data") or {}).get("index")
+        if i is None or not 0 <= int(i) < len(self._plot_ids):
+            return
+        lid = self._plot_ids[int(i)]
+        if lid in [o[1] for o in self.edit_line.options]:
+            self.edit_line.value = lid
+            row = self.session.assignments.set_index("line_id").loc[lid]
+            self.edit_label.value = str(row["label"]) if pd.notna(row["label"]) else ""
