@@ -3,12 +3,16 @@
 ``widgetkit verify FILE``
     Replay a saved session; exit 0 when it reproduces its recorded results,
     1 when it does not (the mismatches are printed), 2 when the file is unreadable.
+
+``widgetkit report`` and ``widgetkit demo``: see :mod:`widgetkit.cli_extra`.
 """
 
 from __future__ import annotations
 
 import argparse
 import sys
+
+from .cli_extra import COMMANDS as _REPORT_AND_DEMO_COMMANDS
 
 __all__ = ["main"]
 
@@ -44,7 +48,7 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 #: functions that add further sub-commands (report, demo) to the parser
-_EXTRA_COMMANDS: list = []
+_EXTRA_COMMANDS: list = [*_REPORT_AND_DEMO_COMMANDS]
 
 
 def main(argv: list[str] | None = None) -> int:

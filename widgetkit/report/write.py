@@ -1,0 +1,108 @@
+"""Write a report file in the format its suffix names."""
+
+from __future__ import annotations
+
+import io
+import os
+import tempfile
+from pathlib import Path
+
+from ..errors import WidgetkitError
+from .data import ReportData, collect
+from .figures import report_figures
+from .html import render_html
+from .render import render_csv, render_latex, render_markdown
+
+__all__ = ["REPORT_FORMATS", "ReportFormatError", "write_report", "as_report_data", "atomic_write"]
+
+#: file suffix -> format name
+REPORT_FORMATS = {".md": "markdown", ".html": "html", ".htm": "html", ".tex": "latex", ".csv": "csv"}
+
+
+class ReportFormatError(WidgetkitError, ValueError):
+    """The output name of a report does not end in a known suffix."""
+
+
+def as_report_data(source, *, title: str | None = None, verify: bool = False) -> ReportData:
+    """``source`` as :class:`ReportData`: a session is collected, report data passes through."""
+    if isinstance(source, ReportData):
+        return source
+    return collect(source, title=title, verify=verify)
+
+
+def atomic_write(path: Path, data: bytes) -> None:
+    """Write ``data`` to ``path`` through a temporary file in the same folder and a rename."""
+    fd, tmp = tempfile.mkstemp(prefix=".widgetkit-", dir=path.parent)
+    try:
+        with os.fdopen(fd, "wb") as f:
+            f.write(data)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+
+
+def _write_figures(data: ReportData, out: Path, fmt: str) -> dict[str, str]:
+    """Figure files beside ``out`` (``<stem>_<name>.<fmt>``); returns name -> relative file name."""
+    links = {}
+    for name, fig in report_figures(data).items():
+        target = out.with_name(f"{out.stem}_{name}.{fmt}")
+        meta = {"Software": None} if fmt == "png" else {"CreationDate": None}
+        buf = io.BytesIO()
+        fig.savefig(buf, format=fmt, dpi=150, metadata=meta)
+        atomic_write(target, buf.getvalue())
+        links[name] = target.name
+    return links
+
+
+def write_report(source, path, *, title: str | None = None, verify: bool = False,
+                 figures: bool = True) -> list[str]:
+    """Write the report of a session to ``path``; the format follows the suffix.
+
+    Parameters
+    ----------
+    source : Session or ReportData
+    path : str or path-like
+        ``.md`` (Markdown; figures as PNG files beside it), ``.html`` (one
+        self-contained page, figures inline as SVG), ``.tex`` (LaTeX with booktabs
+        tables; figures as PDF files beside it) or ``.csv`` (all tables, full precision).
+    title : str, optional
+        The report title (default: the spectrum's title or file name).
+    verify : bool, default False
+        Replay the session first and state the outcome in the report.
+    figures : bool, default True
+        Draw the spectrum and residual figures.
+
+    Returns
+    -------
+    list of str
+        The files written, the report first.
+
+    Raises
+    ------
+    ReportFormatError
+        When the suffix is not one of .md, .html, .tex, .csv.
+    """
+    out = Path(path).expanduser().absolute()
+    fmt = REPORT_FORMATS.get(out.suffix.lower())
+    if fmt is None:
+        raise ReportFormatError(
+            f"cannot tell the report format from {str(path)!r}: the name must end in "
+            f"{', '.join(REPORT_FORMATS)} (for example report.html)")
+    data = as_report_data(source, title=title, verify=verify)
+    written = [str(out)]
+    if fmt == "markdown":
+        links = _write_figures(data, out, "png") if figures else {}
+        text = render_markdown(data, figures=links)
+        written += [str(out.with_name(v)) for v in links.values()]
+    elif fmt == "latex":
+        links = _write_figures(data, out, "pdf") if figures else {}
+        text = render_latex(data, figures=links)
+        written += [str(out.with_name(v)) for v in links.values()]
+    elif fmt == "html":
+        text = render_html(data, figures=figures)
+    else:
+        text = render_csv(data)
+    atomic_write(out, text.encode("utf-8"))
+    return written
