@@ -150,8 +150,8 @@ def band_strengths(levels: VibrationalLevels, dipole: Sequence[float], *,
         as fully populated (population 1) and there is no stimulated emission:
         intrinsic strengths per molecule in v″.
     allowed_tol : float
-        A band is ``allowed`` when |M| > allowed_tol × the largest |M| off the
-        diagonal (numerical noise of the DVR is ~1e-13 of it).
+        A band is ``allowed`` when |M| > allowed_tol × the largest element of
+        the moment matrix, diagonal included (DVR noise is ~1e-13 of it).
     max_v_lower : int, optional
         Leave out bands from v″ above this.
 
@@ -186,12 +186,11 @@ def band_strengths(levels: VibrationalLevels, dipole: Sequence[float], *,
         vl, vu = vl[keep], vu[keep]
     pos = e[vu] - e[vl]
     mom = m[vu, vl]
-    offdiag = np.abs(m[np.triu_indices(n, k=1)])
-    noise = allowed_tol * float(offdiag.max()) if offdiag.size else 0.0
+    noise = allowed_tol * float(np.max(np.abs(m)))
     s = integrated_absorption(pos, mom, pop[vl], temperature)
     fund = (vu == 1) & (vl == 0)
     ref = float(s[fund][0]) if fund.any() else math.nan
-    if not (ref > 0):
+    if not (abs(m[1, 0]) > noise and ref > 0):
         raise OscillatorError(
             "the fundamental 1-0 has zero moment with this dipole, so intensities relative to it "
             "are undefined; give a dipole with a non-zero slope c1"

@@ -162,9 +162,9 @@ def _diagonalise(veff, r: np.ndarray, kin: float, n_want: int | None, limit: flo
         e, c = sl.eigh(h, check_finite=False)
     elif n_want is not None:
         n = min(n_want, r.size)
-        e, c = sl.eigh(h, subset_by_index=[0, n - 1], check_finite=False, driver="evr")
+        e, c = sl.eigh(h, subset_by_index=[0, n - 1], check_finite=False, driver="evx")
     else:
-        e, c = sl.eigh(h, subset_by_value=[-np.inf, limit], check_finite=False, driver="evr")
+        e, c = sl.eigh(h, subset_by_value=[-np.inf, limit], check_finite=False, driver="evx")
     return e, c
 
 
