@@ -255,25 +255,35 @@ def seed_band(data: Lines, locks: dict, molecule: Diatomic, band, *, frac: float
         seed_iso, init = rich[0]
         got = bootstrap(xs, init, frac=frac, forbidden=other_locked - set(init.values()))
     else:
-        best = None
         pin = rich[0] if rich else None
-        for i, j in gap_hypotheses(xs, frac=frac):
-            if {i, j} & (other_locked - (set(pin[1].values()) if pin else set())):
+        forb = other_locked - (set(pin[1].values()) if pin else set())
+        area_s = data.area[data.order]
+        hyps = [(i, j) for i, j in gap_hypotheses(xs, area_s, frac=frac) if not ({i, j} & forb)]
+        # a short bootstrap of every hypothesis ranks them; the best are run in full
+        short = [(bootstrap(xs, {-1: i, 1: j}, frac=frac, forbidden=forb, max_lines=10), i, j)
+                 for i, j in hyps]
+        top = max((len(g) for g, _, _ in short), default=0)
+        cands: dict = {}
+        seen_short: set = set()
+        for g0, i, j in short:
+            key0 = frozenset(g0.items())
+            if (len(g0) < top - 1 and not pin) or key0 in seen_short:
                 continue
-            g = bootstrap(xs, {-1: i, 1: j}, frac=frac,
-                          forbidden=other_locked - (set(pin[1].values()) if pin else set()))
+            seen_short.add(key0)
+            g = bootstrap(xs, {-1: i, 1: j}, frac=frac, forbidden=forb)
             if pin and any(g.get(m) != k for m, k in pin[1].items()):
                 continue
-            area = np.nansum(data.area[data.order][list(g.values())])
-            key = (len(g), area, -i)
-            if best is None or key > best[0]:
-                best = (key, g)
-        if best is None:
+            cands.setdefault(frozenset(g.items()), (g, i))
+        if not cands:
             raise AssignmentError(
                 "no band-origin gap found: no pair of neighbouring lines looks like P(1), R(0) with "
                 "P(2), R(1) beyond; lock two lines by hand with s.set_assignment(line_id, "
                 "label='R(0)') and s.set_assignment(line_id, label='P(1)')")
-        got = best[1]
+        best_n = max(len(g) for g, _ in cands.values())
+        scored = [(_seed_score(g, xs, area_s), float(np.nansum(area_s[list(g.values())])), -i, g)
+                  for g, i in cands.values() if len(g) >= best_n - 2]
+        scored.sort(key=lambda t: t[:3], reverse=True)
+        got = scored[0][3]
         seed_iso = pin[0] if pin else None
     if len(got) < 4:
         raise AssignmentError(
@@ -287,6 +297,43 @@ def seed_band(data: Lines, locks: dict, molecule: Diatomic, band, *, frac: float
                             centrifugal=centrifugal, outlier_sigma=1e9)
     model.jmax = int(max(Ju.max(), Jl.max())) + 8
     return model, seed_iso
+
+
+def _seed_score(g: dict, xs: np.ndarray, area: np.ndarray) -> float:
+    """Plausibility of one bootstrap: lines indexed, minus penalties.
+
+    A missing line can mimic the origin gap and re-index the whole band with
+    an equally good fit of the positions; the areas tell them apart (a true
+    labelling gives a straight Boltzmann plot). Without areas, branches of
+    very different length are mildly penalised.
+    """
+    ms = np.array(sorted(g))
+    if len(ms) < 4:
+        return -np.inf
+    Ju, Jl = m_to_J(ms)
+    y = xs[[g[m] for m in ms]]
+    try:
+        bf = fit_band(Ju, Jl, y, None, centrifugal="shared" if len(ms) >= 7 else "none")
+    except AssignmentError:
+        return -np.inf
+    v = bf.values
+    if not (v["B_lower"] > 0 and v["B_upper"] > 0):
+        return -np.inf
+    score = float(len(ms))
+    a = area[[g[m] for m in ms]]
+    ok = np.isfinite(a) & (a > 0)
+    if ok.sum() >= 4:
+        E = v["B_lower"] * Jl * (Jl + 1.0) - v["D_lower"] * (Jl * (Jl + 1.0)) ** 2
+        L = np.where(Ju > Jl, Jl + 1.0, Jl * 1.0)
+        yy = np.log(a[ok] / (y[ok] * L[ok]))
+        A = np.column_stack([np.ones(ok.sum()), E[ok]])
+        coef, *_ = np.linalg.lstsq(A, yy, rcond=None)
+        sB = robust_scale(yy - A @ coef)
+        score -= 10.0 * min(sB, 1.0) + (5.0 if coef[1] >= 0 else 0.0)
+    else:
+        nR = int((ms > 0).sum())
+        score -= 2.0 * abs(2 * nR - len(ms)) / len(ms)
+    return score
 
 
 @dataclass

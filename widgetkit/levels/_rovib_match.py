@@ -60,7 +60,9 @@ def match(data: Lines, locks: dict, models: dict, frac: float, seed_iso: str) ->
     if len(rows) and len(pc):
         so = _obs_sigma(data, models, piso, rows)
         diff = data.x[rows][:, None] - pc[None, :]
-        cost = diff**2 / (so**2 + pe[None, :] ** 2 + 1e-300)
+        var = so**2 + pe[None, :] ** 2 + 1e-300
+        # Gaussian negative log-likelihood: a vague prediction does not win over a sharp one
+        cost = diff**2 / var + np.log(var)
         allowed = np.abs(diff) <= pw[None, :]
         for k, r in enumerate(rows):
             if r in locks and locks[r][1] is None:
@@ -77,8 +79,10 @@ def match(data: Lines, locks: dict, models: dict, frac: float, seed_iso: str) ->
     st = State(iso=iso, Ju=Ju, Jl=Jl, calc=np.full(n, np.nan), calc_err=np.full(n, np.nan),
                outlier=np.zeros(n, dtype=bool), blended=np.zeros(n, dtype=bool),
                blend_with=np.full(n, None, dtype=object), models=dict(models), seed_iso=seed_iso)
-    _mark_blends(data, st, models, piso[~matched_pred], pju[~matched_pred], pjl[~matched_pred],
-                 pc[~matched_pred], pe[~matched_pred], pw[~matched_pred])
+    # only predictions within the J range seen so far can hide in another line
+    seen = np.array([pjl[k] <= models[piso[k]].jmax - 8 for k in range(len(pc))], dtype=bool)
+    un = ~matched_pred & seen
+    _mark_blends(data, st, models, piso[un], pju[un], pjl[un], pc[un], pe[un], pw[un])
     return st
 
 

@@ -44,14 +44,26 @@ def _nearest_free(x, taken, target, tol):
     return best
 
 
-def gap_hypotheses(x, *, frac: float = 0.25, reach: int = 3) -> list[tuple[int, int]]:
+def gap_hypotheses(x, area=None, *, frac: float = 0.25, reach: int = 3) -> list[tuple[int, int]]:
     """Pairs (i, j) of indices into ascending ``x`` that may be (P(1), R(0)).
 
     Kept when lines near x_j + d/2 (R(1)) and x_i − d/2 (P(2)) exist within
-    ``frac`` × d/2, d = x_j − x_i; if no pair has both, pairs with one of them.
+    ``frac`` × d/2, d = x_j − x_i (if no pair has both, pairs with one of
+    them), and when the gap is empty: lines between i and j (other
+    isotopologues, impurities) are allowed only when areas are known and each
+    is below half the weaker of lines i and j.
     """
     n = len(x)
-    pairs = [(i, j) for i in range(n) for j in range(i + 1, min(i + 1 + reach, n))]
+    a = np.full(n, np.nan) if area is None else np.asarray(area, dtype=float)
+    pairs = []
+    for i in range(n):
+        for j in range(i + 1, min(i + 1 + reach, n)):
+            if j > i + 1:
+                inner = a[i + 1:j]
+                lim = 0.5 * min(a[i], a[j])
+                if not (np.isfinite(lim) and np.all(np.isfinite(inner)) and np.all(inner < lim)):
+                    continue
+            pairs.append((i, j))
     if not pairs:
         return []
     I = np.array([p[0] for p in pairs])
@@ -74,8 +86,11 @@ def _degree(n: int) -> int:
 
 
 def bootstrap(x, init: dict[int, int], *, frac: float = 0.25, max_miss: int = 2,
-              forbidden: frozenset = frozenset()) -> dict[int, int]:
-    """Index lines by m outward from ``init`` (m -> index into ascending ``x``)."""
+              forbidden: frozenset = frozenset(), max_lines: int | None = None) -> dict[int, int]:
+    """Index lines by m outward from ``init`` (m -> index into ascending ``x``).
+
+    Stops when both branches ran out, or after ``max_lines`` lines.
+    """
     got = dict(init)
     taken = set(got.values()) | set(forbidden)
     lo, hi = float(x[0]), float(x[-1])
@@ -84,16 +99,32 @@ def bootstrap(x, init: dict[int, int], *, frac: float = 0.25, max_miss: int = 2,
     miss = {1: 0, -1: 0}
     active = {1: True, -1: True}
     scale = 30.0
-    while active[1] or active[-1]:
-        ms = np.fromiter(got.keys(), dtype=float)
-        xs = x[np.fromiter(got.values(), dtype=int)]
-        coef = npp.polyfit(ms / scale, xs, min(_degree(len(ms)), len(ms) - 1))
+    x0 = float(x[next(iter(got.values()))])
+    # running moments of the normal equations: S[k] = Σ t^k, T[k] = Σ t^k (x − x0), t = m/scale
+    S = np.zeros(9)
+    T = np.zeros(5)
+    pw = np.arange(9)
+
+    def add(m, xi):
+        t = m / scale
+        S[:] += t**pw
+        T[:] += t ** pw[:5] * (xi - x0)
+
+    for m, i in got.items():
+        add(m, x[i])
+    while (active[1] or active[-1]) and (max_lines is None or len(got) < max_lines):
+        deg = min(_degree(len(got)), len(got) - 1)
+        H = S[np.add.outer(np.arange(deg + 1), np.arange(deg + 1))]
+        try:
+            coef = np.linalg.solve(H, T[: deg + 1])
+        except np.linalg.LinAlgError:
+            break
         for side in (1, -1):
             if not active[side]:
                 continue
             m = nxt[side]
-            pred = npp.polyval(m / scale, coef)
-            spacing = abs(pred - npp.polyval((m - side) / scale, coef))
+            pred = x0 + npp.polyval(m / scale, coef)
+            spacing = abs(pred - x0 - npp.polyval((m - side) / scale, coef))
             if not (lo - spacing <= pred <= hi + spacing) or spacing <= 0:
                 active[side] = False
                 continue
@@ -101,6 +132,7 @@ def bootstrap(x, init: dict[int, int], *, frac: float = 0.25, max_miss: int = 2,
             if i >= 0:
                 got[m] = i
                 taken.add(i)
+                add(m, x[i])
                 miss[side] = 0
             else:
                 miss[side] += 1

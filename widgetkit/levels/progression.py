@@ -1,0 +1,318 @@
+"""Vibrational progressions: label band centres as fundamental, overtones and
+hot bands, and fit G(v).
+
+Model (Herzberg, *Spectra of Diatomic Molecules*)::
+
+    ν(v′ ← v″) = G(v′) − G(v″),  G(v) = ωe(v+½) − ωexe(v+½)² + ωeye(v+½)³
+
+linear in (ωe, ωexe, ωeye).
+
+Labelling search (:func:`fit_progression`): every pair of observed bands and
+every pair of candidate labels (v′ ≤ ``v_max``, v″ ≤ ``hot_max``) gives ωe
+and ωexe exactly; hypotheses with 0 < ωexe/ωe ≤ ``max_anharmonicity`` label
+each band with its nearest predicted label. Each distinct labelling is refitted
+(two terms, and three when at least four bands are labelled) and scored by
+
+    χ² + k ln n + 10 × (expected bands missing) + 25 × (outliers)
+
+where χ² uses the stated uncertainties (1 cm⁻¹ when none are given), k is the
+number of parameters, and a band v′-v″ "expects" the stronger band
+(v′−1)-(v″−1) (hot band) or (v′−1)-0 (overtone), the fundamental 1-0 being
+expected by all. The lowest score wins; ties go to lower quantum numbers.
+
+Derived constants:
+
+* force_constant k = 4π²c²μωe² (N/m; c in cm/s, μ in kg);
+* D_e_morse = ωe²/(4ωexe) (the Morse well depth of the two-term G);
+* zero_point G(0) = ωe/2 − ωexe/4 + ωeye/8;
+* D_0_birge_sponer: **convention** — the area under the fitted
+  ΔG(v+½) = G(v+1) − G(v) curve plotted against v+½, from v+½ = 0 to its
+  first zero; for the two-term model this is (ωe − ωexe)²/(4ωexe) =
+  D_e_morse − G(0) exactly.
+
+Errors are propagated from the covariance by numerical gradients.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+from scipy import constants as sc
+
+from ..errors import AssignmentError
+from ._lsq import SingularDesign, propagate, robust_scale, weighted_lstsq
+from .candidates import band_label
+from .molecule import Diatomic
+
+__all__ = ["Progression", "fit_progression", "assign_progression", "birge_sponer"]
+
+_P_MISS, _P_OUT = 10.0, 25.0
+
+
+@dataclass(frozen=True)
+class Progression:
+    """Result of :func:`fit_progression`.
+
+    Attributes
+    ----------
+    assignments : DataFrame
+        ``position, position_err, v_upper, v_lower, label, kind, calc, obs_minus_calc, outlier``
+        (+ ``line_id`` from :func:`assign_progression`), input order.
+    constants : DataFrame
+        ``isotopologue, name, value, stderr, unit``.
+    covariance : DataFrame
+        Of the fitted ωe, ωexe (, ωeye).
+    score : float
+        Criterion of the chosen labelling (lower is better).
+    alternatives : DataFrame
+        The best other labellings: ``labels, n_params, score``.
+    messages : list of str
+    """
+
+    assignments: pd.DataFrame
+    constants: pd.DataFrame
+    covariance: pd.DataFrame = field(repr=False)
+    score: float = 0.0
+    alternatives: pd.DataFrame = field(default=None, repr=False)
+    messages: list = field(default_factory=list)
+
+
+def _labels(v_max: int, hot_max: int) -> np.ndarray:
+    return np.array([(vu, vl) for vl in range(hot_max + 1) for vu in range(vl + 1, v_max + 1)])
+
+
+def _design(lab: np.ndarray, k: int) -> np.ndarray:
+    hu, hl = lab[:, 0] + 0.5, lab[:, 1] + 0.5
+    cols = [hu - hl, -(hu**2 - hl**2), hu**3 - hl**3]
+    return np.column_stack(cols[:k])
+
+
+def _expected(lab: set) -> set:
+    exp = {(1, 0)}
+    for vu, vl in lab:
+        if vl > 0:
+            exp.add((vu - 1, vl - 1))
+        elif vu > 1:
+            exp.add((vu - 1, 0))
+    return exp - {(a, b) for a, b in exp if a <= b}
+
+
+def _fit_labelling(x, s, lab, k, outlier_sigma, absolute):
+    n = len(x)
+    A = _design(lab, k)
+    out = np.zeros(n, dtype=bool)
+    for _ in range(6):
+        use = ~out
+        f = weighted_lstsq(A[use], x[use], s[use] if absolute else None)
+        r = x - A @ f.beta
+        if f.dof >= 2:
+            sc_ = max(1.0, robust_scale(r[use] / s[use])) if absolute else robust_scale(r[use])
+            zz = np.abs(r) / (s * sc_ if absolute else max(sc_, 1e-12))
+            new = zz > outlier_sigma
+        else:
+            new = np.zeros(n, dtype=bool)
+        if np.array_equal(new, out) or new.sum() > n - k - 1:
+            break
+        out = new
+    return f, r, out
+
+
+def _criterion(f, r, out, s, lab, k) -> float:
+    use = ~out
+    chi2 = float(np.sum((r[use] / s[use]) ** 2))
+    n = int(use.sum())
+    present = {tuple(map(int, t)) for t in lab}
+    miss = len(_expected(present) - present)
+    return chi2 + k * np.log(max(n, 2)) + _P_MISS * miss + _P_OUT * int(out.sum()) \
+        + 1e-3 * float(lab.sum())
+
+
+def birge_sponer(omega_e: float, omega_e_x_e: float, omega_e_y_e: float = 0.0) -> float:
+    """Area under ΔG(v+½) against v+½ from 0 to its first zero (cm⁻¹); see the module docstring.
+
+    ΔG(u) = ωe − ωexe(2u+1) + ωeye(3u² + 3u + 1), u = v+½.
+    """
+    p = np.polynomial.Polynomial([omega_e - omega_e_x_e + omega_e_y_e,
+                                  -2 * omega_e_x_e + 3 * omega_e_y_e, 3 * omega_e_y_e])
+    roots = [z.real for z in p.roots() if abs(z.imag) < 1e-9 and z.real > 0]
+    if not roots:
+        return float("nan")
+    P = p.integ()
+    return float(P(min(roots)) - P(0.0))
+
+
+def fit_progression(
+    band_origins,
+    *,
+    uncertainties=None,
+    molecule: Diatomic | None = None,
+    isotopologue: str | None = None,
+    outlier_sigma: float = 4.0,
+    v_max: int = 6,
+    hot_max: int = 3,
+    max_anharmonicity: float = 0.05,
+    n_terms: int | None = None,
+) -> Progression:
+    """Label band centres (fundamental, overtones, hot bands) and fit ωe, ωexe (, ωeye).
+
+    Parameters
+    ----------
+    band_origins : array_like, shape (n,)
+        Band centres, cm⁻¹ (n ≥ 2).
+    uncertainties : array_like, shape (n,), optional
+        Their standard errors (cm⁻¹). Without them the labelling uses 1 cm⁻¹
+        and the reported errors come from the scatter.
+    molecule : Diatomic, optional
+        Needed for ``force_constant``.
+    isotopologue : str, optional
+        Which isotopologue's reduced mass to use (default the most abundant).
+    outlier_sigma : float
+        Bands further than this many σ from the fit are flagged and left out.
+    v_max, hot_max : int
+        Highest v′ and v″ considered.
+    max_anharmonicity : float
+        Largest ωexe/ωe accepted for a labelling (typical molecules 0.002–0.03).
+    n_terms : {2, 3}, optional
+        Force the two- or three-term G(v); default chosen by the score (three
+        terms need at least four bands).
+
+    Returns
+    -------
+    Progression
+
+    Raises
+    ------
+    AssignmentError
+        Fewer than two bands, non-finite values, or no consistent labelling.
+    """
+    x = np.asarray(band_origins, dtype=float).ravel()
+    n = len(x)
+    if n < 2:
+        raise AssignmentError(f"a progression needs at least 2 band centres to fit ωe and ωexe, got {n}")
+    if not np.all(np.isfinite(x)) or np.any(x <= 0):
+        raise AssignmentError("band centres must be finite and > 0 cm-1")
+    absolute = uncertainties is not None
+    s = np.ones(n) if uncertainties is None else np.asarray(uncertainties, dtype=float).ravel()
+    if s.shape != x.shape or not np.all(np.isfinite(s) & (s > 0)):
+        raise AssignmentError("uncertainties must be one finite positive value per band centre")
+    if n_terms not in (None, 2, 3):
+        raise AssignmentError(f"n_terms must be 2, 3 or None, got {n_terms}")
+    L = _labels(v_max, hot_max)
+    A2 = _design(L, 2)
+    # all pair hypotheses at once
+    ia, ib = np.triu_indices(n, 1)
+    la, lb = np.nonzero(~np.eye(len(L), dtype=bool))
+    a11, a12 = A2[la, 0][None, :], A2[la, 1][None, :]
+    a21, a22 = A2[lb, 0][None, :], A2[lb, 1][None, :]
+    det = a11 * a22 - a12 * a21
+    ya, yb = x[ia][:, None], x[ib][:, None]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        we = (ya * a22 - a12 * yb) / det
+        wx = (a11 * yb - a21 * ya) / det
+    ok = np.isfinite(we) & (we > 0) & (wx > 0) & (wx <= max_anharmonicity * we)
+    we, wx = we[ok], wx[ok]
+    if we.size == 0:
+        raise AssignmentError(
+            "no labelling of these band centres is consistent with G(v) = ωe(v+½) − ωexe(v+½)² "
+            f"with 0 < ωexe/ωe ≤ {max_anharmonicity}; check the values or raise max_anharmonicity")
+    pred = we[:, None] * A2[None, :, 0] + wx[:, None] * A2[None, :, 1]  # (H, L)
+    d = np.abs(x[None, :, None] - pred[:, None, :])  # (H, n, L)
+    near = np.argmin(d, axis=2)
+    uniq = np.unique(near, axis=0)
+    # keep labellings with distinct labels per band
+    uniq = uniq[np.array([len(set(u.tolist())) == n for u in uniq], dtype=bool)]
+    if len(uniq) == 0:
+        raise AssignmentError("every labelling gives two bands the same label; are there duplicates?")
+    cands = []
+    for u in uniq:
+        lab = L[u]
+        for k in ((2, 3) if n_terms is None else (n_terms,)):
+            if k == 3 and n < 4:
+                continue
+            try:
+                f, r, out = _fit_labelling(x, s, lab, k, outlier_sigma, True)
+            except SingularDesign:
+                continue
+            cands.append((_criterion(f, r, out, s, lab, k), k, tuple(u.tolist())))
+    if not cands:
+        raise AssignmentError("no labelling could be fitted; give more band centres")
+    cands.sort()
+    score, k, u = cands[0]
+    lab = L[np.array(u)]
+    f, r, out = _fit_labelling(x, s, lab, k, outlier_sigma, absolute)
+    msgs = []
+    alt = pd.DataFrame([{"labels": [band_label(*L[j]) for j in c[2]], "n_params": c[1], "score": c[0]}
+                        for c in cands[1:6]], columns=["labels", "n_params", "score"])
+    if len(cands) > 1 and cands[1][0] - score < 2.0 and cands[1][2] != u:
+        msgs.append("another labelling scores almost as well: "
+                    + ", ".join(alt["labels"].iloc[0]) + f" (score {cands[1][0]:.2f} vs {score:.2f})")
+    calc = _design(lab, k) @ f.beta
+    kinds = ["hot" if vl > 0 else ("fundamental" if vu == 1 else "overtone") for vu, vl in lab]
+    table = pd.DataFrame({
+        "position": x, "position_err": s if absolute else np.full(n, np.nan),
+        "v_upper": lab[:, 0].astype(int), "v_lower": lab[:, 1].astype(int),
+        "label": [band_label(vu, vl) for vu, vl in lab], "kind": kinds,
+        "calc": calc, "obs_minus_calc": x - calc, "outlier": out,
+    })
+    for i in np.nonzero(out)[0]:
+        msgs.append(f"band at {x[i]:.3f} cm-1 ({table['label'][i]}) is {r[i]:+.3f} cm-1 from the fit: "
+                    "flagged as an outlier and left out")
+    if not absolute and f.dof == 0:
+        msgs.append("as many bands as parameters and no uncertainties: standard errors are unknown")
+    names = ["omega_e", "omega_e_x_e", "omega_e_y_e"][:k]
+    cov = f.cov if np.all(np.isfinite(f.cov)) else np.full_like(f.cov, np.nan)
+    iso = None
+    if molecule is not None:
+        iso = molecule.isotopologue(isotopologue) if isotopologue else molecule.main
+    consts = _derived(f.beta, cov, names, iso)
+    cdf = pd.DataFrame(consts, columns=["isotopologue", "name", "value", "stderr", "unit"])
+    return Progression(table, cdf, pd.DataFrame(cov, index=names, columns=names), float(score),
+                       alt, msgs)
+
+
+def _derived(beta, cov, names, iso) -> list:
+    name = iso.name if iso is not None else ""
+    b = np.r_[beta, 0.0] if len(beta) == 2 else np.asarray(beta)
+    rows = [{"isotopologue": name, "name": nm, "value": float(v), "stderr": float(np.sqrt(cov[i, i])),
+             "unit": "cm-1"} for i, (nm, v) in enumerate(zip(names, beta, strict=True))]
+    funcs = {
+        "D_e_morse": (lambda p: p[0] ** 2 / (4 * p[1]), "cm-1"),
+        "zero_point": (lambda p: p[0] / 2 - p[1] / 4 + p[2] / 8, "cm-1"),
+        "D_0_birge_sponer": (lambda p: birge_sponer(p[0], p[1], p[2]), "cm-1"),
+    }
+    if iso is not None:
+        mu = iso.reduced_mass * sc.atomic_mass
+        funcs["force_constant"] = (lambda p: 4 * np.pi**2 * (sc.c * 100) ** 2 * mu * p[0] ** 2, "N/m")
+    for nm, (fn, unit) in funcs.items():
+        v = fn(b)
+        g = np.zeros(len(beta))
+        for j in range(len(beta)):
+            h = 1e-6 * max(abs(b[j]), 1e-3)
+            bp, bm = b.copy(), b.copy()
+            bp[j] += h
+            bm[j] -= h
+            g[j] = (fn(bp) - fn(bm)) / (2 * h)
+        rows.append({"isotopologue": name, "name": nm, "value": float(v),
+                     "stderr": propagate(g, cov), "unit": unit})
+    return rows
+
+
+def assign_progression(lines: pd.DataFrame, molecule: Diatomic | None = None, **opts) -> Progression:
+    """:func:`fit_progression` on a lines table (``line_id, position``, optional ``position_err``).
+
+    The result's ``assignments`` gains the ``line_id`` column (first).
+    """
+    if not isinstance(lines, pd.DataFrame) or not {"line_id", "position"} <= set(lines.columns):
+        raise AssignmentError("lines must be a DataFrame with columns line_id, position (position_err)")
+    err = None
+    if "position_err" in lines.columns:
+        e = lines["position_err"].to_numpy(dtype=float)
+        if np.all(np.isfinite(e) & (e > 0)):
+            err = e
+    p = fit_progression(lines["position"].to_numpy(dtype=float), uncertainties=err,
+                        molecule=molecule, **opts)
+    table = p.assignments.copy()
+    table.insert(0, "line_id", lines["line_id"].to_numpy())
+    return Progression(table, p.constants, p.covariance, p.score, p.alternatives, p.messages)
