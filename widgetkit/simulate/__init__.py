@@ -14,7 +14,14 @@ the function, all its arguments (JSON-able) and the widgetkit version.
 """
 
 from .handbook import HANDBOOK
-from .lines import CONSTANT_NAMES, SimulationError, check_constants, line_list, partition_sum
+from .lines import (
+    CONSTANT_NAMES,
+    SimulationError,
+    check_constants,
+    line_list,
+    partition_sum,
+    rotational_populations,
+)
 from .spectra import (
     doppler_fwhm,
     doppler_sigma,
@@ -26,6 +33,6 @@ from .spectra import (
 
 __all__ = [
     "HANDBOOK", "CONSTANT_NAMES", "SimulationError", "check_constants", "line_list",
-    "partition_sum", "rovibrational", "vibrational", "render_lines", "doppler_sigma",
-    "doppler_fwhm", "voigt_fwhm",
+    "partition_sum", "rotational_populations", "rovibrational", "vibrational", "render_lines",
+    "doppler_sigma", "doppler_fwhm", "voigt_fwhm",
 ]

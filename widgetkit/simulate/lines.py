@@ -42,7 +42,8 @@ from ..oscillator import (
     transition_moments,
 )
 
-__all__ = ["SimulationError", "CONSTANT_NAMES", "line_list", "check_constants", "partition_sum"]
+__all__ = ["SimulationError", "CONSTANT_NAMES", "line_list", "check_constants", "partition_sum",
+           "rotational_populations"]
 
 #: names understood in a constants mapping (cm⁻¹; r_e in Å)
 CONSTANT_NAMES = ("omega_e", "omega_e_x_e", "omega_e_y_e", "B_e", "alpha_e", "gamma_e",
@@ -149,6 +150,31 @@ def partition_sum(c: Mapping[str, float], temperature: float) -> float:
         q += float(np.sum((2 * J + 1) * np.exp(-C2 * (ev + f(v, J)) / temperature)))
         v += 1
     return q
+
+
+def rotational_populations(constants: Mapping[str, float], temperature: float, *, v: int = 0,
+                           J_max: int | None = None) -> pd.DataFrame:
+    """Boltzmann populations of the rotational levels of one vibrational level.
+
+    p(J) = (2J+1) exp(−c₂ F_v(J)/T) / q_rot with q_rot = Σ_J (2J+1) exp(−c₂ F_v(J)/T)
+    summed directly (to 1e-16 of the largest term, or to ``J_max``).
+
+    Returns
+    -------
+    DataFrame with ``J``, ``energy`` (F_v(J), cm⁻¹), ``population`` (fraction),
+    and ``attrs["q_rot"]``.
+    """
+    c = check_constants(constants)
+    t = check_temperature(temperature)
+    jm = _j_limit(c, int(v), t, 1e-16) if J_max is None else int(J_max)
+    _, f = _terms(c)
+    J = np.arange(jm + 1)
+    F = f(int(v), J)
+    w = (2 * J + 1) * np.exp(-C2 * F / t)
+    q = float(w.sum())
+    out = pd.DataFrame({"J": J, "energy": F, "population": w / q})
+    out.attrs["q_rot"] = q
+    return out
 
 
 def _band_factors(c: Mapping[str, float], reduced_mass: float, bands, dipole) -> dict:
