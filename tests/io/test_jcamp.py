@@ -225,3 +225,30 @@ def test_any_evenly_spaced_spectrum_round_trips_through_difdup(tmp_path, ys, x0,
     assert back.x == pytest.approx(s.x, rel=1e-12, abs=1e-9)
     # self-consistency: within the YFACTOR/2 quantisation
     assert np.all(np.abs(back.y - y) <= 0.5 * yf + 1e-12 * np.abs(y).max())
+
+
+def test_a_descending_file_is_read_ascending_with_its_ordinates(tmp_path):
+    text = (LR07.replace("##FIRSTX=2000", "##FIRSTX=2009").replace("##LASTX=2009", "##LASTX=2000")
+            .replace("##DELTAX=1", "##DELTAX=-1").replace("2004A10", "2005A10")
+            .replace("2000A00", "2009A00").replace("2009H1", "2000H1"))
+    s = read_jcamp(write(tmp_path, text))
+    assert s.x.tolist() == list(range(2000, 2010))
+    ints = [100, 102, 104, 104, 110, 95, 95, 95, 80, 81][::-1]  # hand-decoded, reversed
+    assert s.y == pytest.approx(np.array(ints) * 0.001, rel=1e-15)
+
+
+def test_xfactor_and_yfactor_scale_point_lists(tmp_path):
+    text = ("##TITLE=LR-16 scaled points\n##JCAMP-DX=4.24\n##XUNITS=1/CM\n"
+            "##YUNITS=ABSORBANCE\n##XFACTOR=0.5\n##YFACTOR=0.01\n##NPOINTS=3\n"
+            "##XYPOINTS=(XY..XY)\n2000,10\n2002,20\n2004,30\n##END=\n")
+    s = read_jcamp(write(tmp_path, text))
+    assert s.x.tolist() == [1000.0, 1001.0, 1002.0]  # values times XFACTOR 0.5
+    assert s.y == pytest.approx([0.1, 0.2, 0.3], rel=1e-15)  # values times YFACTOR 0.01
+
+
+def test_xfactor_scales_the_line_x_of_xydata(tmp_path):
+    text = LR07.replace("##XFACTOR=1.0", "##XFACTOR=0.1").replace("2000A00", "20000A00").replace(
+        "2004A10", "20040A10").replace("2009H1", "20090H1")
+    assert read_jcamp(write(tmp_path, text)).x[0] == 2000.0  # FIRSTX is unscaled (spec)
+    with pytest.raises(SpectrumFormatError, match="line is missing"):
+        read_jcamp(write(tmp_path, LR07.replace("##XFACTOR=1.0", "##XFACTOR=0.1")))

@@ -221,3 +221,21 @@ def test_any_finite_spectrum_round_trips_exactly_through_csv(tmp_path, pairs, ki
     s = wk.Spectrum(x, [p[1] for p in pairs], y_kind=kind)
     back = read_text(write_csv(s, tmp_path / "h.csv"))
     assert back == s  # self-consistency: bit-exact round trip
+
+
+def test_blank_separated_labels_keep_their_units_with_them(tmp_path):
+    p = write(tmp_path, "Wavenumber (cm-1) Absorbance\n1 0.1\n2 0.2\n3 0.3\n")
+    s = read_text(p)
+    assert s.meta["columns"] == ["Wavenumber (cm-1)", "Absorbance"] and s.y_kind == "absorbance"
+    q = write(tmp_path, "wavelength / nm transmittance\n1 0.1\n2 0.2\n3 0.3\n", "q.txt")
+    assert read_text(q).meta["x_unit"] == "nm"
+
+
+def test_windows_line_ends_a_byte_order_mark_and_latin1_labels_are_read(tmp_path):
+    p = tmp_path / "w.csv"
+    p.write_bytes(b"\xef\xbb\xbfWavenumber (cm-1),Absorbance\r\n1,0.5\r\n2,0.25\r\n3,0.125\r\n")
+    assert read_text(p).y.tolist() == [0.5, 0.25, 0.125]
+    q = tmp_path / "l.csv"
+    q.write_bytes(b"Wavelength (\xb5m),Absorbance\n2,0.5\n4,0.25\n5,0.125\n")  # Latin-1 micro
+    s = read_text(q)
+    assert s.meta["x_unit"] == "um" and s.x.tolist() == [2000.0, 2500.0, 5000.0]  # 1e4/um

@@ -230,8 +230,7 @@ def finish(x: np.ndarray, y: np.ndarray, *, x_unit: str, y_kind: str, percent: b
         if percent:
             y = y / 100.0
         meta["transmittance_percent"] = bool(percent)
-    dx = np.diff(x)
-    if np.any(dx <= 0):
+    if not np.all(x[1:] > x[:-1]):
         order = np.argsort(x, kind="stable")
         xs = x[order]
         same = np.flatnonzero(xs[1:] == xs[:-1])

@@ -130,11 +130,25 @@ def _sniff(head: str, complete: bool, path: str) -> _Layout:
     return layout
 
 
+def _merge_units(words: list[str]) -> list[str]:
+    """Join blank-separated label words so that units stay with their quantity:
+    ``["Wavenumber", "(cm-1)", "Absorbance"] -> ["Wavenumber (cm-1)", "Absorbance"]``."""
+    out: list[str] = []
+    for w in words:
+        if out and (w[0] in "([{/" or out[-1].endswith("/")):
+            out[-1] += " " + w
+        else:
+            out.append(w)
+    return out
+
+
 def _header_names(line: str, delim: str | None, ncols: int) -> list[str] | None:
-    tries = [delim] if delim is not None else ["\t", "  ", ",", ";", None]
+    tries = [delim] if delim is not None else ["\t", "  ", ",", ";", None, "units"]
     for d in tries:
         if d == "  ":
             cells = [c.strip() for c in re.split(r"\s{2,}", line.strip())]
+        elif d == "units":
+            cells = _merge_units(line.split())
         else:
             cells = _split(line, d)
         if len(cells) == ncols and all(cells):
@@ -285,6 +299,7 @@ def read_text(path, *, x_unit: str | None = None, y_kind: str | None = None,
     meta: dict[str, Any] = {
         "title": title or os.path.splitext(os.path.basename(apath))[0],
         "x_unit": unit, "x_unit_from": unit_from, "x_label": x_label,
+        "x_quantity": x_quantity or ("wavenumber" if unit == "cm-1" else None),
         "y_label": y_label, "y_quantity": y_quantity or kind, "y_kind_from": kind_from,
         "columns": names, "y_column": y_label if y_label is not None else ycol,
         "delimiter": _DELIM_NAMES[layout.delimiter], "decimal": layout.decimal,
