@@ -117,11 +117,13 @@ class Panel(ipw.VBox):
     def show_status(self, kind: str, text: str) -> None:
         self.status.value = status_html(kind, text)
 
-    def _call(self, what: str, fn: Callable | str, *args, ok: str | None = None, **kwargs) -> Any:
+    def _call(self, what: str, fn: Callable | str, *args, ok: str | None = None,
+              catch: tuple[type[BaseException], ...] = (WidgetkitError,), **kwargs) -> Any:
         """Run a session method (given by name, or any callable); show its error, if any.
 
         Returns the result, or None when a :class:`WidgetkitError` was raised
         (the session is then unchanged; the message is in the status line).
+        File actions also pass ``catch=(WidgetkitError, OSError)`` (a missing file).
         """
         self.last_error = None
         if isinstance(fn, str):
@@ -134,7 +136,7 @@ class Panel(ipw.VBox):
                 return None
         try:
             result = fn(*args, **kwargs)
-        except WidgetkitError as exc:
+        except catch as exc:
             self.last_error = exc
             self.show_status("error", f"{what}: {exc}")
             return None

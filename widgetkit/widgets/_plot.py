@@ -72,7 +72,7 @@ class SpectrumFigure:
         self._curves: dict[str, _Curve] = {}
         self._brush_callbacks: list[Callable[[float, float], None]] = []
         self.x_axis = bq.Axis(scale=self.x_scale, label="wavenumber / cm⁻¹", grid_lines="none")
-        self.y_axis = bq.Axis(scale=self.y_scale, orientation="vertical", label=y_label,
+        self.y_axis = bq.Axis(scale=self.y_scale, side="left", label=y_label,
                               grid_lines="none", tick_format=".3g")
         self.figure = bq.Figure(marks=[], axes=[self.x_axis, self.y_axis], title=title,
                                 fig_margin={"top": 30, "bottom": 40, "left": 60, "right": 15},
@@ -83,7 +83,7 @@ class SpectrumFigure:
             self.r_scale = bq.LinearScale()
             self.residual_figure = bq.Figure(
                 marks=[], axes=[bq.Axis(scale=self.x_scale, grid_lines="none"),
-                                bq.Axis(scale=self.r_scale, orientation="vertical",
+                                bq.Axis(scale=self.r_scale, side="left",
                                         label="residual", tick_format=".2g", grid_lines="none")],
                 fig_margin={"top": 5, "bottom": 30, "left": 60, "right": 15},
                 layout=ipw.Layout(width="100%", height="130px"),

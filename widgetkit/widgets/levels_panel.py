@@ -34,7 +34,7 @@ def _small_figure(title: str, x_label: str, y_label: str):
     xs, ys = bq.LinearScale(), bq.LinearScale()
     fig = bq.Figure(marks=[], title=title,
                     axes=[bq.Axis(scale=xs, label=x_label, grid_lines="none"),
-                          bq.Axis(scale=ys, orientation="vertical", label=y_label,
+                          bq.Axis(scale=ys, side="left", label=y_label,
                                   tick_format=".4g", grid_lines="none")],
                     fig_margin={"top": 30, "bottom": 40, "left": 70, "right": 10},
                     layout=ipw.Layout(width="50%", height="280px"),

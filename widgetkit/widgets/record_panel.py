@@ -9,6 +9,7 @@ import os
 
 import ipywidgets as ipw
 
+from ..errors import WidgetkitError
 from ._base import Panel
 from ._tables import TABLE_CSS
 
@@ -130,14 +131,16 @@ class RecordPanel(Panel):
         if not path:
             self.show_status("error", "save: type a file name first")
             return
-        self._call("save", "save", path, ok=f"saved {len(self.session.history)} steps to {path}"
+        self._call("save", "save", path, catch=(WidgetkitError, OSError),
+                   ok=f"saved {len(self.session.history)} steps to {path}"
                    if self.session is not None else "")
 
     def _on_open_click(self, _button) -> None:
         from ..session import Session
 
         path = os.path.expanduser(self.save_path.value.strip())
-        new = self._call("reopen", Session.load, path, ok=f"reopened {path}")
+        new = self._call("reopen", Session.load, path, ok=f"reopened {path}",
+                         catch=(WidgetkitError, OSError))
         if new is not None:
             self._use_session(new)
             self.verify_report.value = ""

@@ -239,7 +239,8 @@ class SpectrumPanel(Panel):
     def _open(self, path: str) -> None:
         from ..session import Session
 
-        new = self._call("open", Session.from_file, path, ok=f"opened {os.path.basename(path)}")
+        new = self._call("open", Session.from_file, path, ok=f"opened {os.path.basename(path)}",
+                         catch=(WidgetkitError, OSError))
         if new is not None:
             self._use_session(new)
 
