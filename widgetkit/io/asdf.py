@@ -168,7 +168,10 @@ def _tokenise_fast(a: np.ndarray, line0: int, path):
 
 def _tokenise_slow(block: bytes, line0: int, path):
     """Regular-expression tokeniser for blocks with exponents (same outputs)."""
-    kinds, affn, mant, dec, lines, floats = [], [], [], [], [], []
+    kinds: list[int] = []
+    affn: list[bool] = []
+    lines: list[int] = []
+    floats: list[float] = []
     line = 0
     for m in _TOKEN_RE.finditer(block):
         num, lead, rest, nl, _sep, other = m.groups()
@@ -182,8 +185,6 @@ def _tokenise_slow(block: bytes, line0: int, path):
             kinds.append(_ABS)
             affn.append(True)
             floats.append(float(num))
-            mant.append(0)
-            dec.append(0)
         elif lead is not None:
             text = rest.replace(b".", b"")
             ndig = 1 + len(text)
@@ -198,15 +199,13 @@ def _tokenise_slow(block: bytes, line0: int, path):
             affn.append(False)
             d = len(rest) - 1 - rest.index(b".") if b"." in rest else 0
             floats.append(sgn * value / 10.0 ** d)
-            mant.append(sgn * value)
-            dec.append(d)
         else:  # pragma: no cover - the pattern always matches one group
             continue
         lines.append(line)
     if not kinds:
         return None
     return (np.array(kinds, np.int8), np.array(affn, bool), np.array(floats, np.float64),
-            None, np.array(lines, np.int64))
+            np.array(lines, np.int64))
 
 
 def decode_xydata(block: bytes, *, line0: int, path: str | None = None) -> XYDataLines:
@@ -237,7 +236,7 @@ def decode_xydata(block: bytes, *, line0: int, path: str | None = None) -> XYDat
         toks = _tokenise_slow(block, line0, path)
         if toks is None:
             raise _fail("##XYDATA= holds no values", path, line0)
-        kind, affn, value, _, tline = toks
+        kind, affn, value, tline = toks
         xdec = np.zeros(kind.size, np.int64)
     else:
         toks = _tokenise_fast(np.frombuffer(block, np.uint8), line0, path)

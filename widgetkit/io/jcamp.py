@@ -90,7 +90,7 @@ def _parse_blocks(data: bytes, path: str) -> list[dict[str, Any]]:
         if label == "END":
             stack.pop()
             blocks = block["labels"].get("BLOCKS")
-            if blocks is not None and _int(blocks, "BLOCKS", path, block["line"]) != block[
+            if blocks is not None and _int(blocks, "BLOCKS", path) != block[
                     "children"]:
                 raise SpectrumFormatError(
                     f"##BLOCKS={blocks[0]} but the compound file holds {block['children']} "
@@ -135,7 +135,7 @@ def _num(entry, name: str, path: str) -> float:
     return v
 
 
-def _int(entry, name: str, path: str, line: int) -> int:
+def _int(entry, name: str, path: str) -> int:
     v = _num(entry, name, path)
     if v != int(v):
         raise SpectrumFormatError(f"##{name}= must be a whole number, got {entry[0]!r}",
@@ -200,7 +200,7 @@ def _xy(blk: dict[str, Any], path: str) -> tuple[np.ndarray, np.ndarray]:
                 raise SpectrumFormatError(f"##XYDATA= needs ##{need}=, which is missing from "
                                           f"the block {blk['title']!r}", path=path, line=line)
         d = decode_xydata(body, line0=line + 1, path=path)
-        n = _int(npts, "NPOINTS", path, line)
+        n = _int(npts, "NPOINTS", path)
         if d.y.size != n:
             raise SpectrumFormatError(
                 f"##NPOINTS={n} but ##XYDATA= (lines {line + 1}-{int(d.line_number[-1])}) holds "
@@ -240,7 +240,7 @@ def _xy(blk: dict[str, Any], path: str) -> tuple[np.ndarray, np.ndarray]:
         raise SpectrumFormatError(f"##{shown}={varlist} is not supported; widgetkit reads "
                                   f"##{shown}=(XY..XY)", path=path, line=line)
     pts = _points(body, line + 1, path)
-    if npts is not None and _int(npts, "NPOINTS", path, line) != pts.shape[0]:
+    if npts is not None and _int(npts, "NPOINTS", path) != pts.shape[0]:
         raise SpectrumFormatError(f"##NPOINTS={npts[0]} but ##{shown}= holds {pts.shape[0]} "
                                   "points; the file is truncated or NPOINTS is wrong",
                                   path=path, line=npts[1])

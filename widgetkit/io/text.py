@@ -88,8 +88,6 @@ def _guess(line: str) -> tuple[str | None, str, int] | None:
 
 def _sniff(head: str, complete: bool, path: str) -> _Layout:
     lines = head.split("\n")
-    if not complete and lines:
-        lines = lines[:-1]  # the last one may be cut
     header: list[str] = []
     comments: list[str] = []
     layout = None
@@ -275,11 +273,12 @@ def read_text(path, *, x_unit: str | None = None, y_kind: str | None = None,
     with open(apath, "rb") as f:
         head = f.read(_HEAD_BYTES + 1)
     complete = len(head) <= _HEAD_BYTES
-    head = head[:_HEAD_BYTES]
+    if not complete:  # sniff whole lines only
+        head = head[: head.rfind(b"\n", 0, _HEAD_BYTES) + 1]
     if not head:
         raise SpectrumFormatError("the file is empty; expected columns of numbers", path=apath)
     check_not_binary(head, apath)
-    layout = _sniff(decode_text(head) if complete else head.decode("latin-1"), complete, apath)
+    layout = _sniff(decode_text(head), complete, apath)
     ycol = _select_y(layout, y_column, apath)
     names = layout.names
     x_label = names[0] if names else None
