@@ -18,6 +18,7 @@ from .candidates import (
     rotational_partition,
 )
 from .molecule import Diatomic, Isotope, Isotopologue, isotope, scale_constants
+from .progression import Progression, assign_progression, birge_sponer, fit_progression
 from .rovib import BandAssignment, assign_rovibrational
 from .terms import line_position, rot_constant, rot_term, vib_term
 
@@ -29,4 +30,5 @@ __all__ = [
     "BandFit", "fit_band", "combination_differences", "equilibrium_constants",
     "rotational_temperature",
     "BandAssignment", "assign_rovibrational",
+    "Progression", "fit_progression", "assign_progression", "birge_sponer",
 ]

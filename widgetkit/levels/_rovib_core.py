@@ -258,22 +258,21 @@ def seed_band(data: Lines, locks: dict, molecule: Diatomic, band, *, frac: float
         pin = rich[0] if rich else None
         forb = other_locked - (set(pin[1].values()) if pin else set())
         area_s = data.area[data.order]
-        hyps = [(i, j) for i, j in gap_hypotheses(xs, area_s, frac=frac) if not ({i, j} & forb)]
-        # a short bootstrap of every hypothesis ranks them; the best are run in full
-        short = [(bootstrap(xs, {-1: i, 1: j}, frac=frac, forbidden=forb, max_lines=10), i, j)
-                 for i, j in hyps]
-        top = max((len(g) for g, _, _ in short), default=0)
+        hyps = [h for h in gap_hypotheses(xs, area_s, frac=frac) if not (set(h.values()) & forb)]
+        # a short bootstrap of every seed ranks them; the best are run in full
+        short = [(bootstrap(xs, h, frac=frac, forbidden=forb, max_lines=10), h) for h in hyps]
+        top = max((len(g) for g, _ in short), default=0)
         cands: dict = {}
         seen_short: set = set()
-        for g0, i, j in short:
+        for g0, h in short:
             key0 = frozenset(g0.items())
             if (len(g0) < top - 1 and not pin) or key0 in seen_short:
                 continue
             seen_short.add(key0)
-            g = bootstrap(xs, {-1: i, 1: j}, frac=frac, forbidden=forb)
+            g = bootstrap(xs, h, frac=frac, forbidden=forb)
             if pin and any(g.get(m) != k for m, k in pin[1].items()):
                 continue
-            cands.setdefault(frozenset(g.items()), (g, i))
+            cands.setdefault(frozenset(g.items()), (g, min(h.values())))
         if not cands:
             raise AssignmentError(
                 "no band-origin gap found: no pair of neighbouring lines looks like P(1), R(0) with "
@@ -319,7 +318,9 @@ def _seed_score(g: dict, xs: np.ndarray, area: np.ndarray) -> float:
     v = bf.values
     if not (v["B_lower"] > 0 and v["B_upper"] > 0):
         return -np.inf
-    score = float(len(ms))
+    # lines predicted inside the indexed range but not seen (the origin m = 0 excepted)
+    holes = (ms.max() - ms.min()) - (len(ms) - 1)
+    score = float(len(ms)) - 1.0 * holes
     a = area[[g[m] for m in ms]]
     ok = np.isfinite(a) & (a > 0)
     if ok.sum() >= 4:

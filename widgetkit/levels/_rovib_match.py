@@ -191,13 +191,25 @@ def _fit_all(data, locks, st: State, opts):
     return msgs
 
 
-def _score(data: Lines, st: State, molecule) -> float:
+def _score(data: Lines, st: State, molecule, band) -> float:
     good = (st.iso != None) & ~st.outlier & ~st.blended  # noqa: E711
     score = float(good.sum()) - 0.5 * float(st.outlier.sum())
     ab = {i.name: i.abundance for i in molecule.isotopologues}
     lab = {}
     for i in np.nonzero(good & np.isfinite(data.area) & (data.area > 0))[0]:
         lab.setdefault(st.iso[i], {})[(int(st.Ju[i]), int(st.Jl[i]))] = data.area[i]
+    seed = st.models.get(st.seed_iso)
+    mu = {i.name: i.reduced_mass for i in molecule.isotopologues}
+    for iso_name, mdl in st.models.items():
+        if iso_name == st.seed_iso or seed is None or mdl.kind == "scaled":
+            continue
+        # the fitted origin shift must agree with mass scaling (sign and size)
+        rho = float(np.sqrt(mu[st.seed_iso] / mu[iso_name]))
+        pred, anh = scaled_band_constants(seed.values, band[0], band[1], rho)
+        want = pred["band_origin"] - seed.values["band_origin"]
+        got = mdl.values["band_origin"] - seed.values["band_origin"]
+        tol = 0.25 * abs(want) + abs(anh) + 3 * float(np.sqrt(mdl.cov5[0, 0] + seed.cov5[0, 0])) + 1e-9
+        score -= min(((got - want) / tol) ** 2, 50.0)
     ref = lab.get(st.seed_iso, {})
     for iso_name, d in lab.items():
         if iso_name == st.seed_iso:
@@ -243,5 +255,5 @@ def refine(data: Lines, locks: dict, models0: dict, seed_iso: str, opts: dict, *
         prev = sig
     st.rounds = r
     st.messages = st.messages + [n for n in notes.values() if n]
-    st.score = _score(data, st, molecule)
+    st.score = _score(data, st, molecule, opts["band"])
     return st

@@ -44,18 +44,20 @@ def _nearest_free(x, taken, target, tol):
     return best
 
 
-def gap_hypotheses(x, area=None, *, frac: float = 0.25, reach: int = 3) -> list[tuple[int, int]]:
-    """Pairs (i, j) of indices into ascending ``x`` that may be (P(1), R(0)).
+def gap_hypotheses(x, area=None, *, frac: float = 0.25, reach: int = 3) -> list[dict[int, int]]:
+    """Seeds {m: index into ascending ``x``} for the lines next to the band origin.
 
-    Kept when lines near x_j + d/2 (R(1)) and x_i − d/2 (P(2)) exist within
-    ``frac`` × d/2, d = x_j − x_i (if no pair has both, pairs with one of
-    them), and when the gap is empty: lines between i and j (other
-    isotopologues, impurities) are allowed only when areas are known and each
-    is below half the weaker of lines i and j.
+    A pair (i, j) of near neighbours, d = x_j − x_i, is tried as
+    (P(1), R(0)) with spacing s = d/2, and as (P(1), R(1)) or (P(2), R(0))
+    with s = d/3 (R(0) or P(1) missing). A seed is kept when lines exist
+    within ``frac`` × s of x_i − s and x_j + s (the next line of each branch),
+    and when the gap is empty: lines between i and j (other isotopologues,
+    impurities) are allowed only when areas are known and each is below half
+    the weaker of lines i and j.
     """
     n = len(x)
     a = np.full(n, np.nan) if area is None else np.asarray(area, dtype=float)
-    pairs = []
+    out = []
     for i in range(n):
         for j in range(i + 1, min(i + 1 + reach, n)):
             if j > i + 1:
@@ -63,22 +65,19 @@ def gap_hypotheses(x, area=None, *, frac: float = 0.25, reach: int = 3) -> list[
                 lim = 0.5 * min(a[i], a[j])
                 if not (np.isfinite(lim) and np.all(np.isfinite(inner)) and np.all(inner < lim)):
                     continue
-            pairs.append((i, j))
-    if not pairs:
-        return []
-    I = np.array([p[0] for p in pairs])
-    J = np.array([p[1] for p in pairs])
-    d = x[J] - x[I]
-    found = np.zeros(len(pairs), dtype=int)
-    for target in (x[J] + d / 2, x[I] - d / 2):
-        k = np.clip(np.searchsorted(x, target), 1, n - 1)
-        near = np.minimum(np.abs(x[k] - target), np.abs(x[k - 1] - target))
-        found += near <= frac * d / 2
-    for need in (2, 1):
-        keep = (found >= need) & (d > 0)
-        if keep.any():
-            return [pairs[k] for k in np.nonzero(keep)[0]]
-    return []
+            d = x[j] - x[i]
+            if not d > 0:
+                continue
+            for seed, s in (({-1: i, 1: j}, d / 2), ({-1: i, 2: j}, d / 3), ({-2: i, 1: j}, d / 3)):
+                ok = True
+                for target in (x[i] - s, x[j] + s):
+                    k = int(np.clip(np.searchsorted(x, target), 1, n - 1))
+                    if min(abs(x[k] - target), abs(x[k - 1] - target)) > frac * s:
+                        ok = False
+                        break
+                if ok:
+                    out.append(seed)
+    return out
 
 
 def _degree(n: int) -> int:

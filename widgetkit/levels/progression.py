@@ -35,6 +35,7 @@ Errors are propagated from the covariance by numerical gradients.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -154,6 +155,7 @@ def fit_progression(
     hot_max: int = 3,
     max_anharmonicity: float = 0.05,
     n_terms: int | None = None,
+    locks: dict | None = None,
 ) -> Progression:
     """Label band centres (fundamental, overtones, hot bands) and fit ωe, ωexe (, ωeye).
 
@@ -177,6 +179,16 @@ def fit_progression(
     n_terms : {2, 3}, optional
         Force the two- or three-term G(v); default chosen by the score (three
         terms need at least four bands).
+    locks : dict, optional
+        band index (position in ``band_origins``) -> (v_upper, v_lower): those
+        bands keep these labels in every labelling tried.
+
+    Notes
+    -----
+    Positions alone do not fix the vibrational numbering (relabelling every
+    band v -> v+1 is absorbed by different constants); the numbering comes from
+    the expectation that the stronger bands (the fundamental first) are
+    present. Lock a band when that expectation does not hold.
 
     Returns
     -------
@@ -220,6 +232,13 @@ def fit_progression(
     pred = we[:, None] * A2[None, :, 0] + wx[:, None] * A2[None, :, 1]  # (H, L)
     d = np.abs(x[None, :, None] - pred[:, None, :])  # (H, n, L)
     near = np.argmin(d, axis=2)
+    L_index = {tuple(map(int, t)): k for k, t in enumerate(L)}
+    for b, lab_b in (locks or {}).items():
+        key = (int(lab_b[0]), int(lab_b[1]))
+        if key not in L_index:
+            raise AssignmentError(f"locked label {key[0]}-{key[1]} is outside v_upper <= {v_max}, "
+                                  f"v_lower <= {hot_max}; raise v_max/hot_max or change the lock")
+        near[:, int(b)] = L_index[key]
     uniq = np.unique(near, axis=0)
     # keep labellings with distinct labels per band
     uniq = uniq[np.array([len(set(u.tolist())) == n for u in uniq], dtype=bool)]
@@ -299,10 +318,13 @@ def _derived(beta, cov, names, iso) -> list:
     return rows
 
 
-def assign_progression(lines: pd.DataFrame, molecule: Diatomic | None = None, **opts) -> Progression:
+def assign_progression(lines: pd.DataFrame, molecule: Diatomic | None = None, *,
+                       locks: dict | None = None, **opts) -> Progression:
     """:func:`fit_progression` on a lines table (``line_id, position``, optional ``position_err``).
 
-    The result's ``assignments`` gains the ``line_id`` column (first).
+    ``locks``: line_id -> dict with ``v_upper`` and ``v_lower``, or ``label``
+    like "2-0"; those lines keep their labels. The result's ``assignments``
+    gains the ``line_id`` column (first).
     """
     if not isinstance(lines, pd.DataFrame) or not {"line_id", "position"} <= set(lines.columns):
         raise AssignmentError("lines must be a DataFrame with columns line_id, position (position_err)")
@@ -311,8 +333,31 @@ def assign_progression(lines: pd.DataFrame, molecule: Diatomic | None = None, **
         e = lines["position_err"].to_numpy(dtype=float)
         if np.all(np.isfinite(e) & (e > 0)):
             err = e
+    where = {v: i for i, v in enumerate(lines["line_id"].tolist())}
+    band_locks = {}
+    for lid, lab in (locks or {}).items():
+        if lid not in where:
+            raise AssignmentError(f"locked line_id {lid!r} is not in the lines table; clear that lock "
+                                  "with s.clear_assignment(line_id)")
+        lab = dict(lab or {})
+        if lab.get("label") is not None:
+            m = re.fullmatch(r"\s*(\d+)\s*-\s*(\d+)\s*", str(lab["label"]))
+            if not m:
+                raise AssignmentError(f"lock of line {lid!r}: a band label looks like '2-0' "
+                                      f"(v_upper-v_lower), got {lab['label']!r}")
+            vu, vl = int(m.group(1)), int(m.group(2))
+        elif lab.get("v_upper") is not None and lab.get("v_lower") is not None:
+            vu, vl = int(lab["v_upper"]), int(lab["v_lower"])
+        else:
+            raise AssignmentError(f"lock of line {lid!r}: give label='2-0' or v_upper and v_lower")
+        if not vu > vl >= 0:
+            raise AssignmentError(f"lock of line {lid!r}: need v_upper > v_lower >= 0, got {vu}-{vl}")
+        if (vu, vl) in band_locks.values():
+            raise AssignmentError(f"contradictory locks: two lines are locked as band {vu}-{vl}; "
+                                  "clear one with s.clear_assignment(line_id)")
+        band_locks[where[lid]] = (vu, vl)
     p = fit_progression(lines["position"].to_numpy(dtype=float), uncertainties=err,
-                        molecule=molecule, **opts)
+                        molecule=molecule, locks=band_locks, **opts)
     table = p.assignments.copy()
     table.insert(0, "line_id", lines["line_id"].to_numpy())
     return Progression(table, p.constants, p.covariance, p.score, p.alternatives, p.messages)
