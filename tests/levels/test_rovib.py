@@ -100,9 +100,10 @@ def test_missing_lines_are_skipped(hcl_band):
     assert correct(res, df[~drop]).all()
 
 
-def test_missing_r0_and_p1_of_the_main_isotopologue_are_coped_with(hcl_band):
+@pytest.mark.parametrize("Ju, Jl", [(1, 0), (0, 1)], ids=["R(0)", "P(1)"])
+def test_a_missing_line_next_to_the_origin_is_coped_with(hcl_band, Ju, Jl):
     df, _ = hcl_band
-    drop = (df["iso"] == "1H-35Cl") & (((df["Jl"] == 0) & (df["Ju"] == 1)))
+    drop = (df["iso"] == "1H-35Cl") & (df["Jl"] == Jl) & (df["Ju"] == Ju)
     res = assign_rovibrational(df[~drop], HCL_MOL)
     assert correct(res, df[~drop]).all()
 
