@@ -6,7 +6,13 @@ import numpy as np
 import pytest
 from scipy import constants
 
-from widgetkit.units import C_CM_PER_S, X_UNITS, normalise_x_unit, to_wavenumber
+from widgetkit.units import (
+    C_CM_PER_S,
+    X_UNITS,
+    from_wavenumber,
+    normalise_x_unit,
+    to_wavenumber,
+)
 
 
 def test_the_speed_of_light_is_the_codata_value():
@@ -48,3 +54,18 @@ def test_an_unknown_unit_lists_the_accepted_ones():
 def test_a_non_positive_wavelength_has_no_wavenumber():
     with pytest.raises(ValueError, match="positive"):
         to_wavenumber([0.0, 500.0], "nm")
+
+
+@pytest.mark.parametrize("unit", ["nm", "um", "THz", "cm-1"])
+def test_from_wavenumber_undoes_to_wavenumber(unit):
+    v = np.array([400.0, 1234.5, 4000.0])
+    # self-consistency round trip
+    assert to_wavenumber(from_wavenumber(v, unit), unit) == pytest.approx(v, rel=1e-15)
+
+
+def test_from_wavenumber_gives_wavelength_and_frequency():
+    from widgetkit.units import from_wavenumber
+
+    assert from_wavenumber([4000.0], "um")[0] == 2.5  # 1e4 / 4000 cm-1
+    # nu = wavenumber * 100 c, c from scipy.constants
+    assert from_wavenumber([1.0], "THz")[0] == pytest.approx(100 * constants.c / 1e12, rel=1e-15)

@@ -14,7 +14,7 @@ import re
 
 import numpy as np
 
-__all__ = ["X_UNITS", "normalise_x_unit", "to_wavenumber", "C_CM_PER_S"]
+__all__ = ["X_UNITS", "normalise_x_unit", "to_wavenumber", "from_wavenumber", "C_CM_PER_S"]
 
 #: speed of light in cm/s (CODATA exact value, 299 792 458 m/s)
 C_CM_PER_S = 299_792_458.0 * 100.0
@@ -76,3 +76,23 @@ def to_wavenumber(values, unit: str) -> np.ndarray:
         return 1.0e4 / v
     # THz -> Hz -> cm^-1
     return v * 1.0e12 / C_CM_PER_S
+
+
+def from_wavenumber(values, unit: str) -> np.ndarray:
+    """Convert wavenumbers in cm⁻¹ (vacuum) to ``unit`` (for display; the inverse of
+    :func:`to_wavenumber`): λ[nm] = 10⁷ / ν̃, λ[µm] = 10⁴ / ν̃, ν[THz] = ν̃ · 100 c / 10¹².
+
+    Raises
+    ------
+    ValueError
+        For an unknown unit, or wavenumbers ≤ 0 when converting to a wavelength.
+    """
+    unit = normalise_x_unit(unit)
+    v = np.asarray(values, dtype=np.float64)
+    if unit == "cm-1":
+        return v.copy()
+    if unit == "THz":
+        return v * C_CM_PER_S / 1.0e12
+    if np.any(v <= 0):
+        raise ValueError(f"wavenumbers must be positive to convert to a wavelength in {unit}")
+    return (1.0e7 if unit == "nm" else 1.0e4) / v

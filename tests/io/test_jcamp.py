@@ -252,3 +252,9 @@ def test_xfactor_scales_the_line_x_of_xydata(tmp_path):
     assert read_jcamp(write(tmp_path, text)).x[0] == 2000.0  # FIRSTX is unscaled (spec)
     with pytest.raises(SpectrumFormatError, match="line is missing"):
         read_jcamp(write(tmp_path, LR07.replace("##XFACTOR=1.0", "##XFACTOR=0.1")))
+
+
+def test_a_corrupt_dup_count_cannot_expand_beyond_npoints(tmp_path):
+    text = LR07.replace("2009H1", "2009H1s99999999")  # a count of 999,999,999
+    with pytest.raises(SpectrumFormatError, match="DUP counts expand"):
+        read_jcamp(write(tmp_path, text))

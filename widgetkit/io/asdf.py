@@ -208,7 +208,8 @@ def _tokenise_slow(block: bytes, line0: int, path):
             np.array(lines, np.int64))
 
 
-def decode_xydata(block: bytes, *, line0: int, path: str | None = None) -> XYDataLines:
+def decode_xydata(block: bytes, *, line0: int, path: str | None = None,
+                  max_values: int | None = None) -> XYDataLines:
     """Decode the data lines of ``##XYDATA=(X++(Y..Y))`` in any AFFN/PAC/ASDF mix.
 
     Parameters
@@ -219,6 +220,9 @@ def decode_xydata(block: bytes, *, line0: int, path: str | None = None) -> XYDat
         The 1-based file line of the first byte of ``block`` (for error messages).
     path : str, optional
         The file, for error messages.
+    max_values : int, optional
+        Refuse DUP counts that would expand to more values than this (a guard against a
+        corrupt count filling memory); readers pass NPOINTS plus the number of lines.
 
     Returns
     -------
@@ -248,10 +252,10 @@ def decode_xydata(block: bytes, *, line0: int, path: str | None = None) -> XYDat
         else:
             value = mant
         xdec = decimals
-    return _assemble(kind, affn, value, xdec, tline, line0, path)
+    return _assemble(kind, affn, value, xdec, tline, line0, path, max_values)
 
 
-def _assemble(kind, affn, value, xdec, tline, line0, path) -> XYDataLines:
+def _assemble(kind, affn, value, xdec, tline, line0, path, max_values) -> XYDataLines:
     ntok = kind.size
     is_x = np.ones(ntok, bool)
     is_x[1:] = tline[1:] != tline[:-1]
@@ -296,8 +300,10 @@ def _assemble(kind, affn, value, xdec, tline, line0, path) -> XYDataLines:
         keep = ~dup
         rep, yk, yv, yl = rep[keep], yk[keep], yv[keep], yl[keep]
         total = int(rep.sum())
-        if total > 200_000_000:
-            raise _fail("DUP counts expand to more than 200 million values", path, line0)
+        limit = 200_000_000 if max_values is None else min(int(max_values), 200_000_000)
+        if total > limit:
+            raise _fail(f"DUP counts expand to {total} values, more than the {limit} allowed "
+                        "(NPOINTS and the lines); a count is corrupt", path, line0)
         yk, yv, yl = np.repeat(yk, rep), np.repeat(yv, rep), np.repeat(yl, rep)
         first_y = np.ones(yk.size, bool)
         first_y[1:] = yl[1:] != yl[:-1]

@@ -199,8 +199,9 @@ def _xy(blk: dict[str, Any], path: str) -> tuple[np.ndarray, np.ndarray]:
             if need not in labels:
                 raise SpectrumFormatError(f"##XYDATA= needs ##{need}=, which is missing from "
                                           f"the block {blk['title']!r}", path=path, line=line)
-        d = decode_xydata(body, line0=line + 1, path=path)
         n = _int(npts, "NPOINTS", path)
+        d = decode_xydata(body, line0=line + 1, path=path,
+                          max_values=max(n, 0) + body.count(b"\n") + 1)
         if d.y.size != n:
             raise SpectrumFormatError(
                 f"##NPOINTS={n} but ##XYDATA= (lines {line + 1}-{int(d.line_number[-1])}) holds "
@@ -274,6 +275,8 @@ def read_jcamp(path, *, x_unit: str | None = None, y_kind: str | None = None,
 
     Raises
     ------
+    FileNotFoundError
+        The file does not exist.
     SpectrumFormatError
         Truncated file (no ``##END=``), wrong NPOINTS, failed Y-check or X-check, DELTAX or
         FIRSTY inconsistent with the data, unsupported form or unit (names label and line).

@@ -154,6 +154,14 @@ def _header_names(line: str, delim: str | None, ncols: int) -> list[str] | None:
     return None
 
 
+def _unit_in(label: str | None) -> str | None:
+    """The text in brackets or after a slash in a label: ``"Intensity (counts)" -> "counts"``."""
+    if not label:
+        return None
+    m = re.search(r"[\(\[]\s*([^\)\]]+?)\s*[\)\]]", label) or re.search(r"\s/\s*(\S.*)$", label)
+    return m.group(1) if m else None
+
+
 def _select_y(layout: _Layout, y_column, path: str) -> int:
     ny = layout.ncols - 1
     if y_column is None:
@@ -299,7 +307,8 @@ def read_text(path, *, x_unit: str | None = None, y_kind: str | None = None,
         "title": title or os.path.splitext(os.path.basename(apath))[0],
         "x_unit": unit, "x_unit_from": unit_from, "x_label": x_label,
         "x_quantity": x_quantity or ("wavenumber" if unit == "cm-1" else None),
-        "y_label": y_label, "y_quantity": y_quantity or kind, "y_kind_from": kind_from,
+        "y_label": y_label, "y_unit": _unit_in(y_label), "y_quantity": y_quantity or kind,
+        "y_kind_from": kind_from,
         "columns": names, "y_column": y_label if y_label is not None else ycol,
         "delimiter": _DELIM_NAMES[layout.delimiter], "decimal": layout.decimal,
         "header": layout.header, "comments": layout.comments, "read_options": options,
