@@ -25,6 +25,19 @@ def reverse_by_default(y_kind: str | None) -> bool:
     return y_kind in ("absorbance", "transmittance")
 
 
+def _short(value, limit: int = 80) -> str:
+    """A file label for display: scalars as text, containers by their size or keys only
+    (metadata may hold whole arrays)."""
+    if isinstance(value, dict):
+        inner = value.get("function") if isinstance(value.get("function"), str) else None
+        keys = ", ".join(str(k) for k in list(value)[:6])
+        return inner or "{" + keys + ("…" if len(value) > 6 else "") + "}"
+    if isinstance(value, (list, tuple)):
+        return f"[{len(value)} values]"
+    text = str(value)
+    return text if len(text) <= limit else text[: limit - 1] + "…"
+
+
 class SpectrumPanel(Panel):
     """Load a spectrum, show its metadata, crop, preview and subtract a baseline.
 
@@ -52,6 +65,7 @@ class SpectrumPanel(Panel):
         self._n_bins = n_bins
         self._shown_spectrum = None
         self._shown_kind = None
+        self._meta_key = None
         self._preview_key = None
         self._upload_dir: str | None = None
         super().__init__(session, owner=owner, **kwargs)
@@ -148,7 +162,10 @@ class SpectrumPanel(Panel):
                 if new_range:
                     self.plot.reset_window()
                     self.crop_lo.value, self.crop_hi.value = float(sp.x[0]), float(sp.x[-1])
-        self.meta_html.value = self._meta_html()
+        key = (id(s), id(sp))
+        if key != self._meta_key:
+            self._meta_key = key
+            self.meta_html.value = self._meta_html()
         self.absorbance_button.disabled = (self.absorbance_button.disabled
                                            or sp.y_kind != "transmittance")
         self._update_preview()
@@ -166,7 +183,7 @@ class SpectrumPanel(Panel):
         if src.get("sha256"):
             items.append(("sha256", str(src["sha256"])[:12] + "…"))
         for k, v in list(s.source_spectrum.meta.items())[:12]:
-            items.append((str(k), str(v)[:80]))
+            items.append((str(k), _short(v)))
         cells = " · ".join(f"<b>{html.escape(k)}</b> {html.escape(v)}" for k, v in items)
         return f'<div class="wk-meta" style="font-size:12px">{cells}</div>'
 
