@@ -170,6 +170,10 @@ def test_unknown_y_units_need_y_kind(tmp_path):
 def test_a_label_before_any_title_is_refused(tmp_path):
     with pytest.raises(SpectrumFormatError, match="before any ##TITLE"):
         read_jcamp(write(tmp_path, "##JCAMP-DX=4.24\n" + LR07))
+    with pytest.raises(SpectrumFormatError, match="after the last ##END") as info:
+        read_jcamp(write(tmp_path, LR07 + "##YUNITS=ABSORBANCE\n"))
+    assert info.value.line == 20
+    assert len(read_jcamp(write(tmp_path, LR07 + "##END=\n"))) == 10  # a stray END is harmless
 
 
 def test_the_yfactor_keeps_seven_significant_digits():

@@ -84,8 +84,12 @@ def _parse_blocks(data: bytes, path: str) -> list[dict[str, Any]]:
             stack.append(block)
             continue
         if not stack:
-            raise SpectrumFormatError(f"##{raw_label}= comes before any ##TITLE=; every "
-                                      "JCAMP-DX block starts with ##TITLE=", path=path, line=line)
+            if label == "END":
+                continue  # a stray ##END= after the last block changes nothing
+            where = "after the last ##END=" if found or k else "before any ##TITLE="
+            raise SpectrumFormatError(f"##{raw_label}= stands outside any block ({where}); "
+                                      "every JCAMP-DX block runs from ##TITLE= to ##END=",
+                                      path=path, line=line)
         block = stack[-1]
         if label == "END":
             stack.pop()
