@@ -195,6 +195,8 @@ def _score(data: Lines, st: State, molecule, band) -> float:
     good = (st.iso != None) & ~st.outlier & ~st.blended  # noqa: E711
     score = float(good.sum()) - 0.5 * float(st.outlier.sum())
     ab = {i.name: i.abundance for i in molecule.isotopologues}
+    # prior: the strongest sub-band is most likely the most abundant isotopologue
+    score -= 2.0 * float(np.log(max(ab.values()) / ab[st.seed_iso]))
     lab = {}
     for i in np.nonzero(good & np.isfinite(data.area) & (data.area > 0))[0]:
         lab.setdefault(st.iso[i], {})[(int(st.Ju[i]), int(st.Jl[i]))] = data.area[i]

@@ -239,45 +239,76 @@ def fit_progression(
             raise AssignmentError(f"locked label {key[0]}-{key[1]} is outside v_upper <= {v_max}, "
                                   f"v_lower <= {hot_max}; raise v_max/hot_max or change the lock")
         near[:, int(b)] = L_index[key]
-    uniq = np.unique(near, axis=0)
-    # keep labellings with distinct labels per band
-    uniq = uniq[np.array([len(set(u.tolist())) == n for u in uniq], dtype=bool)]
-    if len(uniq) == 0:
-        raise AssignmentError("every labelling gives two bands the same label; are there duplicates?")
+    # two bands nearest to one label: the nearer keeps it, the other is left out (-1)
+    uniq, first = np.unique(near, axis=0, return_index=True)
+    rows = []
+    for u, h in zip(uniq, first, strict=True):
+        u = u.copy()
+        vals, counts = np.unique(u, return_counts=True)
+        for v in vals[counts > 1]:
+            idx = np.nonzero(u == v)[0]
+            locked_here = [i for i in idx if locks and int(i) in locks]
+            keep = locked_here[0] if locked_here else idx[np.argmin(d[h, idx, v])]
+            u[idx[idx != keep]] = -1
+        rows.append(tuple(u.tolist()))
+    rows = sorted(set(rows))
     cands = []
-    for u in uniq:
-        lab = L[u]
+    for u in rows:
+        u = np.array(u)
+        valid = u >= 0
+        if valid.sum() < 2:
+            continue
+        lab = L[u[valid]]
         for k in ((2, 3) if n_terms is None else (n_terms,)):
-            if k == 3 and n < 4:
+            if k == 3 and valid.sum() < 4:
                 continue
             try:
-                f, r, out = _fit_labelling(x, s, lab, k, outlier_sigma, True)
+                f, r, out = _fit_labelling(x[valid], s[valid], lab, k, outlier_sigma, True)
             except SingularDesign:
                 continue
-            cands.append((_criterion(f, r, out, s, lab, k), k, tuple(u.tolist())))
+            crit = _criterion(f, r, out, s[valid], lab, k) + _P_OUT * int((~valid).sum())
+            cands.append((crit, k, tuple(u.tolist())))
     if not cands:
         raise AssignmentError("no labelling could be fitted; give more band centres")
     cands.sort()
     score, k, u = cands[0]
-    lab = L[np.array(u)]
-    f, r, out = _fit_labelling(x, s, lab, k, outlier_sigma, absolute)
+    u = np.array(u)
+    valid = u >= 0
+    lab_v = L[u[valid]]
+    f, r_v, out_v = _fit_labelling(x[valid], s[valid], lab_v, k, outlier_sigma, absolute)
     msgs = []
-    alt = pd.DataFrame([{"labels": [band_label(*L[j]) for j in c[2]], "n_params": c[1], "score": c[0]}
+    lbl = lambda row: [band_label(*L[j]) if j >= 0 else "?" for j in row]  # noqa: E731
+    alt = pd.DataFrame([{"labels": lbl(c[2]), "n_params": c[1], "score": c[0]}
                         for c in cands[1:6]], columns=["labels", "n_params", "score"])
-    if len(cands) > 1 and cands[1][0] - score < 2.0 and cands[1][2] != u:
+    if len(cands) > 1 and cands[1][0] - score < 2.0 and cands[1][2] != tuple(u.tolist()):
         msgs.append("another labelling scores almost as well: "
                     + ", ".join(alt["labels"].iloc[0]) + f" (score {cands[1][0]:.2f} vs {score:.2f})")
-    calc = _design(lab, k) @ f.beta
-    kinds = ["hot" if vl > 0 else ("fundamental" if vu == 1 else "overtone") for vu, vl in lab]
+    lab = np.full((n, 2), -1)
+    lab[valid] = lab_v
+    calc = np.full(n, np.nan)
+    calc[valid] = _design(lab_v, k) @ f.beta
+    out = ~valid
+    out[valid] = out_v
+    r = x - calc
+    kinds = [None if vu < 0 else "hot" if vl > 0 else ("fundamental" if vu == 1 else "overtone")
+             for vu, vl in lab]
+    vu_col = pd.array(lab[:, 0], dtype="Int64")
+    vl_col = pd.array(lab[:, 1], dtype="Int64")
+    vu_col[~valid] = pd.NA
+    vl_col[~valid] = pd.NA
     table = pd.DataFrame({
         "position": x, "position_err": s if absolute else np.full(n, np.nan),
-        "v_upper": lab[:, 0].astype(int), "v_lower": lab[:, 1].astype(int),
-        "label": [band_label(vu, vl) for vu, vl in lab], "kind": kinds,
-        "calc": calc, "obs_minus_calc": x - calc, "outlier": out,
+        "v_upper": vu_col, "v_lower": vl_col,
+        "label": [band_label(a, b) if a >= 0 else None for a, b in lab], "kind": kinds,
+        "calc": calc, "obs_minus_calc": r, "outlier": out,
     })
     for i in np.nonzero(out)[0]:
-        msgs.append(f"band at {x[i]:.3f} cm-1 ({table['label'][i]}) is {r[i]:+.3f} cm-1 from the fit: "
-                    "flagged as an outlier and left out")
+        if valid[i]:
+            msgs.append(f"band at {x[i]:.3f} cm-1 ({table['label'][i]}) is {r[i]:+.3f} cm-1 from "
+                        "the fit: flagged as an outlier and left out")
+        else:
+            msgs.append(f"band at {x[i]:.3f} cm-1 fits no free label (another band is nearer to "
+                        "it): flagged as an outlier, unlabelled and left out")
     if not absolute and f.dof == 0:
         msgs.append("as many bands as parameters and no uncertainties: standard errors are unknown")
     names = ["omega_e", "omega_e_x_e", "omega_e_y_e"][:k]
