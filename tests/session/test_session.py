@@ -223,7 +223,7 @@ def test_a_session_saved_without_data_rereads_the_file_and_detects_a_changed_fil
     x = np.linspace(1000, 1100, 201)
     y = np.exp(-0.5 * ((x - 1050) / 2.0) ** 2)
     src.write_text("wavenumber (cm-1),absorbance\n"
-                   + "\n".join(f"{a!r},{b!r}" for a, b in zip(x, y)))
+                   + "\n".join(f"{float(a)!r},{float(b)!r}" for a, b in zip(x, y)))
     s = wk.Session.from_file(src)
     s.find_peaks(min_snr=5)
     path = tmp_path / "s.json"
