@@ -239,3 +239,13 @@ def test_windows_line_ends_a_byte_order_mark_and_latin1_labels_are_read(tmp_path
     q.write_bytes(b"Wavelength (\xb5m),Absorbance\n2,0.5\n4,0.25\n5,0.125\n")  # Latin-1 micro
     s = read_text(q)
     assert s.meta["x_unit"] == "um" and s.x.tolist() == [2000.0, 2500.0, 5000.0]  # 1e4/um
+
+
+def test_rows_ending_in_a_separator_are_read(tmp_path):
+    p = write(tmp_path, "Wavenumber (cm-1);Absorbance;\n1,5;0,25;\n2,5;0,5;\n3,5;0,75;\n")
+    s = read_text(p)
+    assert s.x.tolist() == [1.5, 2.5, 3.5] and s.y.tolist() == [0.25, 0.5, 0.75]
+    bad = write(tmp_path, "x;absorbance;\n1;2;\n2;3;4\n3;4;\n", "b.txt")
+    with pytest.raises(SpectrumFormatError, match="3 field") as info:
+        read_text(bad)
+    assert info.value.line == 3

@@ -53,12 +53,17 @@ class _Layout:
     ncols: int
     skip: int  # physical lines before the first data line
     names: list[str] | None
+    trailing: bool = False  # rows end with a separator: read by the reference parser
     header: list[str] = field(default_factory=list)
     comments: list[str] = field(default_factory=list)
 
 
-def _split(line: str, delimiter: str | None) -> list[str]:
+def _split(line: str, delimiter: str | None, trailing: bool = False) -> list[str]:
+    """Cells of a line; with ``trailing``, one separator at the end (``1.0;2.0;``) makes no
+    cell."""
     cells = line.split() if delimiter is None else line.split(delimiter)
+    if trailing and len(cells) > 1 and not cells[-1].strip():
+        cells.pop()
     return [c.strip().strip('"').strip() for c in cells]
 
 
@@ -70,19 +75,21 @@ def _numeric(cell: str, decimal: str) -> bool:
     return bool(_NUM.match(cell)) or cell.lower() in _NONFINITE
 
 
-def _guess(line: str) -> tuple[str | None, str, int] | None:
-    """Separator, decimal mark and column count of a data line, or None if not data."""
+def _guess(line: str) -> tuple[str | None, str, int, bool] | None:
+    """Separator, decimal mark, column count and trailing separator of a data line, or None
+    if it is not a data line."""
     for delim in ("\t", ";", ",", None):
         if delim is not None and delim not in line:
             continue
-        cells = _split(line, delim)
-        if len(cells) < 2:
-            continue
-        decimals = ["."] if delim == "," else ([",", "."] if any("," in c for c in cells)
-                                             else ["."])
-        for dec in decimals:
-            if all(_numeric(c, dec) for c in cells):
-                return delim, dec, len(cells)
+        for trailing in (False, True) if delim is not None else (False,):
+            cells = _split(line, delim, trailing)
+            if len(cells) < 2:
+                continue
+            decimals = ["."] if delim == "," else ([",", "."] if any("," in c for c in cells)
+                                                 else ["."])
+            for dec in decimals:
+                if all(_numeric(c, dec) for c in cells):
+                    return delim, dec, len(cells), trailing
     return None
 
 
@@ -104,13 +111,13 @@ def _sniff(head: str, complete: bool, path: str) -> _Layout:
         if g is None:
             header.append(s)
             continue
-        delim, dec, ncols = g
+        delim, dec, ncols, trailing = g
         names = None
         if header:
             names = _header_names(header[-1], delim, ncols)
         if names is None and comments and last_comment_at == i - 1:
             names = _header_names(comments[-1], delim, ncols)
-        layout = _Layout(delim, dec, ncols, i, names, header, comments[:20])
+        layout = _Layout(delim, dec, ncols, i, names, trailing, header, comments[:20])
         break
     if layout is None:
         if not complete:
@@ -148,7 +155,7 @@ def _header_names(line: str, delim: str | None, ncols: int) -> list[str] | None:
         elif d == "units":
             cells = _merge_units(line.split())
         else:
-            cells = _split(line, d)
+            cells = _split(line, d, trailing=True)
         if len(cells) == ncols and all(cells):
             return cells
     return None
@@ -188,6 +195,8 @@ def _fast_columns(path: str, layout: _Layout, ycol: int):
     """Parse with pandas; return (x, y, sha, size) or None when the reference parser is needed."""
     import pandas as pd
 
+    if layout.trailing:
+        return None
     sep = r"\s+" if layout.delimiter is None else layout.delimiter
     with open(path, "rb") as f:
         reader = HashingReader(f)
@@ -214,7 +223,7 @@ def _reference_rows(text: str, layout: _Layout, path: str) -> tuple[np.ndarray, 
         s = raw.split("#", 1)[0].strip()
         if not s:
             continue
-        cells = _split(s, layout.delimiter)
+        cells = _split(s, layout.delimiter, layout.trailing)
         if len(cells) != layout.ncols:
             raise SpectrumFormatError(
                 f"this row has {len(cells)} field(s) but the data has {layout.ncols} columns "
