@@ -180,6 +180,7 @@ def test_the_yfactor_keeps_seven_significant_digits():
     assert yfactor_for(np.array([0.95, -0.2])) == 1e-7  # 0.95 / 1e-7 = 9.5e6: 7 digits
     assert yfactor_for(np.array([1234.5])) == 1e-3
     assert yfactor_for(np.zeros(3)) == 1.0
+    assert yfactor_for(np.array([5e-324])) == 1e-300  # clamped, still a normal float
 
 
 def test_a_written_difdup_file_follows_the_spec_layout(tmp_path):

@@ -340,11 +340,12 @@ def _one_line(s) -> str:
 
 def yfactor_for(y: np.ndarray, digits: int = 7) -> float:
     """A power of ten that keeps ``digits`` significant digits of the largest |y|:
-    10**(floor(log10(max|y|)) - digits + 1), or 1 when y is all zero."""
+    10**(floor(log10(max|y|)) - digits + 1) (at least 1e-300), or 1 when y is all zero."""
     m = float(np.max(np.abs(y))) if y.size else 0.0
     if m == 0.0:
         return 1.0
-    return float(f"1e{math.floor(math.log10(m)) - digits + 1}")
+    # clamped so that the factor stays a normal float for the tiniest data
+    return float(f"1e{max(math.floor(math.log10(m)) - digits + 1, -300)}")
 
 
 def write_jcamp(spectrum: Spectrum, path, *, form: str = "DIFDUP", title: str | None = None,
