@@ -321,7 +321,8 @@ def read_jcamp(path, *, x_unit: str | None = None, y_kind: str | None = None,
         "y_unit": yu or None, "y_quantity": quantity or kind_used, "y_kind_from": kind_from,
         "data_form": _DATA_LABELS[blk["data"][0]], "block": index,
         "jcamp": {"title": blk["title"], **{k.lower(): v[0] for k, v in labels.items()}},
-        "read_options": {"x_unit": x_unit, "y_kind": y_kind, "block": block},
+        "read_options": {"x_unit": x_unit, "y_kind": y_kind,
+                         "block": int(block) if isinstance(block, np.integer) else block},
     }
     if kind is not None and kind != kind_used:
         meta["y_kind_in_file"] = kind

@@ -286,7 +286,8 @@ def read_text(path, *, x_unit: str | None = None, y_kind: str | None = None,
         that is not a finite number, fewer than 3 rows or a repeated x: with the 1-based line.
     """
     apath = absolute_path(path)
-    options = {"x_unit": x_unit, "y_kind": y_kind, "y_column": y_column}
+    options = {"x_unit": x_unit, "y_kind": y_kind,
+               "y_column": int(y_column) if isinstance(y_column, np.integer) else y_column}
     with open(apath, "rb") as f:
         head = f.read(_HEAD_BYTES + 1)
     complete = len(head) <= _HEAD_BYTES
