@@ -113,3 +113,22 @@ def test_a_tabulated_morse_curve_reproduces_the_closed_form_levels():
     # Morse 1929 closed form; the spline through 400 points limits the agreement
     np.testing.assert_allclose(lv.energies, WE * (v + 0.5) - WX * (v + 0.5) ** 2, rtol=1e-6)
     assert lv.r_e == pytest.approx(RE, abs=1e-6)
+
+
+def test_given_grid_levels_equal_a_direct_diagonalisation_of_the_colbert_miller_matrix():
+    pot = morse(WE, WX, r_e=RE)
+    r = np.linspace(0.8, 3.2, 500)  # over-resolved for 8 levels, so the fast path is taken
+    dr = r[1] - r[0]
+    kin = 16.857629168 / MU  # hbar^2/(2 mu) in cm-1 Å^2 (DOMAIN.md constant, CODATA digits)
+    i = np.arange(r.size)
+    d = i[:, None] - i[None, :]
+    with np.errstate(divide="ignore"):
+        # Colbert and Miller, J. Chem. Phys. 96 (1992) 1982, eq. (A7): the sinc-DVR kinetic matrix
+        t = np.where(d == 0, np.pi**2 / 3, 2.0 * (-1.0) ** np.abs(d) / np.where(d == 0, 1, d) ** 2)
+    h = kin / dr**2 * t + np.diag(pot.energy(r, MU))
+    e, c = np.linalg.eigh(h)
+    lv = solve(pot, MU, n_levels=8, grid=r)
+    np.testing.assert_allclose(lv.energies, e[:8], rtol=1e-11)
+    ref = c[:, :8].T / np.sqrt(dr)
+    ref *= np.sign(np.sum(ref * lv.wavefunctions, axis=1))[:, None]  # phases may differ
+    np.testing.assert_allclose(lv.wavefunctions, ref, atol=1e-7)

@@ -136,7 +136,7 @@ def _jsonable(value):
     if isinstance(value, Mapping):
         return {str(k): _jsonable(v) for k, v in value.items()}
     if isinstance(value, np.ndarray):
-        return [_jsonable(v) for v in value.tolist()]
+        return value.tolist() if value.dtype.kind in "fiub" else [_jsonable(v) for v in value.tolist()]
     if isinstance(value, (list, tuple)):
         return [_jsonable(v) for v in value]
     if isinstance(value, np.generic):
