@@ -13,6 +13,7 @@ Every returned :class:`~widgetkit.Spectrum` records in ``meta["simulated"]``
 the function, all its arguments (JSON-able) and the widgetkit version.
 """
 
+from .demos import DEMOS, demo
 from .handbook import HANDBOOK
 from .lines import (
     CONSTANT_NAMES,
@@ -32,7 +33,7 @@ from .spectra import (
 )
 
 __all__ = [
-    "HANDBOOK", "CONSTANT_NAMES", "SimulationError", "check_constants", "line_list",
+    "DEMOS", "demo", "HANDBOOK", "CONSTANT_NAMES", "SimulationError", "check_constants", "line_list",
     "partition_sum", "rotational_populations", "rovibrational", "vibrational", "render_lines",
     "doppler_sigma", "doppler_fwhm", "voigt_fwhm",
 ]
