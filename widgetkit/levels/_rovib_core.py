@@ -253,14 +253,15 @@ def seed_band(data: Lines, locks: dict, molecule: Diatomic, band, *, frac: float
                   [i.name for i in molecule.isotopologues].index(kv[0])))
     if rich and len(rich[0][1]) >= 2:
         seed_iso, init = rich[0]
-        got = bootstrap(xs, init, frac=frac, forbidden=other_locked - set(init.values()))
+        got = bootstrap(xs, init, frac=frac, forbidden=other_locked - set(init.values()),
+                        area=data.area[data.order])
     else:
         pin = rich[0] if rich else None
         forb = other_locked - (set(pin[1].values()) if pin else set())
         area_s = data.area[data.order]
         hyps = [h for h in gap_hypotheses(xs, area_s, frac=frac) if not (set(h.values()) & forb)]
         # a short bootstrap of every seed ranks them; the best are run in full
-        short = [(bootstrap(xs, h, frac=frac, forbidden=forb, max_lines=10), h) for h in hyps]
+        short = [(bootstrap(xs, h, frac=frac, forbidden=forb, max_lines=10, area=area_s), h) for h in hyps]
         top = max((len(g) for g, _ in short), default=0)
         cands: dict = {}
         seen_short: set = set()
@@ -269,7 +270,7 @@ def seed_band(data: Lines, locks: dict, molecule: Diatomic, band, *, frac: float
             if (len(g0) < top - 1 and not pin) or key0 in seen_short:
                 continue
             seen_short.add(key0)
-            g = bootstrap(xs, h, frac=frac, forbidden=forb)
+            g = bootstrap(xs, h, frac=frac, forbidden=forb, area=area_s)
             if pin and any(g.get(m) != k for m, k in pin[1].items()):
                 continue
             cands.setdefault(frozenset(g.items()), (g, min(h.values())))
@@ -278,9 +279,9 @@ def seed_band(data: Lines, locks: dict, molecule: Diatomic, band, *, frac: float
                 "no band-origin gap found: no pair of neighbouring lines looks like P(1), R(0) with "
                 "P(2), R(1) beyond; lock two lines by hand with s.set_assignment(line_id, "
                 "label='R(0)') and s.set_assignment(line_id, label='P(1)')")
-        best_n = max(len(g) for g, _ in cands.values())
+        ranked = sorted(cands.values(), key=lambda t: (-len(t[0]), t[1]))[:8]
         scored = [(_seed_score(g, xs, area_s), float(np.nansum(area_s[list(g.values())])), -i, g)
-                  for g, i in cands.values() if len(g) >= best_n - 2]
+                  for g, i in ranked]
         scored.sort(key=lambda t: t[:3], reverse=True)
         got = scored[0][3]
         seed_iso = pin[0] if pin else None
@@ -354,6 +355,7 @@ class State:
     rounds: int = 0
     score: float = 0.0
     messages: list = field(default_factory=list)
+    ambiguous: list = field(default_factory=list)
 
     @property
     def signature(self) -> tuple:

@@ -147,7 +147,7 @@ def locate_isotopologue(data: Lines, st: State, seed: Model, seed_mu: float, iso
                       f"scaled from {st.seed_iso} (origin {vals['band_origin']:.2f} cm-1)")
     top = deltas[counts == best]
     if best >= 5 and np.ptp(top) > 2 * tol:
-        raise AssignmentError(
+        st.ambiguous.append(
             f"ambiguous isotopologue split: the sub-band of {iso.name} fits {best} lines at offsets "
             f"{top.min():+.3f} and {top.max():+.3f} cm-1 from its mass-scaled prediction; lock one "
             f"of its lines by hand, e.g. s.set_assignment(line_id, isotopologue='{iso.name}', "
@@ -231,9 +231,11 @@ def refine(data: Lines, locks: dict, models0: dict, seed_iso: str, opts: dict, *
     isos = {i.name: i for i in molecule.isotopologues}
     models = {seed_iso: models0[seed_iso]}
     prev, st, notes = None, None, {}
+    ambiguous: list = []
     r = 0
     for r in range(1, max(1, max_rounds) + 1):
         st = match(data, locks, models, opts["match_fraction"], seed_iso)
+        st.ambiguous = ambiguous
         added = False
         for name, iso in isos.items():
             if name in models:
@@ -248,6 +250,7 @@ def refine(data: Lines, locks: dict, models0: dict, seed_iso: str, opts: dict, *
                 notes[name] = note
         if added:
             st = match(data, locks, models, opts["match_fraction"], seed_iso)
+            st.ambiguous = ambiguous
         msgs = _fit_all(data, locks, st, opts)
         models = dict(st.models)
         sig = st.signature

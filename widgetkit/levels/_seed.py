@@ -34,12 +34,15 @@ def m_to_J(m) -> tuple[np.ndarray, np.ndarray]:
     return np.where(m > 0, m, -m - 1), np.where(m > 0, m - 1, -m)
 
 
-def _nearest_free(x, taken, target, tol):
+def _nearest_free(x, taken, target, tol, area=None, ref=None, floor=0.0):
     k = int(np.searchsorted(x, target))
     best, bd = -1, tol
+    lim = -np.inf
+    if area is not None and ref is not None and np.isfinite(area[ref]):
+        lim = floor * area[ref]
     for i in range(max(k - 2, 0), min(k + 2, len(x))):
         d = abs(x[i] - target)
-        if d <= bd and i not in taken:
+        if d <= bd and i not in taken and not (area is not None and area[i] < lim):
             best, bd = i, d
     return best
 
@@ -85,10 +88,14 @@ def _degree(n: int) -> int:
 
 
 def bootstrap(x, init: dict[int, int], *, frac: float = 0.25, max_miss: int = 2,
-              forbidden: frozenset = frozenset(), max_lines: int | None = None) -> dict[int, int]:
+              forbidden: frozenset = frozenset(), max_lines: int | None = None,
+              area=None, area_floor: float = 0.1) -> dict[int, int]:
     """Index lines by m outward from ``init`` (m -> index into ascending ``x``).
 
-    Stops when both branches ran out, or after ``max_lines`` lines.
+    With ``area`` (aligned with ``x``), a candidate weaker than ``area_floor``
+    times the last line taken in its branch is passed over (a weak
+    isotopologue or impurity line must not take the place of a missing
+    line). Stops when both branches ran out, or after ``max_lines`` lines.
     """
     got = dict(init)
     taken = set(got.values()) | set(forbidden)
@@ -97,6 +104,9 @@ def bootstrap(x, init: dict[int, int], *, frac: float = 0.25, max_miss: int = 2,
            -1: min([m for m in got if m < 0], default=0) - 1}
     miss = {1: 0, -1: 0}
     active = {1: True, -1: True}
+    last = {1: got[max(m for m in got if m > 0)] if any(m > 0 for m in got) else None,
+            -1: got[min(m for m in got if m < 0)] if any(m < 0 for m in got) else None}
+    area = None if area is None else np.asarray(area, dtype=float)
     scale = 30.0
     x0 = float(x[next(iter(got.values()))])
     # running moments of the normal equations: S[k] = Σ t^k, T[k] = Σ t^k (x − x0), t = m/scale
@@ -112,7 +122,10 @@ def bootstrap(x, init: dict[int, int], *, frac: float = 0.25, max_miss: int = 2,
     for m, i in got.items():
         add(m, x[i])
     while (active[1] or active[-1]) and (max_lines is None or len(got) < max_lines):
-        deg = min(_degree(len(got)), len(got) - 1)
+        nR = sum(1 for m in got if m > 0)
+        # extrapolating a branch from very few of its own lines: keep the polynomial low
+        cap = 2 if min(nR, len(got) - nR) < 3 else 3 if min(nR, len(got) - nR) < 5 else 4
+        deg = min(_degree(len(got)), len(got) - 1, cap)
         H = S[np.add.outer(np.arange(deg + 1), np.arange(deg + 1))]
         try:
             coef = np.linalg.solve(H, T[: deg + 1])
@@ -127,10 +140,11 @@ def bootstrap(x, init: dict[int, int], *, frac: float = 0.25, max_miss: int = 2,
             if not (lo - spacing <= pred <= hi + spacing) or spacing <= 0:
                 active[side] = False
                 continue
-            i = _nearest_free(x, taken, pred, frac * spacing)
+            i = _nearest_free(x, taken, pred, frac * spacing, area, last[side], area_floor)
             if i >= 0:
                 got[m] = i
                 taken.add(i)
+                last[side] = i
                 add(m, x[i])
                 miss[side] = 0
             else:
@@ -167,6 +181,8 @@ def scaled_band_constants(values: dict, v_upper: int, v_lower: int, rho: float) 
         for _ in range(30):
             we = (nu0 + wx * q) / dv
             wx = ((alpha * we + 6 * Be**2) / 6) ** 2 / Be**3
+            if not (np.isfinite(wx) and wx < 0.1 * we):
+                break
     we = (nu0 + wx * q) / dv
     if not (np.isfinite(wx) and 0 <= wx < 0.1 * we):
         wx, we = 0.0, nu0 / dv

@@ -83,7 +83,8 @@ def rotational_partition(B: float, D: float, temperature: float, *, tol: float =
     jmax = int(10 + 10 * np.sqrt(temperature / (C2 * B)) + 10)
     J = np.arange(jmax + 1)
     F = rot_term(J, B, D)
-    w = (2 * J + 1) * np.exp(-C2 * F / temperature)
+    with np.errstate(over="ignore"):
+        w = (2 * J + 1) * np.exp(-C2 * F / temperature)
     # a term that grows again (negative D dominating) would be unphysical: stop at the first rise
     keep = np.ones_like(w, dtype=bool)
     rise = np.nonzero(np.diff(F) < 0)[0]

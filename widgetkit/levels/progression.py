@@ -15,6 +15,7 @@ each band with its nearest predicted label. Each distinct labelling is refitted
 
     χ² + k ln n + 10 × (expected bands missing) + 25 × (outliers)
 
+(for the ``max_labellings`` distinct labellings nearest to their hypotheses)
 where χ² uses the stated uncertainties (1 cm⁻¹ when none are given), k is the
 number of parameters, and a band v′-v″ "expects" the stronger band
 (v′−1)-(v″−1) (hot band) or (v′−1)-0 (overtone), the fundamental 1-0 being
@@ -156,6 +157,7 @@ def fit_progression(
     max_anharmonicity: float = 0.05,
     n_terms: int | None = None,
     locks: dict | None = None,
+    max_labellings: int = 24,
 ) -> Progression:
     """Label band centres (fundamental, overtones, hot bands) and fit ωe, ωexe (, ωeye).
 
@@ -179,6 +181,9 @@ def fit_progression(
     n_terms : {2, 3}, optional
         Force the two- or three-term G(v); default chosen by the score (three
         terms need at least four bands).
+    max_labellings : int
+        How many distinct labellings, ranked by their distances to the exact
+        two-band solutions, are refitted and scored.
     locks : dict, optional
         band index (position in ``band_origins``) -> (v_upper, v_lower): those
         bands keep these labels in every labelling tried.
@@ -239,8 +244,14 @@ def fit_progression(
             raise AssignmentError(f"locked label {key[0]}-{key[1]} is outside v_upper <= {v_max}, "
                                   f"v_lower <= {hot_max}; raise v_max/hot_max or change the lock")
         near[:, int(b)] = L_index[key]
+    # rank hypotheses by their (capped) distances and refit only the best distinct labellings
+    dmin = np.take_along_axis(d, near[:, :, None], axis=2)[:, :, 0]
+    pre = np.sum(np.minimum((dmin / s[None, :]) ** 2, 2500.0), axis=1)
+    order = np.argsort(pre, kind="stable")
+    uniq, first = np.unique(near[order], axis=0, return_index=True)
+    best = np.argsort(first, kind="stable")[:max_labellings]
+    uniq, first = uniq[best], order[first[best]]
     # two bands nearest to one label: the nearer keeps it, the other is left out (-1)
-    uniq, first = np.unique(near, axis=0, return_index=True)
     rows = []
     for u, h in zip(uniq, first, strict=True):
         u = u.copy()

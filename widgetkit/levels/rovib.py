@@ -195,5 +195,7 @@ def assign_rovibrational(
         )
     k_iso = trials[0][2]
     final = refine(data, lk, {k_iso: seed}, k_iso, opts, max_rounds=max_rounds, min_rounds=min_rounds)
+    if final.ambiguous:
+        raise AssignmentError(final.ambiguous[0])
     return analyse(data, lk, final, opts, BandAssignment)
 
