@@ -87,7 +87,8 @@ def hcl_spectrum():
     in widgetkit.simulate.HANDBOOK (self-consistency use only)."""
     hcl = wk.Diatomic("1H", "35Cl")
     return wk.simulate.rovibrational(hcl, wk.simulate.HANDBOOK["1H-35Cl"], x_range=(2780, 3020),
-                                     step=0.05, seed=3, noise=0.002, lorentz_hwhm=0.3,
+                                     step=0.05, seed=3, noise=0.002, lorentz_hwhm=0.2,
+                                     resolution=0.5,
                                      title="test band")
 
 

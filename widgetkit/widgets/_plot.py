@@ -71,11 +71,12 @@ class SpectrumFigure:
         self.y_scale = bq.LinearScale()
         self._curves: dict[str, _Curve] = {}
         self._brush_callbacks: list[Callable[[float, float], None]] = []
-        self.x_axis = bq.Axis(scale=self.x_scale, label="wavenumber / cm⁻¹", grid_lines="none")
+        self.x_axis = bq.Axis(scale=self.x_scale, label="wavenumber / cm⁻¹", grid_lines="none",
+                              label_offset="32px")
         self.y_axis = bq.Axis(scale=self.y_scale, side="left", label=y_label,
-                              grid_lines="none", tick_format=".3g")
+                              grid_lines="none", tick_format=".3g", label_offset="55px")
         self.figure = bq.Figure(marks=[], axes=[self.x_axis, self.y_axis], title=title,
-                                fig_margin={"top": 30, "bottom": 40, "left": 60, "right": 15},
+                                fig_margin={"top": 30, "bottom": 40, "left": 75, "right": 15},
                                 layout=ipw.Layout(width="100%", height=height),
                                 min_aspect_ratio=0.01, max_aspect_ratio=100, animation_duration=0)
         self.residual_figure = None
@@ -84,8 +85,9 @@ class SpectrumFigure:
             self.residual_figure = bq.Figure(
                 marks=[], axes=[bq.Axis(scale=self.x_scale, grid_lines="none"),
                                 bq.Axis(scale=self.r_scale, side="left",
-                                        label="residual", tick_format=".2g", grid_lines="none")],
-                fig_margin={"top": 5, "bottom": 30, "left": 60, "right": 15},
+                                        label="residual", tick_format=".2g", grid_lines="none",
+                                        label_offset="55px")],
+                fig_margin={"top": 5, "bottom": 30, "left": 75, "right": 15},
                 layout=ipw.Layout(width="100%", height="130px"),
                 min_aspect_ratio=0.01, max_aspect_ratio=100, animation_duration=0)
         self.panzoom = bq.interacts.PanZoom(scales={"x": [self.x_scale]})

@@ -31,7 +31,7 @@ def _cell(v) -> str:
     if isinstance(v, float):
         if math.isnan(v):
             return "–"
-        return format_value(v, 8)
+        return format_value(v, 6)
     try:
         if pd.isna(v):
             return "–"

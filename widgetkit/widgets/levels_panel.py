@@ -34,9 +34,9 @@ def _small_figure(title: str, x_label: str, y_label: str):
     xs, ys = bq.LinearScale(), bq.LinearScale()
     fig = bq.Figure(marks=[], title=title,
                     axes=[bq.Axis(scale=xs, label=x_label, grid_lines="none"),
-                          bq.Axis(scale=ys, side="left", label=y_label,
+                          bq.Axis(scale=ys, side="left", label=y_label, label_offset="60px",
                                   tick_format=".4g", grid_lines="none")],
-                    fig_margin={"top": 30, "bottom": 40, "left": 70, "right": 10},
+                    fig_margin={"top": 30, "bottom": 40, "left": 80, "right": 10},
                     layout=ipw.Layout(width="50%", height="280px"),
                     min_aspect_ratio=0.01, max_aspect_ratio=100, animation_duration=0)
     return fig, xs, ys
@@ -131,9 +131,9 @@ class LevelsPanel(Panel):
         a = s.assignments
         locks = s.locks
         if "line_id" in a:
-            a = a.assign(locked=["🔒" if int(i) in locks else "" for i in a["line_id"]])
+            a = a.assign(lock=["🔒" if int(i) in locks else "" for i in a["line_id"]])
         self.assignment_table.value = html_table(
-            a, name="assignments", columns=[*ASSIGNMENT_COLUMNS, "locked"],
+            a, name="assignments", columns=[*ASSIGNMENT_COLUMNS, "lock"],
             headers={"obs_minus_calc": "obs − calc"},
             row_class=lambda r: "wk-outlier" if bool(r.get("outlier", False)) else "",
             empty="no assignment yet: fit lines, then press Assign")

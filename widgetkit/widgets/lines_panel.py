@@ -58,7 +58,7 @@ class LinesPanel(Panel):
         self.region_lo = ipw.FloatText(description="from", layout=ipw.Layout(width="160px"))
         self.region_hi = ipw.FloatText(description="to", layout=ipw.Layout(width="160px"))
         self.mouse_mode = ipw.ToggleButtons(options=[("zoom", "zoom"), ("select region", "select")],
-                                            value="zoom", description="Mouse",
+                                            value="zoom", description="",
                                             style={"button_width": "100px"})
         self.mouse_mode.observe(lambda ch: self.plot.set_mode(ch["new"]), names=["value"])
         self.reset_zoom_button = ipw.Button(description="Whole range", icon="arrows-h")
@@ -73,7 +73,7 @@ class LinesPanel(Panel):
         self.children = [
             ipw.HBox([self.shape, self.baseline, self.shared_width]),
             ipw.HBox([self.use_region, self.region_lo, self.region_hi, self.fit_button]),
-            ipw.HBox([self.mouse_mode, self.reset_zoom_button]),
+            ipw.HBox([ipw.Label("mouse:"), self.mouse_mode, self.reset_zoom_button]),
             *self.plot.widgets(),
             self.status,
             self.fit_summary,

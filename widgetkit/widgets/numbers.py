@@ -58,7 +58,8 @@ def format_uncertainty(value, stderr, digits: int = 1) -> str:
     When the uncertainty reaches the tens or more, the parentheses hold it in
     the units of the value's last (integer) digit as written, e.g.
     ``12350(20)``. Values with ``|value| >= 1e9`` or ``0 < |value| < 1e-4`` are
-    written in scientific form, ``6.67430(15)e-11``.
+    written in scientific form, ``6.67430(15)e-11`` (the larger of ``|value|``
+    and ``stderr`` decides).
 
     Parameters
     ----------
@@ -83,10 +84,11 @@ def format_uncertainty(value, stderr, digits: int = 1) -> str:
         return format_value(v)
     u = float(stderr)
     exp_suffix = ""
-    if abs(v) >= LARGE or (v != 0 and abs(v) < SMALL):
-        p = math.floor(math.log10(abs(v)))
+    big = max(abs(v), u)
+    if big >= LARGE or big < SMALL:
+        p = math.floor(math.log10(big))
         v, u = v / 10.0**p, u / 10.0**p
-        exp_suffix = f"e{p:+d}" if p < 0 else f"e+{p}"
+        exp_suffix = f"e{p:+d}"
     du = Decimal(repr(u))
     e = du.adjusted()  # exponent of the leading digit
     decimals = digits - 1 - e

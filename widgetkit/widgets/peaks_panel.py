@@ -61,7 +61,7 @@ class PeaksPanel(Panel):
         self.find_button.on_click(self._on_find_click)
 
         self.mouse_mode = ipw.ToggleButtons(options=[("zoom", "zoom"), ("add / select", "click")],
-                                            value="zoom", description="Mouse",
+                                            value="zoom", description="",
                                             style={"button_width": "100px"})
         self.mouse_mode.observe(lambda ch: self.plot.set_mode(ch["new"]), names=["value"])
         self.reset_zoom_button = ipw.Button(description="Whole range", icon="arrows-h")
@@ -77,7 +77,7 @@ class PeaksPanel(Panel):
         self._actions(self.find_button, self.add_button, self.remove_button)
         self.children = [
             ipw.HBox([self.min_snr, self.min_separation, self.find_button]),
-            ipw.HBox([self.mouse_mode, self.reset_zoom_button]),
+            ipw.HBox([ipw.Label("mouse:"), self.mouse_mode, self.reset_zoom_button]),
             *self.plot.widgets(),
             ipw.HBox([self.add_position, self.add_button, self.selected_label, self.remove_button]),
             self.status,

@@ -88,7 +88,7 @@ class SpectrumPanel(Panel):
         self.meta_html = ipw.HTML()
 
         self.mouse_mode = ipw.ToggleButtons(options=[("zoom", "zoom"), ("select region", "select")],
-                                            value="zoom", description="Mouse",
+                                            value="zoom", description="",
                                             style={"button_width": "100px"})
         self.mouse_mode.observe(self._on_mouse_mode_change, names=["value"])
         self.reset_zoom_button = ipw.Button(description="Whole range", icon="arrows-h")
@@ -128,7 +128,7 @@ class SpectrumPanel(Panel):
         self.children = [
             ipw.HBox([self.path_text, self.open_button, self.upload]),
             self.meta_html,
-            ipw.HBox([self.mouse_mode, self.reset_zoom_button, self.high_to_low]),
+            ipw.HBox([ipw.Label("mouse:"), self.mouse_mode, self.reset_zoom_button, self.high_to_low]),
             *self.plot.widgets(),
             ipw.HBox([ipw.Label("Crop:"), self.crop_lo, self.crop_hi, self.crop_button,
                       self.absorbance_button]),

@@ -1,0 +1,174 @@
+"""The panels in a real browser: JupyterLab on 127.0.0.1 driven by Debian's Chromium.
+
+Opens the quick-start notebook, runs all cells, waits for the bqplot SVG, presses
+"Find peaks" and "Fit lines" in the page and checks that the tables change.
+Screenshots go to the test's tmp_path and to test-output/ in the repository.
+
+Needs the ``chromium`` executable on PATH (Debian: ``apt-get install chromium``)
+and the Python package ``playwright`` (never ``playwright install``: the system
+Chromium is used). Without Chromium the test is skipped, except in CI
+(``CI=true``), where it fails.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import socket
+import subprocess
+import sys
+import time
+import urllib.request
+from pathlib import Path
+
+import pytest
+
+pytestmark = [pytest.mark.browser, pytest.mark.slow]
+
+REPO = Path(__file__).resolve().parents[2]
+NOTEBOOK = REPO / "sample_notebooks" / "01-quick-start.ipynb"
+CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-dev-shm-usage",
+                 "--disable-background-networking", "--disable-component-update",
+                 "--disable-sync", "--no-first-run"]
+HOW_TO = ("the browser test needs Chromium on PATH: on Debian/Ubuntu run "
+          "'sudo apt-get install chromium' (the test never downloads a browser)")
+
+
+def _chromium() -> str:
+    path = shutil.which("chromium")
+    if path is None:
+        if os.environ.get("CI", "").lower() == "true":
+            pytest.fail("CI=true but " + HOW_TO)
+        pytest.skip(HOW_TO)
+    return path
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+@pytest.fixture
+def lab(tmp_path):
+    """A JupyterLab server on a free port, all its state in tmp_path; yields (url, workdir)."""
+    work = tmp_path / "work"
+    work.mkdir()
+    shutil.copy(NOTEBOOK, work / NOTEBOOK.name)
+    settings = tmp_path / "settings"
+    note = settings / "@jupyterlab" / "apputils-extension"
+    note.mkdir(parents=True)
+    (note / "notification.jupyterlab-settings").write_text(
+        json.dumps({"fetchNews": "false", "checkForUpdates": False}))
+    env = dict(os.environ)
+    for var, sub in (("JUPYTER_CONFIG_DIR", "config"), ("JUPYTER_DATA_DIR", "data"),
+                     ("JUPYTER_RUNTIME_DIR", "runtime"), ("IPYTHONDIR", "ipython")):
+        (tmp_path / sub).mkdir()
+        env[var] = str(tmp_path / sub)
+    # the kernel spec runs "python": make it this interpreter; the venv's share/jupyter
+    # (lab extensions of ipywidgets and bqplot) stays on the data path through sys.prefix
+    env["PATH"] = os.path.dirname(sys.executable) + os.pathsep + env.get("PATH", "")
+    env["PYTHONWARNINGS"] = "ignore::DeprecationWarning"
+    env.pop("JUPYTER_PATH", None)
+    port = _free_port()
+    cmd = [sys.executable, "-m", "jupyterlab", "--no-browser", "--ip=127.0.0.1",
+           f"--port={port}", "--ServerApp.token=", "--ServerApp.password=",
+           "--ServerApp.allow_root=True", f"--ServerApp.root_dir={work}",
+           f"--LabApp.workspaces_dir={tmp_path / 'workspaces'}",
+           f"--LabApp.user_settings_dir={settings}", "--LabApp.expose_app_in_browser=True",
+           "--ServerApp.open_browser=False"]
+    log = open(tmp_path / "jupyterlab.log", "w")
+    proc = subprocess.Popen(cmd, env=env, stdout=log, stderr=subprocess.STDOUT, cwd=work)
+    url = f"http://127.0.0.1:{port}"
+    try:
+        deadline = time.monotonic() + 60
+        while True:
+            try:
+                with urllib.request.urlopen(url + "/api/status", timeout=2) as r:
+                    if r.status == 200:
+                        break
+            except OSError:
+                pass
+            if proc.poll() is not None or time.monotonic() > deadline:
+                log.flush()
+                pytest.fail("JupyterLab did not start:\n" + (tmp_path / "jupyterlab.log")
+                            .read_text()[-3000:])
+            time.sleep(0.5)
+        yield url, work
+    finally:
+        proc.terminate()
+        try:
+            proc.wait(timeout=15)
+        except subprocess.TimeoutExpired:
+            proc.kill()
+            proc.wait(timeout=5)
+        log.close()
+
+
+def _shot(page, tmp_path: Path, name: str) -> Path:
+    path = tmp_path / f"{name}.png"
+    page.screenshot(path=str(path), full_page=True)
+    out = REPO / "test-output" / "browser"
+    out.mkdir(parents=True, exist_ok=True)
+    shutil.copy(path, out / path.name)
+    return path
+
+
+def _rows(page, table: str) -> int:
+    return page.locator(f"table.{table} tbody tr").count()
+
+
+def test_the_quick_start_notebook_runs_and_its_buttons_change_the_tables(lab, tmp_path):
+    chromium = _chromium()
+    sync_api = pytest.importorskip("playwright.sync_api", reason="pip install playwright")
+    url, _work = lab
+    with sync_api.sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=chromium, headless=True, args=CHROMIUM_ARGS)
+        try:
+            page = browser.new_page(viewport={"width": 1400, "height": 1100})
+            page.set_default_timeout(60_000)
+            page.goto(f"{url}/lab/tree/{NOTEBOOK.name}")
+            page.wait_for_function(
+                "() => window.jupyterapp && window.jupyterapp.shell.currentWidget"
+                " && window.jupyterapp.shell.currentWidget.sessionContext", timeout=60_000)
+            page.evaluate("""async () => {
+                const nb = window.jupyterapp.shell.currentWidget;
+                await nb.context.ready;
+                await nb.sessionContext.ready;
+                await window.jupyterapp.commands.execute('notebook:run-all-cells');
+            }""")
+            page.wait_for_selector(".bqplot svg path.line", timeout=90_000)
+            _shot(page, tmp_path, "1-after-run-all")
+
+            page.locator(".widget-tab .lm-TabBar-tab", has_text="Peaks").first.click()
+            peaks_table = page.locator("table.wk-peaks").first
+            peaks_table.wait_for(state="visible")
+            assert "no peaks yet" in peaks_table.inner_text()
+            min_snr = page.locator(".widget-inline-hbox", has_text="min SNR").locator("input").first
+            min_snr.fill("10")
+            min_snr.press("Enter")
+            page.locator("button.wk-find-peaks").first.click()
+            page.wait_for_function(
+                "() => document.querySelectorAll('table.wk-peaks tbody tr').length > 3")
+            assert "no peaks yet" not in peaks_table.inner_text()
+            n_peaks = _rows(page, "wk-peaks")
+            page.wait_for_timeout(500)
+            _shot(page, tmp_path, "2-peaks-found")
+
+            page.locator(".widget-tab .lm-TabBar-tab", has_text="Lines").first.click()
+            lines_table = page.locator("table.wk-lines").first
+            lines_table.wait_for(state="visible")
+            assert "no lines yet" in lines_table.inner_text()
+            page.locator("button.wk-fit-lines").first.click()
+            page.wait_for_function(
+                "() => { const t = document.querySelector('table.wk-lines');"
+                " return t && t.innerText.includes('('); }", timeout=90_000)
+            text = lines_table.inner_text()
+            assert "no lines yet" not in text
+            assert _rows(page, "wk-lines") == n_peaks  # one fitted line per peak
+            page.wait_for_timeout(500)
+            shot = _shot(page, tmp_path, "3-lines-fitted")
+            assert shot.stat().st_size > 10_000
+        finally:
+            browser.close()
