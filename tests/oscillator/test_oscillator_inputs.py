@@ -83,3 +83,13 @@ def test_band_table_has_the_documented_columns():
     assert row["integrated_absorption_km_mol"] == pytest.approx(
         row["integrated_absorption"] * sc.N_A * 1e-5, rel=1e-12)
     assert row["position"] == pytest.approx(2169.81358 - 2 * 13.28831, rel=1e-9)  # DOMAIN.md: we - 2wexe
+
+
+def test_results_are_read_only_and_a_given_grid_array_is_left_untouched():
+    grid = np.linspace(0.0, 2.4, 300)
+    lv = solve(harmonic(1000.0, r_e=1.2), 1.0, n_levels=3, grid=grid)
+    assert grid.flags.writeable  # the caller's array is not changed
+    with pytest.raises(ValueError):
+        lv.energies[0] = 0.0  # numpy refuses writes to read-only arrays
+    with pytest.raises(ValueError):
+        lv.wavefunctions[0, 0] = 0.0

@@ -174,7 +174,7 @@ def _grid_from(grid) -> np.ndarray:
         if not (float(hi) > float(lo)) or int(n) < 10:
             raise OscillatorError(f"grid=(r_min, r_max, n) needs r_max > r_min and n >= 10, got {grid!r}")
         return np.linspace(float(lo), float(hi), int(n))
-    r = np.asarray(grid, dtype=float)
+    r = np.array(grid, dtype=float)  # a copy: the result's grid is made read-only
     if r.ndim != 1 or r.size < 10:
         raise OscillatorError("grid must be (r_min, r_max, n_points) or an array of >= 10 r values (Å)")
     d = np.diff(r)
@@ -212,7 +212,10 @@ def solve(potential: Potential, reduced_mass: float, *, n_levels: int | None = N
         relative to the J = 0 minimum.
     grid : (r_min, r_max, n_points) or array, optional
         Override the automatic grid (equally spaced, Å); no refinement is done
-        and ``convergence`` is NaN.
+        and ``convergence`` is NaN. A grid much finer than the levels need is
+        solved fast: on a coarser grid first, then refined on the given one by
+        Rayleigh–Ritz with a residual test (the full matrix is diagonalised
+        whenever that test fails).
     tol : float
         Relative change of the energies at which refinement stops (default 1e-10).
     rotational_constants : bool
@@ -232,8 +235,11 @@ def solve(potential: Potential, reduced_mass: float, *, n_levels: int | None = N
         raise OscillatorError(
             f"potential must come from harmonic(), morse() or tabulated(), got {type(potential).__name__}"
         )
-    mu = float(reduced_mass) if isinstance(reduced_mass, (int, float)) else math.nan
-    if not (math.isfinite(mu) and mu > 0):
+    try:
+        mu = float(reduced_mass)
+    except (TypeError, ValueError):
+        mu = math.nan
+    if isinstance(reduced_mass, bool) or not (math.isfinite(mu) and mu > 0):
         raise OscillatorError(f"reduced_mass must be a positive number of u, got {reduced_mass!r}")
     if isinstance(J, bool) or not isinstance(J, (int, np.integer)) or J < 0:
         raise OscillatorError(f"J must be a non-negative integer, got {J!r}")
@@ -283,8 +289,10 @@ def solve(potential: Potential, reduced_mass: float, *, n_levels: int | None = N
             de = e[v] - e
             de[v] = np.inf
             d_v[v] = -np.sum(rn[:, v] ** 2 / de)
-    r.setflags(write=False)
     energies = e[:nb].copy()
+    for a in (r, energies, wf, b_v, d_v):
+        if a is not None:
+            a.setflags(write=False)
     return VibrationalLevels(energies=energies, r=r, wavefunctions=wf, potential=potential,
                              reduced_mass=mu, J=J, r_e=re, asymptote=limit, convergence=conv,
                              B_v=b_v, D_v=d_v)
