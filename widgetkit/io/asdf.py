@@ -30,7 +30,9 @@ regular-expression tokeniser with the same semantics.
 from __future__ import annotations
 
 import re
+from bisect import bisect_right
 from dataclasses import dataclass
+from itertools import accumulate
 
 import numpy as np
 
@@ -68,6 +70,8 @@ _SQZ_POS, _SQZ_NEG = "@ABCDEFGHI", "@abcdefghi"
 _DIF_POS, _DIF_NEG = "%JKLMNOPQR", "%jklmnopqr"
 _DUP_CH = "?STUVWXYZs"
 
+_DIF_FIRST = ({str(i): c for i, c in enumerate(_DIF_POS)},
+              {str(i): c for i, c in enumerate(_DIF_NEG)})
 _EXP_RE = re.compile(rb"[0-9.][eE][+-][0-9]")
 _TOKEN_RE = re.compile(
     rb"([+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-][0-9]+)?)"  # AFFN
@@ -107,7 +111,8 @@ def _fail(msg: str, path, line) -> SpectrumFormatError:
 
 
 def _tokenise_fast(a: np.ndarray, line0: int, path):
-    """Vectorised tokeniser: kind, sign, mantissa, decimals and line of every token."""
+    """Vectorised tokeniser: kind, AFFN flag, value, decimals and line of every token
+    (None when there is no token, ``"long"`` when a value has more than 18 digits)."""
     cls = _CLS[a]
     bad = cls == _BAD
     if bad.any():
@@ -134,11 +139,12 @@ def _tokenise_fast(a: np.ndarray, line0: int, path):
     t = tid[db]
     cnt = np.bincount(t, minlength=ntok)
     nl_cum = np.cumsum(cls == _NL, dtype=np.int64)
-    if cnt.min() == 0 or cnt.max() > 18:
-        k = int(np.argmax((cnt == 0) | (cnt > 18)))
-        line = line0 + int(nl_cum[starts[k]])
-        what = "holds no digit" if cnt[k] == 0 else "has more than 18 digits"
-        raise _fail(f"a value in the ordinate data {what}; check the XYDATA lines", path, line)
+    if cnt.min() == 0:
+        k = int(np.argmin(cnt))
+        raise _fail("a value in the ordinate data holds no digit; check the XYDATA lines", path,
+                    line0 + int(nl_cum[starts[k]]))
+    if cnt.max() > 18:  # beyond int64: the regular-expression tokeniser parses floats
+        return "long"
     first_digit = np.cumsum(cnt) - cnt
     power = cnt[t] - 1 - (np.arange(db.size) - first_digit[t])
     digits = np.abs(_VAL[a[db]]).astype(np.int64) * _POW10[power]
@@ -163,13 +169,17 @@ def _tokenise_fast(a: np.ndarray, line0: int, path):
     kind[lead_cls == _DIF] = _DIFK
     kind[lead_cls == _DUP] = _DUPK
     affn = (lead_cls == _DIGIT) | (lead_cls == _DOT) | (lead_cls == _SIGN)
-    return kind, affn, sign * mantissa, decimals, nl_cum[starts]
+    value = sign * mantissa
+    if decimals.any():
+        value = value / 10.0 ** decimals
+    return kind, affn, value, decimals, nl_cum[starts]
 
 
 def _tokenise_slow(block: bytes, line0: int, path):
     """Regular-expression tokeniser for blocks with exponents (same outputs)."""
     kinds: list[int] = []
     affn: list[bool] = []
+    decs: list[int] = []
     lines: list[int] = []
     floats: list[float] = []
     line = 0
@@ -185,6 +195,8 @@ def _tokenise_slow(block: bytes, line0: int, path):
             kinds.append(_ABS)
             affn.append(True)
             floats.append(float(num))
+            frac = num.split(b".")[1] if b"." in num else b""
+            decs.append(0 if b"e" in num.lower() else len(frac))
         elif lead is not None:
             text = rest.replace(b".", b"")
             ndig = 1 + len(text)
@@ -199,13 +211,14 @@ def _tokenise_slow(block: bytes, line0: int, path):
             affn.append(False)
             d = len(rest) - 1 - rest.index(b".") if b"." in rest else 0
             floats.append(sgn * value / 10.0 ** d)
+            decs.append(d)
         else:  # pragma: no cover - the pattern always matches one group
             continue
         lines.append(line)
     if not kinds:
         return None
     return (np.array(kinds, np.int8), np.array(affn, bool), np.array(floats, np.float64),
-            np.array(lines, np.int64))
+            np.array(decs, np.int64), np.array(lines, np.int64))
 
 
 def decode_xydata(block: bytes, *, line0: int, path: str | None = None,
@@ -236,22 +249,13 @@ def decode_xydata(block: bytes, *, line0: int, path: str | None = None,
     """
     if b"$$" in block:
         block = re.sub(rb"\$\$[^\n]*", b"", block)
-    if _EXP_RE.search(block):
+    toks = ("slow" if _EXP_RE.search(block) else
+            _tokenise_fast(np.frombuffer(block, np.uint8), line0, path))
+    if isinstance(toks, str):  # exponents, or more digits than int64 holds
         toks = _tokenise_slow(block, line0, path)
-        if toks is None:
-            raise _fail("##XYDATA= holds no values", path, line0)
-        kind, affn, value, tline = toks
-        xdec = np.zeros(kind.size, np.int64)
-    else:
-        toks = _tokenise_fast(np.frombuffer(block, np.uint8), line0, path)
-        if toks is None:
-            raise _fail("##XYDATA= holds no values", path, line0)
-        kind, affn, mant, decimals, tline = toks
-        if decimals.any():
-            value = mant / 10.0 ** decimals
-        else:
-            value = mant
-        xdec = decimals
+    if toks is None:
+        raise _fail("##XYDATA= holds no values", path, line0)
+    kind, affn, value, xdec, tline = toks
     return _assemble(kind, affn, value, xdec, tline, line0, path, max_values)
 
 
@@ -389,38 +393,29 @@ def encode_difdup_lines(y: np.ndarray, x_of, *, width: int = 80) -> list[str]:
     """
     y = np.asarray(y, np.int64)
     d = np.diff(y)
-    # runs of equal differences
-    if d.size:
-        brk = np.flatnonzero(d[1:] != d[:-1]) + 1
-        run_start = np.concatenate(([0], brk))
-        run_len = np.diff(np.concatenate((run_start, [d.size])))
-        run_val = d[run_start]
-    else:
-        run_start = run_len = run_val = np.zeros(0, np.int64)
+    # runs of equal differences: one DIF token each, with a DUP count when longer than 1
+    brk = np.flatnonzero(d[1:] != d[:-1]) + 1
+    run_start = np.concatenate(([0], brk)) if d.size else np.zeros(0, np.int64)
+    run_len = np.diff(np.concatenate((run_start, [d.size]))).tolist()
+    pos, neg = _DIF_FIRST
+    toks = [neg[t[1]] + t[2:] if t[0] == "-" else pos[t[0]] + t[1:]
+            for t in map(str, d[run_start].tolist())]
+    for k in np.flatnonzero(np.asarray(run_len) > 1).tolist():
+        toks[k] += encode_dup(run_len[k])
+    tok_end = list(accumulate(map(len, toks)))  # characters up to the end of each token
+    run_end = list(accumulate(run_len))  # ordinates covered up to the end of each run
     lines: list[str] = []
-    i = 0  # index of the ordinate that starts the current line
-    r = 0
-    runs = list(zip(run_val.tolist(), run_len.tolist(), strict=True))
+    i = r = 0  # the ordinate starting the line, the next run to write
     while True:
-        line = x_of(i) + encode_sqz(int(y[i]))
-        pos = i
-        while r < len(runs):
-            val, ln = runs[r]
-            tok = encode_dif(val)
-            if ln > 1:
-                tok += encode_dup(ln)
-            if len(line) + len(tok) > width and pos > i:
-                break
-            line += tok
-            pos += ln
-            r += 1
-        lines.append(line)
-        if pos == i:  # only the check or a single point: done
+        head = x_of(i) + encode_sqz(int(y[i]))
+        if r == len(toks):  # the check of the last ordinate, or a single point
+            lines.append(head)
             break
-        i = pos
-        if r >= len(runs):
-            lines.append(x_of(i) + encode_sqz(int(y[i])))
-            break
+        used = tok_end[r - 1] if r else 0
+        stop = max(bisect_right(tok_end, used + width - len(head), r), r + 1)
+        lines.append(head + "".join(toks[r:stop]))
+        i = run_end[stop - 1]
+        r = stop
     return lines
 
 

@@ -408,8 +408,8 @@ def write_jcamp(spectrum: Spectrum, path, *, form: str = "DIFDUP", title: str | 
                 f"from even spacing {dx!r}; use form='XYPOINTS' or resample first")
         xs = x.tolist()
 
-        def x_of(i: int) -> str:
-            return repr(xs[i])
+        def x_of(i: int) -> str:  # the line X is a check value: 12 digits are plenty
+            return f"{xs[i]:.12g}"
 
         if form == "AFFN":
             yf = 1.0
