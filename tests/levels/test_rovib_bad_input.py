@@ -60,14 +60,17 @@ def test_contradictory_locks(lines):
 
 
 def test_ambiguous_isotopologue_split_asks_for_a_lock():
-    # one sub-band only, of a molecule whose two isotopologues have nearly equal abundance and an
-    # origin shift far below the line errors: which one it is cannot be told (invented values)
+    # lines of one sub-band only, of a molecule whose two isotopologues are about equally
+    # abundant (79Br 50.7 %, 81Br 49.3 %, periodictable): which one it is cannot be told
     mol = Diatomic("H", "Br")
-    c = {"omega_e": 2649.0, "omega_e_x_e": 45.2, "B_e": 8.465, "alpha_e": 0.233, "D_e": 3.46e-4}
-    df = line_list(Diatomic("1H", "79Br"), c, J_max=10, sigma=2.0, seed=1)
-    df["area"] = 1.0
+    c = {"omega_e": 2649.0, "omega_e_x_e": 45.2, "B_e": 8.465, "alpha_e": 0.233,
+         "D_e": 3.46e-4}  # HBr-like constants, from memory (invented for this check)
+    df = line_list(Diatomic("1H", "79Br"), c, J_max=10, sigma=0.003, seed=1)
     with pytest.raises(wk.AssignmentError, match="ambiguous isotopologue split"):
         assign_rovibrational(df, mol)
+    lid = int(df.loc[(df["Jl"] == 0) & (df["Ju"] == 1), "line_id"].iloc[0])
+    res = assign_rovibrational(df, mol, locks={lid: {"isotopologue": "1H-79Br", "label": "R(0)"}})
+    assert set(res.assignments["isotopologue"]) == {"1H-79Br"}
 
 
 def test_bad_options_are_refused(lines):
