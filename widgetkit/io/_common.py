@@ -7,6 +7,7 @@ import hashlib
 import io
 import os
 import re
+import tempfile
 from typing import Any
 
 import numpy as np
@@ -243,3 +244,17 @@ def finish(x: np.ndarray, y: np.ndarray, *, x_unit: str, y_kind: str, percent: b
         x, y = xs, y[order]
         meta["sorted"] = "ascending wavenumber (file order differed)"
     return Spectrum(x, y, y_kind=y_kind, meta=meta, source=source)
+
+
+def atomic_write(path: str, data: bytes) -> None:
+    """Write ``data`` to a temporary file beside ``path``, then rename it over ``path``."""
+    folder = os.path.dirname(path) or "."
+    fd, tmp = tempfile.mkstemp(prefix=".widgetkit-", dir=folder)
+    try:
+        with os.fdopen(fd, "wb") as f:
+            f.write(data)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise

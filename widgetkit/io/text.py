@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import os
 import re
-import tempfile
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -25,6 +24,7 @@ from ..spectrum import Spectrum
 from ._common import (
     HashingReader,
     absolute_path,
+    atomic_write,
     check_not_binary,
     decode_text,
     finish,
@@ -372,18 +372,5 @@ def write_csv(spectrum: Spectrum, path, *, y_label: str | None = None,
     out.append(f"wavenumber (cm-1),{label}\n")
     xs, ys = spectrum.x.tolist(), spectrum.y.tolist()
     body = "\n".join(map("{!r},{!r}".format, xs, ys)) + "\n"
-    _atomic_write(apath, ("".join(out) + body).encode("utf-8"))
+    atomic_write(apath, ("".join(out) + body).encode("utf-8"))
     return apath
-
-
-def _atomic_write(path: str, data: bytes) -> None:
-    folder = os.path.dirname(path) or "."
-    fd, tmp = tempfile.mkstemp(prefix=".widgetkit-", dir=folder)
-    try:
-        with os.fdopen(fd, "wb") as f:
-            f.write(data)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
