@@ -126,8 +126,9 @@ class LevelsPanel(Panel):
         if list(self.edit_line.options) != options:
             keep = self.edit_line.value
             self.edit_line.options = options
-            if keep in [o[1] for o in options]:
-                self.edit_line.value = keep
+            ids = [o[1] for o in options]
+            if ids:
+                self.edit_line.value = keep if keep in ids else ids[0]
         a = s.assignments
         locks = s.locks
         if "line_id" in a:

@@ -1,0 +1,176 @@
+"""Lines and Levels panels driven headless: fit, busy state, tables, assignment, locks, plots."""
+
+import re
+
+import numpy as np
+import pytest
+
+import widgetkit as wk
+from widgetkit.widgets import LevelsPanel, LinesPanel, PeaksPanel, RecordPanel, fortrat_m
+
+# value(uncertainty) as the trade writes it, e.g. 2885.977(3)
+PAREN = re.compile(r"<td>-?\d+\.\d+\(\d+\)</td>")
+
+
+@pytest.fixture
+def peaked(session):
+    session.find_peaks(min_snr=10.0)
+    return session
+
+
+@pytest.fixture
+def fitted(peaked):
+    peaked.fit_lines(shape="lorentzian", baseline="linear")  # the quickest shape to fit
+    return peaked
+
+
+def test_fit_lines_runs_the_session_fit_with_the_chosen_settings(peaked):
+    lines, peaks = LinesPanel(peaked), PeaksPanel(peaked)
+    lines.shape.value = "lorentzian"
+    lines.baseline.value = "constant"
+    lines.fit_button.click()
+    step = peaked.history[-1]
+    assert step.kind == "fit_lines", lines.status.value
+    assert step.params["shape"] == "lorentzian" and step.params["baseline"] == "constant"
+    assert step.params["region"] is None and step.params["shared_width"] is False
+    assert len(peaked.lines) == len(peaked.peaks)
+    assert peaks.markers.x.size == len(peaked.peaks)  # the other panel is unchanged and current
+
+
+def test_the_fit_button_is_disabled_and_says_so_while_the_fit_runs(peaked):
+    seen, panels = [], []
+    # subscribed before the panel, so it is told of the fit step before the panel re-renders
+    peaked.subscribe(lambda session, event: seen.append(
+        (panels[0].fit_button.disabled, panels[0].fit_button.description)))
+    panels.append(LinesPanel(peaked))
+    panels[0].fit_button.click()
+    assert seen and seen[0] == (True, "Fitting…")
+    assert panels[0].fit_button.disabled is False
+    assert panels[0].fit_button.description == "Fit lines"
+
+
+def test_model_components_and_residuals_are_drawn_under_the_spectrum(fitted):
+    panel = LinesPanel(fitted)
+    fit = fitted.line_fit
+    model = panel.plot.curve("model")
+    assert 0 < model.x.size <= 2 * panel.plot.n_bins + 2
+    comp = panel.plot.curve("component")
+    assert comp.y.shape[0] == len(fit.table)  # one row per line
+    resid = panel.plot.curve("residual")
+    assert resid.y.size > 0
+    assert panel.plot.residual_figure is not None and resid in panel.plot.residual_figure.marks
+    # the residual shown is y − model of the full fit, decimated (self-consistency)
+    full = fit.residual
+    assert float(np.max(resid.y)) == pytest.approx(float(full.max()), rel=1e-5)
+
+
+def test_the_line_table_writes_values_with_uncertainties_in_parentheses(fitted):
+    panel = LinesPanel(fitted)
+    html = panel.table.value
+    assert html.count("<tr") == len(fitted.lines) + 1
+    assert len(PAREN.findall(html)) >= 3 * len(fitted.lines)  # position, area, fwhm at least
+    assert "position_err" not in html  # folded into the value column
+    assert "converged" in panel.fit_summary.value and "reduced χ²" in panel.fit_summary.value
+
+
+def test_a_brushed_region_limits_the_fit(peaked):
+    panel = LinesPanel(peaked)
+    panel.mouse_mode.value = "select"
+    panel.plot.brush.brushing = True
+    panel.plot.brush.selected = np.array([2910.0, 2990.0])
+    panel.plot.brush.brushing = False
+    assert panel.use_region.value is True
+    panel.shape.value = "lorentzian"
+    panel.fit_button.click()
+    assert peaked.history[-1].params["region"] == [2910.0, 2990.0]
+    inside = peaked.peaks[(peaked.peaks.position >= 2910) & (peaked.peaks.position <= 2990)]
+    assert len(peaked.lines) == len(inside)
+
+
+def test_a_fit_without_peaks_is_refused_in_the_status_line(session):
+    panel = LinesPanel(session)
+    panel.fit_button.click()
+    assert "wk-status-error" in panel.status.value and "no peaks" in panel.status.value
+    assert len(session.history) == 1
+    assert panel.fit_button.disabled is False
+
+
+def test_assign_fills_the_assignment_and_constants_tables_and_both_plots(fitted):
+    panel, record = LevelsPanel(fitted), RecordPanel(fitted)
+    panel.molecule.value = "HCl"
+    panel.assign_button.click()
+    step = fitted.history[-1]
+    assert step.kind == "assign_band", panel.status.value
+    a = fitted.assignments
+    assert a["label"].notna().all()
+    html = panel.assignment_table.value
+    assert html.count("<tr") == len(a) + 1
+    for label in ("P(1)", "R(0)"):
+        assert f"<td>{label}</td>" in html
+    names = fitted.constants["name"].tolist()
+    assert "band_origin" in names and "B_e" in names
+    assert "band_origin" in panel.constants_table.value
+    assert PAREN.search(panel.constants_table.value)
+    # Fortrat plot: position against m, m = J'' + 1 (R) and −J'' (P)
+    m = np.asarray(panel.fortrat_obs.x)
+    assert set(m.astype(int)) == set(fortrat_m(a["J_upper"], a["J_lower"]).astype(int))
+    assert 0 not in m.astype(int)  # no line at m = 0 (the band-origin gap)
+    assert panel.residual_points.y.size == len(a)
+    assert panel.fortrat_calc.x.size == len(a)
+    assert "assign_band" in record.history_table.value
+
+
+def test_locking_and_clearing_one_line_are_session_steps(fitted):
+    panel = LevelsPanel(fitted)
+    panel.assign_button.click()
+    a = fitted.assignments
+    lid = int(a["line_id"].iloc[0])
+    label = str(a["label"].iloc[0])
+    # a click on the first point of the Fortrat plot selects its line
+    panel._on_point_click(panel.fortrat_obs, {"event": "element_click", "data": {"index": 0}})
+    assert panel.edit_line.value == lid and panel.edit_label.value == label
+    panel.lock_button.click()
+    assert fitted.history[-1].kind == "set_assignment", panel.status.value
+    assert fitted.history[-1].params == {"line_id": lid, "labels": {"label": label}}
+    assert "🔒" in panel.assignment_table.value
+    panel.clear_button.click()
+    assert fitted.history[-1].kind == "clear_assignment"
+    assert fitted.locks[lid] == {}
+
+
+def test_a_lock_without_a_label_says_what_to_type(fitted):
+    panel = LevelsPanel(fitted)
+    panel.assign_button.click()
+    n = len(fitted.history)
+    panel.edit_label.value = ""
+    panel.lock_button.click()
+    assert len(fitted.history) == n and "type a label" in panel.status.value
+
+
+def test_an_unknown_molecule_is_reported(fitted):
+    panel = LevelsPanel(fitted)
+    panel.molecule.value = "Xq"
+    panel.assign_button.click()
+    assert "wk-status-error" in panel.status.value
+    assert fitted.history[-1].kind == "fit_lines"
+
+
+def test_fortrat_m_follows_the_convention_of_the_branches():
+    # m = J'' + 1 for R(J''), m = −J'' for P(J'') (DOMAIN.md; common practice)
+    m = fortrat_m([1, 2, 0, 1, 3], [0, 1, 1, 2, 3])
+    assert m[:4].tolist() == [1.0, 2.0, -1.0, -2.0] and np.isnan(m[4])
+
+
+def test_the_whole_analysis_with_the_panels_replays_and_verifies(tmp_path, session):
+    from widgetkit.widgets import AnalysisApp
+
+    app = AnalysisApp(session)
+    app.peaks_panel.min_snr.value = 10.0
+    app.peaks_panel.find_button.click()
+    app.lines_panel.fit_button.click()
+    app.levels_panel.assign_button.click()
+    kinds = [s.kind for s in session.history]
+    assert kinds == ["load", "find_peaks", "fit_lines", "assign_band"], app.levels_panel.status.value
+    path = tmp_path / "hcl.session.json"
+    session.save(path)
+    assert wk.Session.load(path).verify().ok
