@@ -358,6 +358,18 @@ def write_csv(spectrum: Spectrum, path, *, y_label: str | None = None,
     ``absorbance``, ``transmittance (fraction)`` or ``intensity`` unless given. The file is
     written to a temporary name and then renamed, so a failed write leaves no partial file.
 
+    Parameters
+    ----------
+    spectrum : Spectrum
+        x in cm⁻¹ is written as is (ascending).
+    path : str or path-like
+        The file to write (replaced if it exists).
+    y_label : str, optional
+        Header of the y column. A label :func:`read_text` does not recognise means the file
+        must be read back with ``y_kind=``.
+    title : str, optional
+        Written as ``# title: ...``; default ``spectrum.meta["title"]``, none if empty.
+
     Returns
     -------
     str
