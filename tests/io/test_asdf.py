@@ -160,3 +160,8 @@ def test_values_with_more_digits_than_int64_holds_are_read_as_floats():
     assert d.line_x.tolist() == [0.060000000000000005]  # float("0.060000000000000005")
     with pytest.raises(SpectrumFormatError, match="more than 18 digits"):
         decode_xydata(b"1 A2345678901234567890\n", line0=1)  # an SQZ integer beyond int64
+
+
+def test_long_decimal_values_are_rounded_once_like_float():
+    # 17 significant digits: beyond 2**53, so the float tokeniser must parse it (float())
+    assert ys("0 0.0 360287970190.31555") == [0.0, float("360287970190.31555")]

@@ -47,7 +47,9 @@ def write_jcamp(spectrum: Spectrum, path, *, form: str = "DIFDUP", title: str | 
         runs and the Y-check; YFACTOR is a power of ten keeping 7 significant digits of the
         largest |y| (:func:`yfactor_for`), so each y changes by at most YFACTOR/2.
         ``"AFFN"``: the same record with every y in full precision (YFACTOR=1, exact).
-        Both need evenly spaced x (within 1e-6 of the spacing). ``"XYPOINTS"``:
+        Both need evenly spaced x (within 1e-6 of the spacing): a reader rebuilds x from
+        FIRSTX, LASTX and NPOINTS, which gives back x made by ``numpy.linspace`` exactly and
+        other evenly spaced x to within that tolerance. ``"XYPOINTS"``:
         ``##XYPOINTS=(XY..XY)``, one exact x,y pair per line, for any x.
     title, origin, owner, data_type : str, optional
         ``##TITLE=`` (default ``meta["title"]``), ``##ORIGIN=``, ``##OWNER=`` (default

@@ -111,7 +111,8 @@ def _fail(msg: str, path, line) -> SpectrumFormatError:
 
 def _tokenise_fast(a: np.ndarray, line0: int, path):
     """Vectorised tokeniser: kind, AFFN flag, value, decimals and line of every token
-    (None when there is no token, ``"long"`` when a value has more than 18 digits)."""
+    (None when there is no token, ``"long"`` when a value has more digits than int64 or,
+    with a decimal point, float64 holds exactly)."""
     cls = _CLS[a]
     bad = cls == _BAD
     if bad.any():
@@ -170,6 +171,9 @@ def _tokenise_fast(a: np.ndarray, line0: int, path):
     affn = (lead_cls == _DIGIT) | (lead_cls == _DOT) | (lead_cls == _SIGN)
     value = sign * mantissa
     if decimals.any():
+        # mantissa / 10**d is correctly rounded only while the mantissa is exact in float64
+        if np.any((decimals > 0) & (mantissa >= 2**53)):
+            return "long"
         value = value / 10.0 ** decimals
     return kind, affn, value, decimals, nl_cum[starts]
 
