@@ -39,7 +39,6 @@ from ._common import (
 __all__ = ["read_text", "write_csv"]
 
 _HEAD_BYTES = 1 << 16
-_SNIFF_ROWS = 50
 _NUM = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?\Z")
 _NONFINITE = {"nan", "+nan", "-nan", "inf", "+inf", "-inf", "infinity", "+infinity",
               "-infinity", "na", "n/a", "null", "none"}
