@@ -249,3 +249,22 @@ def test_rows_ending_in_a_separator_are_read(tmp_path):
     with pytest.raises(SpectrumFormatError, match="3 field") as info:
         read_text(bad)
     assert info.value.line == 3
+
+
+def test_a_file_larger_than_the_sniffed_head_reads_the_same_by_both_parsers(tmp_path, monkeypatch):
+    rng = np.random.default_rng(11)
+    x = np.sort(rng.uniform(400.0, 4000.0, 4000))[::-1]  # descending, uneven: demo data
+    y = rng.normal(size=x.size)
+    body = "".join(f"{a!r}\t{b!r}\n" for a, b in zip(x.tolist(), y.tolist(), strict=True))
+    p = write(tmp_path, "# demo\nwavenumber (cm-1)\tintensity\n" + body)
+    assert p.stat().st_size > 65536  # beyond the 64 KiB the sniffer reads
+    fast = read_text(p)
+    monkeypatch.setattr(text_mod, "_fast_columns", lambda *a: None)
+    slow = read_text(p)
+    assert fast == slow and fast.source == slow.source
+    assert np.array_equal(fast.x, x[::-1]) and np.array_equal(fast.y, y[::-1])  # round trip
+    bad = write(tmp_path, "wavenumber (cm-1)\tintensity\n" + body + "1.0\tbad\n", "bad.txt")
+    monkeypatch.undo()
+    with pytest.raises(SpectrumFormatError, match="'bad' is not a number") as info:
+        read_text(bad)
+    assert info.value.line == x.size + 2
