@@ -107,11 +107,14 @@ def lab(tmp_path):
 
 
 def _shot(page, tmp_path: Path, name: str) -> Path:
-    path = tmp_path / f"{name}.png"
-    page.screenshot(path=str(path), full_page=True)
+    """A screenshot of the app (and of the whole page) to tmp_path and test-output/browser/."""
     out = REPO / "test-output" / "browser"
     out.mkdir(parents=True, exist_ok=True)
-    shutil.copy(path, out / path.name)
+    page.screenshot(path=str(tmp_path / f"{name}-page.png"))
+    path = tmp_path / f"{name}.png"
+    page.locator(".wk-app").first.screenshot(path=str(path))
+    for p in (path, tmp_path / f"{name}-page.png"):
+        shutil.copy(p, out / p.name)
     return path
 
 
@@ -126,7 +129,7 @@ def test_the_quick_start_notebook_runs_and_its_buttons_change_the_tables(lab, tm
     with sync_api.sync_playwright() as p:
         browser = p.chromium.launch(executable_path=chromium, headless=True, args=CHROMIUM_ARGS)
         try:
-            page = browser.new_page(viewport={"width": 1400, "height": 1100})
+            page = browser.new_page(viewport={"width": 1400, "height": 1800})
             page.set_default_timeout(60_000)
             page.goto(f"{url}/lab/tree/{NOTEBOOK.name}")
             page.wait_for_function(
@@ -170,5 +173,24 @@ def test_the_quick_start_notebook_runs_and_its_buttons_change_the_tables(lab, tm
             page.wait_for_timeout(500)
             shot = _shot(page, tmp_path, "3-lines-fitted")
             assert shot.stat().st_size > 10_000
+
+            page.locator(".widget-tab .lm-TabBar-tab", has_text="Levels").first.click()
+            constants = page.locator("table.wk-constants").first
+            constants.wait_for(state="visible")
+            assert "no constants yet" in constants.inner_text()
+            page.locator("button.wk-assign").first.click()
+            page.wait_for_function(
+                "() => { const t = document.querySelector('table.wk-constants');"
+                " return t && t.innerText.includes('band_origin'); }", timeout=60_000)
+            assert "R(0)" in page.locator("table.wk-assignments").first.inner_text()
+            page.wait_for_timeout(500)
+            _shot(page, tmp_path, "4-band-assigned")
+
+            page.locator(".widget-tab .lm-TabBar-tab", has_text="Record").first.click()
+            history = page.locator("table.wk-history").first
+            history.wait_for(state="visible")
+            for kind in ("find_peaks", "fit_lines", "assign_band"):
+                assert kind in history.inner_text()
+            _shot(page, tmp_path, "5-record")
         finally:
             browser.close()

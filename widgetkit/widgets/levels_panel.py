@@ -35,7 +35,7 @@ def _small_figure(title: str, x_label: str, y_label: str):
     fig = bq.Figure(marks=[], title=title,
                     axes=[bq.Axis(scale=xs, label=x_label, grid_lines="none"),
                           bq.Axis(scale=ys, side="left", label=y_label, label_offset="60px",
-                                  tick_format=".4g", grid_lines="none")],
+                                  tick_format=".5~g", grid_lines="none")],
                     fig_margin={"top": 30, "bottom": 40, "left": 80, "right": 10},
                     layout=ipw.Layout(width="50%", height="280px"),
                     min_aspect_ratio=0.01, max_aspect_ratio=100, animation_duration=0)
@@ -77,10 +77,12 @@ class LevelsPanel(Panel):
         self.edit_label = ipw.Text(description="label", placeholder="R(3), P(1) or 2-0",
                                    layout=ipw.Layout(width="210px"))
         self.edit_isotopologue = ipw.Text(description="isotopologue", placeholder="optional",
+                                          style={"description_width": "initial"},
                                           layout=ipw.Layout(width="230px"))
         self.lock_button = ipw.Button(description="Lock", icon="lock")
         self.lock_button.on_click(self._on_lock_click)
-        self.clear_button = ipw.Button(description="Leave unassigned", icon="ban")
+        self.clear_button = ipw.Button(description="Leave unassigned", icon="ban",
+                                       layout=ipw.Layout(width="auto"))
         self.clear_button.on_click(self._on_clear_click)
 
         self.fortrat_fig, fx, fy = _small_figure("Fortrat plot", "m", "position / cm⁻¹")
@@ -91,6 +93,7 @@ class LevelsPanel(Panel):
         self.fortrat_fig.marks = [self.fortrat_calc, self.fortrat_obs]
         self.residual_fig, rx, ry = _small_figure("obs − calc", "position / cm⁻¹",
                                                   "obs − calc / cm⁻¹")
+        self.residual_fig.axes[1].tick_format = ".2~g"
         self.residual_points = bq.Scatter(x=np.zeros(0), y=np.zeros(0),
                                           scales={"x": rx, "y": ry}, colors=[COLORS["data"]],
                                           default_size=24)
@@ -109,7 +112,7 @@ class LevelsPanel(Panel):
             self.constants_table,
             ipw.HBox([self.edit_line, self.edit_label, self.edit_isotopologue, self.lock_button,
                       self.clear_button]),
-            ipw.HTML("<b>Assignments</b> (red: outlier; 🔒: locked)"),
+            ipw.HTML("<b>Assignments</b> (outliers in red)"),
             self.assignment_table,
         ]
 
@@ -132,7 +135,7 @@ class LevelsPanel(Panel):
         a = s.assignments
         locks = s.locks
         if "line_id" in a:
-            a = a.assign(lock=["🔒" if int(i) in locks else "" for i in a["line_id"]])
+            a = a.assign(lock=["locked" if int(i) in locks else "" for i in a["line_id"]])
         self.assignment_table.value = html_table(
             a, name="assignments", columns=[*ASSIGNMENT_COLUMNS, "lock"],
             headers={"obs_minus_calc": "obs − calc"},

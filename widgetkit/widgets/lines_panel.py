@@ -21,6 +21,9 @@ BASELINE_CHOICES = [("none", None), ("constant", "constant"), ("linear", "linear
 LINE_COLUMNS = ["line_id", "position", "position_err", "area", "area_err", "height", "height_err",
                 "fwhm", "fwhm_err", "sigma", "sigma_err", "gamma", "gamma_err"]
 
+HEADERS = {"position": "position / cm⁻¹", "fwhm": "fwhm / cm⁻¹", "sigma": "sigma / cm⁻¹",
+           "gamma": "gamma / cm⁻¹", "area": "area / (y·cm⁻¹)"}
+
 
 class LinesPanel(Panel):
     """Fit every peak (optionally inside a brushed region) with a line shape.
@@ -59,7 +62,7 @@ class LinesPanel(Panel):
         self.region_hi = ipw.FloatText(description="to", layout=ipw.Layout(width="160px"))
         self.mouse_mode = ipw.ToggleButtons(options=[("zoom", "zoom"), ("select region", "select")],
                                             value="zoom", description="",
-                                            style={"button_width": "100px"})
+                                            style={"button_width": "115px"})
         self.mouse_mode.observe(lambda ch: self.plot.set_mode(ch["new"]), names=["value"])
         self.reset_zoom_button = ipw.Button(description="Whole range", icon="arrows-h")
         self.reset_zoom_button.on_click(lambda _: self.plot.reset_window())
@@ -110,7 +113,7 @@ class LinesPanel(Panel):
                                     ref=fit.model_y)
                 self.plot.set_curve("residual", fit.x, fit.residual)
         self.fit_summary.value = self._summary_html(fit)
-        self.table.value = html_table(s.lines, name="lines", columns=LINE_COLUMNS,
+        self.table.value = html_table(s.lines, name="lines", columns=LINE_COLUMNS, headers=HEADERS,
                                       empty="no lines yet: find peaks, then press Fit lines")
 
     @staticmethod

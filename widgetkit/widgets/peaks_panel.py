@@ -62,7 +62,7 @@ class PeaksPanel(Panel):
 
         self.mouse_mode = ipw.ToggleButtons(options=[("zoom", "zoom"), ("add / select", "click")],
                                             value="zoom", description="",
-                                            style={"button_width": "100px"})
+                                            style={"button_width": "115px"})
         self.mouse_mode.observe(lambda ch: self.plot.set_mode(ch["new"]), names=["value"])
         self.reset_zoom_button = ipw.Button(description="Whole range", icon="arrows-h")
         self.reset_zoom_button.on_click(lambda _: self.plot.reset_window())

@@ -89,7 +89,7 @@ class SpectrumPanel(Panel):
 
         self.mouse_mode = ipw.ToggleButtons(options=[("zoom", "zoom"), ("select region", "select")],
                                             value="zoom", description="",
-                                            style={"button_width": "100px"})
+                                            style={"button_width": "115px"})
         self.mouse_mode.observe(self._on_mouse_mode_change, names=["value"])
         self.reset_zoom_button = ipw.Button(description="Whole range", icon="arrows-h")
         self.reset_zoom_button.on_click(lambda _: self.plot.reset_window())
@@ -117,7 +117,7 @@ class SpectrumPanel(Panel):
                                              continuous_update=False, readout_format=".3f")
         self.baseline_preview = ipw.Checkbox(value=True, description="preview", indent=False)
         self.subtract_button = ipw.Button(description="Subtract baseline", icon="minus",
-                                          button_style="primary")
+                                          button_style="primary", layout=ipw.Layout(width="auto"))
         self.subtract_button.on_click(self._on_subtract_click)
         for w in (self.baseline_method, self.baseline_degree, self.baseline_lam,
                   self.baseline_p, self.baseline_preview):
