@@ -140,3 +140,19 @@ def test_importing_the_io_layer_loads_no_widget_library():
             "print('ipywidgets' in sys.modules or 'bqplot' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "False"
+
+
+def test_written_files_get_the_usual_permissions_and_no_temporary_file_stays(tmp_path):
+    import os
+    import stat
+
+    x = np.linspace(1000.0, 1010.0, 11)
+    s = wk.Spectrum(x, x / 1e4, y_kind="absorbance")
+    old = os.umask(0o022)
+    try:
+        paths = [write_csv(s, tmp_path / "p.csv"), write_jcamp(s, tmp_path / "p.jdx")]
+    finally:
+        os.umask(old)
+    for p in paths:
+        assert stat.S_IMODE(os.stat(p).st_mode) == 0o644  # 0o666 less umask 0o022
+    assert sorted(q.name for q in tmp_path.iterdir()) == ["p.csv", "p.jdx"]

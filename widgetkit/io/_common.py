@@ -7,7 +7,7 @@ import hashlib
 import io
 import os
 import re
-import tempfile
+import secrets
 from typing import Any
 
 import numpy as np
@@ -247,9 +247,23 @@ def finish(x: np.ndarray, y: np.ndarray, *, x_unit: str, y_kind: str, percent: b
 
 
 def atomic_write(path: str, data: bytes) -> None:
-    """Write ``data`` to a temporary file beside ``path``, then rename it over ``path``."""
+    """Write ``data`` to a temporary file beside ``path``, then rename it over ``path``.
+
+    The temporary file is created with mode 0o666 less the process umask, as ``open`` would
+    create ``path`` itself (not the private 0o600 of :func:`tempfile.mkstemp`), so the file
+    written has the usual permissions. A failed write leaves ``path`` as it was.
+    """
     folder = os.path.dirname(path) or "."
-    fd, tmp = tempfile.mkstemp(prefix=".widgetkit-", dir=folder)
+    base = os.path.basename(path)
+    for _ in range(100):
+        tmp = os.path.join(folder, f".{base}.{secrets.token_hex(6)}.tmp")
+        try:
+            fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)
+            break
+        except FileExistsError:
+            continue
+    else:  # pragma: no cover - 100 random names all taken
+        raise FileExistsError(f"could not create a temporary file beside {path}")
     try:
         with os.fdopen(fd, "wb") as f:
             f.write(data)
