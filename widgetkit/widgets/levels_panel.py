@@ -55,6 +55,7 @@ class LevelsPanel(Panel):
 
     def __init__(self, session=None, *, owner=None, **kwargs):
         self._shown_assignment = 0  # a value no assignment is
+        self._shown_key: tuple | None = None
         self._plot_ids: list[int] = []
         super().__init__(session, owner=owner, **kwargs)
 
@@ -122,7 +123,13 @@ class LevelsPanel(Panel):
         if s is None:
             self.edit_line.options = []
             self.assignment_table.value = self.constants_table.value = ""
+            self._shown_key = None
             return
+        state = s.state
+        key = (s, state.line_fit, state.assignment, state.locks)
+        if self._shown_key is not None and all(a is b for a, b in zip(key, self._shown_key)):
+            return  # nothing this panel shows has changed (e.g. a peak was added)
+        self._shown_key = key
         lines = s.lines
         options = [(f"{int(r.line_id)} at {r.position:.4f} cm⁻¹", int(r.line_id))
                    for r in lines.itertuples()]

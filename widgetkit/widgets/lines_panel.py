@@ -21,6 +21,8 @@ BASELINE_CHOICES = [("none", None), ("constant", "constant"), ("linear", "linear
 LINE_COLUMNS = ["line_id", "position", "position_err", "area", "area_err", "height", "height_err",
                 "fwhm", "fwhm_err", "sigma", "sigma_err", "gamma", "gamma_err"]
 
+_UNSET = object()
+
 HEADERS = {"position": "position / cm⁻¹", "fwhm": "fwhm / cm⁻¹", "sigma": "sigma / cm⁻¹",
            "gamma": "gamma / cm⁻¹", "area": "area / (y·cm⁻¹)"}
 
@@ -40,7 +42,7 @@ class LinesPanel(Panel):
         self._reverse_x = reverse_x
         self._n_bins = n_bins
         self._shown_spectrum = None
-        self._shown_fit = None
+        self._shown_fit = _UNSET
         self.busy = False
         super().__init__(session, owner=owner, **kwargs)
 
@@ -89,6 +91,7 @@ class LinesPanel(Panel):
         if s is None:
             self.plot.clear("data", "model", "component", "residual")
             self.table.value = self.fit_summary.value = ""
+            self._shown_fit = _UNSET
             return
         sp = s.spectrum
         if sp is not self._shown_spectrum:
@@ -112,9 +115,10 @@ class LinesPanel(Panel):
                 self.plot.set_curve("component", fit.x, fit.components + fit.baseline_y,
                                     ref=fit.model_y)
                 self.plot.set_curve("residual", fit.x, fit.residual)
-        self.fit_summary.value = self._summary_html(fit)
-        self.table.value = html_table(s.lines, name="lines", columns=LINE_COLUMNS, headers=HEADERS,
-                                      empty="no lines yet: find peaks, then press Fit lines")
+            self.fit_summary.value = self._summary_html(fit)
+            self.table.value = html_table(s.lines, name="lines", columns=LINE_COLUMNS,
+                                          headers=HEADERS,
+                                          empty="no lines yet: find peaks, then press Fit lines")
 
     @staticmethod
     def _summary_html(fit) -> str:

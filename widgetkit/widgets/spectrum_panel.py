@@ -162,8 +162,9 @@ class SpectrumPanel(Panel):
                 if new_range:
                     self.plot.reset_window()
                     self.crop_lo.value, self.crop_hi.value = float(sp.x[0]), float(sp.x[-1])
-        key = (id(s), id(sp))
-        if key != self._meta_key:
+        key = (s, sp)
+        if self._meta_key is None or key[0] is not self._meta_key[0] \
+                or key[1] is not self._meta_key[1]:
             self._meta_key = key
             self.meta_html.value = self._meta_html()
         self.absorbance_button.disabled = (self.absorbance_button.disabled
@@ -213,8 +214,9 @@ class SpectrumPanel(Panel):
             self.plot.clear("baseline")
             return
         method, opts = self._baseline_opts()
-        key = (id(s.spectrum), method, tuple(sorted(opts.items())))
-        if key == self._preview_key:
+        key = (s.spectrum, method, tuple(sorted(opts.items())))
+        old = self._preview_key
+        if old is not None and old[0] is key[0] and old[1:] == key[1:]:
             return
         try:
             b = self.preview_baseline()
