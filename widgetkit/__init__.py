@@ -37,6 +37,8 @@ __all__ = [
     "__version__",
     "Spectrum",
     "read_spectrum",
+    "write_csv",
+    "write_jcamp",
     "Session",
     "Step",
     "VerifyReport",
@@ -60,6 +62,8 @@ _SUBMODULES = {"io", "processing", "lines", "levels", "oscillator", "simulate", 
                "session", "report", "cli", "demo"}
 _LAZY_NAMES = {
     "read_spectrum": ("io", "read_spectrum"),
+    "write_csv": ("io", "write_csv"),
+    "write_jcamp": ("io", "write_jcamp"),
     "Session": ("session", "Session"),
     "Step": ("session", "Step"),
     "VerifyReport": ("session", "VerifyReport"),
