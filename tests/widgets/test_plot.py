@@ -115,3 +115,17 @@ def test_mouse_modes_switch_the_figure_interaction():
     assert fig.figure.interaction is fig.panzoom
     with pytest.raises(ValueError, match="mouse mode"):
         fig.set_mode("lasso")
+
+
+def test_a_zoom_on_a_million_points_sends_less_than_100_kilobytes(noisy, sent, browser_side):
+    # issue 6: at most a few thousand points and under 100 kB per update
+    fig = SpectrumFigure()
+    fig.add_curve("data")
+    fig.set_curve("data", *noisy)
+    sent.clear()
+    browser_side.update(fig.x_scale, min=1000.0, max=1500.0)  # one message, as from a zoom
+    mark = fig.curve("data")
+    updates = sent.updates_of(mark)
+    assert len(updates) == 1  # x and y in one message (hold_sync)
+    assert set(updates[0]["state"]) >= {"x", "y"}
+    assert 0 < sent.buffer_bytes([mark]) < 100_000

@@ -151,3 +151,18 @@ def test_the_app_shows_all_panels_as_tabs_on_one_session(session):
         xs = np.asarray(panel.plot.curve("data").x, dtype=float)
         assert xs.min() >= 2799.9 and xs.max() <= 3000.1
     assert "crop" in app.record_panel.history_table.value
+
+
+def test_a_read_only_app_walks_through_the_record_but_changes_nothing(session):
+    _with_peaks(session)
+    app = AnalysisApp(session, read_only=True)
+    for button in (app.peaks_panel.find_button, app.lines_panel.fit_button,
+                   app.levels_panel.assign_button, app.spectrum_panel.crop_button,
+                   app.record_panel.note_button, app.record_panel.save_button,
+                   app.spectrum_panel.open_button):
+        assert button.disabled
+    app.record_panel.back_button.click()  # stepping through still works
+    assert session.viewing == 1
+    assert app.peaks_panel.markers.x.size == len(session.peaks)
+    app.record_panel.latest_button.click()
+    assert app.peaks_panel.find_button.disabled  # still read-only at the end

@@ -164,3 +164,19 @@ def test_a_typed_position_adds_a_peak_too(session):
     panel.add_button.click()
     assert session.history[-1].kind == "add_peak"
     assert len(session.peaks) == 1
+
+
+def test_a_transmittance_spectrum_is_converted_to_absorbance_by_its_button(small_spectrum):
+    # invented data (self-consistency): T = 10^-A of the three-line demo spectrum
+    t = wk.Spectrum(small_spectrum.x, 10.0 ** -small_spectrum.y, y_kind="transmittance")
+    session = wk.Session(t)
+    panel = SpectrumPanel(session)
+    assert not panel.absorbance_button.disabled
+    assert panel.plot.curve("baseline").x.size == 0  # no baseline preview on transmittance
+    assert panel.plot.x_scale.reverse is True  # transmittance also runs high to low
+    panel.absorbance_button.click()
+    assert session.history[-1].kind == "to_absorbance"
+    assert session.spectrum.y_kind == "absorbance"
+    np.testing.assert_allclose(session.spectrum.y, small_spectrum.y, rtol=1e-12)  # A = −log10 T
+    assert panel.absorbance_button.disabled  # nothing left to convert
+    assert panel.plot.y_axis.label == "absorbance"

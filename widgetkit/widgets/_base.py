@@ -46,16 +46,22 @@ class Panel(ipw.VBox):
     owner : object, optional
         The app holding this panel; a panel that opens a new session (load,
         reopen) hands it to ``owner.use_session`` so every panel switches.
+    read_only : bool, default False
+        Disable every control that changes the analysis (for a walk-through
+        in a meeting, e.g. under Voila); zoom, selection and stepping through
+        the record stay available.
     """
 
     title = "Panel"
 
-    def __init__(self, session=None, *, owner=None, **kwargs):
+    def __init__(self, session=None, *, owner=None, read_only: bool = False, **kwargs):
         super().__init__(**kwargs)
+        self.read_only = bool(read_only)
         self.add_class("wk-panel")
         self._session = None
         self._owner = owner
         self._action_widgets: list[ipw.Widget] = []
+        self._file_widgets: list[ipw.Widget] = []
         #: the error of the last action (None when it succeeded)
         self.last_error: Exception | None = None
         self.status = ipw.HTML(status_html("info", ""), layout=ipw.Layout(min_height="1.6em"))
@@ -83,10 +89,12 @@ class Panel(ipw.VBox):
         self._render_all()
 
     def _render_all(self) -> None:
-        read_only = self._session is not None and self._session.viewing != len(
+        earlier = self._session is not None and self._session.viewing != len(
             self._session.history) - 1
         for w in self._action_widgets:
-            w.disabled = self._session is None or read_only
+            w.disabled = self._session is None or earlier or self.read_only
+        for w in self._file_widgets:
+            w.disabled = self.read_only
         self.render()
 
     def _use_session(self, new) -> None:
@@ -113,6 +121,10 @@ class Panel(ipw.VBox):
         """Widgets that change the analysis: disabled when there is no session or the
         session shows an earlier step (read-only walk-through)."""
         self._action_widgets.extend(widgets)
+
+    def _file_actions(self, *widgets: ipw.Widget) -> None:
+        """Widgets that open or write files: disabled only in a read-only panel."""
+        self._file_widgets.extend(widgets)
 
     def show_status(self, kind: str, text: str) -> None:
         self.status.value = status_html(kind, text)

@@ -36,13 +36,14 @@ COLORS = {"data": "#1f4e79", "baseline": "#d95f02", "model": "#c0392b", "compone
 class _Curve:
     """One Lines mark and the full-resolution data behind it."""
 
-    __slots__ = ("mark", "x", "y", "ref")
+    __slots__ = ("mark", "x", "y", "ref", "sent_window")
 
     def __init__(self, mark: bq.Lines):
         self.mark = mark
         self.x = np.empty(0)
         self.y = np.empty((0,))
         self.ref = None
+        self.sent_window = None  # the window the mark's data were decimated for
 
 
 class SpectrumFigure:
@@ -134,7 +135,7 @@ class SpectrumFigure:
             c.x = np.asarray(x, dtype=np.float64)
             c.y = np.asarray(y, dtype=np.float64)
             c.ref = None if ref is None else np.asarray(ref, dtype=np.float64)
-        self._send(c)
+        self._send(c, force=True)
 
     def clear(self, *names: str) -> None:
         for n in names:
@@ -175,7 +176,11 @@ class SpectrumFigure:
         return (np.broadcast_to(c.x[sel], (c.y.shape[0], sel.size)).astype(np.float32),
                 c.y[:, sel].astype(np.float32))
 
-    def _send(self, c: _Curve) -> None:
+    def _send(self, c: _Curve, force: bool = False) -> None:
+        window = self.window
+        if not force and window == c.sent_window:
+            return  # min and max of one zoom arrive as two notifications
+        c.sent_window = window
         xd, yd = self._decimated(c)
         with c.mark.hold_sync():
             c.mark.x = xd

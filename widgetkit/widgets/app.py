@@ -25,6 +25,10 @@ class AnalysisApp(ipw.VBox):
         transmittance spectra).
     n_bins : int, optional
         Bins of the display decimation.
+    read_only : bool, default False
+        Disable every control that changes the analysis (a walk-through in a
+        meeting, e.g. under Voila): zoom, selections and the Record panel's
+        Back/Forward still work; saving is still possible.
 
     Notes
     -----
@@ -34,15 +38,16 @@ class AnalysisApp(ipw.VBox):
     """
 
     def __init__(self, session=None, *, reverse_x: bool | None = None, n_bins: int | None = None,
-                 **kwargs):
+                 read_only: bool = False, **kwargs):
         super().__init__(**kwargs)
         self.add_class("wk-app")
-        plot_kw = {"reverse_x": reverse_x, "n_bins": n_bins}
-        self.spectrum_panel = SpectrumPanel(session, owner=self, **plot_kw)
-        self.peaks_panel = PeaksPanel(session, owner=self, **plot_kw)
-        self.lines_panel = LinesPanel(session, owner=self, **plot_kw)
-        self.levels_panel = LevelsPanel(session, owner=self)
-        self.record_panel = RecordPanel(session, owner=self)
+        ro = {"owner": self, "read_only": read_only}
+        plot_kw = {"reverse_x": reverse_x, "n_bins": n_bins, **ro}
+        self.spectrum_panel = SpectrumPanel(session, **plot_kw)
+        self.peaks_panel = PeaksPanel(session, **plot_kw)
+        self.lines_panel = LinesPanel(session, **plot_kw)
+        self.levels_panel = LevelsPanel(session, **ro)
+        self.record_panel = RecordPanel(session, **ro)
         self.panels = [self.spectrum_panel, self.peaks_panel, self.lines_panel,
                        self.levels_panel, self.record_panel]
         self.tabs = ipw.Tab(children=self.panels, titles=[p.title for p in self.panels])

@@ -53,11 +53,11 @@ class LevelsPanel(Panel):
 
     title = "Levels"
 
-    def __init__(self, session=None, *, owner=None, **kwargs):
+    def __init__(self, session=None, *, owner=None, read_only: bool = False, **kwargs):
         self._shown_assignment = 0  # a value no assignment is
         self._shown_key: tuple | None = None
         self._plot_ids: list[int] = []
-        super().__init__(session, owner=owner, **kwargs)
+        super().__init__(session, owner=owner, read_only=read_only, **kwargs)
 
     def _build(self) -> None:
         self.molecule = ipw.Text(value="HCl", description="molecule",

@@ -38,13 +38,13 @@ class LinesPanel(Panel):
     title = "Lines"
 
     def __init__(self, session=None, *, reverse_x: bool | None = None, n_bins: int | None = None,
-                 owner=None, **kwargs):
+                 owner=None, read_only: bool = False, **kwargs):
         self._reverse_x = reverse_x
         self._n_bins = n_bins
         self._shown_spectrum = None
         self._shown_fit = _UNSET
         self.busy = False
-        super().__init__(session, owner=owner, **kwargs)
+        super().__init__(session, owner=owner, read_only=read_only, **kwargs)
 
     def _build(self) -> None:
         kw = {"n_bins": self._n_bins} if self._n_bins else {}

@@ -25,14 +25,14 @@ class PeaksPanel(Panel):
     title = "Peaks"
 
     def __init__(self, session=None, *, reverse_x: bool | None = None, n_bins: int | None = None,
-                 owner=None, **kwargs):
+                 owner=None, read_only: bool = False, **kwargs):
         self._reverse_x = reverse_x
         self._n_bins = n_bins
         self._shown_spectrum = None
         self._shown_ids: list[int] = []
         self._shown_x = np.zeros(0)
         self.selected_peak: int | None = None
-        super().__init__(session, owner=owner, **kwargs)
+        super().__init__(session, owner=owner, read_only=read_only, **kwargs)
 
     def _build(self) -> None:
         kw = {"n_bins": self._n_bins} if self._n_bins else {}

@@ -60,6 +60,7 @@ class RecordPanel(Panel):
         self.verify_button.on_click(self._on_verify_click)
         self.verify_report = ipw.HTML()
         self._actions(self.undo_button, self.note_button)
+        self._file_actions(self.save_button, self.open_button)
         self.children = [
             ipw.HBox([self.back_button, self.forward_button, self.latest_button,
                       self.step_slider]),

@@ -60,7 +60,7 @@ class SpectrumPanel(Panel):
     title = "Spectrum"
 
     def __init__(self, session=None, *, reverse_x: bool | None = None, n_bins: int | None = None,
-                 owner=None, **kwargs):
+                 owner=None, read_only: bool = False, **kwargs):
         self._reverse_x = reverse_x
         self._n_bins = n_bins
         self._shown_spectrum = None
@@ -68,7 +68,7 @@ class SpectrumPanel(Panel):
         self._meta_key = None
         self._preview_key = None
         self._upload_dir: str | None = None
-        super().__init__(session, owner=owner, **kwargs)
+        super().__init__(session, owner=owner, read_only=read_only, **kwargs)
 
     # ------------------------------------------------------------------ layout
     def _build(self) -> None:
@@ -124,6 +124,7 @@ class SpectrumPanel(Panel):
             w.observe(self._on_baseline_option_change, names=["value"])
 
         self._actions(self.crop_button, self.absorbance_button, self.subtract_button)
+        self._file_actions(self.open_button, self.upload)
         self.baseline_box = ipw.VBox()
         self.children = [
             ipw.HBox([self.path_text, self.open_button, self.upload]),
