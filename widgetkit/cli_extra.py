@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import argparse
 import sys
+from pathlib import Path
 
 __all__ = ["register_report", "register_demo", "COMMANDS"]
 
@@ -40,11 +41,15 @@ def _err(cmd: str, text: str) -> None:
 
 def _cmd_report(args: argparse.Namespace) -> int:
     from .errors import WidgetkitError
-    from .report import collect, write_bundle, write_report
+    from .report import REPORT_FORMATS, collect, write_bundle, write_report
     from .session import Session
 
     if args.output is None and args.bundle is None:
         _err("report", "give -o OUT (a .md, .html, .tex or .csv file) and/or --bundle DIR")
+        return 2
+    if args.output is not None and Path(args.output).suffix.lower() not in REPORT_FORMATS:
+        _err("report", f"cannot tell the report format from {args.output!r}: the name must end in "
+             f"{', '.join(REPORT_FORMATS)} (for example report.html)")
         return 2
     try:
         session = Session.load(args.file)

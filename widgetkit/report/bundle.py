@@ -19,12 +19,14 @@
 from __future__ import annotations
 
 import hashlib
+import os
 from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import WidgetkitError
 from .data import ReportData, collect
-from .write import atomic_write, write_report
+from .figures import report_figures
+from .write import _file_mode, atomic_write, write_report
 
 __all__ = ["Bundle", "BundleExistsError", "write_bundle", "referee_readme"]
 
@@ -160,8 +162,9 @@ def write_bundle(session, folder, *, overwrite: bool = False, title: str | None 
     session.save(session_copy_path)
     session.path = text_path
     written = [session_copy_path]
+    figs = report_figures(data)  # drawn once, saved as PNG, SVG and PDF
     for suffix in (".md", ".html", ".tex", ".csv"):
-        written += [Path(p) for p in write_report(data, out / f"report{suffix}")]
+        written += [Path(p) for p in write_report(data, out / f"report{suffix}", figures=figs)]
     state = session.state_at(len(session.history) - 1)
     processed = state.require_spectrum()
     written.append(Path(write_jcamp(processed, out / "spectrum_processed.jdx", form="DIFDUP",
@@ -170,6 +173,8 @@ def write_bundle(session, folder, *, overwrite: bool = False, title: str | None 
                                   title=data.title + " (processed)")))
     written.append(Path(write_csv(session.source_spectrum, out / "spectrum_source.csv",
                                   title=data.title + " (as loaded)")))
+    for p in written:  # writers of other layers create private (0600) temporary files
+        os.chmod(p, _file_mode())
     files = {p.name: _sha256(p) for p in written}
     readme = out / "README.md"
     atomic_write(readme, referee_readme(data, files).encode("utf-8"))

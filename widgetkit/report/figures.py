@@ -21,11 +21,13 @@ from .data import ReportData
 __all__ = ["spectrum_figure", "residual_figure", "report_figures", "to_svg", "to_png"]
 
 _Y_LABEL = {"absorbance": "absorbance", "transmittance": "transmittance", "intensity": "intensity"}
-_RC = {"svg.hashsalt": "widgetkit-report", "svg.fonttype": "path", "font.size": 9.0}
+_RC = {"svg.hashsalt": "widgetkit-report", "svg.fonttype": "none", "font.size": 9.0}
 
 
 def _new(width: float = 7.5, height: float = 3.2) -> Figure:
-    fig = Figure(figsize=(width, height), dpi=100, layout="constrained")
+    # a fixed layout: the constrained layout engine costs seconds with many labels
+    fig = Figure(figsize=(width, height), dpi=100)
+    fig.subplots_adjust(left=0.1, right=0.98, bottom=0.16, top=0.9)
     FigureCanvasAgg(fig)
     return fig
 

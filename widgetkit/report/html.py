@@ -63,8 +63,12 @@ def _df_table(df: pd.DataFrame) -> str:
                   [[cell_text(row, c) for c in cols] for _, row in df.iterrows()])
 
 
-def render_html(data: ReportData, *, figures: bool = True) -> str:
-    """The report as one self-contained HTML page (inline CSS and SVG figures)."""
+def render_html(data: ReportData, *, figures=True) -> str:
+    """The report as one self-contained HTML page (inline CSS and SVG figures).
+
+    ``figures``: True to draw them (:func:`~widgetkit.report.figures.report_figures`),
+    False for none, or a mapping name -> matplotlib Figure already drawn.
+    """
     out = ["<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
            f"<title>Analysis report: {escape(data.title)}</title>", f"<style>{_CSS}</style>",
            "</head>", "<body>", f"<h1>Analysis report: {escape(data.title)}</h1>",
@@ -81,7 +85,8 @@ def render_html(data: ReportData, *, figures: bool = True) -> str:
                    [[str(s.number), s.kind, s.params_text, s.summary, s.at] for s in data.steps],
                    code_cols=(2,))]
     if figures:
-        for name, fig in report_figures(data).items():
+        figs = report_figures(data) if figures is True else figures
+        for name, fig in figs.items():
             out.append(f'<figure id="figure-{escape(name)}">{to_svg(fig)}'
                        f"<figcaption>{escape(name)}</figcaption></figure>")
     for name, df in data.tables().items():

@@ -5,6 +5,7 @@ from __future__ import annotations
 import io
 import os
 import tempfile
+from collections.abc import Mapping
 from pathlib import Path
 
 from ..errors import WidgetkitError
@@ -30,12 +31,23 @@ def as_report_data(source, *, title: str | None = None, verify: bool = False) ->
     return collect(source, title=title, verify=verify)
 
 
+def _file_mode() -> int:
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
 def atomic_write(path: Path, data: bytes) -> None:
-    """Write ``data`` to ``path`` through a temporary file in the same folder and a rename."""
+    """Write ``data`` to ``path`` through a temporary file in the same folder and a rename.
+
+    The file gets the permissions a newly created file would (0666 less the umask),
+    not the private mode of the temporary file: reports and bundles are for sharing.
+    """
     fd, tmp = tempfile.mkstemp(prefix=".widgetkit-", dir=path.parent)
     try:
         with os.fdopen(fd, "wb") as f:
             f.write(data)
+        os.chmod(tmp, _file_mode())
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):
@@ -43,10 +55,10 @@ def atomic_write(path: Path, data: bytes) -> None:
         raise
 
 
-def _write_figures(data: ReportData, out: Path, fmt: str) -> dict[str, str]:
+def _write_figures(figs: Mapping, out: Path, fmt: str) -> dict[str, str]:
     """Figure files beside ``out`` (``<stem>_<name>.<fmt>``); returns name -> relative file name."""
     links = {}
-    for name, fig in report_figures(data).items():
+    for name, fig in figs.items():
         target = out.with_name(f"{out.stem}_{name}.{fmt}")
         meta = {"Software": None} if fmt == "png" else {"CreationDate": None}
         buf = io.BytesIO()
@@ -57,7 +69,7 @@ def _write_figures(data: ReportData, out: Path, fmt: str) -> dict[str, str]:
 
 
 def write_report(source, path, *, title: str | None = None, verify: bool = False,
-                 figures: bool = True) -> list[str]:
+                 figures: bool | Mapping = True) -> list[str]:
     """Write the report of a session to ``path``; the format follows the suffix.
 
     Parameters
@@ -71,8 +83,10 @@ def write_report(source, path, *, title: str | None = None, verify: bool = False
         The report title (default: the spectrum's title or file name).
     verify : bool, default False
         Replay the session first and state the outcome in the report.
-    figures : bool, default True
-        Draw the spectrum and residual figures.
+    figures : bool or mapping, default True
+        Draw the spectrum and residual figures; or a mapping name -> matplotlib
+        Figure drawn before (:func:`~widgetkit.report.figures.report_figures`), to
+        draw them once for several formats.
 
     Returns
     -------
@@ -92,12 +106,17 @@ def write_report(source, path, *, title: str | None = None, verify: bool = False
             f"{', '.join(REPORT_FORMATS)} (for example report.html)")
     data = as_report_data(source, title=title, verify=verify)
     written = [str(out)]
+    figs: Mapping = {}
+    if figures is True and fmt in ("markdown", "latex"):
+        figs = report_figures(data)
+    elif isinstance(figures, Mapping):
+        figs = figures
     if fmt == "markdown":
-        links = _write_figures(data, out, "png") if figures else {}
+        links = _write_figures(figs, out, "png")
         text = render_markdown(data, figures=links)
         written += [str(out.with_name(v)) for v in links.values()]
     elif fmt == "latex":
-        links = _write_figures(data, out, "pdf") if figures else {}
+        links = _write_figures(figs, out, "pdf")
         text = render_latex(data, figures=links)
         written += [str(out.with_name(v)) for v in links.values()]
     elif fmt == "html":
