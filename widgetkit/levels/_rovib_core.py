@@ -143,6 +143,7 @@ class Model:
     fit: BandFit | None = None
     mode: str = "separate"
     jmax: int = 10
+    tag: str = ""
 
     def predict(self, Ju, Jl):
         A = _design(Ju, Jl, "separate")
@@ -237,7 +238,8 @@ def _fit_once(Ju, Jl, y, sigma, modes, fixed):
         "s.set_assignment(line_id, label='P(1)'), or give more lines")
 
 
-def seed_band(data: Lines, locks: dict, molecule: Diatomic, band, *, frac: float, centrifugal: str):
+def seed_band(data: Lines, locks: dict, molecule: Diatomic, band, *, frac: float, centrifugal: str,
+              max_full: int = 40, outlier_sigma: float = 4.0):
     """Find and fit the first sub-band; returns (Model, isotopologue fixed by locks or None)."""
     xs = data.x[data.order]
     pos_of = np.empty(data.n, dtype=int)
@@ -259,18 +261,28 @@ def seed_band(data: Lines, locks: dict, molecule: Diatomic, band, *, frac: float
         pin = rich[0] if rich else None
         forb = other_locked - (set(pin[1].values()) if pin else set())
         area_s = data.area[data.order]
+        mu0 = molecule.main.reduced_mass
+        part = tuple(float(np.sqrt(mu0 / i.reduced_mass)) for i in molecule.isotopologues[1:])
         hyps = [h for h in gap_hypotheses(xs, area_s, frac=frac) if not (set(h.values()) & forb)]
         # a short bootstrap of every seed ranks them; the best are run in full
-        short = [(bootstrap(xs, h, frac=frac, forbidden=forb, max_lines=10, area=area_s), h) for h in hyps]
+        short = [(bootstrap(xs, h, frac=frac, forbidden=forb, max_lines=10, area=area_s,
+                            partners=part), h) for h in hyps]
         top = max((len(g) for g, _ in short), default=0)
+        if not pin:
+            short = [t for t in short if len(t[0]) >= top - 1]
+            # the most promising distinct starts (most lines, then strongest) are run in full
+            short.sort(key=lambda t: (-len(t[0]), -float(np.nansum(area_s[list(t[0].values())])),
+                                      min(t[1].values())))
         cands: dict = {}
         seen_short: set = set()
         for g0, h in short:
             key0 = frozenset(g0.items())
-            if (len(g0) < top - 1 and not pin) or key0 in seen_short:
+            if key0 in seen_short:
                 continue
             seen_short.add(key0)
-            g = bootstrap(xs, h, frac=frac, forbidden=forb, area=area_s)
+            if not pin and len(seen_short) > max_full:
+                break
+            g = bootstrap(xs, h, frac=frac, forbidden=forb, area=area_s, partners=part)
             if pin and any(g.get(m) != k for m, k in pin[1].items()):
                 continue
             cands.setdefault(frozenset(g.items()), (g, min(h.values())))
@@ -293,9 +305,11 @@ def seed_band(data: Lines, locks: dict, molecule: Diatomic, band, *, frac: float
     idx = data.order[np.array([got[m] for m in ms])]
     Ju, Jl = m_to_J(ms)
     sig = None if data.sigma is None else data.sigma[idx]
+    # the first fit keeps a single D: a bootstrap may still hold a wrong line or two
     model, _, _ = fit_model(Ju, Jl, data.x[idx], sig, np.zeros(len(ms), bool),
-                            centrifugal=centrifugal, outlier_sigma=1e9)
-    model.jmax = int(max(Ju.max(), Jl.max())) + 8
+                            centrifugal="none" if centrifugal == "none" else "shared",
+                            outlier_sigma=outlier_sigma)
+    model.jmax = int(max(Ju.max(), Jl.max())) + 3
     return model, seed_iso
 
 

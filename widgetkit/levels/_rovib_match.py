@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import itertools
+
 import numpy as np
 from scipy.optimize import linear_sum_assignment
 
@@ -10,7 +12,10 @@ from ._rovib_core import _BIG, Lines, Model, State, fit_model
 from ._seed import scaled_band_constants
 from .candidates import format_label
 
-__all__ = ["match", "refine", "locate_isotopologue"]
+__all__ = ["match", "refine", "locate_isotopologue", "relabel"]
+
+#: predictions reach this many J beyond the highest J assigned so far (the band grows by rounds)
+_GROW = 3
 
 
 def _predictions(models: dict, lo: float, hi: float, frac: float):
@@ -80,7 +85,7 @@ def match(data: Lines, locks: dict, models: dict, frac: float, seed_iso: str) ->
                outlier=np.zeros(n, dtype=bool), blended=np.zeros(n, dtype=bool),
                blend_with=np.full(n, None, dtype=object), models=dict(models), seed_iso=seed_iso)
     # only predictions within the J range seen so far can hide in another line
-    seen = np.array([pjl[k] <= models[piso[k]].jmax - 8 for k in range(len(pc))], dtype=bool)
+    seen = np.array([pjl[k] <= models[piso[k]].jmax - _GROW for k in range(len(pc))], dtype=bool)
     un = ~matched_pred & seen
     _mark_blends(data, st, models, piso[un], pju[un], pjl[un], pc[un], pe[un], pw[un])
     return st
@@ -94,17 +99,20 @@ def _mark_blends(data, st, models, piso, pju, pjl, pc, pe, pw):
     order = np.argsort(xa, kind="stable")
     xs = xa[order]
     k = np.clip(np.searchsorted(xs, pc), 1, max(len(xs) - 1, 1))
-    for p in range(len(pc)):
-        cands = [j for j in (k[p] - 1, k[p]) if 0 <= j < len(xs)]
-        j = min(cands, key=lambda j: abs(xs[j] - pc[p]))
-        o = asg[order[j]]
-        so = (data.sigma[o] if data.sigma is not None else 1.0) * models[st.iso[o]].scatter
-        thr = max(4 * np.hypot(so, pe[p]), 0.5 * data.fwhm[o] if data.fwhm is not None
-                  and np.isfinite(data.fwhm[o]) else 0.0)
-        if abs(xs[j] - pc[p]) <= min(thr, pw[p]):
-            st.blended[o] = True
-            other = f"{format_label(pju[p], pjl[p])} of {piso[p]}"
-            st.blend_with[o] = other if st.blend_with[o] is None else f"{st.blend_with[o]}; {other}"
+    lo = np.clip(k - 1, 0, len(xs) - 1)
+    hi = np.clip(k, 0, len(xs) - 1)
+    j = np.where(np.abs(xs[lo] - pc) <= np.abs(xs[hi] - pc), lo, hi)
+    o = asg[order[j]]
+    scale = np.array([models[i].scatter for i in st.iso[o]])
+    so = (data.sigma[o] if data.sigma is not None else 1.0) * scale
+    half = 0.5 * data.fwhm[o] if data.fwhm is not None else np.zeros(len(o))
+    half = np.where(np.isfinite(half), half, 0.0)
+    thr = np.minimum(np.maximum(4 * np.hypot(so, pe), half), pw)
+    for p in np.nonzero(np.abs(xs[j] - pc) <= thr)[0]:
+        oi = o[p]
+        st.blended[oi] = True
+        other = f"{format_label(pju[p], pjl[p])} of {piso[p]}"
+        st.blend_with[oi] = other if st.blend_with[oi] is None else f"{st.blend_with[oi]}; {other}"
 
 
 def locate_isotopologue(data: Lines, st: State, seed: Model, seed_mu: float, iso, band, opts):
@@ -125,7 +133,9 @@ def locate_isotopologue(data: Lines, st: State, seed: Model, seed_mu: float, iso
     xf = np.sort(data.x[free])
     sig = float(np.median(data.sigma)) * seed.scatter if data.sigma is not None else seed.scatter
     spacing = vals["B_upper"] + vals["B_lower"]
-    W = min(0.45 * spacing, max(2 * abs(anh), 10 * sig, 0.02))
+    # the seed may mix lines of both sub-bands, so allow offsets up to the isotope shift itself
+    shift = abs(vals["band_origin"] - seed.values["band_origin"])
+    W = min(0.45 * spacing, max(2 * abs(anh), 10 * sig, 0.02, 1.2 * shift))
     tol = max(3 * sig, 0.01 * spacing)
     deltas = []
     for c in calc0:
@@ -179,14 +189,12 @@ def _fit_all(data, locks, st: State, opts):
         if msg:
             msgs.append(f"{iso_name}: {msg}")
         st.outlier[sel] = out
-        new.jmax = int(max(st.Jl[sel].max(initial=0), st.Ju[sel].max(initial=0))) + 8
+        new.jmax = int(max(st.Jl[sel].max(initial=0), st.Ju[sel].max(initial=0))) + _GROW
         models[iso_name] = new
-    for i in np.nonzero(st.iso != None)[0]:  # noqa: E711
-        m = models.get(st.iso[i])
-        if m is None:
-            continue
-        c, e = m.predict(st.Ju[i:i + 1], st.Jl[i:i + 1])
-        st.calc[i], st.calc_err[i] = c[0], e[0]
+    for iso_name, m in models.items():
+        sel = np.nonzero(st.iso == iso_name)[0]
+        if len(sel):
+            st.calc[sel], st.calc_err[sel] = m.predict(st.Ju[sel], st.Jl[sel])
     st.models = models
     return msgs
 
@@ -261,4 +269,76 @@ def refine(data: Lines, locks: dict, models0: dict, seed_iso: str, opts: dict, *
     st.rounds = r
     st.messages = st.messages + [n for n in notes.values() if n]
     st.score = _score(data, st, molecule, opts["band"])
+    return st
+
+
+def _pair_penalty(data, st, a_name, b_name, ma, mb, mu, ab, band) -> float:
+    """How badly sub-band ``mb`` named ``b_name`` fits mass scaling and abundance from ``ma``."""
+    rho = float(np.sqrt(mu[a_name] / mu[b_name]))
+    pred, anh = scaled_band_constants(ma.values, band[0], band[1], rho)
+    want = pred["band_origin"] - ma.values["band_origin"]
+    got = mb.values["band_origin"] - ma.values["band_origin"]
+    tol = 0.25 * abs(want) + abs(anh) + 3 * float(np.sqrt(ma.cov5[0, 0] + mb.cov5[0, 0])) + 1e-9
+    pen = min(((got - want) / tol) ** 2, 50.0)
+    good = ~st.outlier & ~st.blended & np.isfinite(data.area) & (data.area > 0)
+    la = {(int(st.Ju[i]), int(st.Jl[i])): data.area[i] for i in np.nonzero(good & (st.iso == ma.tag))[0]}
+    lb = {(int(st.Ju[i]), int(st.Jl[i])): data.area[i] for i in np.nonzero(good & (st.iso == mb.tag))[0]}
+    common = sorted(set(la) & set(lb))
+    if len(common) >= 2:
+        r = sum(lb[k] for k in common) / sum(la[k] for k in common)
+        pen += min(float((np.log(r / (ab[b_name] / ab[a_name])) / 0.35) ** 2), 50.0)
+    return pen
+
+
+def relabel(data: Lines, st: State, molecule, band, locks: dict) -> State:
+    """Name the fitted sub-bands by the isotopologue assignment most consistent with mass
+    scaling (origin shifts) and abundances (areas); a tie is an error."""
+    names = list(st.models)
+    if len(names) < 2:
+        isos = sorted(molecule.isotopologues, key=lambda i: -i.abundance)
+        locked = any(v[0] is not None and v[1] is not None for v in locks.values())
+        if len(names) == 1 and len(isos) > 1 and not locked \
+                and isos[1].abundance > 0.9 * isos[0].abundance:
+            raise AssignmentError(
+                f"ambiguous isotopologue split: one sub-band is seen and {isos[0].name} and "
+                f"{isos[1].name} are about equally abundant, so it could be either; lock one line "
+                f"by hand, e.g. s.set_assignment(line_id, isotopologue='{isos[0].name}', "
+                "label='R(0)')")
+        return st
+    mu = {i.name: i.reduced_mass for i in molecule.isotopologues}
+    ab = {i.name: i.abundance for i in molecule.isotopologues}
+    for n in names:
+        st.models[n].tag = n
+    pool = [i.name for i in molecule.isotopologues]
+    options = []
+    for perm in itertools.permutations(pool, len(names)):
+        new = dict(zip(names, perm, strict=True))
+        if any(v[0] is not None and v[1] is not None and new.get(st.iso[i], v[0]) != v[0]
+               for i, v in locks.items()):
+            continue
+        pen = 0.0
+        for a, b in itertools.combinations(names, 2):
+            if st.models[a].kind == "scaled" or st.models[b].kind == "scaled":
+                continue
+            pen += _pair_penalty(data, st, new[a], new[b], st.models[a], st.models[b], mu, ab, band)
+        # prior: the strongest (first found) sub-band is most likely the most abundant one
+        pen += 2.0 * float(np.log(max(ab.values()) / ab[new[st.seed_iso]]))
+        options.append((pen, perm, new))
+    if not options:
+        return st
+    options.sort(key=lambda t: (t[0], t[1]))
+    if len(options) > 1 and options[1][0] - options[0][0] < 1.0:
+        a, b = options[0][2], options[1][2]
+        raise AssignmentError(
+            "ambiguous isotopologue split: the sub-bands fit as "
+            + ", ".join(f"{a[n]}" for n in names) + " or as " + ", ".join(f"{b[n]}" for n in names)
+            + " about equally well; lock one line of each by hand, e.g. "
+            f"s.set_assignment(line_id, isotopologue='{a[names[0]]}', label='R(0)')")
+    new = options[0][2]
+    if all(k == v for k, v in new.items()):
+        return st
+    st.iso = np.array([new.get(v, v) if v is not None else None for v in st.iso], dtype=object)
+    st.models = {new[k]: m for k, m in st.models.items()}
+    st.seed_iso = new[st.seed_iso]
+    st.messages = [m for m in st.messages]
     return st

@@ -22,8 +22,10 @@
 
 from __future__ import annotations
 
+import bisect
+import math
+
 import numpy as np
-from numpy.polynomial import polynomial as npp
 
 __all__ = ["gap_hypotheses", "bootstrap", "m_to_J", "scaled_band_constants"]
 
@@ -34,17 +36,30 @@ def m_to_J(m) -> tuple[np.ndarray, np.ndarray]:
     return np.where(m > 0, m, -m - 1), np.where(m > 0, m - 1, -m)
 
 
-def _nearest_free(x, taken, target, tol, area=None, ref=None, floor=0.0):
-    k = int(np.searchsorted(x, target))
+def _nearest_free(x, taken, target, tol, area=None, ref=None, floor=0.0, partners=()):
+    """Index of the nearest free line within ``tol`` of ``target`` (x a sorted list), or -1."""
+    k = bisect.bisect_left(x, target)
     best, bd = -1, tol
-    lim = -np.inf
-    if area is not None and ref is not None and np.isfinite(area[ref]):
-        lim = floor * area[ref]
-    for i in range(max(k - 2, 0), min(k + 2, len(x))):
+    lim = floor * area[ref] if (area is not None and ref is not None and area[ref] == area[ref]) \
+        else -math.inf
+    for i in range(max(k - 3, 0), min(k + 3, len(x))):
         d = abs(x[i] - target)
         if d <= bd and i not in taken and not (area is not None and area[i] < lim):
+            # a line nearer where another isotopologue's partner line should be is not ours
+            if any(abs(x[i] - target * r) < d for r in partners):
+                continue
             best, bd = i, d
     return best
+
+
+_HANKEL = [np.add.outer(np.arange(d + 1), np.arange(d + 1)) for d in range(5)]
+
+
+def _horner(coef, t):
+    v = 0.0
+    for c in reversed(coef):
+        v = v * t + c
+    return v
 
 
 def gap_hypotheses(x, area=None, *, frac: float = 0.25, reach: int = 3) -> list[dict[int, int]]:
@@ -54,33 +69,65 @@ def gap_hypotheses(x, area=None, *, frac: float = 0.25, reach: int = 3) -> list[
     (P(1), R(0)) with spacing s = d/2, and as (P(1), R(1)) or (P(2), R(0))
     with s = d/3 (R(0) or P(1) missing). A seed is kept when lines exist
     within ``frac`` × s of x_i − s and x_j + s (the next line of each branch),
-    and when the gap is empty: lines between i and j (other isotopologues,
-    impurities) are allowed only when areas are known and each is below half
-    the weaker of lines i and j.
+    and when no line inside the gap sits where the branch of i or j would
+    continue (within 0.15 of the spacing to the next strong line outside),
+    unless areas show it weak (below half the weaker of lines i and j): such a
+    pair straddles a real line of the band. Other lines in the gap
+    (isotopologue partners, impurities) are allowed.
     """
     n = len(x)
     a = np.full(n, np.nan) if area is None else np.asarray(area, dtype=float)
+    if n < 4:
+        return []
+    I, J = [], []
+    for k in range(1, reach + 1):
+        I.append(np.arange(n - k))
+        J.append(np.arange(k, n))
+    I, J = np.concatenate(I), np.concatenate(J)
+    d = x[J] - x[I]
     out = []
-    for i in range(n):
-        for j in range(i + 1, min(i + 1 + reach, n)):
-            if j > i + 1:
-                inner = a[i + 1:j]
-                lim = 0.5 * min(a[i], a[j])
-                if not (np.isfinite(lim) and np.all(np.isfinite(inner)) and np.all(inner < lim)):
-                    continue
-            d = x[j] - x[i]
-            if not d > 0:
+    for key, div in ((0, 2.0), (1, 3.0), (2, 3.0)):
+        sp = d / div
+        ok = d > 0
+        for target in (x[I] - sp, x[J] + sp):
+            k = np.clip(np.searchsorted(x, target), 1, n - 1)
+            near = np.minimum(np.abs(x[k] - target), np.abs(x[k - 1] - target))
+            ok &= near <= frac * sp
+        for q in np.nonzero(ok)[0]:
+            i, j = int(I[q]), int(J[q])
+            if j > i + 1 and not _gap_is_clear(x, a, i, j):
                 continue
-            for seed, s in (({-1: i, 1: j}, d / 2), ({-1: i, 2: j}, d / 3), ({-2: i, 1: j}, d / 3)):
-                ok = True
-                for target in (x[i] - s, x[j] + s):
-                    k = int(np.clip(np.searchsorted(x, target), 1, n - 1))
-                    if min(abs(x[k] - target), abs(x[k - 1] - target)) > frac * s:
-                        ok = False
-                        break
-                if ok:
-                    out.append(seed)
+            out.append(({-1: i, 1: j}, {-1: i, 2: j}, {-2: i, 1: j})[key])
+    out.sort(key=lambda h: (min(h.values()), max(h.values()), sorted(h)))
     return out
+
+
+def _gap_is_clear(x, a, i: int, j: int) -> bool:
+    """No strong line inside (i, j) where the branch of i or j would continue."""
+    inner = np.arange(i + 1, j)
+    lim = 0.5 * min(a[i], a[j])
+    weak = np.isfinite(lim) & np.isfinite(a[inner]) & (a[inner] < lim)
+    cont = []
+    pi, nj = _strong_neighbour(a, i, -1), _strong_neighbour(a, j, 1)
+    if pi is not None:
+        cont.append((x[i] + (x[i] - x[pi]), x[i] - x[pi]))
+    if nj is not None:
+        cont.append((x[j] - (x[nj] - x[j]), x[nj] - x[j]))
+    at = np.zeros(len(inner), dtype=bool)
+    for c, sp in cont:
+        at |= np.abs(x[inner] - c) <= 0.15 * sp
+    edge = np.minimum(x[inner] - x[i], x[j] - x[inner]) <= 0.2 * (x[j] - x[i])
+    return not np.any(~weak & (at | ~edge))
+
+
+def _strong_neighbour(a, i: int, step: int):
+    """Nearest index beyond i (in direction ``step``) with area >= half of a[i] (any if unknown)."""
+    k = i + step
+    while 0 <= k < len(a):
+        if not (np.isfinite(a[i]) and np.isfinite(a[k])) or a[k] >= 0.5 * a[i]:
+            return k
+        k += step
+    return None
 
 
 def _degree(n: int) -> int:
@@ -89,63 +136,75 @@ def _degree(n: int) -> int:
 
 def bootstrap(x, init: dict[int, int], *, frac: float = 0.25, max_miss: int = 2,
               forbidden: frozenset = frozenset(), max_lines: int | None = None,
-              area=None, area_floor: float = 0.1) -> dict[int, int]:
+              area=None, area_floor: float = 0.1, partners=()) -> dict[int, int]:
     """Index lines by m outward from ``init`` (m -> index into ascending ``x``).
 
     With ``area`` (aligned with ``x``), a candidate weaker than ``area_floor``
     times the last line taken in its branch is passed over (a weak
     isotopologue or impurity line must not take the place of a missing
-    line). Stops when both branches ran out, or after ``max_lines`` lines.
+    line). ``partners`` are ratios ρ = sqrt(μ/μ_other) of other isotopologues:
+    once four lines are indexed, a candidate nearer ρ × prediction (where the
+    partner line of that isotopologue roughly lies) than the prediction is
+    passed over when the partner shift is over 5 % of the spacing. Stops when
+    both branches ran out, or after ``max_lines`` lines.
     """
     got = dict(init)
+    xl = [float(v) for v in x]
+    al = None if area is None else [float(v) for v in np.asarray(area, dtype=float)]
     taken = set(got.values()) | set(forbidden)
-    lo, hi = float(x[0]), float(x[-1])
+    lo, hi = xl[0], xl[-1]
     nxt = {1: max([m for m in got if m > 0], default=0) + 1,
            -1: min([m for m in got if m < 0], default=0) - 1}
     miss = {1: 0, -1: 0}
     active = {1: True, -1: True}
     last = {1: got[max(m for m in got if m > 0)] if any(m > 0 for m in got) else None,
             -1: got[min(m for m in got if m < 0)] if any(m < 0 for m in got) else None}
-    area = None if area is None else np.asarray(area, dtype=float)
     scale = 30.0
-    x0 = float(x[next(iter(got.values()))])
+    x0 = xl[next(iter(got.values()))]
     # running moments of the normal equations: S[k] = Σ t^k, T[k] = Σ t^k (x − x0), t = m/scale
-    S = np.zeros(9)
-    T = np.zeros(5)
-    pw = np.arange(9)
+    S = [0.0] * 9
+    T = [0.0] * 5
 
     def add(m, xi):
-        t = m / scale
-        S[:] += t**pw
-        T[:] += t ** pw[:5] * (xi - x0)
+        t, p, y = m / scale, 1.0, xi - x0
+        for k in range(9):
+            S[k] += p
+            if k < 5:
+                T[k] += p * y
+            p *= t
 
     for m, i in got.items():
-        add(m, x[i])
+        add(m, xl[i])
+    nR = sum(1 for m in got if m > 0)
+    solved, coef = None, []
     while (active[1] or active[-1]) and (max_lines is None or len(got) < max_lines):
-        nR = sum(1 for m in got if m > 0)
+        n = len(got)
         # extrapolating a branch from very few of its own lines: keep the polynomial low
-        cap = 2 if min(nR, len(got) - nR) < 3 else 3 if min(nR, len(got) - nR) < 5 else 4
-        deg = min(_degree(len(got)), len(got) - 1, cap)
-        H = S[np.add.outer(np.arange(deg + 1), np.arange(deg + 1))]
-        try:
-            coef = np.linalg.solve(H, T[: deg + 1])
-        except np.linalg.LinAlgError:
-            break
+        cap = 2 if min(nR, n - nR) < 3 else 3 if min(nR, n - nR) < 5 else 4
+        deg = min(_degree(n), n - 1, cap)
+        if (n, deg) != solved:
+            try:
+                coef = np.linalg.solve(np.array(S)[_HANKEL[deg]], np.array(T[: deg + 1])).tolist()
+            except np.linalg.LinAlgError:
+                break
+            solved = (n, deg)
         for side in (1, -1):
             if not active[side]:
                 continue
             m = nxt[side]
-            pred = x0 + npp.polyval(m / scale, coef)
-            spacing = abs(pred - x0 - npp.polyval((m - side) / scale, coef))
+            pred = x0 + _horner(coef, m / scale)
+            spacing = abs(pred - x0 - _horner(coef, (m - side) / scale))
             if not (lo - spacing <= pred <= hi + spacing) or spacing <= 0:
                 active[side] = False
                 continue
-            i = _nearest_free(x, taken, pred, frac * spacing, area, last[side], area_floor)
+            part = [r for r in partners if abs(pred * (r - 1)) > 0.05 * spacing] if n >= 4 else []
+            i = _nearest_free(xl, taken, pred, frac * spacing, al, last[side], area_floor, part)
             if i >= 0:
                 got[m] = i
                 taken.add(i)
                 last[side] = i
-                add(m, x[i])
+                add(m, xl[i])
+                nR += side > 0
                 miss[side] = 0
             else:
                 miss[side] += 1

@@ -39,7 +39,7 @@ import pandas as pd
 
 from ..errors import AssignmentError
 from ._rovib_core import parse_locks, prepare_lines, seed_band
-from ._rovib_match import refine
+from ._rovib_match import refine, relabel
 from ._rovib_report import analyse
 from .molecule import Diatomic
 
@@ -185,17 +185,10 @@ def assign_rovibrational(
                     min_rounds=1)
         trials.append((st.score, isos.index(k_iso), k_iso, st))
     trials.sort(key=lambda t: (-t[0], t[1]))
-    if len(trials) > 1 and trials[0][0] - trials[1][0] < 1.0 \
-            and trials[0][3].signature != trials[1][3].signature:
-        a, b = trials[0][2], trials[1][2]
-        raise AssignmentError(
-            f"ambiguous isotopologue split: the strongest sub-band fits as {a} or as {b} equally well "
-            f"(score {trials[0][0]:.1f} vs {trials[1][0]:.1f}); lock one line of each by hand, e.g. "
-            f"s.set_assignment(line_id, isotopologue='{a}', label='R(0)')"
-        )
     k_iso = trials[0][2]
     final = refine(data, lk, {k_iso: seed}, k_iso, opts, max_rounds=max_rounds, min_rounds=min_rounds)
     if final.ambiguous:
         raise AssignmentError(final.ambiguous[0])
+    final = relabel(data, final, molecule, band, lk)
     return analyse(data, lk, final, opts, BandAssignment)
 
