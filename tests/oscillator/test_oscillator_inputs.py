@@ -93,3 +93,11 @@ def test_results_are_read_only_and_a_given_grid_array_is_left_untouched():
         lv.energies[0] = 0.0  # numpy refuses writes to read-only arrays
     with pytest.raises(ValueError):
         lv.wavefunctions[0, 0] = 0.0
+
+
+def test_a_table_that_ends_inside_the_well_is_refused_with_advice():
+    r = np.linspace(1.1, 4.0, 200)  # starts inside the classically allowed region of v >= 1
+    mp = wk.oscillator.morse_parameters(2990.946, 52.8186, 0.9796)  # H35Cl-like, handbook from memory
+    V = mp["D_e"] * (1 - np.exp(-mp["a"] * (r - 1.27455))) ** 2
+    with pytest.raises(OscillatorError, match="extend the tabulated potential"):
+        solve(tabulated(r, V), 0.9796, n_levels=4)

@@ -106,7 +106,7 @@ def test_rotational_levels_follow_from_the_potential():
 
 def test_a_tabulated_morse_curve_reproduces_the_closed_form_levels():
     mp = morse_parameters(WE, WX, MU)
-    r = np.linspace(0.75, 4.0, 400)
+    r = np.linspace(0.70, 4.0, 400)
     V = mp["D_e"] * (1 - np.exp(-mp["a"] * (r - RE))) ** 2 + 1234.5  # any energy zero
     lv = solve(tabulated(r, V), MU, n_levels=8)
     v = np.arange(8)

@@ -118,14 +118,19 @@ class Potential:
         return float(min(self.energy(r[0], 1.0), self.energy(r[-1], 1.0)))
 
     def domain(self, reduced_mass: float) -> tuple[float, float]:
-        """The r range (Å) inside which a grid may be placed."""
+        """The r range (Å) inside which a grid may be placed.
+
+        For the harmonic and Morse curves it may reach r < 0 when the potential
+        is very soft (a one-dimensional oscillator model); the solver keeps
+        r > 0 when J > 0.
+        """
         re = self.r_e()
         if self.kind == "tabulated":
             return float(self.params["r"][0]), float(self.params["r"][-1])
         if self.kind == "morse":
             _, a = self._morse_da(reduced_mass)
-            # V(r) - D_e is below D_e * 2e-26 beyond r_e + 30/a
-            return max(re - 30.0 / a, 1e-3), re + 30.0 / a
+            # beyond r_e + 60/a, D_e - V(r) is below 2 D_e e^-60
+            return re - 60.0 / a, re + 60.0 / a
         w = self.params["omega_e"]
         scale = math.sqrt(2.0 * self.kinetic(reduced_mass) / w)  # Å per unit of q
         return re - 200.0 * scale, re + 200.0 * scale

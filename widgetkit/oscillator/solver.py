@@ -130,8 +130,9 @@ def _v_eff(potential: Potential, mu: float, J: int, kin: float):
     return v
 
 
-def _auto_range(veff, lo: float, hi: float, e_top: float, kin: float) -> tuple[float, float, float]:
-    """r range (lo, hi) holding the allowed region at e_top plus WKB tails; and min V there."""
+def _auto_range(veff, lo: float, hi: float, e_top: float, kin: float):
+    """r range (lo, hi) holding the allowed region at e_top plus WKB tails; min V there; and the
+    smaller of the two tail integrals reached (below _TAIL when the domain ends first)."""
     probe = np.linspace(lo, hi, 40001)
     with np.errstate(over="ignore"):
         v = veff(probe)
@@ -148,9 +149,10 @@ def _auto_range(veff, lo: float, hi: float, e_top: float, kin: float) -> tuple[f
     j = int(np.searchsorted(left, _TAIL))
     r_lo = probe[max(i0 - j, 0)]
     right = np.cumsum(kappa[i1:]) * step
-    j = int(np.searchsorted(right, _TAIL))
-    r_hi = probe[min(i1 + j, probe.size - 1)]
-    return float(r_lo), float(r_hi), float(np.min(v[i0:i1 + 1]))
+    k = int(np.searchsorted(right, _TAIL))
+    r_hi = probe[min(i1 + k, probe.size - 1)]
+    decay = min(float(left[min(j, left.size - 1)]), float(right[min(k, right.size - 1)]))
+    return float(r_lo), float(r_hi), float(np.min(v[i0:i1 + 1])), decay
 
 
 def _diagonalise(veff, r: np.ndarray, kin: float, n_want: int | None, limit: float,
@@ -376,13 +378,25 @@ def _auto_solve(potential, mu, J, kin, veff, limit, n_levels, tol, everything):
     all_bound = e_top >= limit
     if all_bound:
         # first pass (coarse) to find the highest bound level, whose tail sets the range
-        r_lo, r_hi, vmin = _auto_range(veff, lo, hi, e_top, kin)
+        r_lo, r_hi, vmin, _ = _auto_range(veff, lo, hi, e_top, kin)
         r = _points(r_lo, r_hi, e_top, vmin, kin, 2.5)
         e, _ = _diagonalise(veff, r, kin, None, limit)
         if e.size == 0:
             raise OscillatorError("the potential has no bound level; check its depth and the reduced mass")
         e_top = float(e[-1])
-    r_lo, r_hi, vmin = _auto_range(veff, lo, hi, e_top, kin)
+    elif potential.kind != "harmonic":
+        # the harmonic estimate of the highest wanted level is refined by a coarse pass
+        r_lo, r_hi, vmin, _ = _auto_range(veff, lo, hi, e_top, kin)
+        r = _points(r_lo, r_hi, e_top, vmin, kin, 2.5)
+        e, _ = _diagonalise(veff, r, kin, n_levels, limit)
+        e_top = min(float(e[min(n_levels, e.size) - 1]), e_top)
+    r_lo, r_hi, vmin, decay = _auto_range(veff, lo, hi, e_top, kin)
+    if decay < 8.0:
+        raise OscillatorError(
+            f"the highest wanted level (about {e_top:.6g} cm-1) does not decay inside the range "
+            f"r = {lo:.4g}..{hi:.4g} Å where the potential can be evaluated (it is still below that "
+            "energy near an edge); extend the tabulated potential or ask for fewer levels"
+        )
     factor = 4.0
     r = _points(r_lo, r_hi, e_top, vmin, kin, factor)
     n_want = None if all_bound else n_levels
