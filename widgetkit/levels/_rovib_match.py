@@ -46,12 +46,36 @@ def _obs_sigma(data: Lines, models: dict, iso_of_pred: np.ndarray, rows: np.ndar
     return data.sigma[rows][:, None] * scale[None, :]
 
 
-def match(data: Lines, locks: dict, models: dict, frac: float, seed_iso: str) -> State:
+def _tracking_models(models: dict, seed_iso: str, mu: dict | None, band) -> dict:
+    """Prediction models: the seed's own fit, and for every other sub-band the seed's constants
+    scaled by mass with that sub-band's own band origin. Extrapolation errors of the seed are then
+    shared by its partners, so close isotopologue pairs keep their order at high J."""
+    if mu is None or seed_iso not in models:
+        return models
+    seed = models[seed_iso]
+    out = {}
+    for name, mdl in models.items():
+        if name == seed_iso or mdl.kind == "scaled":
+            out[name] = mdl
+            continue
+        vals, _ = scaled_band_constants(seed.values, band[0], band[1],
+                                        float(np.sqrt(mu[seed_iso] / mu[name])))
+        vals["band_origin"] = mdl.values["band_origin"]
+        cov = seed.cov5.copy()
+        cov[0, 0] += mdl.cov5[0, 0]
+        out[name] = Model(vals, cov, "tracking", mdl.scatter, mdl.floor, None, "tracking",
+                          mdl.jmax, name)
+    return out
+
+
+def match(data: Lines, locks: dict, models: dict, frac: float, seed_iso: str,
+          mu: dict | None = None, band=(1, 0)) -> State:
     """One optimal matching of observed lines to the predictions of ``models``."""
     n = data.n
     pad = 1.0
     lo, hi = float(data.x.min()) - pad, float(data.x.max()) + pad
-    piso, pju, pjl, pc, pe, pw = _predictions(models, lo, hi, frac)
+    piso, pju, pjl, pc, pe, pw = _predictions(_tracking_models(models, seed_iso, mu, band),
+                                              lo, hi, frac)
     fixed = {i: v for i, v in locks.items() if v[1] is not None}
     taken = {(v[0], v[1], v[2]) for v in fixed.values()}
     keep = np.array([(piso[k], pju[k], pjl[k]) not in taken for k in range(len(pc))], dtype=bool)
@@ -133,9 +157,12 @@ def locate_isotopologue(data: Lines, st: State, seed: Model, seed_mu: float, iso
     xf = np.sort(data.x[free])
     sig = float(np.median(data.sigma)) * seed.scatter if data.sigma is not None else seed.scatter
     spacing = vals["B_upper"] + vals["B_lower"]
-    # the seed may mix lines of both sub-bands, so allow offsets up to the isotope shift itself
+    # a seed may mix lines of two comparably abundant sub-bands: then allow offsets up to the
+    # isotope shift itself
+    seed_ab = max(i.abundance for i in opts["molecule"].isotopologues if i.name == st.seed_iso)
     shift = abs(vals["band_origin"] - seed.values["band_origin"])
-    W = min(0.45 * spacing, max(2 * abs(anh), 10 * sig, 0.02, 1.2 * shift))
+    mixable = iso.abundance >= 0.1 * seed_ab
+    W = min(0.45 * spacing, max(2 * abs(anh), 10 * sig, 0.02, 1.2 * shift if mixable else 0.0))
     tol = max(3 * sig, 0.01 * spacing)
     deltas = []
     for c in calc0:
@@ -242,7 +269,8 @@ def refine(data: Lines, locks: dict, models0: dict, seed_iso: str, opts: dict, *
     ambiguous: list = []
     r = 0
     for r in range(1, max(1, max_rounds) + 1):
-        st = match(data, locks, models, opts["match_fraction"], seed_iso)
+        mu = {name: iso.reduced_mass for name, iso in isos.items()}
+        st = match(data, locks, models, opts["match_fraction"], seed_iso, mu, opts["band"])
         st.ambiguous = ambiguous
         added = False
         for name, iso in isos.items():
@@ -257,7 +285,7 @@ def refine(data: Lines, locks: dict, models0: dict, seed_iso: str, opts: dict, *
             else:
                 notes[name] = note
         if added:
-            st = match(data, locks, models, opts["match_fraction"], seed_iso)
+            st = match(data, locks, models, opts["match_fraction"], seed_iso, mu, opts["band"])
             st.ambiguous = ambiguous
         msgs = _fit_all(data, locks, st, opts)
         models = dict(st.models)
