@@ -180,3 +180,13 @@ def test_a_transmittance_spectrum_is_converted_to_absorbance_by_its_button(small
     np.testing.assert_allclose(session.spectrum.y, small_spectrum.y, rtol=1e-12)  # A = −log10 T
     assert panel.absorbance_button.disabled  # nothing left to convert
     assert panel.plot.y_axis.label == "absorbance"
+
+
+def test_adding_a_peak_on_a_maximum_that_has_one_says_so(session):
+    panel = PeaksPanel(session)
+    panel.min_snr.value = 10.0
+    panel.find_button.click()
+    first = float(session.peaks["position"].iloc[0])
+    panel.add_peak_at(first + 0.05)  # climbs to the same line top
+    assert session.history[-1].kind == "add_peak"  # recorded as asked
+    assert "same maximum as peak" in panel.status.value

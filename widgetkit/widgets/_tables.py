@@ -42,7 +42,7 @@ def _cell(v) -> str:
 
 def html_table(df: pd.DataFrame, *, name: str, columns: list[str] | None = None,
                headers: dict[str, str] | None = None, row_class=None, max_rows: int = 300,
-               empty: str = "no rows yet") -> str:
+               empty: str = "no rows yet", formats: dict[str, str] | None = None) -> str:
     """An HTML table of ``df``.
 
     A column ``c`` with a companion ``c_err`` (or ``stderr`` for ``value``) is
@@ -62,8 +62,11 @@ def html_table(df: pd.DataFrame, *, name: str, columns: list[str] | None = None,
         ``row_class(row) -> str`` CSS class of a row (``"wk-selected"``, ...).
     max_rows : int
         Rows shown; a final line says how many more there are.
+    formats : dict, optional
+        Format specs of columns without uncertainties (e.g. ``{"position": ".4f"}``).
     """
     headers = headers or {}
+    formats = formats or {}
     cols = [c for c in (columns or list(df.columns)) if c in df.columns]
     err_of = {}
     for c in cols:
@@ -84,6 +87,8 @@ def html_table(df: pd.DataFrame, *, name: str, columns: list[str] | None = None,
             if c in err_of and isinstance(v, (int, float)) and not isinstance(v, bool):
                 err = row[err_of[c]]
                 text = format_uncertainty(v, None if err is None or pd.isna(err) else float(err))
+            elif c in formats and isinstance(v, (int, float)) and not pd.isna(v):
+                text = format(v, formats[c])
             else:
                 text = _cell(v.item() if hasattr(v, "item") else v)
             cells.append(f"<td>{html.escape(text)}</td>")

@@ -103,6 +103,7 @@ class PeaksPanel(Panel):
             self.plot.set_curve("data", sp.x, sp.y)
             if new_range:
                 self.plot.reset_window()
+                self.add_position.value = round(float(sp.x[sp.x.size // 2]), 4)
         peaks = s.peaks
         ids = [int(i) for i in peaks["peak_id"].tolist()]
         if self.selected_peak not in ids:
@@ -112,6 +113,8 @@ class PeaksPanel(Panel):
         cols = [c for c in ("peak_id", "position", "height", "snr", "origin") if c in peaks]
         self.table.value = html_table(
             peaks, name="peaks", columns=cols, empty="no peaks yet: press Find peaks",
+            headers={"position": "position / cm⁻¹"},
+            formats={"position": ".4f", "height": ".4g", "snr": ".1f"},
             row_class=lambda r: "wk-selected" if int(r["peak_id"]) == self.selected_peak else "")
 
     def _set_markers(self, ids: list[int], x: np.ndarray, y: np.ndarray) -> None:
@@ -145,8 +148,15 @@ class PeaksPanel(Panel):
         if pid is not None:
             self.selected_peak = int(pid)
             self.render()
-            self.show_status("ok", f"added peak {pid} at "
-                                   f"{self.session.peaks.set_index('peak_id').position[pid]:.6g} cm⁻¹")
+            peaks = self.session.peaks
+            pos = float(peaks.set_index("peak_id").position[pid])
+            same = peaks[(peaks["peak_id"] != pid) & ((peaks["position"] - pos).abs() < 1e-6)]
+            if len(same):
+                self.show_status("info", f"added peak {pid} at {pos:.6g} cm⁻¹, on the same maximum "
+                                         f"as peak {int(same['peak_id'].iloc[0])}; remove one of "
+                                         "them before fitting")
+            else:
+                self.show_status("ok", f"added peak {pid} at {pos:.6g} cm⁻¹")
         return pid
 
     def _on_add_click(self, _button) -> None:
