@@ -29,7 +29,7 @@ class FitLines(StepKind):
             raise SessionStateError(
                 f"fit_lines: there are no peaks{where} to fit; run find_peaks() or add_peak() first")
         fit = lines.fit(sp.x, sp.y, peaks["position"].to_numpy(dtype=float),
-                        line_ids=peaks["peak_id"].to_numpy(dtype=int), **opts)
+                        line_ids=[int(i) for i in peaks["peak_id"]], **opts)
         if not fit.converged:
             err = FitError(f"the line fit did not converge ({fit.message}); the previous lines "
                            "are kept. Try fewer lines, a region, or different starting peaks")
