@@ -144,6 +144,19 @@ class Model:
     mode: str = "separate"
     jmax: int = 10
     tag: str = ""
+    #: intensity model ln(area/(ν L)) = a + b E″ and its scatter, from the sub-band's own lines
+    intensity: tuple | None = None
+
+    def log_area(self, Ju, Jl, nu) -> np.ndarray:
+        """Expected ln(area) of lines (NaN without an intensity model)."""
+        if self.intensity is None:
+            return np.full(len(nu), np.nan)
+        a, b, _ = self.intensity
+        J = np.asarray(Jl, dtype=float)
+        E = self.values["B_lower"] * J * (J + 1) - self.values["D_lower"] * (J * (J + 1)) ** 2
+        L = np.where(np.asarray(Ju) > J, J + 1.0, J)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return a + b * E + np.log(np.abs(nu) * L)
 
     def predict(self, Ju, Jl):
         A = _design(Ju, Jl, "separate")

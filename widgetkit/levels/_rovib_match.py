@@ -8,6 +8,7 @@ import numpy as np
 from scipy.optimize import linear_sum_assignment
 
 from ..errors import AssignmentError
+from ._lsq import robust_scale
 from ._rovib_core import _BIG, Lines, Model, State, fit_model
 from ._seed import scaled_band_constants
 from .candidates import format_label
@@ -19,7 +20,7 @@ _GROW = 3
 
 
 def _predictions(models: dict, lo: float, hi: float, frac: float):
-    iso_l, ju_l, jl_l, c_l, e_l, w_l = [], [], [], [], [], []
+    iso_l, ju_l, jl_l, c_l, e_l, w_l, a_l = [], [], [], [], [], [], []
     for iso, mdl in models.items():
         J = np.arange(0, mdl.jmax + 1)
         for Ju, Jl in ((J + 1, J), (J[1:] - 1, J[1:])):
@@ -33,9 +34,10 @@ def _predictions(models: dict, lo: float, hi: float, frac: float):
             c_l.append(c[inside])
             e_l.append(e[inside])
             w_l.append(frac * sp[inside])
+            a_l.append(mdl.log_area(Ju[inside], Jl[inside], c[inside]))
     cat = lambda a, t: np.concatenate(a).astype(t) if a else np.zeros(0, t)  # noqa: E731
     return (np.array(iso_l, dtype=object), cat(ju_l, int), cat(jl_l, int), cat(c_l, float),
-            cat(e_l, float), cat(w_l, float))
+            cat(e_l, float), cat(w_l, float), cat(a_l, float))
 
 
 def _obs_sigma(data: Lines, models: dict, iso_of_pred: np.ndarray, rows: np.ndarray) -> np.ndarray:
@@ -64,7 +66,7 @@ def _tracking_models(models: dict, seed_iso: str, mu: dict | None, band) -> dict
         cov = seed.cov5.copy()
         cov[0, 0] += mdl.cov5[0, 0]
         out[name] = Model(vals, cov, "tracking", mdl.scatter, mdl.floor, None, "tracking",
-                          mdl.jmax, name)
+                          mdl.jmax, name, mdl.intensity)
     return out
 
 
@@ -74,12 +76,14 @@ def match(data: Lines, locks: dict, models: dict, frac: float, seed_iso: str,
     n = data.n
     pad = 1.0
     lo, hi = float(data.x.min()) - pad, float(data.x.max()) + pad
-    piso, pju, pjl, pc, pe, pw = _predictions(_tracking_models(models, seed_iso, mu, band),
-                                              lo, hi, frac)
+    tm = _tracking_models(models, seed_iso, mu, band)
+    piso, pju, pjl, pc, pe, pw, pla = _predictions(tm, lo, hi, frac)
+    psa = np.array([tm[i].intensity[2] if tm[i].intensity else np.nan for i in piso], dtype=float)
     fixed = {i: v for i, v in locks.items() if v[1] is not None}
     taken = {(v[0], v[1], v[2]) for v in fixed.values()}
     keep = np.array([(piso[k], pju[k], pjl[k]) not in taken for k in range(len(pc))], dtype=bool)
     piso, pju, pjl, pc, pe, pw = piso[keep], pju[keep], pjl[keep], pc[keep], pe[keep], pw[keep]
+    pla, psa = pla[keep], psa[keep]
     rows = np.array([i for i in range(n) if i not in fixed], dtype=int)
     iso = np.full(n, None, dtype=object)
     Ju = np.full(n, -1)
@@ -93,6 +97,13 @@ def match(data: Lines, locks: dict, models: dict, frac: float, seed_iso: str,
         # Gaussian negative log-likelihood: a vague prediction does not win over a sharp one
         cost = diff**2 / var + np.log(var)
         allowed = np.abs(diff) <= pw[None, :]
+        # areas: a line far stronger or weaker than its sub-band's Boltzmann envelope expects
+        # (beyond a factor 10) is not that line; closer ones add to the cost
+        with np.errstate(divide="ignore", invalid="ignore"):
+            dla = np.log(data.area[rows])[:, None] - pla[None, :]
+        have = np.isfinite(dla)
+        allowed &= ~have | (np.abs(dla) <= np.log(10.0))
+        cost = cost + np.where(have, (dla / np.where(np.isfinite(psa), psa, 1.0)[None, :]) ** 2, 0.0)
         for k, r in enumerate(rows):
             if r in locks and locks[r][1] is None:
                 allowed[k] &= piso == locks[r][0]
@@ -216,6 +227,7 @@ def _fit_all(data, locks, st: State, opts):
         if msg:
             msgs.append(f"{iso_name}: {msg}")
         st.outlier[sel] = out
+        new.intensity = _intensity_model(data, st, sel[~out], new)
         new.jmax = int(max(st.Jl[sel].max(initial=0), st.Ju[sel].max(initial=0))) + _GROW
         models[iso_name] = new
     for iso_name, m in models.items():
@@ -224,6 +236,24 @@ def _fit_all(data, locks, st: State, opts):
             st.calc[sel], st.calc_err[sel] = m.predict(st.Ju[sel], st.Jl[sel])
     st.models = models
     return msgs
+
+
+def _intensity_model(data: Lines, st: State, sel: np.ndarray, mdl: Model):
+    """ln(area/(ν L)) = a + b E″ fitted to a sub-band's good lines (None if not determined)."""
+    a = data.area[sel]
+    ok = np.isfinite(a) & (a > 0)
+    if ok.sum() < 5:
+        return None
+    sel = sel[ok]
+    J = st.Jl[sel].astype(float)
+    E = mdl.values["B_lower"] * J * (J + 1) - mdl.values["D_lower"] * (J * (J + 1)) ** 2
+    L = np.where(st.Ju[sel] > st.Jl[sel], J + 1.0, J)
+    y = np.log(data.area[sel] / (data.x[sel] * L))
+    A = np.column_stack([np.ones(len(E)), E])
+    coef, *_ = np.linalg.lstsq(A, y, rcond=None)
+    if not coef[1] < 0:
+        return None
+    return float(coef[0]), float(coef[1]), max(0.3, 1.5 * robust_scale(y - A @ coef))
 
 
 def _score(data: Lines, st: State, molecule, band) -> float:

@@ -9,9 +9,15 @@ Pipeline (:func:`assign_rovibrational`):
    search, and iterate *predict -> match -> refit*:
 
    * matching is optimal (``scipy.optimize.linear_sum_assignment``) on the
-     cost ((obs − calc)/σ)², σ² = σ_obs² + σ_calc², allowed only within
-     ``match_fraction`` of the local line spacing; the number of matches is
-     maximised first;
+     Gaussian cost ((obs − calc)/σ)² + ln σ², σ² = σ_obs² + σ_calc², allowed
+     only within ``match_fraction`` of the local line spacing; the number of
+     matches is maximised first; once a sub-band has a Boltzmann envelope
+     (ln(area/(ν̃L)) linear in E″), a line more than 10 times stronger or
+     weaker than expected cannot take a place and nearer ones add
+     ((ln area − expected)/s)² to the cost;
+   * lines of further isotopologues are predicted from the seed sub-band's
+     constants scaled by mass (with their own band origin), so close pairs
+     keep their order where the seed is extrapolated;
    * an unmatched prediction that agrees with an already matched line as well
      (within 4σ or half its FWHM) makes that line a *blend*: kept in the table,
      left out of the fits;
