@@ -190,3 +190,12 @@ def test_adding_a_peak_on_a_maximum_that_has_one_says_so(session):
     panel.add_peak_at(first + 0.05)  # climbs to the same line top
     assert session.history[-1].kind == "add_peak"  # recorded as asked
     assert "same maximum as peak" in panel.status.value
+
+
+def test_the_live_baseline_preview_starts_off_for_a_large_spectrum():
+    # invented data (self-consistency): 300,000 points of a sloping line
+    x = np.linspace(400.0, 4000.0, 300_000)
+    panel = SpectrumPanel(wk.Session(wk.Spectrum(x, 1e-4 * x)))
+    assert panel.baseline_preview.value is False
+    assert panel.plot.curve("baseline").x.size == 0
+    assert "preview is off" in panel.status.value

@@ -18,6 +18,8 @@ __all__ = ["SpectrumPanel"]
 
 BASELINE_CHOICES = [("polynomial (masked peaks)", "poly"), ("asymmetric least squares", "als")]
 UPLOAD_SUFFIXES = ".csv,.txt,.tsv,.dat,.jdx,.dx,.jcamp"
+#: above this many points the live baseline preview starts switched off (it takes ~1 s per 10⁶)
+LIVE_PREVIEW_LIMIT = 200_000
 
 
 def reverse_by_default(y_kind: str | None) -> bool:
@@ -157,6 +159,10 @@ class SpectrumPanel(Panel):
             if sp.y_kind != self._shown_kind:
                 self._shown_kind = sp.y_kind
                 self.high_to_low.value = rev
+            if new_range and sp.x.size > LIVE_PREVIEW_LIMIT and self.baseline_preview.value:
+                self.baseline_preview.value = False
+                self.show_status("info", f"baseline preview is off for {sp.x.size:,} points "
+                                         "(about a second per change); tick 'preview' to see it")
             self.plot.y_axis.label = sp.y_kind
             with self.plot.figure.hold_sync():
                 self.plot.set_curve("data", sp.x, sp.y)
