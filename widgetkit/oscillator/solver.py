@@ -33,8 +33,11 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg as sl
 
+from .dvr import diagonalise as _diagonalise
+from .dvr import hamiltonian as _hamiltonian
+from .dvr import ritz as _ritz
+from .dvr import sinc_dvr_kinetic
 from .potentials import OscillatorError, Potential
 
 __all__ = ["VibrationalLevels", "solve", "sinc_dvr_kinetic"]
@@ -110,16 +113,6 @@ class VibrationalLevels:
         return np.einsum("vi,i,vi->v", self.wavefunctions, f * self.dr, self.wavefunctions)
 
 
-def sinc_dvr_kinetic(n: int, dr: float, kinetic: float) -> np.ndarray:
-    """Colbert–Miller kinetic matrix (n, n) in cm⁻¹ for spacing ``dr`` (Å) and
-    ħ²/(2μ) = ``kinetic`` (cm⁻¹ Å²)."""
-    k = np.arange(n, dtype=float)
-    col = np.empty(n)
-    col[0] = math.pi**2 / 3.0
-    col[1:] = 2.0 * np.where(k[1:] % 2 == 1, -1.0, 1.0) / k[1:] ** 2
-    return sl.toeplitz(col * (kinetic / dr**2))
-
-
 def _v_eff(potential: Potential, mu: float, J: int, kin: float):
     cj = kin * J * (J + 1)
 
@@ -153,21 +146,6 @@ def _auto_range(veff, lo: float, hi: float, e_top: float, kin: float):
     r_hi = probe[min(i1 + k, probe.size - 1)]
     decay = min(float(left[min(j, left.size - 1)]), float(right[min(k, right.size - 1)]))
     return float(r_lo), float(r_hi), float(np.min(v[i0:i1 + 1])), decay
-
-
-def _diagonalise(veff, r: np.ndarray, kin: float, n_want: int | None, limit: float,
-                 everything: bool = False):
-    dr = r[1] - r[0]
-    h = sinc_dvr_kinetic(r.size, dr, kin)
-    h[np.diag_indices(r.size)] += veff(r)
-    if everything:
-        e, c = sl.eigh(h, check_finite=False)
-    elif n_want is not None:
-        n = min(n_want, r.size)
-        e, c = sl.eigh(h, subset_by_index=[0, n - 1], check_finite=False, driver="evx")
-    else:
-        e, c = sl.eigh(h, subset_by_value=[-np.inf, limit], check_finite=False, driver="evx")
-    return e, c
 
 
 def _grid_from(grid) -> np.ndarray:
@@ -304,40 +282,6 @@ def _e_top(potential, mu, J, kin, n_levels, limit) -> float:
     e_top = kin * J * (J + 1) / potential.r_e(mu) ** 2
     e_top += potential.curvature_omega(mu) * (n_levels + 0.5) if n_levels is not None else math.inf
     return min(e_top, limit)
-
-
-def _hamiltonian(veff, r: np.ndarray, kin: float) -> np.ndarray:
-    h = sinc_dvr_kinetic(r.size, r[1] - r[0], kin)
-    h[np.diag_indices(r.size)] += veff(r)
-    return h
-
-
-def _ritz(h: np.ndarray, r: np.ndarray, rc: np.ndarray, cc: np.ndarray, scale: float,
-          blocks: int = 2):
-    """Rayleigh–Ritz refinement on the fine grid ``r`` (Hamiltonian ``h``) of the
-    coarse-grid DVR eigenvectors ``cc`` (grid ``rc``), sinc-interpolated.
-
-    The trial space is the block Krylov space span{U, HU, …} (``blocks`` blocks).
-    Returns (energies, vectors) when every residual ‖Hx − Ex‖ ≤ 1e-9 · scale
-    (each energy then lies within that of an exact eigenvalue of ``h``), else None.
-    """
-    hc = rc[1] - rc[0]
-    dr = r[1] - r[0]
-    interp = np.sinc((r[:, None] - rc[None, :]) / hc) * math.sqrt(dr / hc)
-    u = interp @ cc
-    k = u.shape[1]
-    basis = [u]
-    for _ in range(blocks - 1):
-        basis.append(h @ basis[-1])
-        basis[-1] /= np.linalg.norm(basis[-1], axis=0)
-    q, _ = np.linalg.qr(np.hstack(basis))
-    hq = h @ q
-    w, y = np.linalg.eigh(q.T @ hq)
-    x = q @ y[:, :k]
-    res = np.linalg.norm(hq @ y[:, :k] - x * w[:k], axis=0)
-    if np.all(res <= 1e-9 * scale):
-        return w[:k], x
-    return None
 
 
 def _solve_on_grid(potential, mu, J, kin, veff, r, n_levels, limit):
