@@ -177,3 +177,12 @@ def test_bad_simulation_input_raises_a_simulation_error(kwargs, words):
 def test_unknown_constant_name_is_refused_by_the_spectrum_simulator():
     with pytest.raises(wk.WidgetkitError, match="unknown constant"):
         rovibrational(H35CL, {**HCL, "Be": 10.0})
+
+
+def test_vibrational_meta_replays_to_the_same_spectrum():
+    co = wk.Diatomic("C", "O")
+    s = vibrational(co, HANDBOOK["12C-16O"], bands=((1, 0), (2, 0)), step=0.5, noise=1e-4, seed=5,
+                    rotational=False)
+    p = json.loads(json.dumps(s.meta["simulated"]["params"]))
+    p["molecule"] = wk.Diatomic.from_dict(p["molecule"])
+    assert vibrational(**p) == s  # self-consistency: the record is complete

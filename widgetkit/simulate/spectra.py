@@ -160,7 +160,8 @@ def _simulate(function: str, params: dict, *, title: str | None, rotational: boo
         p = {**p, "seed": seed}
     lines = line_list(p["molecule"], p["constants"], bands=p["bands"], temperature=p["temperature"],
                       J_max=p["J_max"], min_relative=p["min_relative"],
-                      herman_wallis=p["herman_wallis"], q_branch=p["q_branch"], dipole=p["dipole"])
+                      herman_wallis=p["herman_wallis"], q_branch=p.get("q_branch", False),
+                      dipole=p["dipole"])
     if not rotational:
         lines = (lines.assign(w=lines["intensity"] * lines["position"])
                  .groupby(["isotopologue", "band", "v_upper", "v_lower"], as_index=False)
@@ -272,5 +273,5 @@ def vibrational(molecule: Diatomic, constants: Mapping[str, float], *,
                   temperature=temperature, strength=strength, lorentz_hwhm=lorentz_hwhm,
                   resolution=resolution, noise=noise, baseline=baseline, seed=seed, y_kind=y_kind,
                   herman_wallis=herman_wallis, J_max=J_max, min_relative=min_relative,
-                  q_branch=False, dipole=dipole, window=window, rotational=rotational)
+                  dipole=dipole, window=window, rotational=rotational)
     return _simulate("vibrational", params, title=title, rotational=rotational)
