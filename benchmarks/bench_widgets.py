@@ -116,19 +116,29 @@ def main(n: int = 1_000_000) -> None:
     def zoom_out(i):
         _front_end_update(peaks.plot.x_scale, min=lo + i, max=hi - i)
 
+    def whole_range(i):  # the "Whole range" button after a zoom: a window seen before
+        _front_end_update(peaks.plot.x_scale, min=2800.0, max=2900.0)
+        _messages.clear()
+        t0 = time.perf_counter()
+        peaks.plot.reset_window()
+        whole.append((time.perf_counter() - t0, _bytes()))
+
+    whole: list[tuple[float, int]] = []
     curve = peaks.plot.curve("data")
 
-    def undecimated(i):
+    def undecimated(i):  # new content every time, so both arrays are really sent
         with curve.hold_sync():
-            curve.x = sp.x
-            curve.y = sp.y + 0.0 * i
+            curve.x = sp.x + 1e-9 * (i + 1)
+            curve.y = sp.y + 1e-12 * (i + 1)
 
     rows = [
         ("add a peak (click; session step + all panels)", _measure(add_peak)),
         ("  of which the session step (no panels)", _measure(add_peak_session_only)),
         ("zoom to 100 cm-1 (re-decimate)", _measure(zoom)),
-        ("zoom out to the whole range", _measure(zoom_out)),
+        ("zoom out to a new wide window", _measure(zoom_out)),
     ]
+    _measure(whole_range)
+    rows.append(("'Whole range' again (decimation cached)", min(whole)))
     base_t, base_b = _measure(undecimated, repeat=3)
     render = rows[0][1][0] - rows[1][1][0]
     print(f"\n{'action':50s} {'time / ms':>10s} {'sent / kB':>10s} {'time ratio':>11s} "

@@ -28,6 +28,8 @@ __all__ = ["SpectrumFigure", "DEFAULT_BINS", "MOUSE_MODES"]
 #: bins per visible window: at most 2 * DEFAULT_BINS + 2 points per curve
 DEFAULT_BINS = 1000
 MOUSE_MODES = ("zoom", "select", "click")
+#: decimated windows kept per curve (going back to the whole range is then free)
+CACHED_WINDOWS = 4
 
 COLORS = {"data": "#1f4e79", "baseline": "#d95f02", "model": "#c0392b", "component": "#7f8c8d",
           "residual": "#444444", "peaks": "#e67e22", "selected": "#2ecc71", "region": "#8e44ad"}
@@ -36,7 +38,7 @@ COLORS = {"data": "#1f4e79", "baseline": "#d95f02", "model": "#c0392b", "compone
 class _Curve:
     """One Lines mark and the full-resolution data behind it."""
 
-    __slots__ = ("mark", "x", "y", "ref", "sent_window")
+    __slots__ = ("mark", "x", "y", "ref", "sent_window", "cache")
 
     def __init__(self, mark: bq.Lines):
         self.mark = mark
@@ -44,6 +46,7 @@ class _Curve:
         self.y = np.empty((0,))
         self.ref = None
         self.sent_window = None  # the window the mark's data were decimated for
+        self.cache: dict = {}  # window -> decimated (x, y), the last few windows
 
 
 class SpectrumFigure:
@@ -135,6 +138,7 @@ class SpectrumFigure:
             c.x = np.asarray(x, dtype=np.float64)
             c.y = np.asarray(y, dtype=np.float64)
             c.ref = None if ref is None else np.asarray(ref, dtype=np.float64)
+        c.cache = {}
         self._send(c, force=True)
 
     def clear(self, *names: str) -> None:
@@ -181,7 +185,13 @@ class SpectrumFigure:
         if not force and window == c.sent_window:
             return  # min and max of one zoom arrive as two notifications
         c.sent_window = window
-        xd, yd = self._decimated(c)
+        if window in c.cache:
+            xd, yd = c.cache[window]
+        else:
+            xd, yd = self._decimated(c)
+            if len(c.cache) >= CACHED_WINDOWS:
+                c.cache.pop(next(iter(c.cache)))
+            c.cache[window] = (xd, yd)
         with c.mark.hold_sync():
             c.mark.x = xd
             c.mark.y = yd
