@@ -46,7 +46,7 @@ class LevelsPanel(Panel):
     """Assign the fitted lines of a molecule, edit single assignments, see the constants.
 
     "Lock" fixes the assignment of the selected line (``Session.set_assignment``),
-    "Leave unassigned" keeps it out of the fit (``Session.clear_assignment``);
+    "Clear" leaves it unassigned and out of the fit (``Session.clear_assignment``);
     both re-run the last assignment with the locks. A click on a point of
     either plot selects its line.
     """
@@ -82,8 +82,8 @@ class LevelsPanel(Panel):
                                           layout=ipw.Layout(width="230px"))
         self.lock_button = ipw.Button(description="Lock", icon="lock")
         self.lock_button.on_click(self._on_lock_click)
-        self.clear_button = ipw.Button(description="Leave unassigned", icon="ban",
-                                       layout=ipw.Layout(width="auto"))
+        self.clear_button = ipw.Button(description="Clear", icon="ban",
+                                       tooltip="leave this line unassigned (kept so by a lock)")
         self.clear_button.on_click(self._on_clear_click)
 
         self.fortrat_fig, fx, fy = _small_figure("Fortrat plot", "m", "position / cm⁻¹")
@@ -145,7 +145,8 @@ class LevelsPanel(Panel):
             a = a.assign(lock=["locked" if int(i) in locks else "" for i in a["line_id"]])
         self.assignment_table.value = html_table(
             a, name="assignments", columns=[*ASSIGNMENT_COLUMNS, "lock"],
-            headers={"obs_minus_calc": "obs − calc"},
+            headers={"obs_minus_calc": "obs − calc", "position": "position / cm⁻¹"},
+            formats={"obs_minus_calc": ".5f"},
             row_class=lambda r: "wk-outlier" if bool(r.get("outlier", False)) else "",
             empty="no assignment yet: fit lines, then press Assign")
         self.constants_table.value = html_table(s.constants, name="constants",
@@ -217,9 +218,9 @@ class LevelsPanel(Panel):
     def _on_clear_click(self, _button) -> None:
         lid = self.edit_line.value
         if lid is None:
-            self.show_status("error", "leave unassigned: choose a line first")
+            self.show_status("error", "clear: choose a line first")
             return
-        self._call("leave unassigned", "clear_assignment", int(lid),
+        self._call("clear", "clear_assignment", int(lid),
                    ok=f"line {lid} left unassigned")
 
     def _on_point_click(self, _mark, content: dict) -> None:
