@@ -174,3 +174,23 @@ def test_the_whole_analysis_with_the_panels_replays_and_verifies(tmp_path, sessi
     path = tmp_path / "hcl.session.json"
     session.save(path)
     assert wk.Session.load(path).verify().ok
+
+
+def test_a_progression_is_plotted_against_the_upper_level():
+    # demo data from our simulator: band centres of the 1-0, 2-0 and 3-0 bands of H-35Cl
+    hcl = wk.Diatomic("1H", "35Cl")
+    sp = wk.simulate.vibrational(hcl, wk.simulate.HANDBOOK["1H-35Cl"], rotational=False, seed=1,
+                                 noise=1e-5, lorentz_hwhm=2.0, resolution=2.0,
+                                 x_range=(2500, 8700), step=0.5)
+    session = wk.Session(sp)
+    session.find_peaks(min_snr=10.0)
+    session.fit_lines(shape="lorentzian")
+    panel = LevelsPanel(session)
+    panel.kind.value = "progression"
+    panel.assign_button.click()
+    assert session.history[-1].kind == "assign_band", panel.status.value
+    assert session.history[-1].params["kind"] == "progression"
+    assert panel.fortrat_fig.axes[0].label == "v′"
+    n_labelled = int(session.assignments["label"].notna().sum())
+    assert panel.fortrat_obs.x.size == n_labelled > 0
+    assert "omega_e" in panel.constants_table.value

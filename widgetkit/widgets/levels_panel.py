@@ -166,14 +166,18 @@ class LevelsPanel(Panel):
         pos = a["position"].to_numpy(float)
         calc = pd.to_numeric(a["calc"], errors="coerce").to_numpy(float)
         omc = pd.to_numeric(a["obs_minus_calc"], errors="coerce").to_numpy(float)
-        isos = a["isotopologue"].astype(str).tolist()
+        isos = (a["isotopologue"].astype(str).tolist() if "isotopologue" in a
+                else [""] * len(a))
         colors = [ISO_COLORS[sorted(set(isos)).index(i) % len(ISO_COLORS)] for i in isos]
-        if self.kind.value == "rovibrational" or a["J_lower"].notna().any():
+        rotational = ("J_lower" in a and "J_upper" in a
+                      and pd.to_numeric(a["J_lower"], errors="coerce").notna().any())
+        if rotational:
             m = fortrat_m(a["J_upper"], a["J_lower"])
-            self.fortrat_fig.axes[0].label = "m"
-        else:
-            m = pd.to_numeric(a["v_upper"], errors="coerce").to_numpy(float)
-            self.fortrat_fig.axes[0].label = "v′"
+            self.fortrat_fig.title, self.fortrat_fig.axes[0].label = "Fortrat plot", "m"
+        else:  # band centres of a progression: position against the upper level
+            m = pd.to_numeric(a.get("v_upper", pd.Series(np.nan, index=a.index)),
+                              errors="coerce").to_numpy(float)
+            self.fortrat_fig.title, self.fortrat_fig.axes[0].label = "progression", "v′"
         order = np.argsort(np.where(np.isfinite(m), m, np.inf), kind="stable")
         with self.fortrat_obs.hold_sync():
             self.fortrat_obs.x, self.fortrat_obs.y = m, pos
