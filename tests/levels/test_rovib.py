@@ -221,3 +221,19 @@ def test_overtone_band_is_assigned_when_its_numbering_is_given():
     assert (res.assignments["v_upper"] == 2).all()
 
 
+
+
+def test_a_clean_band_carries_no_doubt_message(hcl_band):
+    _, res = hcl_band
+    assert not any(m.startswith("DOUBTFUL") for m in res.messages)
+
+
+def test_a_poor_assignment_is_marked_doubtful():
+    rng = np.random.default_rng(12)  # invented: a band plus as many random lines
+    mol = Diatomic("1H", "35Cl")
+    df = line_list(mol, HCL, J_max=8, sigma=0.003, seed=12)
+    junk = pd.DataFrame({"line_id": 500 + np.arange(40), "position": rng.uniform(2700, 3050, 40),
+                         "position_err": 0.003, "area": rng.uniform(0.001, 0.01, 40)})
+    res = assign_rovibrational(pd.concat([df, junk], ignore_index=True), mol)
+    assert any(m.startswith("DOUBTFUL") for m in res.messages)
+    assert correct(res, df).mean() > 0.9  # the band itself is still found

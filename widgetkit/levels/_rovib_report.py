@@ -100,6 +100,17 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
                                         "calc", "obs_minus_calc"])
     cdf = pd.DataFrame(consts, columns=["isotopologue", "name", "value", "stderr", "unit"])
     msgs.append(f"{int(good.sum())} of {n} lines fitted after {st.rounds} rounds")
+    seed = st.models.get(st.seed_iso)
+    birge = (float(np.sqrt(seed.fit.fit.reduced_chi2))
+             if seed is not None and seed.fit is not None and sig is not None
+             and seed.fit.fit.dof > 0 else np.nan)
+    if good.sum() < 0.6 * n or (np.isfinite(birge) and birge > 3.0):
+        msgs.append(
+            f"DOUBTFUL: only {int(good.sum())} of {n} lines fit"
+            + (f" and the strongest sub-band scatters {birge:.1f} times its stated errors"
+               if np.isfinite(birge) and birge > 3.0 else "")
+            + "; check the assignment, or lock two lines by hand with "
+            "s.set_assignment(line_id, label='R(0)') and s.set_assignment(line_id, label='P(1)')")
     return cls(table, cdf, covs, cd, st.rounds, msgs, band)
 
 
