@@ -199,3 +199,20 @@ def test_the_live_baseline_preview_starts_off_for_a_large_spectrum():
     assert panel.baseline_preview.value is False
     assert panel.plot.curve("baseline").x.size == 0
     assert "preview is off" in panel.status.value
+
+
+def test_an_unexpected_error_is_shown_and_not_swallowed(session, monkeypatch):
+    import pytest
+
+    panel = PeaksPanel(session)
+
+    def broken(**kwargs):
+        raise RuntimeError("disk on fire")
+
+    monkeypatch.setattr(session, "find_peaks", broken)
+    with pytest.raises(RuntimeError, match="disk on fire"):  # the handler lets it through ...
+        panel._on_find_click(panel.find_button)
+    assert "unexpected RuntimeError" in panel.status.value and "bug" in panel.status.value
+    panel.show_status("info", "")
+    panel.find_button.click()  # ... to ipywidgets, which logs the traceback
+    assert "unexpected RuntimeError" in panel.status.value

@@ -152,5 +152,10 @@ class Panel(ipw.VBox):
             self.last_error = exc
             self.show_status("error", f"{what}: {exc}")
             return None
+        except Exception as exc:  # a bug, not bad input: say so, and let it propagate
+            self.last_error = exc
+            self.show_status("error", f"{what}: unexpected {type(exc).__name__}: {exc} (this is "
+                                      "a bug in widgetkit; the traceback is in the log)")
+            raise
         self.show_status("ok", ok or f"{what}: done")
         return result
