@@ -80,7 +80,7 @@ def gap_hypotheses(x, area=None, *, frac: float = 0.25, reach: int = 3) -> list[
     if n < 4:
         return []
     I, J = [], []
-    for k in range(1, reach + 1):
+    for k in range(1, reach + 3):
         I.append(np.arange(n - k))
         J.append(np.arange(k, n))
     I, J = np.concatenate(I), np.concatenate(J)
@@ -88,7 +88,8 @@ def gap_hypotheses(x, area=None, *, frac: float = 0.25, reach: int = 3) -> list[
     out = []
     for key, div in ((0, 2.0), (1, 3.0), (2, 3.0)):
         sp = d / div
-        ok = d > 0
+        # a gap with R(0) or P(1) missing is wider and may hold more partner lines
+        ok = (d > 0) & (J - I <= (reach if key == 0 else reach + 2))
         for target in (x[I] - sp, x[J] + sp):
             k = np.clip(np.searchsorted(x, target), 1, n - 1)
             near = np.minimum(np.abs(x[k] - target), np.abs(x[k - 1] - target))
