@@ -304,7 +304,7 @@ def seed_band(data: Lines, locks: dict, molecule: Diatomic, band, *, frac: float
                 "no band-origin gap found: no pair of neighbouring lines looks like P(1), R(0) with "
                 "P(2), R(1) beyond; lock two lines by hand with s.set_assignment(line_id, "
                 "label='R(0)') and s.set_assignment(line_id, label='P(1)')")
-        ranked = sorted(cands.values(), key=lambda t: (-len(t[0]), t[1]))[:8]
+        ranked = sorted(cands.values(), key=lambda t: (-len(t[0]), t[1]))
         scored = [(_seed_score(g, xs, area_s), float(np.nansum(area_s[list(g.values())])), -i, g)
                   for g, i in ranked]
         scored.sort(key=lambda t: t[:3], reverse=True)
