@@ -166,3 +166,19 @@ def test_a_read_only_app_walks_through_the_record_but_changes_nothing(session):
     assert app.peaks_panel.markers.x.size == len(session.peaks)
     app.record_panel.latest_button.click()
     assert app.peaks_panel.find_button.disabled  # still read-only at the end
+
+
+def test_the_axis_direction_check_box_turns_every_spectrum_plot_of_the_app(session):
+    app = AnalysisApp(session)
+    assert app.peaks_panel.plot.x_scale.reverse is True  # absorbance: high to low
+    app.spectrum_panel.high_to_low.value = False
+    assert app.peaks_panel.plot.x_scale.reverse is False
+    assert app.lines_panel.plot.x_scale.reverse is False
+
+
+def test_the_chosen_axis_direction_survives_a_crop(session):
+    app = AnalysisApp(session)
+    app.spectrum_panel.high_to_low.value = False
+    session.crop(2800.0, 3000.0)
+    assert app.peaks_panel.plot.x_scale.reverse is False
+    assert app.spectrum_panel.plot.x_scale.reverse is False

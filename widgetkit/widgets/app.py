@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import ipywidgets as ipw
+import traitlets
 
 from .levels_panel import LevelsPanel
 from .lines_panel import LinesPanel
@@ -50,6 +51,10 @@ class AnalysisApp(ipw.VBox):
         self.record_panel = RecordPanel(session, **ro)
         self.panels = [self.spectrum_panel, self.peaks_panel, self.lines_panel,
                        self.levels_panel, self.record_panel]
+        # one axis direction for all spectrum plots: the Spectrum panel's check box
+        self._links = [traitlets.dlink((self.spectrum_panel.high_to_low, "value"),
+                                       (p.plot.x_scale, "reverse"))
+                       for p in (self.peaks_panel, self.lines_panel)]
         self.tabs = ipw.Tab(children=self.panels, titles=[p.title for p in self.panels])
         self.children = [self.tabs]
 
@@ -63,6 +68,8 @@ class AnalysisApp(ipw.VBox):
             p.session = session
 
     def close(self) -> None:
+        for link in self._links:
+            link.unlink()
         for p in self.panels:
             p.close()
         super().close()

@@ -42,6 +42,7 @@ class LinesPanel(Panel):
         self._reverse_x = reverse_x
         self._n_bins = n_bins
         self._shown_spectrum = None
+        self._shown_kind = None
         self._shown_fit = _UNSET
         self.busy = False
         super().__init__(session, owner=owner, read_only=read_only, **kwargs)
@@ -98,8 +99,10 @@ class LinesPanel(Panel):
             new_range = (self._shown_spectrum is None or sp.x[0] != self._shown_spectrum.x[0]
                          or sp.x[-1] != self._shown_spectrum.x[-1])
             self._shown_spectrum = sp
-            self.plot.x_scale.reverse = (self._reverse_x if self._reverse_x is not None
-                                         else reverse_by_default(sp.y_kind))
+            if sp.y_kind != self._shown_kind:  # keep the user's choice until the kind changes
+                self._shown_kind = sp.y_kind
+                self.plot.x_scale.reverse = (self._reverse_x if self._reverse_x is not None
+                                             else reverse_by_default(sp.y_kind))
             self.plot.y_axis.label = sp.y_kind
             self.plot.set_curve("data", sp.x, sp.y)
             if new_range:

@@ -29,6 +29,7 @@ class PeaksPanel(Panel):
         self._reverse_x = reverse_x
         self._n_bins = n_bins
         self._shown_spectrum = None
+        self._shown_kind = None
         self._shown_ids: list[int] = []
         self._shown_x = np.zeros(0)
         self.selected_peak: int | None = None
@@ -97,8 +98,10 @@ class PeaksPanel(Panel):
             new_range = (self._shown_spectrum is None or sp.x[0] != self._shown_spectrum.x[0]
                          or sp.x[-1] != self._shown_spectrum.x[-1])
             self._shown_spectrum = sp
-            self.plot.x_scale.reverse = (self._reverse_x if self._reverse_x is not None
-                                         else reverse_by_default(sp.y_kind))
+            if sp.y_kind != self._shown_kind:  # keep the user's choice until the kind changes
+                self._shown_kind = sp.y_kind
+                self.plot.x_scale.reverse = (self._reverse_x if self._reverse_x is not None
+                                             else reverse_by_default(sp.y_kind))
             self.plot.y_axis.label = sp.y_kind
             self.plot.set_curve("data", sp.x, sp.y)
             if new_range:
