@@ -28,12 +28,22 @@ Pipeline (:func:`assign_rovibrational`):
    * rounds stop when the assignment no longer changes;
 
    the hypothesis with most well-fitted lines, penalised when the areas
-   contradict the natural abundances, wins; a tie is an error;
+   contradict the natural abundances or the origin shifts contradict mass
+   scaling, wins; finally the fitted sub-bands are named by the permutation
+   of isotopologues most consistent with mass scaling and abundances, and a
+   tie (for example one sub-band of a molecule with two equally abundant
+   isotopologues) is an error;
 3. report constants with standard errors, combination differences, B_e, α_e,
    r_e, the rotational temperature and the abundance ratio.
 
 Locked lines (``locks``) keep their labels, are never dropped as outliers and
 take part in every fit.
+
+Limits (found with simulated bands): the band-origin gap must be visible (at
+most one of R(0), P(1) missing); spectra without areas that also miss lines
+and hold a dense weak isotopologue (13CO in CO) can be mis-indexed. The
+messages then start with "DOUBTFUL" when few lines fit; two locked lines
+always settle the indexing.
 """
 
 from __future__ import annotations
