@@ -155,5 +155,11 @@ class SparseMinimizer(Minimizer):
         return result
 
     def leastsq(self, params=None, max_nfev=None, **kws):
-        """Routed to :meth:`least_squares` (so ``lmfit.conf_interval`` stays fast)."""
-        return self.least_squares(params=params, max_nfev=max_nfev, **kws)
+        """Routed to :meth:`least_squares` with tight LSMR and stopping tolerances.
+
+        ``lmfit.conf_interval`` refits through ``leastsq`` and needs each refit
+        at its minimum (a refit stopped early narrows the interval).
+        """
+        opts = dict(ftol=1e-12, xtol=1e-12, gtol=1e-12, tr_options={"atol": 1e-12, "btol": 1e-12})
+        opts.update(kws)
+        return self.least_squares(params=params, max_nfev=max_nfev, **opts)

@@ -193,6 +193,22 @@ def _solve(hess, g, free, lam=0.0):
     return step
 
 
+def _gauss_newton(hess, g, free):
+    """Exact Gauss–Newton step over the free variables (pseudo-inverse of the
+    scaled normal matrix, so undetermined directions are left alone) and its
+    predicted chi-square reduction."""
+    step = np.zeros_like(g)
+    if not np.any(free):
+        return step, 0.0
+    hf = hess[np.ix_(free, free)]
+    d = np.sqrt(np.maximum(np.diag(hf), 1e-300))
+    w, u = np.linalg.eigh(hf / np.outer(d, d))
+    keep = w > 1e-13 * max(w.max(), 1e-300)
+    proj = u[:, keep].T @ (g[free] / d)
+    step[free] = -(u[:, keep] @ (proj / w[keep])) / d
+    return step, float(np.sum(proj**2 / w[keep]))
+
+
 def _certify(jac, r, v, lo, hi, redchi):
     """Predicted chi-square reduction of the exact Gauss–Newton step, in reduced
     chi-squares, and the indices of variables held at a bound."""
@@ -200,16 +216,8 @@ def _certify(jac, r, v, lo, hi, redchi):
     hess = jac.T @ jac
     hess = hess.toarray() if hasattr(hess, "toarray") else np.asarray(hess)
     held = _held(v, g, lo, hi)
-    free = ~held
-    gf = g[free]
-    if gf.size == 0:
-        return 0.0, np.nonzero(held)[0]
-    hf = hess[np.ix_(free, free)]
-    d = np.sqrt(np.maximum(np.diag(hf), 1e-300))
-    w, u = np.linalg.eigh(hf / np.outer(d, d))
-    keep = w > 1e-13 * w.max()
-    proj = u[:, keep].T @ (gf / d)
-    return float(np.sum(proj**2 / w[keep])) / max(redchi, 1e-300), np.nonzero(held)[0]
+    _, pred = _gauss_newton(hess, g, ~held)
+    return pred / max(redchi, 1e-300), np.nonzero(held)[0]
 
 
 def _levenberg_marquardt(model: WindowedModel, v, lo, hi, nfree: int, max_iter: int = 200):
@@ -234,8 +242,8 @@ def _levenberg_marquardt(model: WindowedModel, v, lo, hi, nfree: int, max_iter: 
         hess = (jac.T @ jac).toarray()
         held = _held(v, g, lo, hi)
         free = ~held
-        gn = _solve(hess, g, free)
-        crit = float(-(g @ gn)) / max(chi / max(nfree, 1), 1e-300)
+        gn, pred = _gauss_newton(hess, g, free)
+        crit = pred / max(chi / max(nfree, 1), 1e-300)
         if crit < 1e-3 * CONVERGENCE_TOL:
             break
         while lam < 1e12:
@@ -377,11 +385,16 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     nfev, crit, at_bound, res, error = 0, np.inf, [], None, None
     nfree = xs.size - len(tmap.var_names)
     v = model.variables(params)
+    wing_tol = 1e-3 * (sigma_n if sigma_n > 0 else max(float(np.max(np.abs(ys))), 1e-300))
+    model.set_wings(tmap.values(v))
     for _ in range(max(1, int(max_passes))):
         with np.errstate(all="ignore"):
             v, crit, at_bound, n_ev = _levenberg_marquardt(model, v, lo, hi, nfree)
         nfev += n_ev
-        if _rewindow(model, tmap.values(v)) and crit < CONVERGENCE_TOL:
+        theta = tmap.values(v)
+        stable = _rewindow(model, theta)
+        wings_moved = model.set_wings(theta) > wing_tol
+        if stable and not wings_moved and crit < CONVERGENCE_TOL:
             break
     # lmfit's least_squares from the solution gives the lmfit result there (and
     # takes over from wherever Levenberg–Marquardt stopped)
@@ -400,9 +413,11 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
             at_bound = [tmap.var_names[k] for k in held]
     except (ValueError, FloatingPointError, np.linalg.LinAlgError) as exc:
         error = f"the solver failed: {exc}"
-    if res is None:
-        raise FitError(f"line fit could not start: {error}")
-
+        res = mini.prepare_fit(current)
+        res.method = "least_squares"
+        res.residual = model.residual_vec(v)
+        res._calculate_statistics()
+        res.success, res.message = False, error
     converged = error is None and 0.0 <= crit < CONVERGENCE_TOL
     if converged:
         message = (f"converged (remaining Gauss-Newton reduction {crit:.2g} reduced "

@@ -73,9 +73,10 @@ def _groups(shared_width, line_ids: Sequence, shape: Shape) -> dict[str, tuple[l
     if isinstance(shared_width, Mapping):
         out, seen = {}, set()
         for g, ids in shared_width.items():
-            if not isinstance(g, str) or not _IDENT.match(g) or g.startswith("l"):
-                raise FitError(f"shared_width group name {g!r} must be an identifier not "
-                               "starting with 'l' (for example 'hot' or 'iso37')")
+            taken = {line_prefix(i)[:-1] for i in line_ids} | {"bl"}
+            if not isinstance(g, str) or not _IDENT.match(g) or g in taken:
+                raise FitError(f"shared_width group name {g!r} must be an identifier other "
+                               "than 'bl' and 'l<line id>' (for example 'hot' or 'iso37')")
             ids = list(ids)
             unknown = [i for i in ids if i not in line_ids]
             if unknown:

@@ -221,6 +221,17 @@ def pseudo_voigt(x, area, position, sigma, gamma):
                    + (1.0 - eta) * gaussian(x, 1.0, position, f / SIGMA_TO_FWHM))
 
 
+# ------------------------------------------------------------------ far wings
+def _voigt_wing(x, area, position, sigma, gamma):
+    # Re w(z) ~ Re(i / (sqrt(pi) z)) for |z| >> 1: the Lorentzian; relative error ~ sigma²/d²
+    return lorentzian(x, area, position, gamma)
+
+
+def _pv_wing(x, area, position, sigma, gamma):
+    f, eta = tch_parameters(sigma, gamma)
+    return eta * lorentzian(x, area, position, 0.5 * f)  # the Gaussian part is ~0 there
+
+
 # -------------------------------------------------------------------- registry
 def _fwhm_gauss(sigma):
     return SIGMA_TO_FWHM * sigma, np.stack([np.full_like(sigma, SIGMA_TO_FWHM)])
@@ -254,6 +265,9 @@ class Shape:
         ``fwhm_grad(*widths) -> (fwhm, d fwhm / d widths (n_widths, ...))``.
     lorentz_wings : bool
         True when the far wings fall as 1/x² (windows must be wide).
+    wing : callable or None
+        ``wing(x, area, position, *widths)``: the far-wing form used outside
+        the evaluation windows (the Lorentzian part; None for a Gaussian).
     """
 
     name: str
@@ -262,6 +276,7 @@ class Shape:
     gradient: Callable[..., np.ndarray]
     fwhm_grad: Callable[..., tuple[np.ndarray, np.ndarray]]
     lorentz_wings: bool
+    wing: Callable[..., np.ndarray] | None = None
 
     @property
     def param_names(self) -> tuple[str, ...]:
@@ -292,10 +307,11 @@ class Shape:
 SHAPES: dict[str, Shape] = {
     "gaussian": Shape("gaussian", ("sigma",), gaussian, _gauss_grad, _fwhm_gauss, False),
     "lorentzian": Shape("lorentzian", ("gamma",), lorentzian, _lorentz_grad, _fwhm_lorentz,
-                        True),
-    "voigt": Shape("voigt", ("sigma", "gamma"), voigt, _voigt_grad, _voigt_fwhm_grad, True),
+                        True, lorentzian),
+    "voigt": Shape("voigt", ("sigma", "gamma"), voigt, _voigt_grad, _voigt_fwhm_grad, True,
+                   _voigt_wing),
     "pseudo_voigt": Shape("pseudo_voigt", ("sigma", "gamma"), pseudo_voigt, _pv_grad,
-                          _fwhm_pv, True),
+                          _fwhm_pv, True, _pv_wing),
 }
 
 
