@@ -237,3 +237,19 @@ def test_a_poor_assignment_is_marked_doubtful():
     res = assign_rovibrational(pd.concat([df, junk], ignore_index=True), mol)
     assert any(m.startswith("DOUBTFUL") for m in res.messages)
     assert correct(res, df).mean() > 0.9  # the band itself is still found
+
+
+@pytest.mark.parametrize("which, T, sigma", [
+    ("HCl", 100.0, 0.001), ("HCl", 1000.0, 0.02), ("CO", 150.0, 0.005), ("CO", 600.0, 0.002),
+    ("DCl", 296.0, 0.003), ("DCl", 800.0, 0.01)])
+def test_bands_over_temperatures_and_noise_levels(which, T, sigma):
+    mol, c = {"HCl": (HCL_MOL, HCL), "CO": (Diatomic("C", "O"), CO),
+              "DCl": (Diatomic("2H", "Cl"), DCL)}[which]
+    J_max = int(np.clip(3 * np.sqrt(T / (1.44 * c["B_e"])), 8, 45))
+    df = line_list(mol, c, temperature=T, sigma=sigma, area_noise=0.02, J_max=J_max,
+                   min_area=1e-3, seed=21)
+    res = assign_rovibrational(df, mol)
+    assert correct(res, df).mean() > 0.98
+    _within(res, mol.main.name, band_constants(c), ["band_origin", "B_lower", "B_upper"], k=4)
+    t, e = res.constant("T_rot", mol.main.name)
+    assert abs(t - T) < 4 * e + 0.01 * T  # simulated temperature recovered from the areas
