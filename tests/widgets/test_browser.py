@@ -137,7 +137,7 @@ def test_the_quick_start_notebook_runs_and_its_buttons_change_the_tables(lab, tm
     with sync_api.sync_playwright() as p:
         browser = p.chromium.launch(executable_path=chromium, headless=True, args=CHROMIUM_ARGS)
         try:
-            page = browser.new_page(viewport={"width": 1400, "height": 1800})
+            page = browser.new_page(viewport={"width": 1400, "height": 2600})
             page.set_default_timeout(60_000)
             page.goto(f"{url}/lab/tree/{NOTEBOOK.name}")
             page.wait_for_function(

@@ -117,6 +117,7 @@ def test_assign_fills_the_assignment_and_constants_tables_and_both_plots(fitted)
     assert 0 not in m.astype(int)  # no line at m = 0 (the band-origin gap)
     assert panel.residual_points.y.size == len(a)
     assert panel.fortrat_calc.x.size == len(a)
+    assert "1H-35Cl" in panel.plot_legend.value and "outlier" in panel.plot_legend.value
     assert "assign_band" in record.history_table.value
 
 

@@ -3,6 +3,8 @@ the constants."""
 
 from __future__ import annotations
 
+import html
+
 import bqplot as bq
 import ipywidgets as ipw
 import numpy as np
@@ -19,7 +21,8 @@ KIND_CHOICES = [("rovibrational band (P/R lines)", "rovibrational"),
 ASSIGNMENT_COLUMNS = ["line_id", "position", "isotopologue", "label", "v_upper", "v_lower",
                       "J_upper", "J_lower", "calc", "obs_minus_calc", "outlier"]
 CONSTANT_COLUMNS = ["isotopologue", "name", "value", "stderr", "unit"]
-ISO_COLORS = ["#1f4e79", "#c0392b", "#27ae60", "#8e44ad", "#d35400", "#16a085"]
+ISO_COLORS = ["#1f4e79", "#27ae60", "#8e44ad", "#d35400", "#16a085", "#7f8c8d"]  # no red
+OUTLIER_COLOR = "#e31a1c"
 
 
 def fortrat_m(J_upper, J_lower) -> np.ndarray:
@@ -102,6 +105,7 @@ class LevelsPanel(Panel):
         for mark in (self.fortrat_obs, self.residual_points):
             mark.on_element_click(self._on_point_click)
 
+        self.plot_legend = ipw.HTML()
         self.assignment_table = ipw.HTML()
         self.constants_table = ipw.HTML()
         self._actions(self.assign_button, self.lock_button, self.clear_button)
@@ -109,6 +113,7 @@ class LevelsPanel(Panel):
             ipw.HBox([self.molecule, self.kind, self.temperature, self.assign_button]),
             self.status,
             ipw.HBox([self.fortrat_fig, self.residual_fig]),
+            self.plot_legend,
             ipw.HTML("<b>Constants</b>"),
             self.constants_table,
             ipw.HBox([self.edit_line, self.edit_label, self.edit_isotopologue, self.lock_button,
@@ -160,6 +165,7 @@ class LevelsPanel(Panel):
             for m in (self.fortrat_obs, self.fortrat_calc, self.residual_points):
                 m.x, m.y = np.zeros(0), np.zeros(0)
             self._plot_ids = []
+            self.plot_legend.value = ""
             return
         a = a[a["label"].notna()].reset_index(drop=True)
         self._plot_ids = [int(i) for i in a["line_id"]]
@@ -188,7 +194,12 @@ class LevelsPanel(Panel):
         with self.residual_points.hold_sync():
             self.residual_points.x, self.residual_points.y = pos, np.nan_to_num(omc)
             self.residual_points.colors = [
-                "#b03a2e" if bool(o) else c for o, c in zip(a["outlier"].tolist(), colors)]
+                OUTLIER_COLOR if bool(o) else c for o, c in zip(a["outlier"].tolist(), colors)]
+        keys = sorted(set(isos))
+        items = [f'<span style="color:{ISO_COLORS[i % len(ISO_COLORS)]}">●</span> {html.escape(k)}'
+                 for i, k in enumerate(keys) if k]
+        items.append(f'<span style="color:{OUTLIER_COLOR}">●</span> outlier (obs − calc)')
+        self.plot_legend.value = '<div class="wk-legend">' + " &nbsp; ".join(items) + "</div>"
 
     # ------------------------------------------------------------------ actions
     def assign_options(self) -> dict:
