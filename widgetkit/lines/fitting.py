@@ -237,14 +237,14 @@ def _levenberg_marquardt(model: WindowedModel, v, lo, hi, nfree: int, max_iter: 
     chi = float(r @ r)
     lam, nfev, crit, held = 1e-3, 1, np.inf, np.zeros(v.size, dtype=bool)
     for _ in range(max_iter):
-        jac = model.jacobian_vec(v)
+        jac = model.jacobian_vec(v).tocsr()
         g = jac.T @ r
         hess = (jac.T @ jac).toarray()
         held = _held(v, g, lo, hi)
         free = ~held
         gn, pred = _gauss_newton(hess, g, free)
         crit = pred / max(chi / max(nfree, 1), 1e-300)
-        if crit < 1e-3 * CONVERGENCE_TOL:
+        if crit < 1e-2 * CONVERGENCE_TOL:
             break
         while lam < 1e12:
             step = gn if lam < 1e-9 else _solve(hess, g, free, lam)
@@ -398,7 +398,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
             break
     # lmfit's least_squares from the solution gives the lmfit result there (and
     # takes over from wherever Levenberg–Marquardt stopped)
-    current = copy.deepcopy(params)  # the unfitted copy is cheap (no correlations)
+    current = params  # ours, built above; lmfit's prepare_fit copies it
     for n, val in zip(tmap.var_names, v):
         current[n].value = float(val)
     current.update_constraints()

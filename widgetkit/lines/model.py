@@ -144,14 +144,8 @@ class WindowedModel:
         if self.window is not None and self.shape.wing is not None:
             for i in range(self.n_lines):
                 out[i] = self.shape.wing(self.x, *lp[:, i])
-        out[:, :] = np.where(self._inside_mask(), 0.0, out)
-        out[self.seg, self.rows] = vals
+        out[self.seg, self.rows] = vals  # inside its window a line is evaluated exactly
         return out
-
-    def _inside_mask(self) -> np.ndarray:
-        mask = np.zeros((self.n_lines, self.x.size), dtype=bool)
-        mask[self.seg, self.rows] = True
-        return mask
 
     def theta_jacobian(self, theta: np.ndarray) -> sp.csc_array:
         """d model / d θ, sparse (n, len(θ)), weighted like the residual."""
@@ -179,6 +173,8 @@ class WindowedModel:
     def jacobian_vec(self, v: np.ndarray) -> sp.csc_array:
         """d residual / d variables at ``v``, sparse (n, n_vars)."""
         jt = self.theta_jacobian(self.tmap.values(v))
+        if self.tmap.identity:
+            return jt
         if self.tmap.simple:
             return jt[:, self.tmap._sel_rows[np.argsort(self.tmap._sel_cols)]]
         return (jt @ self.tmap.jacobian(v)).tocsc()

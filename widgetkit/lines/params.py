@@ -207,6 +207,9 @@ class ThetaMap:
         self._sel_rows = np.array([k for k, _ in sel], dtype=int)
         self._sel_cols = np.array([j for _, j in sel], dtype=int)
         self._theta_fixed = np.array([self._fixed.get(n, 0.0) for n in theta])
+        #: variables are exactly θ, in order (no fixed or tied model parameter)
+        self.identity = bool(self.simple and len(sel) == len(theta)
+                             and all(k == j for k, j in sel))
         self.vindex = vindex
 
     def _env(self, v: np.ndarray) -> dict:

@@ -1,0 +1,149 @@
+"""Benchmark of the line-fitting fast path against the naive lmfit composite.
+
+Run: ``python benchmarks/bench_lines.py`` (8- and 20-line naive baselines, a few
+minutes) or ``python benchmarks/bench_lines.py --full`` (adds the naive 40-line
+composite, which takes many minutes on its own).
+
+Baselines measured in the same run:
+
+* **naive composite**: an lmfit CompositeModel of VoigtModels plus a
+  LinearModel, numerical derivatives (``Model.fit``, default leastsq), from
+  the same starting values: how most users write this fit;
+* **floor**: the fast path's own iteration count times the cost of one
+  windowed model evaluation plus one sparse Jacobian.
+
+The band is invented: a P/R-like progression of Voigt lines in an invented gas
+cell (our own simulator, seeded noise), not a measured spectrum.
+"""
+
+from __future__ import annotations
+
+import argparse
+import time
+
+import lmfit
+import numpy as np
+
+import widgetkit.lines as wl
+from widgetkit.lines import fitting
+
+
+def band(n_lines: int, n_points: int, seed: int = 1):
+    """Invented P/R progression nu(m) = nu0 + (B1+B0) m + (B1-B0) m^2, Voigt lines."""
+    rng = np.random.default_rng(seed)
+    half = n_lines // 2
+    m = np.r_[-half:0, 1:n_lines - half + 1]
+    nu0, b1, b0 = 2886.0, 10.14, 10.44
+    pos = nu0 + (b1 + b0) * m + (b1 - b0) * m**2
+    j = np.where(m > 0, m - 1, -m)
+    area = (np.abs(m) + 1.0) * np.exp(-b0 * j * (j + 1) / 2000.0)
+    area /= area.max()
+    sigma, gamma = 0.05, 0.08
+    x = np.linspace(pos.min() - 15.0, pos.max() + 15.0, n_points)
+    y = 0.02 + 1e-5 * (x - x.mean())
+    for a, p in zip(area, pos):
+        y = y + wl.voigt(x, a, p, sigma, gamma)
+    y = y + rng.normal(0.0, 0.01 * float(wl.voigt(0.0, 1.0, 0.0, sigma, gamma)), x.size)
+    start = pos + rng.normal(0.0, 0.03, pos.size)
+    return x, y, start
+
+
+def fast(x, y, start):
+    t = time.perf_counter()
+    res = wl.fit(x, y, start)
+    return time.perf_counter() - t, res
+
+
+def naive(x, y, start):
+    """CompositeModel of VoigtModels + linear baseline, numerical derivatives.
+
+    Started from the same estimated heights and widths the fast path starts from.
+    """
+    from widgetkit.lines.baselines import BASELINES
+    from widgetkit.lines.start import starting_values
+
+    st = starting_values(x, y, start, BASELINES["linear"], 0.5 * (x[0] + x[-1]))
+    sh = wl.SHAPES["voigt"]
+    sig0, gam0 = sh.widths_from_fwhm(st.fwhm)
+    area0 = st.heights / sh.height(1.0, sig0, gam0)
+    model = lmfit.models.LinearModel(prefix="bl_")
+    for i in range(len(start)):
+        model = model + lmfit.models.VoigtModel(prefix=f"v{i}_")
+    slope = st.baseline[1]
+    params = model.make_params(bl_slope=slope,
+                               bl_intercept=st.baseline[0] - slope * 0.5 * (x[0] + x[-1]))
+    for i, p in enumerate(start):
+        params[f"v{i}_center"].set(value=p)
+        params[f"v{i}_sigma"].set(value=sig0[i], min=1e-4)
+        params[f"v{i}_gamma"].set(value=gam0[i], min=1e-4, vary=True, expr="")
+        params[f"v{i}_amplitude"].set(value=area0[i])
+    t = time.perf_counter()
+    res = model.fit(y, params, x=x)
+    return time.perf_counter() - t, res
+
+
+def floor(x, y, start, res):
+    """Iterations x (one windowed model + one sparse Jacobian) of the fast path."""
+    captured = {}
+    orig = fitting._levenberg_marquardt
+
+    def spy(model, v, *a, **k):
+        captured["model"] = model
+        out = orig(model, v, *a, **k)
+        captured["v"] = out[0]
+        return out
+
+    fitting._levenberg_marquardt = spy
+    try:
+        wl.fit(x, y, start)
+    finally:
+        fitting._levenberg_marquardt = orig
+    model, v = captured["model"], captured["v"]
+    n = 5
+    t = time.perf_counter()
+    for _ in range(n):
+        model.residual_vec(v)
+        model.jacobian_vec(v)
+    one = (time.perf_counter() - t) / n
+    return one, res.nfev * one
+
+
+def main(argv=None):
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--full", action="store_true", help="also run the naive 40-line fit")
+    args = ap.parse_args(argv)
+    import os
+
+    print(f"lmfit {lmfit.__version__}; times are wall-clock seconds of one fit (best of 3 for "
+          f"the fast path); OPENBLAS_NUM_THREADS={os.environ.get('OPENBLAS_NUM_THREADS')}, "
+          f"load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores")
+    cases = [(8, 5000, True), (20, 12000, True), (40, 28000, args.full)]
+    for n_lines, n_points, run_naive in cases:
+        x, y, start = band(n_lines, n_points)
+        wl.fit(x, y, start)  # warm-up
+        t_fast, res = min((fast(x, y, start) for _ in range(3)), key=lambda r: r[0])
+        one, fl = floor(x, y, start, res)
+        line = (f"{n_lines:3d} lines {n_points:6d} points: fast {t_fast:7.3f} s "
+                f"(chi2 {res.chisqr:.6g}, nfev {res.nfev}, converged {res.converged}); "
+                f"floor {fl:.3f} s ({res.nfev} x {one * 1e3:.1f} ms) -> {t_fast / fl:.1f}x floor")
+        print(line, flush=True)
+        if run_naive:
+            t_naive, nres = naive(x, y, start)
+            print(f"    naive composite {t_naive:8.2f} s (chi2 {nres.chisqr:.6g}, nfev "
+                  f"{nres.nfev}, success {nres.success}) -> fast is {t_naive / t_fast:.0f}x "
+                  f"faster; chi2 fast/naive = {res.chisqr / nres.chisqr:.6f}", flush=True)
+        else:
+            print("    naive composite not run at this size (use --full)")
+    print("scaling of the fast path (20 lines per 7000 points, same band recipe):")
+    base = None
+    for n_lines in (10, 20, 40, 80):
+        x, y, start = band(n_lines, 350 * n_lines)
+        t, res = min((fast(x, y, start) for _ in range(3)), key=lambda r: r[0])
+        base = base or t / n_lines
+        print(f"    {n_lines:3d} lines {x.size:6d} points: {t:7.3f} s, {t / n_lines * 1e3:6.2f} "
+              f"ms/line ({t / n_lines / base:.2f}x the 10-line cost per line), converged "
+              f"{res.converged}", flush=True)
+
+
+if __name__ == "__main__":
+    main()
