@@ -19,9 +19,10 @@ exponentially with the number of points per local wavelength.
 
 Automatic grid: the range covers the classically allowed region of the
 highest wanted level plus tails in which the WKB decay ∫κ dr (κ =
-sqrt((V − E)/(ħ²/2μ))) reaches 25 (ψ² below e⁻⁵⁰); the spacing starts from
-the largest local wavenumber and is refined by 25 % steps until the level
-energies change by less than ``tol`` (relative). Phase convention: each
+sqrt((V − E)/(ħ²/2μ))) reaches 25 (ψ² below e⁻⁵⁰); the spacing starts at 4 points per shortest
+local wavelength (Δr = π/(2 k_max), k_max from the highest energy above the
+potential minimum) and is refined by 25 % steps until the level energies
+change by less than ``tol`` (relative). Phase convention: each
 wavefunction is positive in its outermost lobe (large r), which makes
 ⟨v|r − r_e|v+1⟩ > 0 as for Hermite functions.
 """
@@ -123,9 +124,10 @@ def _v_eff(potential: Potential, mu: float, J: int, kin: float):
     return v
 
 
-def _auto_range(veff, lo: float, hi: float, e_top: float, kin: float):
+def _auto_range(veff, lo: float, hi: float, e_top: float, kin: float, outer_tail: bool = True):
     """r range (lo, hi) holding the allowed region at e_top plus WKB tails; min V there; and the
-    smaller of the two tail integrals reached (below _TAIL when the domain ends first)."""
+    smaller of the two tail integrals reached (below _TAIL when the domain ends first).
+    Without ``outer_tail`` the range ends at the outer turning point."""
     probe = np.linspace(lo, hi, 40001)
     with np.errstate(over="ignore"):
         v = veff(probe)
@@ -142,7 +144,7 @@ def _auto_range(veff, lo: float, hi: float, e_top: float, kin: float):
     j = int(np.searchsorted(left, _TAIL))
     r_lo = probe[max(i0 - j, 0)]
     right = np.cumsum(kappa[i1:]) * step
-    k = int(np.searchsorted(right, _TAIL))
+    k = int(np.searchsorted(right, _TAIL)) if outer_tail else 0
     r_hi = probe[min(i1 + k, probe.size - 1)]
     decay = min(float(left[min(j, left.size - 1)]), float(right[min(k, right.size - 1)]))
     return float(r_lo), float(r_hi), float(np.min(v[i0:i1 + 1])), decay
@@ -205,6 +207,13 @@ def solve(potential: Potential, reduced_mass: float, *, n_levels: int | None = N
     Returns
     -------
     VibrationalLevels
+
+    Notes
+    -----
+    Levels bound by a tiny margin (closer to the asymptote than about 1e-5 of
+    the well depth) have tails longer than the grid can hold; their energies
+    carry the grid's box effect (for the 82 Morse levels of CO the top one, bound
+    by 0.26 cm⁻¹, is 2e-3 cm⁻¹ high).
 
     Raises
     ------
@@ -321,9 +330,11 @@ def _auto_solve(potential, mu, J, kin, veff, limit, n_levels, tol, everything):
     e_top = _e_top(potential, mu, J, kin, n_levels, limit)
     all_bound = e_top >= limit
     if all_bound:
-        # first pass (coarse) to find the highest bound level, whose tail sets the range
-        r_lo, r_hi, vmin, _ = _auto_range(veff, lo, hi, e_top, kin)
-        r = _points(r_lo, r_hi, e_top, vmin, kin, 2.5)
+        # first pass (coarse) to find the highest bound level, whose tail sets the range; it
+        # reaches out to where V is within 1e-6 of the asymptote (levels bound by less than
+        # that are not resolved)
+        r_lo, r_hi, vmin, _ = _auto_range(veff, lo, hi, e_top * (1 - 1e-6), kin, outer_tail=False)
+        r = _points(r_lo, r_hi, e_top, vmin, kin, 1.5)
         e, _ = _diagonalise(veff, r, kin, None, limit)
         if e.size == 0:
             raise OscillatorError("the potential has no bound level; check its depth and the reduced mass")
@@ -331,7 +342,7 @@ def _auto_solve(potential, mu, J, kin, veff, limit, n_levels, tol, everything):
     elif potential.kind != "harmonic":
         # the harmonic estimate of the highest wanted level is refined by a coarse pass
         r_lo, r_hi, vmin, _ = _auto_range(veff, lo, hi, e_top, kin)
-        r = _points(r_lo, r_hi, e_top, vmin, kin, 2.5)
+        r = _points(r_lo, r_hi, e_top, vmin, kin, 1.5)
         e, _ = _diagonalise(veff, r, kin, n_levels, limit)
         e_top = min(float(e[min(n_levels, e.size) - 1]), e_top)
     r_lo, r_hi, vmin, decay = _auto_range(veff, lo, hi, e_top, kin)
@@ -341,7 +352,7 @@ def _auto_solve(potential, mu, J, kin, veff, limit, n_levels, tol, everything):
             f"r = {lo:.4g}..{hi:.4g} Å where the potential can be evaluated (it is still below that "
             "energy near an edge); extend the tabulated potential or ask for fewer levels"
         )
-    factor = 4.0
+    factor = 2.0  # 2 x factor points per shortest local wavelength
     r = _points(r_lo, r_hi, e_top, vmin, kin, factor)
     n_want = None if all_bound else n_levels
     e_old, _ = _diagonalise(veff, r, kin, n_want, limit)
