@@ -110,7 +110,8 @@ class SpectrumPanel(Panel):
         self.baseline_method = ipw.Dropdown(options=BASELINE_CHOICES, value="poly",
                                             description="Baseline")
         self.baseline_degree = ipw.BoundedIntText(value=3, min=0, max=15, description="degree",
-                                                  continuous_update=False)
+                                                  continuous_update=False,
+                                                  layout=ipw.Layout(width="180px"))
         self.baseline_lam = ipw.FloatLogSlider(value=1e6, base=10, min=2, max=11,
                                                description="smoothness λ",
                                                continuous_update=False, readout_format=".1e")
@@ -119,7 +120,7 @@ class SpectrumPanel(Panel):
                                              continuous_update=False, readout_format=".3f")
         self.baseline_preview = ipw.Checkbox(value=True, description="preview", indent=False)
         self.subtract_button = ipw.Button(description="Subtract baseline", icon="minus",
-                                          button_style="primary", layout=ipw.Layout(width="auto"))
+                                          button_style="primary", layout=ipw.Layout(width="170px"))
         self.subtract_button.on_click(self._on_subtract_click)
         for w in (self.baseline_method, self.baseline_degree, self.baseline_lam,
                   self.baseline_p, self.baseline_preview):
