@@ -35,7 +35,7 @@ def _hcl(temperature: float, seed: int, title: str) -> Spectrum:
 
     return simulate.rovibrational(
         Diatomic("H", "Cl"), simulate.HANDBOOK["1H-35Cl"], x_range=(2550.0, 3200.0), step=0.1,
-        resolution=0.5, temperature=temperature, strength=0.9, lorentz_hwhm=0.05, noise=0.002,
+        resolution=0.5, temperature=temperature, strength=0.9, lorentz_hwhm=0.15, noise=0.002,
         seed=seed, baseline=(0.04, 0.015, 0.006), y_kind="transmittance", title=title)
 
 
@@ -45,8 +45,8 @@ def _co() -> Spectrum:
 
     return simulate.vibrational(
         Diatomic("C", "O"), simulate.HANDBOOK["12C-16O"], bands=((1, 0), (2, 0)),
-        x_range=(1950.0, 4400.0), step=0.25, resolution=1.0, temperature=296.0, strength=1.2,
-        noise=0.0004, seed=21, baseline=(0.02, 0.01), y_kind="absorbance",
+        x_range=(1950.0, 4400.0), step=0.25, resolution=1.0, temperature=296.0, strength=1.5,
+        noise=0.0001, seed=21, baseline=(0.02, 0.01), y_kind="absorbance",
         title="QM-24-021 carbon monoxide overview, HC-20 cell, 296 K (simulated)")
 
 
