@@ -23,9 +23,11 @@ from typing import Any
 from .errors import (
     AssignmentError,
     FitError,
+    OscillatorError,
     ProcessingError,
     SessionFormatError,
     SessionStateError,
+    SimulationError,
     SpectrumFormatError,
     WidgetkitError,
 )
@@ -48,6 +50,8 @@ __all__ = [
     "SessionFormatError",
     "SessionStateError",
     "ProcessingError",
+    "OscillatorError",
+    "SimulationError",
     "FitError",
     "AssignmentError",
     "io",

@@ -17,6 +17,8 @@ __all__ = [
     "SessionFormatError",
     "SessionStateError",
     "ProcessingError",
+    "OscillatorError",
+    "SimulationError",
     "FitError",
     "AssignmentError",
 ]
@@ -69,6 +71,14 @@ class SessionStateError(WidgetkitError, ValueError):
 
 class ProcessingError(WidgetkitError, ValueError):
     """A processing function was given an option, method or value it cannot use."""
+
+
+class OscillatorError(WidgetkitError, ValueError):
+    """Bad input to the numerical oscillator, or a grid that did not converge."""
+
+
+class SimulationError(WidgetkitError, ValueError):
+    """Bad input to the spectrum simulator (the message names the parameter)."""
 
 
 class FitError(WidgetkitError, RuntimeError):

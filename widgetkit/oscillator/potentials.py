@@ -33,7 +33,7 @@ import scipy.constants as sc
 from scipy.interpolate import CubicSpline
 from scipy.optimize import minimize_scalar
 
-from ..errors import WidgetkitError
+from ..errors import OscillatorError
 
 __all__ = [
     "KINETIC",
@@ -47,10 +47,6 @@ __all__ = [
 
 #: h/(8π² c u) in cm⁻¹ Å² u: ħ²/(2μ) in cm⁻¹ Å² is KINETIC / μ[u]
 KINETIC = sc.h / (8.0 * math.pi**2 * sc.c * 100.0 * sc.atomic_mass) * 1e20
-
-
-class OscillatorError(WidgetkitError, ValueError):
-    """Bad input to the numerical oscillator, or a grid that did not converge."""
 
 
 def _positive(name: str, value: Any) -> float:

@@ -30,7 +30,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 import pandas as pd
 
-from ..errors import WidgetkitError
+from ..errors import SimulationError
 from ..levels.molecule import Diatomic, scale_constants
 from ..levels.terms import rot_constant, rot_term, vib_term
 from ..oscillator import (
@@ -49,10 +49,6 @@ __all__ = ["SimulationError", "CONSTANT_NAMES", "line_list", "check_constants", 
 CONSTANT_NAMES = ("omega_e", "omega_e_x_e", "omega_e_y_e", "B_e", "alpha_e", "gamma_e",
                   "D_e", "beta_e", "r_e")
 _J_CAP = 400
-
-
-class SimulationError(WidgetkitError, ValueError):
-    """Bad input to the spectrum simulator (the message names the parameter)."""
 
 
 def check_constants(constants: Mapping[str, float]) -> dict[str, float]:
