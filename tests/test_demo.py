@@ -115,6 +115,8 @@ def test_jupyter_listens_on_localhost_with_the_token_left_on(tmp_path):
     assert not any("token" in c.lower() or "password" in c.lower() for c in cmd)
     assert cmd[-1] == "01-quick-start.ipynb"
     assert "--no-browser" not in demo.jupyter_command(tmp_path)
+    assert "--allow-root" not in cmd                            # only when the user asks for it
+    assert "--allow-root" in demo.jupyter_command(tmp_path, allow_root=True)
 
 
 def test_run_demo_copies_then_launches_in_the_folder(tmp_path):

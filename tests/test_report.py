@@ -147,6 +147,7 @@ def test_markdown_names_the_source_hash_and_every_step_with_its_parameters(sessi
     for shown, step in zip(steps, session.history):
         assert json.loads(shown["parameters"].strip("`")) == step.params
     assert {r["package"]: r["version"] for r in tables["Software"]}["numpy"] == np.__version__
+    assert session.assignment.messages and all(f"- {m}" in text for m in session.assignment.messages)
 
 
 def test_csv_reads_back_to_exactly_the_session_tables(session, data):
@@ -162,6 +163,7 @@ def test_csv_reads_back_to_exactly_the_session_tables(session, data):
                           session.assignments["obs_minus_calc"].to_numpy(float), equal_nan=True)
     assert [json.loads(p) for p in tables["steps"]["params"]] == [s.params for s in session.history]
     assert tables["sources"]["sha256"].iloc[0] == session.sources[0]["sha256"]
+    assert tables["notes"]["message"].tolist() == list(session.assignment.messages)
 
 
 def test_html_is_one_self_contained_page_with_inline_figures(data):

@@ -7,7 +7,7 @@
     Exit 0 on success, 1 when ``--verify`` found mismatches (the report is still
     written and says so), 2 when the session cannot be read or the output not written.
 
-``widgetkit demo [--dir DIR] [--no-browser] [--yes] [--port N]``
+``widgetkit demo [--dir DIR] [--no-browser] [--yes] [--port N] [--allow-root]``
     Copy the sample notebooks and demo data to DIR (default ``~/widgetkit-demo``) and
     start JupyterLab there on ``01-quick-start.ipynb`` (127.0.0.1 only, token on).
     A notebook you have edited is never replaced without asking (``--yes`` answers
@@ -106,7 +106,7 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     ask = (lambda rel: True) if args.yes else _ask_on_terminal
     try:
         return demo.run_demo(args.dir, browser=not args.no_browser, ask=ask, port=args.port,
-                             echo=print)
+                             allow_root=args.allow_root, echo=print)
     except (WidgetkitError, OSError) as exc:
         _err("demo", str(exc))
         return 2
@@ -121,6 +121,8 @@ def register_demo(sub) -> None:
     p.add_argument("--yes", action="store_true",
                    help="replace notebooks you edited (backups are kept)")
     p.add_argument("--port", type=int, help="port of the server (default: Jupyter's choice)")
+    p.add_argument("--allow-root", action="store_true",
+                   help="pass --allow-root to Jupyter (it refuses to run as root otherwise)")
     p.set_defaults(func=_cmd_demo)
 
 

@@ -224,16 +224,21 @@ def copy_demo(folder: str | os.PathLike | None = None, *,
 
 
 def jupyter_command(folder: str | os.PathLike, *, notebook: str = QUICK_START,
-                    browser: bool = True, port: int | None = None) -> list[str]:
+                    browser: bool = True, port: int | None = None,
+                    allow_root: bool = False) -> list[str]:
     """The command that starts JupyterLab in ``folder`` on ``notebook``.
 
     The server listens on 127.0.0.1 only; token authentication stays on (Jupyter's
     default: nothing here turns it off), so the link Jupyter prints carries the token.
+    ``allow_root`` passes Jupyter's ``--allow-root`` (Jupyter refuses to run as root
+    otherwise, e.g. in a container); it is never added on its own.
     """
     cmd = [sys.executable, "-m", "jupyter", "lab", "--ServerApp.ip=127.0.0.1",
            f"--ServerApp.root_dir={Path(folder)}"]
     if port is not None:
         cmd.append(f"--ServerApp.port={int(port)}")
+    if allow_root:
+        cmd.append("--allow-root")
     if not browser:
         cmd.append("--no-browser")
     cmd.append(notebook)
@@ -242,6 +247,7 @@ def jupyter_command(folder: str | os.PathLike, *, notebook: str = QUICK_START,
 
 def run_demo(folder: str | os.PathLike | None = None, *, browser: bool = True,
              ask: Callable[[str], bool] | None = None, port: int | None = None,
+             allow_root: bool = False,
              launcher: Callable[[Sequence[str], Path], int] | None = None,
              echo: Callable[[str], None] | None = None) -> int:
     """Copy the demo (:func:`copy_demo`) and start JupyterLab there (:func:`jupyter_command`).
@@ -257,7 +263,10 @@ def run_demo(folder: str | os.PathLike | None = None, *, browser: bool = True,
     for rel, backup in report.backups.items():
         say(f"  replaced {rel}; your edited copy is saved as {backup}")
     say(SAFETY_NOTE)
-    cmd = jupyter_command(report.folder, browser=browser, port=port)
+    cmd = jupyter_command(report.folder, browser=browser, port=port, allow_root=allow_root)
+    if not allow_root and hasattr(os, "geteuid") and os.geteuid() == 0:
+        say("note: you are root; Jupyter refuses to start as root unless you add --allow-root "
+            "(better: run the demo as an ordinary user)")
     say("starting JupyterLab on 127.0.0.1 (token authentication on): " + " ".join(cmd[2:]))
     run = launcher or (lambda c, cwd: subprocess.call(list(c), cwd=cwd))
     return int(run(cmd, report.folder))

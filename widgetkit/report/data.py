@@ -68,6 +68,8 @@ class ReportData:
     verified : bool or None
         The outcome of :meth:`Session.verify` when :func:`collect` was asked to run it.
     verify_messages : list of str
+    messages : list of str
+        What the assignment flagged, left out or cross-checked (its ``messages``).
     """
 
     title: str
@@ -85,6 +87,7 @@ class ReportData:
     y_kind: str = "absorbance"
     verified: bool | None = None
     verify_messages: list = field(default_factory=list)
+    messages: list = field(default_factory=list)
 
     def tables(self) -> dict[str, pd.DataFrame]:
         """The result tables in report order: lines, assignments, constants, extras."""
@@ -187,6 +190,7 @@ def collect(session, *, title: str | None = None, verify: bool = False) -> Repor
         spectrum_y=np.array(sp.y, dtype=float),
         model_y=_model_curve(fit, x),
         y_kind=sp.y_kind,
+        messages=[str(m) for m in (getattr(assignment, "messages", None) or [])],
     )
     if verify:
         rep = session.verify()

@@ -89,6 +89,9 @@ def render_html(data: ReportData, *, figures=True) -> str:
         for name, fig in figs.items():
             out.append(f'<figure id="figure-{escape(name)}">{to_svg(fig)}'
                        f"<figcaption>{escape(name)}</figcaption></figure>")
+    if data.messages:
+        out += ["<h2>Notes of the assignment</h2>", "<ul>"]
+        out += [f"<li>{escape(m)}</li>" for m in data.messages] + ["</ul>"]
     for name, df in data.tables().items():
         out += [f"<h2>{escape(_title(name))}</h2>", _df_table(df)]
     out += ["<h2>Software</h2>",

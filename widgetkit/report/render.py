@@ -94,6 +94,8 @@ def render_markdown(data: ReportData, *, figures: Mapping[str, str] | None = Non
                                    for s in data.steps])]
     for name, link in (figures or {}).items():
         out += ["", f"![{name}]({link})"]
+    if data.messages:
+        out += ["", "## Notes of the assignment", ""] + [f"- {_md_escape(m)}" for m in data.messages]
     for name, df in data.tables().items():
         out += ["", f"## {_title(name)}", ""]
         if not len(df):
@@ -173,6 +175,9 @@ def render_latex(data: ReportData, *, figures: Mapping[str, str] | None = None,
         out += ["", r"\begin{figure}[h]\centering",
                 f"\\includegraphics[width=\\textwidth]{{{path}}}",
                 f"\\caption{{{tex_escape(name)}}}", r"\end{figure}"]
+    if data.messages:
+        out += ["", r"\subsection*{Notes of the assignment}", r"\begin{itemize}"]
+        out += [r"\item " + tex_escape(m) for m in data.messages] + [r"\end{itemize}"]
     for name, df in data.tables().items():
         out += ["", f"\\subsection*{{{tex_escape(_title(name))}}}"]
         if not len(df):
@@ -207,8 +212,9 @@ def render_csv(data: ReportData) -> str:
     A section starts with a comment line ``# table: NAME`` followed by a header
     row and data rows; sections are separated by an empty line. Sections:
     ``sources``, ``steps`` (``params`` as JSON), ``lines``, ``assignments``,
-    ``constants``, further tables, ``software``. Numbers are written in the
-    shortest form that reads back to the same float64.
+    ``constants``, further tables, ``notes`` (the assignment's messages),
+    ``software``. Numbers are written in the shortest form that reads back to
+    the same float64.
     """
     out = io.StringIO()
     w = csv.writer(out, lineterminator="\n")
@@ -229,6 +235,11 @@ def render_csv(data: ReportData) -> str:
     for name, df in data.tables().items():
         out.write(f"\n# table: {name}\n")
         out.write(_csv_frame(df))
+    if data.messages:
+        out.write("\n# table: notes\n")
+        w.writerow(["message"])
+        for m in data.messages:
+            w.writerow([m])
     out.write("\n# table: software\n")
     w.writerow(["package", "version"])
     for k, v in data.software.items():
@@ -238,7 +249,7 @@ def render_csv(data: ReportData) -> str:
 
 _TEXT_COLUMNS = {k: str for k in ("id", "path", "format", "sha256", "data_sha256", "kind", "at",
                                   "summary", "params", "package", "version", "isotopologue", "label",
-                                  "name", "unit")}
+                                  "message", "name", "unit")}
 
 
 def read_report_csv(source) -> dict[str, pd.DataFrame]:
