@@ -152,6 +152,21 @@ def test_the_quick_start_notebook_runs_and_its_buttons_change_the_tables(lab, tm
             page.wait_for_selector(".bqplot svg path.line", timeout=90_000)
             _shot(page, tmp_path, "1-after-run-all")
 
+            # brushing a region of the spectrum fills the crop fields (nothing is cropped yet)
+            crop_from = page.locator(".widget-text:visible", has_text="from").locator("input").first
+            before = crop_from.input_value()
+            page.locator("button:visible", has_text="select region").first.click()
+            area = page.locator(".plotarea_events >> visible=true").first
+            box = area.bounding_box()
+            y = box["y"] + box["height"] * 0.5
+            page.mouse.move(box["x"] + box["width"] * 0.3, y)
+            page.mouse.down()
+            page.mouse.move(box["x"] + box["width"] * 0.5, y, steps=8)
+            page.mouse.move(box["x"] + box["width"] * 0.6, y, steps=4)
+            page.mouse.up()
+            sync_api.expect(crop_from).not_to_have_value(before, timeout=20_000)
+            assert "press Crop" in page.locator(".wk-status-line:visible").first.inner_text()
+
             page.locator(".widget-tab .lm-TabBar-tab", has_text="Peaks").first.click()
             peaks_table = page.locator("table.wk-peaks").first
             peaks_table.wait_for(state="visible")
@@ -219,6 +234,12 @@ def test_the_quick_start_notebook_runs_and_its_buttons_change_the_tables(lab, tm
             history.wait_for(state="visible")
             for kind in ("find_peaks", "add_peak", "remove_peak", "fit_lines", "assign_band"):
                 assert kind in history.inner_text()
+            assert "crop" not in history.inner_text().split("find_peaks")[-1]  # brushing only
+            # step back: the record shows the earlier state (read-only) until Latest
+            page.locator("button:visible", has_text="Back").first.click()
+            sync_api.expect(page.locator(".wk-status:visible", has_text="showing").first
+                            ).to_be_visible(timeout=20_000)
             _shot(page, tmp_path, "5-record")
+            page.locator("button:visible", has_text="Latest").first.click()
         finally:
             browser.close()

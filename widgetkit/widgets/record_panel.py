@@ -102,8 +102,17 @@ class RecordPanel(Panel):
         self.forward_button.disabled = current >= n - 1
         self.latest_button.disabled = current >= n - 1
         if current != n - 1:
+            self._show_viewing_status()
+
+    def _show_viewing_status(self) -> None:
+        s = self.session
+        n, current = len(s.history), s.viewing
+        if current == n - 1:
+            self.show_status("ok", f"showing the latest state (step {current})")
+        else:
             self.show_status("info", f"showing the state after step {current} of {n - 1} "
-                                     f"({steps[current].kind}); press Latest to continue working")
+                                     f"({s.history[current].kind}); the analysis is read-only "
+                                     "until you press Latest")
 
     # ------------------------------------------------------------------ actions
     def _go(self, index: int) -> None:
@@ -112,7 +121,9 @@ class RecordPanel(Panel):
         n = len(self.session.history)
         i = index + n if index < 0 else index
         if 0 <= i < n and i != self.session.viewing:
-            self._call("step", "view", i, ok=f"showing step {i} of {n - 1}")
+            self._call("step", "view", i)
+            if self.last_error is None:
+                self._show_viewing_status()
 
     def _on_step_slider_change(self, change) -> None:
         if self.session is not None and change["new"] != self.session.viewing:
