@@ -195,15 +195,28 @@ def _solve(hess, g, free, lam=0.0):
     return step
 
 
-def _gauss_newton(hess, g, free):
-    """Exact Gauss–Newton step over the free variables (pseudo-inverse of the
-    scaled normal matrix, so undetermined directions are left alone) and its
-    predicted chi-square reduction."""
+def _gauss_newton(hess, g, free, fast=False):
+    """Exact Gauss–Newton step over the free variables and its predicted
+    chi-square reduction.
+
+    Pseudo-inverse of the scaled normal matrix (undetermined directions are
+    left alone); with ``fast=True`` a Cholesky factorisation is tried first
+    (well-conditioned case) and the eigen-decomposition used only if it fails.
+    """
     step = np.zeros_like(g)
     if not np.any(free):
         return step, 0.0
     hf = hess[np.ix_(free, free)]
     d = np.sqrt(np.maximum(np.diag(hf), 1e-300))
+    if fast:
+        try:
+            c = np.linalg.cholesky(hf / np.outer(d, d))
+            z = np.linalg.solve(c, g[free] / d)
+            if np.all(np.isfinite(z)) and np.min(np.abs(np.diag(c))) > 1e-6:
+                step[free] = -np.linalg.solve(c.T, z) / d
+                return step, float(z @ z)
+        except np.linalg.LinAlgError:
+            pass
     w, u = np.linalg.eigh(hf / np.outer(d, d))
     keep = w > 1e-13 * max(w.max(), 1e-300)
     proj = u[:, keep].T @ (g[free] / d)
@@ -247,7 +260,7 @@ def _levenberg_marquardt(model: WindowedModel, v, lo, hi, nfree: int, max_iter: 
         hess = (jac.T @ jac).toarray()
         held = _held(v, g, lo, hi)
         free = ~held
-        gn, pred = _gauss_newton(hess, g, free)
+        gn, pred = _gauss_newton(hess, g, free, fast=True)
         crit = pred / max(chi / max(nfree, 1), 1e-300)
         if crit < 1e-3 * CONVERGENCE_TOL:
             # converged: one last full Gauss–Newton step (quadratic convergence
@@ -415,7 +428,9 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         current[n].value = float(val)
     current.update_constraints()
     try:
-        res = mini.least_squares(params=current)
+        # from a converged point one cheap trust-region iteration is all lmfit needs
+        extra = {"tr_options": {"maxiter": 25}} if crit < CONVERGENCE_TOL else {}
+        res = mini.least_squares(params=current, **extra)
         nfev += int(res.nfev)
         if res.aborted or not np.isfinite(res.chisqr):
             error = f"the solver stopped: {res.message}"
