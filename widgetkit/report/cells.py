@@ -18,7 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from ..widgets.numbers import format_uncertainty
+from ..formatting import format_uncertainty
 
 __all__ = ["Column", "table_columns", "cell_text", "parse_uncertainty", "parse_cell", "MISSING",
            "PLAIN_DIGITS"]

@@ -23,6 +23,7 @@ The session adds a public method that validates its arguments and calls
 from __future__ import annotations
 
 import dataclasses
+import functools
 import platform
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -49,6 +50,11 @@ def utc_now() -> str:
 
 def software_versions() -> dict[str, str]:
     """Versions of Python and the packages a result depends on (read from metadata, no imports)."""
+    return dict(_software_versions())
+
+
+@functools.lru_cache(maxsize=1)
+def _software_versions() -> dict[str, str]:
     out = {"python": platform.python_version()}
     for pkg in ("widgetkit", "numpy", "scipy", "pandas", "lmfit"):
         try:
