@@ -62,8 +62,8 @@ class ReportData:
         Package versions recorded in the steps (the newest recorded value of each).
     spectrum_x, spectrum_y : ndarray or None
         The processed spectrum, for figures.
-    model_y : ndarray or None
-        The fitted model on ``spectrum_x`` when the line fit provides one.
+    model_x, model_y : ndarray or None
+        The fitted model (on the fitted points) when the line fit provides it.
     y_kind : str
     verified : bool or None
         The outcome of :meth:`Session.verify` when :func:`collect` was asked to run it.
@@ -83,6 +83,7 @@ class ReportData:
     software: Mapping[str, str] = field(default_factory=dict)
     spectrum_x: np.ndarray | None = field(default=None, repr=False)
     spectrum_y: np.ndarray | None = field(default=None, repr=False)
+    model_x: np.ndarray | None = field(default=None, repr=False)
     model_y: np.ndarray | None = field(default=None, repr=False)
     y_kind: str = "absorbance"
     verified: bool | None = None
@@ -96,26 +97,20 @@ class ReportData:
         return out
 
 
-def _model_curve(fit, x: np.ndarray) -> np.ndarray | None:
-    """The fitted model on ``x`` if the line fit offers it (``evaluate(x)`` or ``best_fit``)."""
+def _model_curve(fit, x: np.ndarray) -> tuple[np.ndarray | None, np.ndarray | None]:
+    """(x, y) of the fitted model if the line fit offers it (``x``/``model_y``, else
+    ``best_fit`` of its lmfit result on the spectrum's x); (None, None) otherwise."""
     if fit is None:
-        return None
-    for name in ("evaluate", "model_on", "predict"):
-        f = getattr(fit, name, None)
-        if callable(f):
-            try:
-                y = np.asarray(f(x), dtype=float)
-            except Exception:  # a figure is optional; never fail a report for it
-                continue
-            if y.shape == x.shape:
-                return y
-    for obj in (fit, getattr(fit, "result", None)):
-        y = getattr(obj, "best_fit", None)
-        if y is not None:
-            y = np.asarray(y, dtype=float)
-            if y.shape == x.shape:
-                return y
-    return None
+        return None, None
+    fx, fy = getattr(fit, "x", None), getattr(fit, "model_y", None)
+    if fx is not None and fy is not None:
+        fx, fy = np.asarray(fx, dtype=float), np.asarray(fy, dtype=float)
+        if fx.shape == fy.shape and fx.ndim == 1:
+            return fx, fy
+    y = getattr(getattr(fit, "result", None), "best_fit", None)
+    if y is not None and np.shape(y) == x.shape:
+        return x, np.asarray(y, dtype=float)
+    return None, None
 
 
 def _extra_tables(assignment: Any) -> dict[str, pd.DataFrame]:
@@ -188,7 +183,8 @@ def collect(session, *, title: str | None = None, verify: bool = False) -> Repor
         software=_software(history),
         spectrum_x=x,
         spectrum_y=np.array(sp.y, dtype=float),
-        model_y=_model_curve(fit, x),
+        model_x=_model_curve(fit, x)[0],
+        model_y=_model_curve(fit, x)[1],
         y_kind=sp.y_kind,
         messages=[str(m) for m in (getattr(assignment, "messages", None) or [])],
     )

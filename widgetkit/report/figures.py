@@ -27,7 +27,7 @@ _RC = {"svg.hashsalt": "widgetkit-report", "svg.fonttype": "none", "font.size": 
 def _new(width: float = 7.5, height: float = 3.2) -> Figure:
     # a fixed layout: the constrained layout engine costs seconds with many labels
     fig = Figure(figsize=(width, height), dpi=100)
-    fig.subplots_adjust(left=0.1, right=0.98, bottom=0.16, top=0.9)
+    fig.subplots_adjust(left=0.1, right=0.98, bottom=min(0.3, 0.55 / height), top=1 - 0.3 / height)
     FigureCanvasAgg(fig)
     return fig
 
@@ -43,8 +43,8 @@ def spectrum_figure(data: ReportData, *, max_labels: int = 60) -> Figure | None:
         fig = _new()
         ax = fig.add_subplot()
         ax.plot(x, y, lw=0.6, color="0.2", label="spectrum (processed)")
-        if data.model_y is not None:
-            ax.plot(x, data.model_y, lw=0.6, color="tab:red", label="fitted model")
+        if data.model_x is not None and data.model_y is not None:
+            ax.plot(data.model_x, data.model_y, lw=0.6, color="tab:red", label="fitted model")
         lines = data.lines
         if len(lines) and "position" in lines:
             pos = lines["position"].to_numpy(dtype=float)
