@@ -188,6 +188,27 @@ def test_latex_has_booktabs_tables_and_escaped_text(data):
     assert body.count("{") == body.count("}")
 
 
+def test_latex_shows_the_markdown_values_in_math_mode(data):
+    tex = render_latex(data)
+    for row in _md_tables(render_markdown(data))["Constants"]:
+        cell = row["value"]
+        mant, _, exp = cell.partition("e")
+        want = f"${mant}\\times10^{{{int(exp)}}}$" if exp else f"${cell}$"
+        assert want in tex, cell
+
+
+def test_a_session_without_results_still_reports_its_source_and_record(tmp_path):
+    s = wk.Session.from_file(wk.demo.data_path("hcl_cell_420K.csv"))
+    s.to_absorbance()
+    d = collect(s)
+    assert len(d.lines) == len(d.assignments) == len(d.constants) == 0 and d.messages == []
+    md = render_markdown(d)
+    assert "(none)" in md and s.sources[0]["sha256"] in md and "to_absorbance" in md
+    tables = read_report_csv(render_csv(d))
+    assert tables["steps"]["kind"].tolist() == ["load", "to_absorbance"]
+    assert "<svg" in render_html(d) and r"\end{document}" in render_latex(d)
+
+
 def test_figures_are_reproducible_svg(data):
     fig_a, fig_b = spectrum_figure(data), spectrum_figure(data)
     assert to_svg(fig_a) == to_svg(fig_b)
