@@ -469,14 +469,14 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         k = [values[n][1] for n in bl.params]
         bcov = cov_all[np.ix_(k, k)]
     bvals, berrs = bl.public(bc, bcov, x_ref)
-    for row in table.itertuples(index=False):
-        if row.fwhm < dx:
-            flags.setdefault(row.line_id, []).append(
-                f"fitted FWHM {row.fwhm:.3g} is below the sampling step {dx:.3g}: a spike "
-                "fitted to noise?")
-        if np.isfinite(row.area_err) and abs(row.area) < 3.0 * row.area_err:
-            flags.setdefault(row.line_id, []).append(
-                f"area {row.area:.3g} is not significant (standard error {row.area_err:.3g})")
+    t_fwhm, t_area, t_err = (table[c].to_numpy() for c in ("fwhm", "area", "area_err"))
+    for k in np.nonzero(t_fwhm < dx)[0]:
+        flags.setdefault(ids[k], []).append(
+            f"fitted FWHM {t_fwhm[k]:.3g} is below the sampling step {dx:.3g}: a spike "
+            "fitted to noise?")
+    for k in np.nonzero(np.isfinite(t_err) & (np.abs(t_area) < 3.0 * t_err))[0]:
+        flags.setdefault(ids[k], []).append(
+            f"area {t_area[k]:.3g} is not significant (standard error {t_err[k]:.3g})")
     baseline_params = pd.DataFrame({"name": list(bl.public_names), "value": bvals,
                                     "stderr": berrs})
     model_y = model.evaluate(theta)

@@ -77,7 +77,7 @@ class WindowedModel:
         lp = theta[: m * self.n_lp].reshape(self.n_lp, m)
         if self.window is None:
             return np.zeros(m, dtype=int), np.full(m, n)
-        hw = 0.5 * np.abs(self.shape.fwhm(*np.abs(lp[2:])))
+        hw = 0.5 * np.abs(self.shape.approx_fwhm(*np.abs(lp[2:])))
         k = self.window if self.shape.lorentz_wings else min(self.window, GAUSS_WINDOW_CAP)
         starts = np.searchsorted(self.x, lp[1] - k * hw, side="left")
         ends = np.searchsorted(self.x, lp[1] + k * hw, side="right")
