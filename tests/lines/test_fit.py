@@ -211,3 +211,21 @@ def test_conf_interval_is_available_for_a_chosen_parameter():
     lo1, hi1 = ci[1][1], ci[3][1]  # 1-sigma bounds from lmfit.conf_interval (2-sigma outside)
     err = res.table.position_err[0]
     assert (hi1 - lo1) / 2 == pytest.approx(err, rel=0.1)  # nearly linear problem: CI ~ stderr
+
+
+def test_importing_the_line_engine_loads_no_widget_library():
+    import subprocess
+    import sys
+
+    code = ("import sys, widgetkit.lines; "
+            "sys.exit(int('ipywidgets' in sys.modules or 'bqplot' in sys.modules))")
+    assert subprocess.run([sys.executable, "-c", code]).returncode == 0  # ARCHITECTURE.md rule
+
+
+def test_a_forty_line_band_converges_with_every_line_found():
+    b = simulate_band(n_lines=40, n_points=20000, seed=5)
+    res = wl.fit(b.x, b.y, b.positions + 0.02)
+    assert res.converged, res.message
+    assert not res.flags
+    t = res.table
+    assert np.all(np.abs(t.position - b.positions) < 4.5 * t.position_err)  # simulated values

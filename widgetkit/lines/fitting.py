@@ -1,23 +1,31 @@
 """Multi-line fits: :func:`fit` and its result :class:`LineFit`.
 
-The fast path is the only path: every line is evaluated on a window of
-``window`` half widths (:mod:`.model`), the Jacobian is analytic and sparse,
-and lmfit's ``least_squares`` method runs on it through
-:class:`~._lmfit_sparse.SparseMinimizer` (scipy's trust-region reflective
-solver with the LSMR subproblem solver and ``x_scale='jac'``), so the result
-is an ordinary lmfit ``MinimizerResult``.
+The fast path is the only path. Every line is evaluated on a window of
+``window`` half widths with its far Lorentzian wing added outside
+(:mod:`.model`); the Jacobian is analytic and sparse. The solve has two
+stages, both on that sparse Jacobian:
+
+1. a bounded Levenberg–Marquardt iteration on the exact normal equations
+   (``J^T J`` is small, variables × variables, and cheap to form from the
+   sparse ``J``), which converges quadratically; windows and far wings are
+   refreshed between passes;
+2. lmfit's ``least_squares`` method (scipy's trust-region reflective solver,
+   LSMR subproblems, ``x_scale='jac'``) run from that solution through
+   :class:`~._lmfit_sparse.SparseMinimizer`, which yields the ordinary lmfit
+   ``MinimizerResult`` (values, stderr, correlations, statistics) and takes
+   over if stage 1 stalled.
 
 Convergence is checked here, not taken from the solver's ``success`` flag
-(several solvers stop on the step-size test well above the minimum and still
-report success). At the solution the Gauss–Newton step over the parameters
-not held by a bound is computed exactly; its predicted chi-square reduction,
-in units of the reduced chi-square, is the squared distance to the minimum
-measured in standard errors. The fit counts as converged when that is below
-:data:`CONVERGENCE_TOL` (1e-4, i.e. every parameter within 0.01 of its
-standard error of the optimum). Otherwise the solver restarts from where it
-stopped (with windows recomputed from the current widths), at most
-``max_passes`` times, and a fit that still fails comes back with
-``converged=False`` and the reason.
+(solvers stop on the step-size test well above the minimum and still report
+success). At the solution the Gauss–Newton step over the parameters not held
+by a bound is computed exactly; its predicted chi-square reduction, in units
+of the reduced chi-square, is the squared distance to the minimum measured
+in standard errors. The fit counts as converged when that is below
+:data:`CONVERGENCE_TOL` (1e-4: every parameter within 0.01 of its standard
+error of the optimum). A fit that fails comes back with ``converged=False``
+and the reason; lines are flagged (``LineFit.flags``) when their starting
+height is below the noise, their fitted FWHM is below the sampling step,
+their area is not significant, or a parameter ends at its bound.
 """
 
 from __future__ import annotations
