@@ -164,3 +164,18 @@ def test_sample_notebooks_are_committed_without_outputs():
             if cell["cell_type"] == "code":
                 assert cell.get("outputs") == [] and cell.get("execution_count") is None, nb.name
         assert "widgets" not in doc.get("metadata", {}), f"{nb.name} holds widget state"
+
+
+def test_sample_notebooks_are_valid_and_use_only_shipped_demo_files():
+    import re
+
+    import nbformat
+
+    for nb_path in sorted((ROOT / "sample_notebooks").glob("*.ipynb")):
+        nb = nbformat.read(nb_path, as_version=4)
+        nbformat.validate(nb)
+        code = "\n".join(c.source for c in nb.cells if c.cell_type == "code")
+        for name in re.findall(r'DATA / "([^"]+)"', code):
+            assert name in demo.SAMPLES, f"{nb_path.name} reads {name}, which the demo does not ship"
+        text = "\n".join(c.source for c in nb.cells)
+        assert "no safety judgement" in text, f"{nb_path.name} lacks the safety note"
