@@ -78,8 +78,8 @@ class LineFit:
         Fitted parameters (``result.params``).
     chisqr, redchi : float
         Sum of squared (weighted) residuals and chisqr / (n - n_varys).
-    nfev : int
-        Model evaluations over all passes.
+    nfev, njev : int
+        Model and Jacobian evaluations over all stages (njev = iterations).
     converged : bool
         Our own convergence test (module docstring), not the solver's flag.
     message : str
@@ -123,6 +123,7 @@ class LineFit:
     baseline_params: pd.DataFrame
     noise: float
     conf_intervals: dict | None = field(default=None)
+    njev: int = 0
 
 
 def _as_1d(a, name: str) -> np.ndarray:
@@ -255,15 +256,17 @@ def _levenberg_marquardt(model: WindowedModel, v, lo, hi, nfree: int, max_iter: 
     points outward is held.
 
     Returns variables, certificate (as :func:`_certify`), names held, and
-    the number of model evaluations.
+    the numbers of model and Jacobian evaluations.
     """
     r = model.residual_vec(v)
     chi = float(r @ r)
     lam, nfev, crit, held, slow = 1e-3, 1, np.inf, np.zeros(v.size, dtype=bool), 0
+    njev = 0
     for _ in range(max_iter):
         if nfev >= max_nfev:
             break
         jac = model.jacobian_vec(v).tocsr()
+        njev += 1
         g = jac.T @ r
         hess = (jac.T @ jac).toarray()
         held = _held(v, g, lo, hi)
@@ -296,7 +299,7 @@ def _levenberg_marquardt(model: WindowedModel, v, lo, hi, nfree: int, max_iter: 
         if slow >= 3:  # stalled: leave the verdict to the certificate
             break
     names = [model.tmap.var_names[k] for k in np.nonzero(held)[0]]
-    return v, crit, names, nfev
+    return v, crit, names, nfev, njev
 
 
 def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
@@ -415,15 +418,16 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     lo = np.array([params[n].min for n in tmap.var_names], dtype=float)
     hi = np.array([params[n].max for n in tmap.var_names], dtype=float)
 
-    nfev, crit, at_bound, res, error = 0, np.inf, [], None, None
+    nfev, njev, crit, at_bound, res, error = 0, 0, np.inf, [], None, None
     nfree = xs.size - len(tmap.var_names)
     v = model.variables(params)
     wing_tol = 1e-3 * (sigma_n if sigma_n > 0 else max(float(np.max(np.abs(ys))), 1e-300))
     model.set_wings(tmap.values(v))
     for _ in range(max(1, int(max_passes))):
         with np.errstate(all="ignore"):
-            v, crit, at_bound, n_ev = _levenberg_marquardt(model, v, lo, hi, nfree)
+            v, crit, at_bound, n_ev, n_jev = _levenberg_marquardt(model, v, lo, hi, nfree)
         nfev += n_ev
+        njev += n_jev
         theta = tmap.values(v)
         stable = _rewindow(model, theta)
         wings_moved = model.set_wings(theta) > wing_tol
@@ -440,6 +444,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         extra = {"tr_options": {"maxiter": 25}} if crit < CONVERGENCE_TOL else {}
         res = mini.least_squares(params=current, **extra)
         nfev += int(res.nfev)
+        njev += int(getattr(res, "njev", 0) or 0)
         if res.aborted or not np.isfinite(res.chisqr):
             error = f"the solver stopped: {res.message}"
         else:
@@ -507,4 +512,5 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         redchi=float(res.redchi), nfev=nfev, converged=bool(converged), message=message,
         flags={k: tuple(v) for k, v in flags.items()}, x=xs, y=ys, model_y=model_y,
         baseline_y=baseline_y, components=model.components(theta), residual=ys - model_y,
-        spec=spec, baseline_params=baseline_params, noise=sigma_n, conf_intervals=cis)
+        spec=spec, baseline_params=baseline_params, noise=sigma_n, conf_intervals=cis,
+        njev=njev)
