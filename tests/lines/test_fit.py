@@ -229,3 +229,13 @@ def test_a_forty_line_band_converges_with_every_line_found():
     assert not res.flags
     t = res.table
     assert np.all(np.abs(t.position - b.positions) < 4.5 * t.position_err)  # simulated values
+
+
+def test_numpy_ids_and_settings_are_recorded_as_plain_json(band, starts):
+    ids = np.arange(101, 101 + starts.size)  # as a session's peak table would hand them over
+    res = wl.fit(band.x, band.y, starts, line_ids=ids,
+                 shared_width={"hot": [np.int64(101), np.int64(102)]},
+                 constraints={"l103_gamma": np.float64(0.08)})
+    assert list(res.table.line_id) == ids.tolist()
+    assert all(type(i) is int for i in res.table.line_id)
+    assert json.loads(json.dumps(res.spec))["line_ids"] == ids.tolist()

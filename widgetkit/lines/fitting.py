@@ -162,8 +162,22 @@ def _prepare_data(x, y, weights, region):
     return x, y, w
 
 
+def _plain(obj):
+    """numpy scalars and arrays inside settings -> Python numbers and lists."""
+    if isinstance(obj, Mapping):
+        return {(_plain(k) if isinstance(k, np.generic) else k): _plain(v)
+                for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_plain(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return _plain(obj.tolist())
+    if isinstance(obj, np.generic):
+        return obj.item()
+    return obj
+
+
 def _spec(**kw) -> dict:
-    spec = copy.deepcopy(kw)
+    spec = copy.deepcopy(_plain(kw))
     try:
         json.dumps(spec)
     except (TypeError, ValueError) as exc:
@@ -370,7 +384,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     if pos.size == 0:
         raise FitError("no lines to fit (parameter 'positions' is empty); find or add peaks "
                        "first")
-    ids = list(range(1, pos.size + 1)) if line_ids is None else list(line_ids)
+    ids = list(range(1, pos.size + 1)) if line_ids is None else _plain(list(line_ids))
     if len(ids) != pos.size or len(set(map(str, ids))) != len(ids):
         raise FitError(f"line_ids must be {pos.size} distinct ids, got {ids!r}")
     for i, p in zip(ids, pos):
@@ -404,7 +418,8 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         bounds[p + "position"] = (float(xs[0]), float(xs[-1]))
         for wname in shp.widths:
             bounds[p + wname] = (MIN_WIDTH * dx, span)
-    params = build_params(shp, bl, ids, theta0, bounds, shared_width, constraints)
+    params = build_params(shp, bl, ids, theta0, bounds, _plain(shared_width),
+                          _plain(constraints))
     tmap = ThetaMap(params, names)
     model = WindowedModel(xs, ys, ws, shp, bl, x_ref, len(ids), tmap, window)
     model.set_windows(tmap.values(model.variables(params)))
