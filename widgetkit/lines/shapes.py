@@ -12,8 +12,8 @@ Every shape is a pure function of ``x`` and its parameters, parameterised by
 
 Each shape provides ``profile(x, area, position, *widths)`` and
 ``gradient(x, area, position, *widths)``; the latter returns the profile and
-its partial derivatives, shape ``(2 + n_widths, n)`` in the order area,
-position, widths. Parameters broadcast against ``x``, so one call evaluates
+its partial derivatives, shape ``(3 + n_widths, n)``: the profile, then
+d/d area, d/d position and d/d each width. Parameters broadcast against ``x``, so one call evaluates
 many lines at once (the fast path concatenates every line's window).
 Derived quantities (``height``, ``fwhm``) and their gradients with respect to
 (area, widths) serve the uncertainty propagation in :mod:`.derived`.
@@ -294,7 +294,7 @@ class Shape:
         return self.fwhm(*widths)
 
     def height(self, area, *widths) -> np.ndarray:
-        """Peak height ``area * profile(position)`` for unit-free position 0."""
+        """Peak height, the profile's value at its own position (y units)."""
         return self.profile(0.0, area, 0.0, *widths)
 
     def widths_from_fwhm(self, fwhm) -> tuple[np.ndarray, ...]:
