@@ -25,7 +25,7 @@ import lmfit
 import numpy as np
 
 import widgetkit.lines as wl
-from widgetkit.lines import fitting
+from widgetkit.lines import solver
 
 
 def band(n_lines: int, n_points: int, seed: int = 1):
@@ -86,7 +86,7 @@ def floor(x, y, start, res):
     """Iterations (Jacobian evaluations, both stages) x (one windowed model + one sparse
     Jacobian) of the fast path."""
     captured = {}
-    orig = fitting._levenberg_marquardt
+    orig = solver.levenberg_marquardt
 
     def spy(model, v, *a, **k):
         captured["model"] = model
@@ -94,11 +94,11 @@ def floor(x, y, start, res):
         captured["v"] = out[0]
         return out
 
-    fitting._levenberg_marquardt = spy
+    solver.levenberg_marquardt = spy
     try:
         wl.fit(x, y, start)
     finally:
-        fitting._levenberg_marquardt = orig
+        solver.levenberg_marquardt = orig
     model, v = captured["model"], captured["v"]
     n = 5
     t = time.perf_counter()

@@ -41,6 +41,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import FitError
+from . import solver
 from ._lmfit_sparse import SparseMinimizer
 from .baselines import get_baseline
 from .derived import line_table, parameter_covariance
@@ -54,7 +55,7 @@ __all__ = ["fit", "LineFit", "DEFAULT_WINDOW", "CONVERGENCE_TOL"]
 #: default window half-width, in half widths at half maximum of each line
 DEFAULT_WINDOW = 100.0
 #: converged when the remaining Gauss–Newton reduction is below this many reduced chi-squares
-CONVERGENCE_TOL = 1e-4
+CONVERGENCE_TOL = solver.CONVERGENCE_TOL
 #: a line whose starting height is below this many noise sigmas is flagged
 BELOW_NOISE = 3.0
 #: lower bound of every width parameter, in sampling steps (a narrower line is unresolvable)
@@ -186,136 +187,6 @@ def _spec(**kw) -> dict:
     return spec
 
 
-def _rewindow(model: WindowedModel, theta: np.ndarray) -> bool:
-    """Re-window when the fitted widths or positions moved; True if windows were kept."""
-    starts, ends = model.window_ranges(theta)
-    old_len = model.ends - model.starts
-    tol = np.maximum(0.2 * old_len, 2)
-    if (np.all(np.abs(starts - model.starts) <= tol)
-            and np.all(np.abs(ends - model.ends) <= tol)):
-        return True
-    model.set_ranges(starts, ends)
-    return False
-
-
-def _held(v, g, lo, hi):
-    scale = np.maximum(np.abs(v), 1e-12)
-    return (((v - lo) <= 1e-9 * scale) & (g > 0)) | (((hi - v) <= 1e-9 * scale) & (g < 0))
-
-
-def _solve(hess, g, free, lam=0.0):
-    """Step minimising the (damped) quadratic model over the free variables."""
-    step = np.zeros_like(g)
-    if np.any(free):
-        hf = hess[np.ix_(free, free)]
-        d = np.sqrt(np.maximum(np.diag(hf), 1e-300))
-        a = hf / np.outer(d, d) + lam * np.eye(d.size)
-        try:
-            sol = np.linalg.solve(a, g[free] / d)
-        except np.linalg.LinAlgError:
-            sol = np.linalg.lstsq(a, g[free] / d, rcond=1e-13)[0]
-        step[free] = -sol / d
-    return step
-
-
-def _gauss_newton(hess, g, free, fast=False):
-    """Exact Gauss–Newton step over the free variables and its predicted
-    chi-square reduction.
-
-    Pseudo-inverse of the scaled normal matrix (undetermined directions are
-    left alone); with ``fast=True`` a Cholesky factorisation is tried first
-    (well-conditioned case) and the eigen-decomposition used only if it fails.
-    """
-    step = np.zeros_like(g)
-    if not np.any(free):
-        return step, 0.0
-    hf = hess[np.ix_(free, free)]
-    d = np.sqrt(np.maximum(np.diag(hf), 1e-300))
-    if fast:
-        try:
-            c = np.linalg.cholesky(hf / np.outer(d, d))
-            z = np.linalg.solve(c, g[free] / d)
-            if np.all(np.isfinite(z)) and np.min(np.abs(np.diag(c))) > 1e-6:
-                step[free] = -np.linalg.solve(c.T, z) / d
-                return step, float(z @ z)
-        except np.linalg.LinAlgError:
-            pass
-    w, u = np.linalg.eigh(hf / np.outer(d, d))
-    keep = w > 1e-13 * max(w.max(), 1e-300)
-    proj = u[:, keep].T @ (g[free] / d)
-    step[free] = -(u[:, keep] @ (proj / w[keep])) / d
-    return step, float(np.sum(proj**2 / w[keep]))
-
-
-def _certify(jac, r, v, lo, hi, redchi):
-    """Predicted chi-square reduction of the exact Gauss–Newton step, in reduced
-    chi-squares, and the indices of variables held at a bound."""
-    g = jac.T @ r
-    hess = jac.T @ jac
-    hess = hess.toarray() if hasattr(hess, "toarray") else np.asarray(hess)
-    held = _held(v, g, lo, hi)
-    _, pred = _gauss_newton(hess, g, ~held)
-    return pred / max(redchi, 1e-300), np.nonzero(held)[0]
-
-
-def _levenberg_marquardt(model: WindowedModel, v, lo, hi, nfree: int, max_iter: int = 60,
-                         max_nfev: int = 150):
-    """Bounded Levenberg–Marquardt on the exact sparse normal equations.
-
-    The trust-region solver's LSMR subproblem needs about one sparse product
-    per variable per iteration on these ill-conditioned line blocks; the
-    normal matrix ``J^T J`` (variables × variables) is cheap to form from the
-    sparse ``J`` and to factor, and gives quadratic convergence at the end.
-    Steps are clipped to the bounds; a variable at a bound whose gradient
-    points outward is held.
-
-    Returns variables, certificate (as :func:`_certify`), names held, and
-    the numbers of model and Jacobian evaluations.
-    """
-    r = model.residual_vec(v)
-    chi = float(r @ r)
-    lam, nfev, crit, held, slow = 1e-3, 1, np.inf, np.zeros(v.size, dtype=bool), 0
-    njev = 0
-    for _ in range(max_iter):
-        if nfev >= max_nfev:
-            break
-        jac = model.jacobian_vec(v).tocsr()
-        njev += 1
-        g = jac.T @ r
-        hess = (jac.T @ jac).toarray()
-        held = _held(v, g, lo, hi)
-        free = ~held
-        gn, pred = _gauss_newton(hess, g, free, fast=True)
-        crit = pred / max(chi / max(nfree, 1), 1e-300)
-        if crit < 1e-3 * CONVERGENCE_TOL:
-            # converged: one last full Gauss–Newton step (quadratic convergence
-            # takes the remaining distance to rounding level for one evaluation)
-            vn = np.clip(v + gn, lo, hi)
-            rn = model.residual_vec(vn)
-            nfev += 1
-            if float(rn @ rn) <= chi:
-                v, r, chi = vn, rn, float(rn @ rn)
-            break
-        while lam < 1e12:
-            step = gn if lam < 1e-9 else _solve(hess, g, free, lam)
-            vn = np.clip(v + step, lo, hi)
-            rn = model.residual_vec(vn)
-            nfev += 1
-            cn = float(rn @ rn)
-            if np.isfinite(cn) and cn < chi:
-                lam = max(lam * 0.2, 1e-10)
-                break
-            lam = max(lam, 1e-6) * 10.0
-        else:
-            break
-        slow = slow + 1 if chi - cn <= 1e-10 * chi else 0
-        v, r, chi = vn, rn, cn
-        if slow >= 3:  # stalled: leave the verdict to the certificate
-            break
-    names = [model.tmap.var_names[k] for k in np.nonzero(held)[0]]
-    return v, crit, names, nfev, njev
-
-
 def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         baseline: str | None = "linear", region: Sequence[float] | None = None,
         window: float | None = DEFAULT_WINDOW, line_ids: Sequence | None = None,
@@ -440,11 +311,11 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     model.set_wings(tmap.values(v))
     for _ in range(max(1, int(max_passes))):
         with np.errstate(all="ignore"):
-            v, crit, at_bound, n_ev, n_jev = _levenberg_marquardt(model, v, lo, hi, nfree)
+            v, crit, at_bound, n_ev, n_jev = solver.levenberg_marquardt(model, v, lo, hi, nfree)
         nfev += n_ev
         njev += n_jev
         theta = tmap.values(v)
-        stable = _rewindow(model, theta)
+        stable = solver.rewindow(model, theta)
         wings_moved = model.set_wings(theta) > wing_tol
         if crit >= CONVERGENCE_TOL or (stable and not wings_moved):
             break  # converged, or stuck: lmfit's solver below takes over
@@ -464,7 +335,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
             error = f"the solver stopped: {res.message}"
         else:
             v = model.variables(res.params)
-            crit, held = _certify(res.jac, res.residual, v, lo, hi, res.redchi)
+            crit, held = solver.certify(res.jac, res.residual, v, lo, hi, res.redchi)
             at_bound = [tmap.var_names[k] for k in held]
     except (ValueError, FloatingPointError, np.linalg.LinAlgError) as exc:
         error = f"the solver failed: {exc}"
