@@ -239,3 +239,16 @@ def test_numpy_ids_and_settings_are_recorded_as_plain_json(band, starts):
     assert list(res.table.line_id) == ids.tolist()
     assert all(type(i) is int for i in res.table.line_id)
     assert json.loads(json.dumps(res.spec))["line_ids"] == ids.tolist()
+
+
+def test_the_default_window_keeps_lorentzian_lines_within_005_sigma_of_the_full_fit():
+    # pure Lorentzian lines have the heaviest wings of all shapes
+    b = simulate_band(n_lines=8, n_points=4000, shape="lorentzian", gamma=0.1, noise_frac=0.003)
+    fast = wl.fit(b.x, b.y, b.positions, shape="lorentzian")
+    full = wl.fit(b.x, b.y, b.positions, shape="lorentzian", window=None)
+    assert fast.converged and full.converged
+    for col in ["position", "area", "gamma"]:
+        diff = np.abs(fast.table[col] - full.table[col]) / full.table[col + "_err"]
+        assert diff.max() < 0.05, col  # the criterion for the default window
+    slope = np.abs(fast.baseline_params.value - full.baseline_params.value)
+    assert np.all(slope < 0.05 * full.baseline_params.stderr)
