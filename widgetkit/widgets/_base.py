@@ -19,7 +19,7 @@ import ipywidgets as ipw
 
 from ..errors import SessionStateError, WidgetkitError
 
-__all__ = ["Panel", "status_html"]
+__all__ = ["Panel", "PlotPanel", "reverse_by_default", "status_html"]
 
 _STATUS_STYLE = {
     "ok": "color:#1e6b30",
@@ -159,3 +159,59 @@ class Panel(ipw.VBox):
             raise
         self.show_status("ok", ok or f"{what}: done")
         return result
+
+
+def reverse_by_default(y_kind: str | None) -> bool:
+    """Wavenumber high to low for absorbance and transmittance (common practice in infrared)."""
+    return y_kind in ("absorbance", "transmittance")
+
+
+class PlotPanel(Panel):
+    """A panel whose plot (``self.plot``, a SpectrumFigure with a ``"data"`` curve) shows the
+    session's current spectrum.
+
+    Parameters
+    ----------
+    reverse_x : bool, optional
+        Wavenumber axis high to low; default :func:`reverse_by_default` of the spectrum's kind.
+    n_bins : int, optional
+        Decimation bins per visible window (default of :class:`SpectrumFigure`).
+    """
+
+    def __init__(self, session=None, *, reverse_x: bool | None = None, n_bins: int | None = None,
+                 owner=None, read_only: bool = False, **kwargs):
+        self._reverse_x = reverse_x
+        self._n_bins = n_bins
+        self._shown_spectrum = None
+        self._shown_kind = None
+        super().__init__(session, owner=owner, read_only=read_only, **kwargs)
+
+    @property
+    def _figure_options(self) -> dict:
+        return {"n_bins": self._n_bins} if self._n_bins else {}
+
+    def _set_reverse(self, reverse: bool) -> None:
+        self.plot.x_scale.reverse = reverse
+
+    def _show_spectrum(self, sp) -> bool | None:
+        """Draw ``sp`` as the data curve unless it is shown already.
+
+        Returns None when nothing changed, else whether the x range is new (the zoom
+        is then reset). The axis direction follows the spectrum's kind until the kind
+        changes, so a user's choice is kept meanwhile.
+        """
+        if sp is self._shown_spectrum:
+            return None
+        old = self._shown_spectrum
+        new_range = old is None or sp.x[0] != old.x[0] or sp.x[-1] != old.x[-1]
+        self._shown_spectrum = sp
+        if sp.y_kind != self._shown_kind:
+            self._shown_kind = sp.y_kind
+            self._set_reverse(self._reverse_x if self._reverse_x is not None
+                              else reverse_by_default(sp.y_kind))
+        self.plot.y_axis.label = sp.y_kind
+        with self.plot.figure.hold_sync():
+            self.plot.set_curve("data", sp.x, sp.y)
+            if new_range:
+                self.plot.reset_window()
+        return new_range

@@ -6,11 +6,10 @@ import html
 
 import ipywidgets as ipw
 
-from ._base import Panel
+from ._base import PlotPanel
 from ._plot import COLORS, SpectrumFigure
 from ._tables import html_table
 from .numbers import format_value
-from .spectrum_panel import reverse_by_default
 
 __all__ = ["LinesPanel"]
 
@@ -27,7 +26,7 @@ HEADERS = {"position": "position / cm⁻¹", "fwhm": "fwhm / cm⁻¹", "sigma": 
            "gamma": "gamma / cm⁻¹", "area": "area / (y·cm⁻¹)"}
 
 
-class LinesPanel(Panel):
+class LinesPanel(PlotPanel):
     """Fit every peak (optionally inside a brushed region) with a line shape.
 
     The fit runs only when "Fit lines" is pressed (it may take seconds); the
@@ -39,17 +38,13 @@ class LinesPanel(Panel):
 
     def __init__(self, session=None, *, reverse_x: bool | None = None, n_bins: int | None = None,
                  owner=None, read_only: bool = False, **kwargs):
-        self._reverse_x = reverse_x
-        self._n_bins = n_bins
-        self._shown_spectrum = None
-        self._shown_kind = None
         self._shown_fit = _UNSET
         self.busy = False
-        super().__init__(session, owner=owner, read_only=read_only, **kwargs)
+        super().__init__(session, reverse_x=reverse_x, n_bins=n_bins, owner=owner,
+                         read_only=read_only, **kwargs)
 
     def _build(self) -> None:
-        kw = {"n_bins": self._n_bins} if self._n_bins else {}
-        self.plot = SpectrumFigure(title="Lines", residual=True, **kw)
+        self.plot = SpectrumFigure(title="Lines", residual=True, **self._figure_options)
         self.plot.add_curve("data")
         self.plot.add_curve("component", color=COLORS["component"], width=1.0, opacity=0.8)
         self.plot.add_curve("model", color=COLORS["model"], width=1.5)
@@ -95,19 +90,8 @@ class LinesPanel(Panel):
             self._shown_fit = _UNSET
             return
         sp = s.spectrum
-        if sp is not self._shown_spectrum:
-            new_range = (self._shown_spectrum is None or sp.x[0] != self._shown_spectrum.x[0]
-                         or sp.x[-1] != self._shown_spectrum.x[-1])
-            self._shown_spectrum = sp
-            if sp.y_kind != self._shown_kind:  # keep the user's choice until the kind changes
-                self._shown_kind = sp.y_kind
-                self.plot.x_scale.reverse = (self._reverse_x if self._reverse_x is not None
-                                             else reverse_by_default(sp.y_kind))
-            self.plot.y_axis.label = sp.y_kind
-            self.plot.set_curve("data", sp.x, sp.y)
-            if new_range:
-                self.plot.reset_window()
-                self.region_lo.value, self.region_hi.value = float(sp.x[0]), float(sp.x[-1])
+        if self._show_spectrum(sp):
+            self.region_lo.value, self.region_hi.value = float(sp.x[0]), float(sp.x[-1])
         fit = s.line_fit
         if fit is not self._shown_fit:
             self._shown_fit = fit

@@ -6,15 +6,14 @@ import bqplot as bq
 import ipywidgets as ipw
 import numpy as np
 
-from ._base import Panel
+from ._base import PlotPanel
 from ._plot import COLORS, SpectrumFigure
 from ._tables import html_table
-from .spectrum_panel import reverse_by_default
 
 __all__ = ["PeaksPanel"]
 
 
-class PeaksPanel(Panel):
+class PeaksPanel(PlotPanel):
     """Find peaks above a signal-to-noise threshold and edit the peak list by hand.
 
     In the mouse mode "add / select", a click on the plot background adds a
@@ -26,18 +25,14 @@ class PeaksPanel(Panel):
 
     def __init__(self, session=None, *, reverse_x: bool | None = None, n_bins: int | None = None,
                  owner=None, read_only: bool = False, **kwargs):
-        self._reverse_x = reverse_x
-        self._n_bins = n_bins
-        self._shown_spectrum = None
-        self._shown_kind = None
         self._shown_ids: list[int] = []
         self._shown_x = np.zeros(0)
         self.selected_peak: int | None = None
-        super().__init__(session, owner=owner, read_only=read_only, **kwargs)
+        super().__init__(session, reverse_x=reverse_x, n_bins=n_bins, owner=owner,
+                         read_only=read_only, **kwargs)
 
     def _build(self) -> None:
-        kw = {"n_bins": self._n_bins} if self._n_bins else {}
-        self.plot = SpectrumFigure(title="Peaks", **kw)
+        self.plot = SpectrumFigure(title="Peaks", **self._figure_options)
         self.plot.add_curve("data")
         self.markers = bq.Scatter(x=np.zeros(0), y=np.zeros(0),
                                   scales={"x": self.plot.x_scale, "y": self.plot.y_scale},
@@ -94,19 +89,8 @@ class PeaksPanel(Panel):
             self.table.value = ""
             return
         sp = s.spectrum
-        if sp is not self._shown_spectrum:
-            new_range = (self._shown_spectrum is None or sp.x[0] != self._shown_spectrum.x[0]
-                         or sp.x[-1] != self._shown_spectrum.x[-1])
-            self._shown_spectrum = sp
-            if sp.y_kind != self._shown_kind:  # keep the user's choice until the kind changes
-                self._shown_kind = sp.y_kind
-                self.plot.x_scale.reverse = (self._reverse_x if self._reverse_x is not None
-                                             else reverse_by_default(sp.y_kind))
-            self.plot.y_axis.label = sp.y_kind
-            self.plot.set_curve("data", sp.x, sp.y)
-            if new_range:
-                self.plot.reset_window()
-                self.add_position.value = round(float(sp.x[sp.x.size // 2]), 4)
+        if self._show_spectrum(sp):
+            self.add_position.value = round(float(sp.x[sp.x.size // 2]), 4)
         peaks = s.peaks
         ids = [int(i) for i in peaks["peak_id"].tolist()]
         if self.selected_peak not in ids:

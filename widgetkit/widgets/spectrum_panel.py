@@ -11,7 +11,7 @@ import numpy as np
 
 from .. import processing
 from ..errors import WidgetkitError
-from ._base import Panel
+from ._base import PlotPanel
 from ._plot import COLORS, SpectrumFigure
 
 __all__ = ["SpectrumPanel"]
@@ -20,11 +20,6 @@ BASELINE_CHOICES = [("polynomial (masked peaks)", "poly"), ("asymmetric least sq
 UPLOAD_SUFFIXES = ".csv,.txt,.tsv,.dat,.jdx,.dx,.jcamp"
 #: above this many points the live baseline preview starts switched off (it takes ~1 s per 10⁶)
 LIVE_PREVIEW_LIMIT = 200_000
-
-
-def reverse_by_default(y_kind: str | None) -> bool:
-    """Wavenumber high to low for absorbance and transmittance (common practice in infrared)."""
-    return y_kind in ("absorbance", "transmittance")
 
 
 def _short(value, limit: int = 80) -> str:
@@ -40,7 +35,7 @@ def _short(value, limit: int = 80) -> str:
     return text if len(text) <= limit else text[: limit - 1] + "…"
 
 
-class SpectrumPanel(Panel):
+class SpectrumPanel(PlotPanel):
     """Load a spectrum, show its metadata, crop, preview and subtract a baseline.
 
     Parameters
@@ -63,19 +58,15 @@ class SpectrumPanel(Panel):
 
     def __init__(self, session=None, *, reverse_x: bool | None = None, n_bins: int | None = None,
                  owner=None, read_only: bool = False, **kwargs):
-        self._reverse_x = reverse_x
-        self._n_bins = n_bins
-        self._shown_spectrum = None
-        self._shown_kind = None
         self._meta_key = None
         self._preview_key = None
         self._upload_dir: str | None = None
-        super().__init__(session, owner=owner, read_only=read_only, **kwargs)
+        super().__init__(session, reverse_x=reverse_x, n_bins=n_bins, owner=owner,
+                         read_only=read_only, **kwargs)
 
     # ------------------------------------------------------------------ layout
     def _build(self) -> None:
-        kw = {"n_bins": self._n_bins} if self._n_bins else {}
-        self.plot = SpectrumFigure(title="Spectrum", reverse_x=True, **kw)
+        self.plot = SpectrumFigure(title="Spectrum", reverse_x=True, **self._figure_options)
         self.plot.add_curve("data")
         self.plot.add_curve("baseline", color=COLORS["baseline"], dashed=True)
         self.plot.on_brush(self._on_brush)
@@ -151,25 +142,12 @@ class SpectrumPanel(Panel):
             self._shown_spectrum = None
             return
         sp = s.spectrum
-        if sp is not self._shown_spectrum:
-            new_range = (self._shown_spectrum is None
-                         or sp.x[0] != self._shown_spectrum.x[0]
-                         or sp.x[-1] != self._shown_spectrum.x[-1])
-            self._shown_spectrum = sp
-            rev = self._reverse_x if self._reverse_x is not None else reverse_by_default(sp.y_kind)
-            if sp.y_kind != self._shown_kind:
-                self._shown_kind = sp.y_kind
-                self.high_to_low.value = rev
-            if new_range and sp.x.size > LIVE_PREVIEW_LIMIT and self.baseline_preview.value:
+        if self._show_spectrum(sp):
+            self.crop_lo.value, self.crop_hi.value = float(sp.x[0]), float(sp.x[-1])
+            if sp.x.size > LIVE_PREVIEW_LIMIT and self.baseline_preview.value:
                 self.baseline_preview.value = False
                 self.show_status("info", f"baseline preview is off for {sp.x.size:,} points "
                                          "(about a second per change); tick 'preview' to see it")
-            self.plot.y_axis.label = sp.y_kind
-            with self.plot.figure.hold_sync():
-                self.plot.set_curve("data", sp.x, sp.y)
-                if new_range:
-                    self.plot.reset_window()
-                    self.crop_lo.value, self.crop_hi.value = float(sp.x[0]), float(sp.x[-1])
         key = (s, sp)
         if self._meta_key is None or key[0] is not self._meta_key[0] \
                 or key[1] is not self._meta_key[1]:
@@ -262,6 +240,10 @@ class SpectrumPanel(Panel):
 
     def _on_axis_direction_change(self, change) -> None:
         self.plot.x_scale.reverse = bool(change["new"])
+
+    def _set_reverse(self, reverse: bool) -> None:
+        # through the check box, which the app links to every panel's axis
+        self.high_to_low.value = reverse
 
     def _open(self, path: str) -> None:
         from ..session import Session
