@@ -101,18 +101,30 @@ def _line_ids(state: State) -> set[int]:
     return set() if fit is None else {int(i) for i in fit.table["line_id"]}
 
 
-def _relock(state: State, line_id: int, labels: dict | None, what: str):
-    if line_id not in _line_ids(state):
-        known = ", ".join(str(i) for i in sorted(_line_ids(state))[:30]) or "none (fit lines first)"
-        raise SessionStateError(f"{what}: no line with line_id {line_id}; line ids are {known}")
+def _relock(state: State, changes: dict[int, dict], what: str):
+    """Apply lock changes (line_id -> labels; empty labels = locked as unassigned) and re-run
+    the last assignment with them; nothing changes when that fails."""
+    known_ids = _line_ids(state)
+    for line_id in changes:
+        if line_id not in known_ids:
+            known = ", ".join(str(i) for i in sorted(known_ids)[:30]) or "none (fit lines first)"
+            raise SessionStateError(f"{what}: no line with line_id {line_id}; line ids are {known}")
     locks = {int(k): dict(v) for k, v in state.locks.items()}
-    locks[line_id] = dict(labels or {})
+    locks.update({int(k): dict(v) for k, v in changes.items()})
     new = state.evolve(locks=locks)
+    result = {"locks": {str(k): locks[k] for k in sorted(changes)}}
     if state.assign_spec is None:
-        return new, {"line_id": line_id, "labels": locks[line_id]}
+        return new, result
     out = _assign(state, state.assign_spec, locks)
-    return new.evolve(assignment=out), {"line_id": line_id, "labels": locks[line_id],
-                                        **_assignment_result(out)}
+    return new.evolve(assignment=out), {**result, **_assignment_result(out)}
+
+
+def _check_labels(line_id, labels) -> dict:
+    labels = dict(labels or {})
+    if not labels:
+        raise AssignmentError(f"set_assignment of line {line_id} needs labels, e.g. label='R(0)' "
+                              "or v_upper=1, v_lower=0, J_upper=1, J_lower=0")
+    return labels
 
 
 @register_step
@@ -121,14 +133,15 @@ class SetAssignment(StepKind):
     tolerance = 1e-6
 
     def apply(self, state, params, ctx):
-        lid = int(params["line_id"])
-        labels = dict(params["labels"])
-        if not labels:
-            raise AssignmentError("set_assignment needs labels, e.g. label='R(0)' or "
-                                  "v_upper=1, v_lower=0, J_upper=1, J_lower=0")
-        new, result = _relock(state, lid, labels, "set_assignment")
-        text = ", ".join(f"{k}={v}" for k, v in labels.items())
-        return new, result, f"line {lid} locked as {text}"
+        # one line (line_id, labels) or several at once (assignments: {line_id: labels})
+        if "assignments" in params:
+            changes = {int(k): _check_labels(k, v) for k, v in params["assignments"].items()}
+        else:
+            changes = {int(params["line_id"]): _check_labels(params["line_id"], params["labels"])}
+        new, result = _relock(state, changes, "set_assignment")
+        text = "; ".join(f"line {k}: " + ", ".join(f"{a}={b}" for a, b in v.items())
+                         for k, v in changes.items())
+        return new, result, f"locked {text}"
 
 
 @register_step
@@ -138,6 +151,6 @@ class ClearAssignment(StepKind):
 
     def apply(self, state, params, ctx):
         lid = int(params["line_id"])
-        new, result = _relock(state, lid, {}, "clear_assignment")
+        new, result = _relock(state, {lid: {}}, "clear_assignment")
         return new, result, f"line {lid} left unassigned (locked)"
 

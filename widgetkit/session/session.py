@@ -223,6 +223,12 @@ class Session:
         """
         self._run("set_assignment", {"line_id": int(line_id), "labels": labels})
 
+    def set_assignments(self, assignments: dict) -> None:
+        """Lock several lines at once, ``{line_id: {"label": "R(0)", ...}, ...}``, in one step
+        (when one lock alone cannot put a wrong assignment right)."""
+        self._run("set_assignment", {"assignments": {str(int(k)): dict(v)
+                                                     for k, v in assignments.items()}})
+
     def clear_assignment(self, line_id: int) -> None:
         """Leave one line unassigned (locked so; e.g. a blend or an impurity line)."""
         self._run("clear_assignment", {"line_id": int(line_id)})
