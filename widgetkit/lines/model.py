@@ -104,6 +104,15 @@ class WindowedModel:
         self.indices = np.concatenate([np.tile(self.rows, self.n_lp),
                                        np.tile(np.arange(n), self.n_b)])
         self.w_at = None if self.w is None else self.w[self.indices]
+        self.offsets = np.cumsum(lengths) - lengths
+        order = np.argsort(starts, kind="stable")
+        pairs = []
+        for a, i in enumerate(order):  # windows that overlap another (i before j)
+            for j in order[a + 1:]:
+                if starts[j] >= ends[i]:
+                    break
+                pairs.append((int(i), int(j)))
+        self.pairs = pairs
 
     def set_wings(self, theta: np.ndarray) -> float:
         """Fix the far-wing offset outside the windows from θ; return its largest change."""
@@ -159,6 +168,55 @@ class WindowedModel:
             data = data * self.w_at
         return sp.csc_array((data, self.indices, self.indptr),
                             shape=(self.x.size, self.n_lines * self.n_lp + self.n_b))
+
+    def normal_equations(self, v: np.ndarray, r: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """``J^T J`` (dense, n_vars × n_vars) and ``J^T r`` without forming ``J``.
+
+        Uses the window structure: a line's block with itself is a sum over
+        its window, with another line a sum over the overlap of two windows,
+        with the baseline a sum over its window. Equal to the products of
+        :meth:`jacobian_vec` (tested).
+        """
+        theta = self.tmap.values(v)
+        lp, bc = self._split(theta)
+        m, npar, nb = self.n_lines, self.n_lp, self.n_b
+        G = self.shape.gradient(self.X, *lp[:, self.seg])[1:]
+        B = self.baseline.gradient(self.u, bc)[1:] if nb else np.zeros((0, self.x.size))
+        if self.w is not None:
+            G = G * self.w[self.rows]
+            B = B * self.w
+        nt = m * npar + nb
+        H = np.zeros((nt, nt))
+        gt = np.zeros(nt)
+        idx = np.arange(m)
+        starts = self.offsets
+        Gr = G * r[self.rows]
+        gt[: m * npar] = np.add.reduceat(Gr, starts, axis=1).ravel()
+        for a in range(npar):
+            prod = G[a:] * G[a]
+            red = np.add.reduceat(prod, starts, axis=1)
+            for k, b in enumerate(range(a, npar)):
+                H[a * m + idx, b * m + idx] = red[k]
+                H[b * m + idx, a * m + idx] = red[k]
+        for i, j in self.pairs:
+            lo, hi = self.starts[j], min(self.ends[i], self.ends[j])
+            gi = G[:, self.offsets[i] + lo - self.starts[i]: self.offsets[i] + hi - self.starts[i]]
+            gj = G[:, self.offsets[j]: self.offsets[j] + hi - lo]
+            blk = gi @ gj.T
+            H[np.ix_(idx[i] + m * np.arange(npar), idx[j] + m * np.arange(npar))] = blk
+            H[np.ix_(idx[j] + m * np.arange(npar), idx[i] + m * np.arange(npar))] = blk.T
+        if nb:
+            Bp = B[:, self.rows]
+            lb = np.stack([np.add.reduceat(G * Bp[c], starts, axis=1).ravel() for c in range(nb)],
+                          axis=1)
+            H[: m * npar, m * npar:] = lb
+            H[m * npar:, : m * npar] = lb.T
+            H[m * npar:, m * npar:] = B @ B.T
+            gt[m * npar:] = B @ r
+        if self.tmap.identity:
+            return H, gt
+        D = self.tmap.jacobian(v).toarray()
+        return D.T @ H @ D, D.T @ gt
 
     # ------------------------------------------------------------- lmfit hooks
     def variables(self, params) -> np.ndarray:

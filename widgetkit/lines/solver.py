@@ -117,10 +117,8 @@ def levenberg_marquardt(model: WindowedModel, v, lo, hi, nfree: int, max_iter: i
     for _ in range(max_iter):
         if nfev >= max_nfev:
             break
-        jac = model.jacobian_vec(v).tocsr()
+        hess, g = model.normal_equations(v, r)
         njev += 1
-        g = jac.T @ r
-        hess = (jac.T @ jac).toarray()
         held = _held(v, g, lo, hi)
         free = ~held
         gn, pred = gauss_newton(hess, g, free, fast=True)
