@@ -136,7 +136,7 @@ def main(argv=None):
                   f"faster; chi2 fast/naive = {res.chisqr / nres.chisqr:.6f}", flush=True)
         else:
             print("    naive composite not run at this size (use --full)")
-    print("scaling of the fast path (20 lines per 7000 points, same band recipe):")
+    print("scaling of the fast path (350 points per line, same band recipe):")
     base = None
     for n_lines in (10, 20, 40, 80):
         x, y, start = band(n_lines, 350 * n_lines)
