@@ -1,0 +1,81 @@
+"""Session save, load and verify with a 1,000,000-point spectrum and 10 steps.
+
+Run: ``python benchmarks/bench_session.py``. Targets (issue 2): each under 2 s here.
+Baseline measured in the same run: writing and reading the same two arrays with
+``numpy.save``/``numpy.load`` (raw binary, no JSON, no hashing, no replay) — the floor
+for moving that many bytes through the file system.
+"""
+
+from __future__ import annotations
+
+import os
+import tempfile
+import time
+
+import numpy as np
+
+import widgetkit as wk
+
+N = 1_000_000
+
+
+def _spectrum() -> wk.Spectrum:
+    # invented benchmark data: Gaussian lines on a slope with seeded noise
+    rng = np.random.default_rng(0)
+    x = np.linspace(2000.0, 3200.0, N)
+    y = 0.05 + 2e-5 * (x - 2000.0)
+    for c in np.linspace(2100, 3100, 25):
+        y += 0.8 * np.exp(-0.5 * ((x - c) / 0.4) ** 2)
+    y += rng.normal(0, 0.002, N)
+    return wk.Spectrum(x, y, meta={"title": "benchmark band"})
+
+
+def _session(sp: wk.Spectrum) -> wk.Session:
+    s = wk.Session(sp)                              # 1 load
+    s.crop(2050, 3150)                              # 2
+    s.subtract_baseline("poly", degree=1)           # 3
+    s.find_peaks(min_snr=20, min_separation=5)      # 4
+    s.add_peak(2500.0, snap=False)                  # 5
+    s.add_peak(2600.0, snap=False)                  # 6
+    s.remove_peak(int(s.peaks["peak_id"].iloc[0]))  # 7
+    s.note("benchmark")                             # 8
+    s.add_peak(2700.0, snap=False)                  # 9
+    s.note("ten steps")                             # 10
+    return s
+
+
+def _best(fn, repeat: int = 3) -> float:
+    times = []
+    for _ in range(repeat):
+        t = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t)
+    return min(times)
+
+
+def main() -> None:
+    sp = _spectrum()
+    s = _session(sp)
+    assert len(s.history) == 10
+    with tempfile.TemporaryDirectory() as tmp:
+        path = os.path.join(tmp, "s.json")
+        raw = os.path.join(tmp, "raw.npy")
+        t_save = _best(lambda: s.save(path))
+        t_load = _best(lambda: wk.Session.load(path))
+        loaded = wk.Session.load(path)
+        t_verify = _best(lambda: loaded.verify())
+        assert loaded.verify().ok
+        both = np.stack([sp.x, sp.y])
+        t_npsave = _best(lambda: np.save(raw, both))
+        t_npload = _best(lambda: np.load(raw))
+        size = os.path.getsize(path)
+    print(f"session with {N:,} points and {len(s.history)} steps; file {size / 1e6:.1f} MB")
+    print(f"  save    {t_save:7.3f} s   (target < 2 s)   {t_save / t_npsave:6.1f}x numpy.save")
+    print(f"  load    {t_load:7.3f} s   (target < 2 s)   {t_load / t_npload:6.1f}x numpy.load"
+          "  (load replays every step)")
+    print(f"  verify  {t_verify:7.3f} s   (target < 2 s)   replays and compares 10 steps")
+    print(f"  baseline numpy.save {t_npsave * 1e3:.1f} ms, numpy.load {t_npload * 1e3:.1f} ms")
+
+
+if __name__ == "__main__":
+    main()
