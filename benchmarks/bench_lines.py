@@ -36,7 +36,8 @@ def band(n_lines: int, n_points: int, seed: int = 1):
     nu0, b1, b0 = 2886.0, 10.14, 10.44
     pos = nu0 + (b1 + b0) * m + (b1 - b0) * m**2
     j = np.where(m > 0, m - 1, -m)
-    area = (np.abs(m) + 1.0) * np.exp(-b0 * j * (j + 1) / 2000.0)
+    # Boltzmann-like envelope, widened beyond 40 lines so every line stays above the noise
+    area = (np.abs(m) + 1.0) * np.exp(-b0 * j * (j + 1) / (2000.0 * max(1.0, n_lines / 40) ** 2))
     area /= area.max()
     sigma, gamma = 0.05, 0.08
     x = np.linspace(pos.min() - 15.0, pos.max() + 15.0, n_points)
