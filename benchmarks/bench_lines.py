@@ -34,7 +34,9 @@ def band(n_lines: int, n_points: int, seed: int = 1):
     half = n_lines // 2
     m = np.r_[-half:0, 1:n_lines - half + 1]
     nu0, b1, b0 = 2886.0, 10.14, 10.44
-    pos = nu0 + (b1 + b0) * m + (b1 - b0) * m**2
+    # beyond 40 lines B1 - B0 shrinks so the band head (lines piling up) stays outside
+    db = (b1 - b0) * min(1.0, (40 / n_lines) ** 2)
+    pos = nu0 + (b1 + b0) * m + db * m**2
     j = np.where(m > 0, m - 1, -m)
     # Boltzmann-like envelope, widened beyond 40 lines so every line stays above the noise
     area = (np.abs(m) + 1.0) * np.exp(-b0 * j * (j + 1) / (2000.0 * max(1.0, n_lines / 40) ** 2))
