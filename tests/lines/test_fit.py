@@ -183,6 +183,8 @@ def test_region_ids_and_given_starting_values_are_used(band):
     assert list(res.table.line_id) == [31, 32, 33, 34]
     assert "l31_area" in res.params
     assert res.spec["region"] == [lo, hi] and res.spec["window"] == wl.DEFAULT_WINDOW
+    assert res.spec["widths"] == [0.25, None, 0.25, 0.25]
+    json.dumps(res.spec, allow_nan=False)  # strict JSON
 
 
 def test_inputs_are_not_modified_and_the_result_is_frozen(band, starts):

@@ -173,14 +173,16 @@ def _plain(obj):
     if isinstance(obj, np.ndarray):
         return _plain(obj.tolist())
     if isinstance(obj, np.generic):
-        return obj.item()
+        obj = obj.item()
+    if isinstance(obj, float) and not np.isfinite(obj):
+        return None  # "estimate this one" in heights/widths; JSON has no NaN
     return obj
 
 
 def _spec(**kw) -> dict:
     spec = copy.deepcopy(_plain(kw))
     try:
-        json.dumps(spec)
+        json.dumps(spec, allow_nan=False)
     except (TypeError, ValueError) as exc:
         raise FitError(f"fit settings must be plain data (numbers, strings, lists, dicts): "
                        f"{exc}") from None
@@ -245,10 +247,12 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         None if region is None else [float(r) for r in region]), window=window,
         constraints=dict(constraints or {}), positions=_as_1d(positions, "positions").tolist(),
         line_ids=None if line_ids is None else list(line_ids),
-        heights=None if heights is None else list(np.asarray(heights, float).tolist()),
-        widths=None if widths is None else list(np.asarray(widths, float).tolist()),
+        heights=None if heights is None else np.asarray(heights, float).tolist(),
+        widths=None if widths is None else np.asarray(widths, float).tolist(),
         noise=noise)
-    if window is not None and not (float(window) > 1.0):
+    if window is not None and (isinstance(window, bool)
+                               or not isinstance(window, (int, float, np.number))
+                               or not float(window) > 1.0):
         raise FitError(f"window must be a number of half widths above 1 or None, got {window!r}")
     xs, ys, ws = _prepare_data(x, y, weights, region)
     pos = _as_1d(positions, "positions")
