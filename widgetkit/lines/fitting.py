@@ -31,6 +31,7 @@ their area is not significant, or a parameter ends at its bound.
 from __future__ import annotations
 
 import copy
+import functools
 import json
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
@@ -39,6 +40,7 @@ from typing import Any
 import lmfit
 import numpy as np
 import pandas as pd
+from threadpoolctl import threadpool_limits
 
 from ..errors import FitError
 from . import solver
@@ -189,6 +191,21 @@ def _spec(**kw) -> dict:
     return spec
 
 
+def _one_blas_thread(func):
+    """Run ``func`` with one BLAS thread. The solver's dense algebra is on small
+    (variables × variables) matrices, where more BLAS threads only contend: measured
+    here, a 34-line fit took 2.1 s with two threads on a busy two-core machine and
+    0.4 s with one."""
+
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        with threadpool_limits(limits=1, user_api="blas"):
+            return func(*args, **kwargs)
+
+    return wrapper
+
+
+@_one_blas_thread
 def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         baseline: str | None = "linear", region: Sequence[float] | None = None,
         window: float | None = DEFAULT_WINDOW, line_ids: Sequence | None = None,

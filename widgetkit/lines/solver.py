@@ -85,14 +85,33 @@ def gauss_newton(hess, g, free, fast=False):
     return step, float(np.sum(proj**2 / w[keep]))
 
 
+def bounded_gauss_newton(hess, g, v, lo, hi, *, fast=False):
+    """Gauss–Newton step with bounds: a variable at a bound is held when the step would
+    take it outside, not only when the gradient points outside (through correlations the
+    two can differ). "At a bound" is judged against the step: a variable closer to the
+    bound than 1e-3 of a step that would cross it is at the bound (solvers stop a hair
+    inside). An active-set loop that holds at least one more variable per pass.
+
+    Returns the step, its predicted chi-square reduction and the held mask.
+    """
+    held = _held(v, g, lo, hi)
+    while True:
+        step, pred = gauss_newton(hess, g, ~held, fast=fast)
+        reach = 1e-3 * np.abs(step)
+        out = ~held & ((((v + step) < lo) & ((v - lo) <= reach))
+                       | (((v + step) > hi) & ((hi - v) <= reach)))
+        if not out.any():
+            return step, pred, held
+        held = held | out
+
+
 def certify(jac, r, v, lo, hi, redchi):
     """Predicted chi-square reduction of the exact Gauss–Newton step, in reduced
     chi-squares, and the indices of variables held at a bound."""
     g = jac.T @ r
     hess = jac.T @ jac
     hess = hess.toarray() if hasattr(hess, "toarray") else np.asarray(hess)
-    held = _held(v, g, lo, hi)
-    _, pred = gauss_newton(hess, g, ~held)
+    _, pred, held = bounded_gauss_newton(hess, g, v, lo, hi)
     return pred / max(redchi, 1e-300), np.nonzero(held)[0]
 
 
@@ -119,9 +138,8 @@ def levenberg_marquardt(model: WindowedModel, v, lo, hi, nfree: int, max_iter: i
             break
         hess, g = model.normal_equations(v, r)
         njev += 1
-        held = _held(v, g, lo, hi)
+        gn, pred, held = bounded_gauss_newton(hess, g, v, lo, hi, fast=True)
         free = ~held
-        gn, pred = gauss_newton(hess, g, free, fast=True)
         crit = pred / max(chi / max(nfree, 1), 1e-300)
         if crit < 1e-3 * CONVERGENCE_TOL:
             # converged: one last full Gauss–Newton step (quadratic convergence

@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-from threadpoolctl import threadpool_limits
-
 from ..errors import AssignmentError, FitError, SessionStateError
 from .steps import State, StepKind, register_step, table_to_json
 
@@ -30,18 +28,15 @@ class FitLines(StepKind):
             where = "" if region is None else f" inside the region {region}"
             raise SessionStateError(
                 f"fit_lines: there are no peaks{where} to fit; run find_peaks() or add_peak() first")
-        # The solver's dense algebra is on small matrices, where BLAS threads only contend
-        # (measured here: 5x slower with two threads on a busy 2-core machine).
-        with threadpool_limits(limits=1, user_api="blas"):
-            fit = lines.fit(sp.x, sp.y, peaks["position"].to_numpy(dtype=float),
-                            line_ids=[int(i) for i in peaks["peak_id"]], **opts)
+        fit = lines.fit(sp.x, sp.y, peaks["position"].to_numpy(dtype=float),
+                        line_ids=[int(i) for i in peaks["peak_id"]], **opts)
         if not fit.converged:
             err = FitError(f"the line fit did not converge ({fit.message}); the previous lines "
                            "are kept. Try fewer lines, a region, or different starting peaks")
             err.fit = fit
             raise err
         result = {"lines": table_to_json(fit.table), "chisqr": float(fit.chisqr),
-                  "redchi": float(fit.redchi), "nfev": int(fit.nfev), "converged": True}
+                  "redchi": float(fit.redchi), "converged": True}
         summary = (f"fitted {len(fit.table)} {opts.get('shape', 'voigt')} lines, "
                    f"reduced chi-square {fit.redchi:.3g}")
         return state.evolve(line_fit=fit, assignment=None), result, summary
