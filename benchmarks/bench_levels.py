@@ -16,13 +16,13 @@ Run: ``python benchmarks/bench_levels.py``.
 from __future__ import annotations
 
 import sys
-import time
 from pathlib import Path
 
 import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 
+from _timing import best_of  # noqa: E402
 from levels.synth import CO, HCL, line_list  # noqa: E402
 
 from widgetkit.levels import (  # noqa: E402
@@ -33,15 +33,6 @@ from widgetkit.levels import (  # noqa: E402
     vib_term,
 )
 from widgetkit.levels._lsq import weighted_lstsq  # noqa: E402
-
-
-def best_of(fn, repeat: int) -> float:
-    times = []
-    for _ in range(repeat):
-        t = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t)
-    return min(times)
 
 
 def main() -> None:

@@ -29,10 +29,10 @@ import os
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # before numpy is imported
 os.environ.setdefault("OMP_NUM_THREADS", "1")
 
-import time  # noqa: E402
 
 import numpy as np  # noqa: E402
 import scipy.linalg  # noqa: E402
+from _timing import best_of  # noqa: E402
 from scipy.special import voigt_profile  # noqa: E402
 
 import widgetkit as wk  # noqa: E402
@@ -41,12 +41,7 @@ from widgetkit.simulate import HANDBOOK, doppler_sigma, line_list, render_lines,
 
 
 def best(func, repeat: int = 5) -> float:
-    times = []
-    for _ in range(repeat):
-        t = time.perf_counter()
-        func()
-        times.append(time.perf_counter() - t)
-    return min(times)
+    return best_of(func, repeat)
 
 
 def bench_morse() -> None:

@@ -10,9 +10,9 @@ from __future__ import annotations
 
 import os
 import tempfile
-import time
 
 import numpy as np
+from _timing import best_of
 
 import widgetkit as wk
 
@@ -44,15 +44,6 @@ def _session(sp: wk.Spectrum) -> wk.Session:
     return s
 
 
-def _best(fn, repeat: int = 3) -> float:
-    times = []
-    for _ in range(repeat):
-        t = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t)
-    return min(times)
-
-
 def main() -> None:
     sp = _spectrum()
     s = _session(sp)
@@ -60,14 +51,14 @@ def main() -> None:
     with tempfile.TemporaryDirectory() as tmp:
         path = os.path.join(tmp, "s.json")
         raw = os.path.join(tmp, "raw.npy")
-        t_save = _best(lambda: s.save(path))
-        t_load = _best(lambda: wk.Session.load(path))
+        t_save = best_of(lambda: s.save(path))
+        t_load = best_of(lambda: wk.Session.load(path))
         loaded = wk.Session.load(path)
-        t_verify = _best(lambda: loaded.verify())
+        t_verify = best_of(lambda: loaded.verify())
         assert loaded.verify().ok
         both = np.stack([sp.x, sp.y])
-        t_npsave = _best(lambda: np.save(raw, both))
-        t_npload = _best(lambda: np.load(raw))
+        t_npsave = best_of(lambda: np.save(raw, both))
+        t_npload = best_of(lambda: np.load(raw))
         size = os.path.getsize(path)
     print(f"session with {N:,} points and {len(s.history)} steps; file {size / 1e6:.1f} MB")
     print(f"  save    {t_save:7.3f} s   (target < 2 s)   {t_save / t_npsave:6.1f}x numpy.save")
