@@ -108,6 +108,19 @@ def test_a_missing_line_next_to_the_origin_is_coped_with(hcl_band, Ju, Jl):
     assert correct(res, df[~drop]).all()
 
 
+def test_a_band_missing_both_lines_next_to_the_origin_keeps_its_true_spacing():
+    # weak overtone bands picked at a high threshold lose R(0) and P(1) together; the seed
+    # must then take the gap as four spacings, not pair every other line (self-consistency
+    # with CO handbook constants, reference/diatomics.md, from memory)
+    co = Diatomic("12C", "16O")
+    df = line_list(co, CO, band=(2, 0), J_max=14, sigma=0.002, seed=5)
+    drop = ((df["Ju"] == 1) & (df["Jl"] == 0)) | ((df["Ju"] == 0) & (df["Jl"] == 1))
+    res = assign_rovibrational(df[~drop], co, band=(2, 0))
+    assert correct(res, df[~drop]).all()
+    b_lower, err = res.constant("B_lower", "12C-16O")
+    assert abs(b_lower - band_constants(CO, 2, 0)["B_lower"]) < 5 * err
+
+
 def test_extra_lines_are_left_unassigned_and_reported(hcl_band):
     df, _ = hcl_band
     rng = np.random.default_rng(7)  # invented impurity lines

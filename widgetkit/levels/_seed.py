@@ -66,8 +66,9 @@ def gap_hypotheses(x, area=None, *, frac: float = 0.25, reach: int = 3) -> list[
     """Seeds {m: index into ascending ``x``} for the lines next to the band origin.
 
     A pair (i, j) of near neighbours, d = x_j − x_i, is tried as
-    (P(1), R(0)) with spacing s = d/2, and as (P(1), R(1)) or (P(2), R(0))
-    with s = d/3 (R(0) or P(1) missing). A seed is kept when lines exist
+    (P(1), R(0)) with spacing s = d/2, as (P(1), R(1)) or (P(2), R(0))
+    with s = d/3 (R(0) or P(1) missing), and as (P(2), R(1)) with s = d/4
+    (both missing, as in weak overtone bands picked at a high threshold). A seed is kept when lines exist
     within ``frac`` × s of x_i − s and x_j + s (the next line of each branch),
     and when no line inside the gap sits where the branch of i or j would
     continue (within 0.15 of the spacing to the next strong line outside),
@@ -86,7 +87,7 @@ def gap_hypotheses(x, area=None, *, frac: float = 0.25, reach: int = 3) -> list[
     I, J = np.concatenate(I), np.concatenate(J)
     d = x[J] - x[I]
     out = []
-    for key, div in ((0, 2.0), (1, 3.0), (2, 3.0)):
+    for key, div in ((0, 2.0), (1, 3.0), (2, 3.0), (3, 4.0)):
         sp = d / div
         # a gap with R(0) or P(1) missing is wider and may hold more partner lines
         ok = (d > 0) & (J - I <= (reach if key == 0 else reach + 2))
@@ -98,7 +99,7 @@ def gap_hypotheses(x, area=None, *, frac: float = 0.25, reach: int = 3) -> list[
             i, j = int(I[q]), int(J[q])
             if j > i + 1 and not _gap_is_clear(x, a, i, j):
                 continue
-            out.append(({-1: i, 1: j}, {-1: i, 2: j}, {-2: i, 1: j})[key])
+            out.append(({-1: i, 1: j}, {-1: i, 2: j}, {-2: i, 1: j}, {-2: i, 2: j})[key])
     out.sort(key=lambda h: (min(h.values()), max(h.values()), sorted(h)))
     return out
 
