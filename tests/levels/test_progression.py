@@ -111,3 +111,21 @@ def test_bad_progression_input():
         fit_progression([2886.0, np.nan])
     with pytest.raises(wk.AssignmentError, match="uncertainties"):
         fit_progression([2886.0, 5668.0], uncertainties=[0.1])
+
+
+def test_the_morse_range_parameter_follows_from_omega_e_and_the_well_depth():
+    import scipy.constants as sc
+
+    from widgetkit.levels import vib_term
+
+    # handbook values, from memory (reference/diatomics.md): H35Cl two-term G(v)
+    we, wexe = 2990.946, 52.8186
+    bands = [float(vib_term(v, we, wexe) - vib_term(0, we, wexe)) for v in (1, 2, 3)]
+    p = fit_progression(bands, uncertainties=[0.01] * 3, molecule=Diatomic("1H", "35Cl"))
+    c = p.constants.set_index("name")
+    # Morse (1929): omega = a sqrt(2 D_e / mu), in SI with scipy.constants (CODATA)
+    mu = Diatomic("1H", "35Cl").main.reduced_mass * sc.atomic_mass
+    d_e = we**2 / (4 * wexe) * sc.h * sc.c * 100
+    a = 2 * np.pi * sc.c * 100 * we * np.sqrt(mu / (2 * d_e)) * 1e-10
+    assert c.loc["morse_a", "value"] == pytest.approx(a, rel=1e-9)
+    assert c.loc["morse_a", "unit"] == "1/Å"

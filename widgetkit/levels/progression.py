@@ -25,6 +25,8 @@ Derived constants:
 
 * force_constant k = 4π²c²μωe² (N/m; c in cm/s, μ in kg);
 * D_e_morse = ωe²/(4ωexe) (the Morse well depth of the two-term G);
+* morse_a, the Morse range parameter a = 2πc ωe sqrt(μ / (2 D_e)) in Å⁻¹ (when the
+  molecule is given; :func:`widgetkit.oscillator.morse_parameters`);
 * zero_point G(0) = ωe/2 − ωexe/4 + ωeye/8;
 * D_0_birge_sponer: **convention** — the area under the fitted
   ΔG(v+½) = G(v+1) − G(v) curve plotted against v+½, from v+½ = 0 to its
@@ -44,6 +46,7 @@ import pandas as pd
 from scipy import constants as sc
 
 from ..errors import AssignmentError
+from ..oscillator.potentials import morse_parameters
 from ._lsq import SingularDesign, propagate, robust_scale, weighted_lstsq
 from .candidates import band_label
 from .molecule import Diatomic
@@ -346,6 +349,10 @@ def _derived(beta, cov, names, iso) -> list:
     if iso is not None:
         mu = iso.reduced_mass * sc.atomic_mass
         funcs["force_constant"] = (lambda p: 4 * np.pi**2 * (sc.c * 100) ** 2 * mu * p[0] ** 2, "N/m")
+        # the Morse potential D_e (1 − exp(−a (r − r_e)))² the two-term G(v) implies
+        # (none when the fitted omega_e and omega_e_x_e are not both positive)
+        funcs["morse_a"] = (lambda p: morse_parameters(p[0], p[1], iso.reduced_mass)["a"]
+                            if p[0] > 0 and p[1] > 0 else np.nan, "1/Å")
     for nm, (fn, unit) in funcs.items():
         v = fn(b)
         g = np.zeros(len(beta))
