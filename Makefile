@@ -1,33 +1,48 @@
 # widgetkit: the two commands of the README, and a few for developers.
-#   make demo   set up .venv and open the quick-start notebook in JupyterLab
-#   make test   set up .venv and run the whole test suite (unit, widgets, notebooks, browser)
+#   make demo   set up .venv with what the demo needs and open the quick-start notebook
+#   make test   set up .venv with the test tools too and run the whole test suite
+# Both work as root (most containers) and as an ordinary user: as root, `widgetkit demo`
+# passes Jupyter's --allow-root itself and says so in one line.
 PYTHON ?= python3
 VENV   ?= .venv
 BIN    := $(VENV)/bin
-STAMP  := $(VENV)/.installed
+# one stamp per set of extras, so `make demo` never installs the test tools
+DEMO_STAMP := $(VENV)/.installed-demo
+TEST_STAMP := $(VENV)/.installed-test
+DEV_STAMP  := $(VENV)/.installed-dev
 
 .PHONY: demo test setup lint bench clean
 
-$(STAMP): pyproject.toml
+$(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install --quiet --upgrade pip
+
+$(DEMO_STAMP): pyproject.toml | $(BIN)/python
+	$(BIN)/python -m pip install --quiet -e .
+	touch $@
+
+$(TEST_STAMP): pyproject.toml | $(BIN)/python
+	$(BIN)/python -m pip install --quiet -e ".[test]"
+	touch $@ $(DEMO_STAMP)
+
+$(DEV_STAMP): pyproject.toml | $(BIN)/python
 	$(BIN)/python -m pip install --quiet -e ".[test,dev]"
-	touch $(STAMP)
+	touch $@ $(TEST_STAMP) $(DEMO_STAMP)
 
-setup: $(STAMP)
+setup: $(DEV_STAMP)
 
-demo: $(STAMP)
-	$(BIN)/widgetkit demo
+demo: $(DEMO_STAMP)
+	$(BIN)/widgetkit demo $(DEMO_ARGS)
 
 # pytest exits 5 when it collects no test; that is not a failure of the suite itself
-test: $(STAMP)
+test: $(TEST_STAMP)
 	$(BIN)/python -m pytest --nbval-lax tests sample_notebooks; rc=$$?; [ $$rc -eq 5 ] && rc=0; exit $$rc
 
-lint: $(STAMP)
+lint: $(DEV_STAMP)
 	$(BIN)/ruff check widgetkit tests benchmarks
 
-bench: $(STAMP)
+bench: $(DEMO_STAMP)
 	$(BIN)/python benchmarks/run_all.py
 
 clean:
-	rm -rf $(VENV) .pytest_cache build *.egg-info
+	rm -rf $(VENV) .pytest_cache build dist *.egg-info

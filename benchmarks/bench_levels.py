@@ -1,8 +1,8 @@
 """Benchmarks of widgetkit.levels (issue 4).
 
 1. Assignment and constants of a 120-line band with two isotopologues
-   (12C16O and 13C16O, simulated from handbook constants, from memory, in
-   reference/diatomics.md), at least 5 predict–match–refit rounds; target
+   (12C16O and 13C16O, simulated from handbook constants, from memory,
+   Huber & Herzberg 1979), at least 5 predict–match–refit rounds; target
    under 0.5 s. Baseline measured in the same run: one weighted linear
    least-squares band fit of the same 120 lines with their labels known
    (:func:`widgetkit.levels.fit_band`, both isotopologues).

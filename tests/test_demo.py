@@ -119,7 +119,8 @@ def test_jupyter_listens_on_localhost_with_the_token_left_on(tmp_path):
     assert "--allow-root" in demo.jupyter_command(tmp_path, allow_root=True)
 
 
-def test_run_demo_copies_then_launches_in_the_folder(tmp_path):
+def test_run_demo_copies_then_launches_in_the_folder(tmp_path, monkeypatch):
+    monkeypatch.setattr(demo.os, "geteuid", lambda: 1000)      # an ordinary user
     calls = []
     said = []
     rc = demo.run_demo(tmp_path / "d", browser=False, launcher=lambda c, cwd: calls.append((c, cwd)) or 7,
@@ -129,6 +130,36 @@ def test_run_demo_copies_then_launches_in_the_folder(tmp_path):
     assert cwd == (tmp_path / "d").resolve() and (cwd / demo.QUICK_START).is_file()
     assert cmd == demo.jupyter_command(cwd, browser=False)
     assert any("127.0.0.1" in s for s in said) and demo.SAFETY_NOTE in said
+    assert demo.ROOT_NOTE not in said and "--allow-root" not in cmd
+
+
+def test_as_root_the_demo_passes_allow_root_and_says_so_in_one_line(tmp_path, monkeypatch):
+    monkeypatch.setattr(demo.os, "geteuid", lambda: 0)         # root, as in most containers
+    calls, said = [], []
+    demo.run_demo(tmp_path, browser=False, launcher=lambda c, cwd: calls.append(c) or 0,
+                  echo=said.append)
+    (cmd,) = calls
+    assert "--allow-root" in cmd
+    assert "--ServerApp.ip=127.0.0.1" in cmd                   # still on the loopback address
+    assert not any("token" in c.lower() or "password" in c.lower() for c in cmd)  # token kept
+    root_lines = [s for s in said if "as root" in s]
+    assert root_lines == [demo.ROOT_NOTE] and "\n" not in demo.ROOT_NOTE
+    calls.clear()
+    demo.run_demo(tmp_path, browser=False, allow_root=False,
+                  launcher=lambda c, cwd: calls.append(c) or 0, echo=said.append)
+    assert "--allow-root" not in calls[0]                      # the user's choice wins
+
+
+def test_cli_demo_as_root_needs_no_flag(tmp_path, monkeypatch, capsys):
+    monkeypatch.setattr(demo.os, "geteuid", lambda: 0)
+    seen = {}
+    monkeypatch.setattr(demo.subprocess, "call", lambda cmd, cwd: seen.update(cmd=cmd) or 0)
+    assert main(["demo", "--dir", str(tmp_path / "w"), "--no-browser"]) == 0
+    assert "--allow-root" in seen["cmd"]
+    out = capsys.readouterr().out
+    assert out.count("--allow-root") == 2 and demo.ROOT_NOTE in out   # the note and the command
+    assert main(["demo", "--dir", str(tmp_path / "w"), "--no-browser", "--no-allow-root"]) == 0
+    assert "--allow-root" not in seen["cmd"]
 
 
 def test_cli_demo_runs_jupyter_through_subprocess(tmp_path, monkeypatch, capsys):

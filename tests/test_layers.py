@@ -1,4 +1,4 @@
-"""The layering rule of ARCHITECTURE.md: nothing below the faces imports the widget libraries."""
+"""The layering rule (DEVELOPERS.md, Layers): nothing below the faces imports the widget libraries."""
 
 import subprocess
 import sys

@@ -90,7 +90,7 @@ def _agrees(cell: str, value: float, stderr: float | None) -> bool:
 
 
 def test_parse_uncertainty_reads_the_notation_of_the_trade():
-    # 2885.977(3) = 2885.977 ± 0.003 (the notation as defined in DOMAIN.md; common practice)
+    # 2885.977(3) = 2885.977 ± 0.003 (common practice, as in the CODATA tables)
     assert parse_uncertainty("2885.977(3)") == pytest.approx((2885.977, 0.003))
     # CODATA style of the Newtonian constant of gravitation, 6.67430(15)e-11 (common practice)
     assert parse_uncertainty("6.67430(15)e-11") == pytest.approx((6.67430e-11, 0.00015e-11))

@@ -20,7 +20,7 @@ def test_the_speed_of_light_is_the_codata_value():
 
 
 def test_one_terahertz_is_about_33_356_wavenumbers():
-    # 1e12 Hz / (100 c) with c from scipy.constants; DOMAIN.md quotes 33.35641 cm-1
+    # 1e12 Hz / (100 c) with c from scipy.constants (= 33.35641 cm-1)
     assert to_wavenumber([1.0], "THz")[0] == pytest.approx(1e12 / (100 * constants.c), rel=1e-15)
     assert to_wavenumber([1.0], "THz")[0] == pytest.approx(33.35641, abs=5e-6)
 

@@ -4,15 +4,17 @@ spectroscopy.
 The headless API (no widget is imported by ``import widgetkit``)::
 
     import widgetkit as wk
-    s = wk.Session.from_file("band.jdx")
+    s = wk.Session.from_file(wk.demo.data_path("hcl_cell_296K.jdx"))
+    s.to_absorbance()
     s.find_peaks(min_snr=8)
     s.fit_lines(shape="voigt")
     s.assign_band(wk.Diatomic("H", "Cl"))
     s.constants
 
 Sub-packages ``wk.lines``, ``wk.levels``, ``wk.oscillator``, ``wk.simulate``,
-``wk.processing`` and ``wk.io`` load on first use; the widgets live in
-``widgetkit.widgets`` and load only when that is imported.
+``wk.processing``, ``wk.io`` and ``wk.demo`` (the shipped demo data:
+``wk.demo.data_path("hcl_cell_296K.jdx")``) load on first use; the widgets live
+in ``widgetkit.widgets`` and load only when that is imported.
 """
 
 from __future__ import annotations
@@ -60,6 +62,7 @@ __all__ = [
     "levels",
     "oscillator",
     "simulate",
+    "demo",
 ]
 
 _SUBMODULES = {"io", "processing", "lines", "levels", "oscillator", "simulate", "widgets",

@@ -7,9 +7,10 @@
     Exit 0 on success, 1 when ``--verify`` found mismatches (the report is still
     written and says so), 2 when the session cannot be read or the output not written.
 
-``widgetkit demo [--dir DIR] [--no-browser] [--yes] [--port N] [--allow-root]``
+``widgetkit demo [--dir DIR] [--no-browser] [--yes] [--port N]``
     Copy the sample notebooks and demo data to DIR (default ``~/widgetkit-demo``) and
     start JupyterLab there on ``01-quick-start.ipynb`` (127.0.0.1 only, token on).
+    As root (most containers) Jupyter's ``--allow-root`` is passed and one line says so.
     A notebook you have edited is never replaced without asking (``--yes`` answers
     yes; the edited copy is kept as a backup).
 """
@@ -121,9 +122,13 @@ def register_demo(sub) -> None:
     p.add_argument("--yes", action="store_true",
                    help="replace notebooks you edited (backups are kept)")
     p.add_argument("--port", type=int, help="port of the server (default: Jupyter's choice)")
-    p.add_argument("--allow-root", action="store_true",
-                   help="pass --allow-root to Jupyter (it refuses to run as root otherwise)")
-    p.set_defaults(func=_cmd_demo)
+    root = p.add_mutually_exclusive_group()
+    root.add_argument("--allow-root", dest="allow_root", action="store_true", default=None,
+                      help="pass --allow-root to Jupyter (the default when you are root, as in "
+                           "most containers: Jupyter refuses to start as root otherwise)")
+    root.add_argument("--no-allow-root", dest="allow_root", action="store_false",
+                      help="never pass --allow-root, even as root")
+    p.set_defaults(func=_cmd_demo, allow_root=None)
 
 
 #: the registration functions, in the order the commands are listed

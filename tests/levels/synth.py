@@ -15,7 +15,7 @@ import pandas as pd
 from widgetkit.levels import Diatomic, line_position, rotational_partition, scale_constants
 from widgetkit.levels.candidates import C2
 
-# handbook values, from memory (reference/diatomics.md; Huber & Herzberg 1979)
+# handbook values, from memory (Huber & Herzberg 1979)
 HCL = dict(omega_e=2990.946, omega_e_x_e=52.8186, omega_e_y_e=0.2243, B_e=10.59341,
            alpha_e=0.30718, D_e=5.3194e-4)
 CO = dict(omega_e=2169.81358, omega_e_x_e=13.28831, omega_e_y_e=0.010511, B_e=1.93128087,

@@ -13,7 +13,7 @@ from widgetkit.levels import (
     fit_band,
 )
 
-# H35Cl 1-0 line positions (reference/diatomics.md, from memory)
+# H35Cl 1-0 line positions (HITRAN-type line list values, from memory)
 R = [2906.25, 2925.90, 2944.91, 2963.29, 2981.00, 2998.05]  # R(0)..R(5)
 P = [2865.10, 2843.63, 2821.57, 2798.94, 2775.77, 2752.04]  # P(1)..P(6)
 
@@ -28,7 +28,8 @@ def test_twelve_remembered_lines_give_the_listed_constants():
     Ju, Jl, y = _arrays()
     bf = fit_band(Ju, Jl, y, centrifugal="shared")
     v = bf.values
-    # diatomics.md, computed: ν0 = 2885.977, B0 = 10.4399, B1 = 10.1362, D = 5.24e-4, rms 0.0035
+    # computed (least squares of these 12 lines): ν0 = 2885.977, B0 = 10.4399, B1 = 10.1362,
+    # D = 5.24e-4, rms 0.0035
     assert v["band_origin"] == pytest.approx(2885.977, abs=5e-4)
     assert v["B_lower"] == pytest.approx(10.4399, abs=5e-5)
     assert v["B_upper"] == pytest.approx(10.1362, abs=5e-5)
@@ -44,7 +45,7 @@ def test_twelve_remembered_lines_are_assigned_without_any_constants():
     assert [got[x] for x in R] == [f"R({j})" for j in range(6)]
     assert [got[x] for x in P] == [f"P({j})" for j in range(1, 7)]
     nu0, e = res.constant("band_origin")
-    assert nu0 == pytest.approx(2885.977, abs=5e-4)  # diatomics.md, computed
+    assert nu0 == pytest.approx(2885.977, abs=5e-4)  # computed (least squares of the 12 lines)
     assert res.constant("B_lower")[0] == pytest.approx(10.4399, abs=5e-5)  # same
     assert res.constant("B_upper")[0] == pytest.approx(10.1362, abs=5e-5)  # same
     assert 0 < e < 0.01  # from the scatter of lines rounded to 0.01 cm-1
@@ -56,13 +57,13 @@ def test_combination_differences_agree_with_the_full_fit():
     rows, consts = combination_differences(Ju, Jl, y, None, bf)
     c = {n: (v, e) for n, v, e, _ in consts}
     lower = [r for r in rows if r["state"] == "lower"]
-    # R(J−1) − P(J+1) exists for J = 1..5 with R(0..5), P(1..6) (DOMAIN.md)
+    # R(J−1) − P(J+1) exists for J = 1..5 with R(0..5), P(1..6) (combination differences, Herzberg 1950)
     assert [r["J"] for r in lower] == [1, 2, 3, 4, 5]
     assert lower[0]["value"] == pytest.approx(R[0] - P[1], abs=1e-12)
     for state in ("lower", "upper"):
         d, e = c[f"B_{state}_cd_diff"]
         assert abs(d) < 3 * e  # the two routes to B agree within the exact error of their difference
-    assert c["B_lower_cd"][0] == pytest.approx(10.4399, abs=2e-3)  # diatomics.md, computed
+    assert c["B_lower_cd"][0] == pytest.approx(10.4399, abs=2e-3)  # computed (least squares, 12 lines)
 
 
 def test_combination_difference_of_exact_lines_recovers_b_and_d_exactly():
@@ -81,15 +82,15 @@ def test_combination_difference_of_exact_lines_recovers_b_and_d_exactly():
 
 
 def test_equilibrium_constants_and_bond_length_of_hcl():
-    # B0, B1 = 10.43982, 10.13264 (diatomics.md, computed from Be, αe): exact lines, tiny errors
+    # B0, B1 = 10.43982, 10.13264 (computed from the handbook Be, αe): exact lines, tiny errors
     J = np.arange(0, 10)
     Ju, Jl = np.r_[J + 1, J[1:] - 1], np.r_[J, J[1:]]
     y = 2886.0 + 10.13264 * Ju * (Ju + 1) - 10.43982 * Jl * (Jl + 1)
     bf = fit_band(Ju, Jl, y, np.full(len(y), 1e-4), centrifugal="none")
     c = {n: (v, e) for n, v, e, _ in equilibrium_constants(bf, 1, 0, 0.979592539)}
-    assert c["B_e"][0] == pytest.approx(10.59341, abs=1e-5)  # diatomics.md, handbook, from memory
+    assert c["B_e"][0] == pytest.approx(10.59341, abs=1e-5)  # Huber & Herzberg 1979, from memory
     assert c["alpha_e"][0] == pytest.approx(0.30718, abs=1e-5)  # same
-    assert c["r_e"][0] == pytest.approx(1.2745522, abs=2e-6)  # diatomics.md, computed
+    assert c["r_e"][0] == pytest.approx(1.2745522, abs=2e-6)  # computed (scipy.constants, periodictable)
     assert c["r_e"][1] > 0
 
 
@@ -97,7 +98,7 @@ def test_co_bond_length_from_handbook_be():
     from widgetkit.levels.bandfit import R_E_CONSTANT
 
     r = np.sqrt(R_E_CONSTANT / (6.85620864 * 1.93128087))
-    assert r == pytest.approx(1.1283232, abs=1e-6)  # diatomics.md, computed
+    assert r == pytest.approx(1.1283232, abs=1e-6)  # computed (scipy.constants, periodictable)
 
 
 def test_too_few_lines_for_the_parameters_is_an_assignment_error():

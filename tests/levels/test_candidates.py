@@ -54,14 +54,14 @@ def test_isotopologue_lines_are_shifted_by_mass_scaling():
     c = candidate_transitions(Diatomic("H", "Cl"), HCL, v_max=1, J_max=2)
     r0 = c[c["label"] == "R(0)"].set_index("isotopologue")["position"]
     shift = r0["1H-35Cl"] - r0["1H-37Cl"]
-    assert 1.9 < shift < 2.3  # R(0) 2906.25 vs 2904.11 (diatomics.md, from memory): 2.14
+    assert 1.9 < shift < 2.3  # R(0) 2906.25 vs 2904.11 (HITRAN-type line list values, from memory): 2.14
 
 
 def test_most_populated_level_and_partition_function_of_hcl_at_300k():
     c = candidate_transitions(Diatomic("1H", "35Cl"), {**HCL, "D_e": 0.0}, v_max=1, J_max=20,
                               temperature=300.0)
     r = c[c["branch"] == "R"]
-    assert int(r.loc[r["population"].idxmax(), "J_lower"]) == 3  # diatomics.md, computed
+    assert int(r.loc[r["population"].idxmax(), "J_lower"]) == 3  # computed (Boltzmann populations)
     assert rotational_partition(10.43982, 0.0, 300.0) == pytest.approx(20.31, abs=0.01)  # same
 
 

@@ -1,6 +1,6 @@
 """Headless path spectrum -> peaks -> lines -> assignments -> constants through the session,
 on a spectrum simulated by widgetkit.simulate from the handbook constants of H35Cl
-(reference/diatomics.md, handbook values from memory)."""
+(Huber & Herzberg 1979, handbook values from memory)."""
 
 import numpy as np
 import pytest

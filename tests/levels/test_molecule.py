@@ -1,4 +1,4 @@
-"""Molecules, isotopologues and mass scaling (check values from reference/diatomics.md)."""
+"""Molecules, isotopologues and mass scaling (reduced masses computed from periodictable's AME2020 masses)."""
 
 import numpy as np
 import periodictable
@@ -18,8 +18,9 @@ def test_reduced_masses_come_from_periodictable():
     co = Diatomic("C", "O").main
     m1, m35 = periodictable.H[1].mass, periodictable.Cl[35].mass  # reference library (AME2020)
     assert hcl.reduced_mass == pytest.approx(m1 * m35 / (m1 + m35), rel=1e-15)
-    assert hcl.reduced_mass == pytest.approx(0.979592539, rel=1e-9)  # diatomics.md, computed
-    assert co.reduced_mass == pytest.approx(6.85620864, rel=1e-9)  # diatomics.md, computed
+    # computed, periodictable masses (AME2020)
+    assert hcl.reduced_mass == pytest.approx(0.979592539, rel=1e-9)
+    assert co.reduced_mass == pytest.approx(6.85620864, rel=1e-9)  # computed, periodictable masses (AME2020)
 
 
 def test_abundances_are_products_of_natural_abundances():
@@ -46,14 +47,14 @@ def test_isotope_ratio_rho_matches_reference():
     co = Diatomic("C", "O").isotopologues
     rho_hcl = np.sqrt(hcl[0].reduced_mass / hcl[1].reduced_mass)
     rho_co = np.sqrt(co[0].reduced_mass / co[1].reduced_mass)
-    assert rho_hcl == pytest.approx(0.9992430171, rel=1e-9)  # diatomics.md, computed
-    assert rho_co == pytest.approx(0.9777084824, rel=1e-9)  # diatomics.md, computed
+    assert rho_hcl == pytest.approx(0.9992430171, rel=1e-9)  # computed, periodictable masses (AME2020)
+    assert rho_co == pytest.approx(0.9777084824, rel=1e-9)  # computed, periodictable masses (AME2020)
 
 
 def test_mass_scaling_uses_the_textbook_powers_of_rho():
     c = scale_constants({"omega_e": 1.0, "omega_e_x_e": 1.0, "B_e": 1.0, "alpha_e": 1.0,
                          "D_e": 1.0, "other": 5.0}, 0.5)
-    # ωe ∝ ρ, ωexe ∝ ρ², Be ∝ ρ², αe ∝ ρ³, D ∝ ρ⁴ (DOMAIN.md; Herzberg)
+    # ωe ∝ ρ, ωexe ∝ ρ², Be ∝ ρ², αe ∝ ρ³, D ∝ ρ⁴ (Herzberg, Spectra of Diatomic Molecules, 1950)
     assert c == {"omega_e": 0.5, "omega_e_x_e": 0.25, "B_e": 0.25, "alpha_e": 0.125,
                  "D_e": 0.0625, "other": 5.0}
 

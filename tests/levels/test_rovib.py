@@ -1,5 +1,5 @@
 """End-to-end rovibrational assignment of simulated bands (self-consistency with the
-handbook constants of reference/diatomics.md, handbook values from memory) and its
+handbook constants of Huber & Herzberg 1979, values from memory) and its
 behaviour with missing, extra, shifted and locked lines."""
 
 import numpy as np
@@ -33,7 +33,7 @@ def test_every_simulated_hcl_line_gets_its_true_label_and_isotopologue(hcl_band)
 
 def test_recovered_hcl_constants_agree_with_those_simulated_within_errors(hcl_band):
     _, res = hcl_band
-    # handbook constants (diatomics.md, from memory) went in; each comes back within 3σ
+    # handbook constants (Huber & Herzberg 1979, from memory) went in; each comes back within 3σ
     _within(res, "1H-35Cl", band_constants(HCL),
             ["band_origin", "B_upper", "B_lower", "D_upper", "D_lower", "B_e", "alpha_e"])
     rho = np.sqrt(HCL_MOL.isotopologues[0].reduced_mass / HCL_MOL.isotopologues[1].reduced_mass)
@@ -46,7 +46,7 @@ def test_recovered_hcl_constants_agree_with_those_simulated_within_errors(hcl_ba
 def test_hcl_bond_length_matches_reference(hcl_band):
     _, res = hcl_band
     r, e = res.constant("r_e", "1H-35Cl")
-    assert abs(r - 1.2745522) < 3 * e  # diatomics.md, computed from the handbook Be
+    assert abs(r - 1.2745522) < 3 * e  # computed from the handbook Be with scipy.constants and periodictable
     assert res.constants.set_index(["isotopologue", "name"]).loc[("1H-35Cl", "r_e"), "unit"] == "Å"
 
 
@@ -82,7 +82,8 @@ def test_co_with_13co_is_assigned_end_to_end():
     _within(res, "12C-16O", band_constants(CO), ["band_origin", "B_upper", "B_lower", "B_e",
                                                   "alpha_e"])
     r, e = res.constant("r_e", "12C-16O")
-    assert abs(r - 1.1283232) < 3 * e + 1e-6  # diatomics.md, computed
+    # computed from the handbook Be with scipy.constants and periodictable
+    assert abs(r - 1.1283232) < 3 * e + 1e-6
 
 
 def test_dcl_isotopologue_pair_is_split_by_the_mass_shift():
@@ -111,7 +112,7 @@ def test_a_missing_line_next_to_the_origin_is_coped_with(hcl_band, Ju, Jl):
 def test_a_band_missing_both_lines_next_to_the_origin_keeps_its_true_spacing():
     # weak overtone bands picked at a high threshold lose R(0) and P(1) together; the seed
     # must then take the gap as four spacings, not pair every other line (self-consistency
-    # with CO handbook constants, reference/diatomics.md, from memory)
+    # with CO handbook constants, Huber & Herzberg 1979, from memory)
     co = Diatomic("12C", "16O")
     df = line_list(co, CO, band=(2, 0), J_max=14, sigma=0.002, seed=5)
     drop = ((df["Ju"] == 1) & (df["Jl"] == 0)) | ((df["Ju"] == 0) & (df["Jl"] == 1))

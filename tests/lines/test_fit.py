@@ -221,7 +221,7 @@ def test_importing_the_line_engine_loads_no_widget_library():
 
     code = ("import sys, widgetkit.lines; "
             "sys.exit(int('ipywidgets' in sys.modules or 'bqplot' in sys.modules))")
-    assert subprocess.run([sys.executable, "-c", code]).returncode == 0  # ARCHITECTURE.md rule
+    assert subprocess.run([sys.executable, "-c", code]).returncode == 0  # layering rule (DEVELOPERS.md)
 
 
 def test_a_forty_line_band_converges_with_every_line_found():

@@ -2,7 +2,7 @@
 
 Source: NIST/ITL Statistical Reference Datasets, nonlinear least squares,
 "Gauss1" and "Gauss2" (Rust, B., NIST, 1996), copied unmodified into
-tests/data/ from /work/shared/reference/nist-strd/. The model is
+tests/data/ (US government work, public domain). The model is
 y = b1 exp(-b2 x) + b3 exp(-(x-b4)²/b5²) + b6 exp(-(x-b7)²/b8²): b1, b2 are our
 exponential baseline b0, b1; b3, b6 heights; b4, b7 positions; b5, b8 = sigma·√2.
 """

@@ -95,7 +95,7 @@ def test_exact_voigt_fwhm_agrees_with_olivero_longbothum_within_its_stated_accur
 
 
 def test_voigt_fwhm_reduces_to_the_gaussian_and_lorentzian_limits():
-    # FWHM = 2 sigma sqrt(2 ln 2) and 2 gamma (common practice, see DOMAIN.md)
+    # FWHM = 2 sigma sqrt(2 ln 2) and 2 gamma (common practice)
     assert float(wl.voigt_fwhm(0.8, 0.0)) == pytest.approx(0.8 * 2 * np.sqrt(2 * np.log(2)),
                                                            rel=1e-12)
     assert float(wl.voigt_fwhm(1e-7, 0.6)) == pytest.approx(1.2, rel=1e-6)
@@ -112,7 +112,7 @@ def test_tch_pseudo_voigt_mixing_goes_from_pure_gaussian_to_pure_lorentzian():
 
 
 def test_doppler_sigma_matches_the_standard_fwhm_formula():
-    # FWHM_D ≈ 7.162e-7 * nu0 * sqrt(T / M) (standard Doppler width, DOMAIN.md / common practice)
+    # FWHM_D ≈ 7.162e-7 * nu0 * sqrt(T / M) (standard Doppler width, common practice)
     nu0, t, mass = 2886.0, 296.0, 36.46
     fwhm = float(wl.doppler_sigma(nu0, t, mass)) * 2 * np.sqrt(2 * np.log(2))
     assert fwhm == pytest.approx(7.162e-7 * nu0 * np.sqrt(t / mass), rel=2e-4)

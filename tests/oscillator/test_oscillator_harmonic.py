@@ -36,9 +36,9 @@ def test_hermite_recursion_matches_scipy_eval_hermite():
         np.testing.assert_allclose(hermite(n, x), eval_hermite(n, x), rtol=1e-12, atol=1e-12)
 
 
-def test_hermite_values_match_the_reference_notes():
-    assert hermite(5, 0.5) == pytest.approx(41.0, rel=1e-14)  # diatomics.md, "computed": H5(0.5) = 41
-    assert hermite(6, 1.0) == pytest.approx(184.0, rel=1e-14)  # diatomics.md, "computed": H6(1) = 184
+def test_hermite_values_match_the_computed_values():
+    assert hermite(5, 0.5) == pytest.approx(41.0, rel=1e-14)  # H5(0.5) = 41 (scipy.special.eval_hermite)
+    assert hermite(6, 1.0) == pytest.approx(184.0, rel=1e-14)  # H6(1) = 184 (scipy.special.eval_hermite)
 
 
 def test_harmonic_wavefunctions_are_the_normalised_hermite_functions():
@@ -73,17 +73,17 @@ def test_q_matrix_elements_are_sqrt_v_plus_one_over_two_and_all_others_vanish(le
     s = 1.0 / harmonic_length(OMEGA, MU)  # q = (r - r_e) / L
     q = transition_moments(levels, (0.0, s))
     v = np.arange(N - 1)
-    ref = np.sqrt((v + 1) / 2.0)  # diatomics.md formula check: <v|q|v+1> = sqrt((v+1)/2)
+    ref = np.sqrt((v + 1) / 2.0)  # harmonic oscillator (common practice): <v|q|v+1> = sqrt((v+1)/2)
     np.testing.assert_allclose(np.diag(q, 1), ref, rtol=1e-10)
     np.testing.assert_allclose(np.diag(q, -1), ref, rtol=1e-10)
     off = q.copy()
     off[v, v + 1] = 0.0
     off[v + 1, v] = 0.0
-    assert np.max(np.abs(off)) < 1e-10 * ref[0]  # all others zero (diatomics.md formula check)
+    assert np.max(np.abs(off)) < 1e-10 * ref[0]  # all others zero (harmonic selection rule, common practice)
 
 
 def test_length_scale_uses_the_codata_kinetic_constant():
-    # r_e^2 = 16.857629 / (mu B_e) in DOMAIN.md: h/(8 pi^2 c u) in cm-1 Å^2 (computed, scipy.constants)
+    # r_e^2 = 16.857629 / (mu B_e): h/(8 pi^2 c u) in cm-1 Å^2 (computed, scipy.constants)
     assert KINETIC == pytest.approx(16.857629, rel=1e-7)
 
 
@@ -114,7 +114,7 @@ def test_vibrational_partition_function_is_the_geometric_series(levels):
     # Q_vib = (1 - x^N)/(1 - x) for N equally spaced levels (closed form)
     assert q == pytest.approx((1 - x**N) / (1 - x), rel=1e-12)
     assert p[1] / p[0] == pytest.approx(x, rel=1e-12)
-    assert wk.oscillator.C2 == pytest.approx(1.4387769, rel=1e-7)  # DOMAIN.md: c2 = 1.4387769 cm K
+    assert wk.oscillator.C2 == pytest.approx(1.4387769, rel=1e-7)  # c2 = 1.4387769 cm K (CODATA 2018)
 
 
 def test_hot_bands_get_their_boltzmann_weight(levels):

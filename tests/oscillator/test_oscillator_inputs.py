@@ -82,7 +82,8 @@ def test_band_table_has_the_documented_columns():
     # km/mol = cm/molecule x N_A x 1e-5 (unit conversion, scipy.constants)
     assert row["integrated_absorption_km_mol"] == pytest.approx(
         row["integrated_absorption"] * sc.N_A * 1e-5, rel=1e-12)
-    assert row["position"] == pytest.approx(2169.81358 - 2 * 13.28831, rel=1e-9)  # DOMAIN.md: we - 2wexe
+    # two-term 1-0 = we - 2wexe (Herzberg 1950)
+    assert row["position"] == pytest.approx(2169.81358 - 2 * 13.28831, rel=1e-9)
 
 
 def test_results_are_read_only_and_a_given_grid_array_is_left_untouched():

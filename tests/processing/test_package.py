@@ -20,5 +20,5 @@ def test_importing_processing_leaves_the_widget_libraries_unloaded():
         "if m in sys.modules))"
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
-    # layering rule (ARCHITECTURE.md): computation imports neither faces nor the session
+    # layering rule (DEVELOPERS.md): computation imports neither faces nor the session
     assert out.stdout.strip() == "[]"

@@ -94,7 +94,7 @@ def test_find_peaks_agrees_with_scipy_signal_find_peaks():
     x, y, _, _ = _demo_lines()
     noise = estimate_noise(y)
     table = find_peaks(x, y, min_snr=8.0)
-    # reference: scipy.signal.find_peaks with the prominence threshold the brief specifies
+    # reference: scipy.signal.find_peaks with the prominence threshold find_peaks documents
     idx, props = signal.find_peaks(y, prominence=8.0 * noise)
     assert table["index"].tolist() == idx.tolist()
     assert np.allclose(table["prominence"], props["prominences"])

@@ -26,7 +26,7 @@ def _spectrum(y_kind: str = "absorbance", n: int = 11) -> Spectrum:
 def test_crop_keeps_points_between_the_bounds_with_both_ends_included():
     s = _spectrum()
     out = crop(s, 1002.0, 1005.0)
-    # contract (brief / API.md): lo <= x <= hi, ends included
+    # contract (Session.crop docstring): lo <= x <= hi, ends included
     assert out.x.tolist() == [1002.0, 1003.0, 1004.0, 1005.0]
     assert np.array_equal(out.y, s.y[2:6])
 
@@ -73,7 +73,7 @@ def test_to_absorbance_takes_minus_log10_of_transmittance():
     x = [1000.0, 1001.0, 1002.0, 1003.0]
     t = [1.0, 0.1, 0.01, 0.5]
     out = to_absorbance(Spectrum(x, t, y_kind="transmittance"))
-    # A = -log10 T (decadic absorbance, IUPAC definition, from memory; DOMAIN.md):
+    # A = -log10 T (decadic absorbance, IUPAC definition, from memory):
     # T = 1 -> 0, T = 0.1 -> 1, T = 0.01 -> 2, T = 0.5 -> log10 2 = 0.30103 (log table, from memory)
     assert out.y == pytest.approx([0.0, 1.0, 2.0, 0.30103], abs=1e-5)
     assert out.y_kind == "absorbance"

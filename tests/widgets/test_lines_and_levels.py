@@ -157,7 +157,7 @@ def test_an_unknown_molecule_is_reported(fitted):
 
 
 def test_fortrat_m_follows_the_convention_of_the_branches():
-    # m = J'' + 1 for R(J''), m = −J'' for P(J'') (DOMAIN.md; common practice)
+    # m = J'' + 1 for R(J''), m = −J'' for P(J'') (Herzberg 1950; common practice)
     m = fortrat_m([1, 2, 0, 1, 3], [0, 1, 1, 2, 3])
     assert m[:4].tolist() == [1.0, 2.0, -1.0, -2.0] and np.isnan(m[4])
 

@@ -9,7 +9,7 @@ from widgetkit.widgets.numbers import format_uncertainty, format_value
 
 
 def test_the_example_of_the_trade_is_written_with_one_digit_of_uncertainty():
-    # DOMAIN.md / the issue: 2885.977(3) means 2885.977 ± 0.003
+    # common practice (CODATA tables, GUM 7.2.2): 2885.977(3) means 2885.977 ± 0.003
     assert format_uncertainty(2885.97741, 0.0031) == "2885.977(3)"
 
 

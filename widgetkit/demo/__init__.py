@@ -1,6 +1,8 @@
 """The demo: an invented scenario, its simulated spectra, and ``widgetkit demo``.
 
 >>> import widgetkit as wk
+>>> wk.demo.data_names()                            # doctest: +SKIP
+['co_overview.jdx', 'hcl_cell_296K.jdx', 'hcl_cell_420K.csv']
 >>> wk.demo.data_path("hcl_cell_296K.jdx")          # doctest: +SKIP
 >>> wk.demo.copy_demo("~/widgetkit-demo")           # doctest: +SKIP
 
@@ -31,8 +33,10 @@ from .scenario import LAB, SAFETY_NOTE, SAMPLES, SCENARIO
 
 __all__ = [
     "SCENARIO", "SAFETY_NOTE", "SAMPLES", "LAB", "QUICK_START",
-    "data_dir", "data_path", "notebooks_dir", "demo_sources", "default_demo_dir",
+    "data_dir", "data_names", "data_path", "DemoDataError", "notebooks_dir", "demo_sources",
+    "default_demo_dir",
     "copy_demo", "CopyReport", "DemoFolderError", "jupyter_command", "run_demo",
+    "running_as_root", "ROOT_NOTE",
 ]
 
 QUICK_START = "01-quick-start.ipynb"
@@ -44,17 +48,50 @@ class DemoFolderError(WidgetkitError, ValueError):
     """The demo folder cannot be used (inside the installed package, or not a folder)."""
 
 
+class DemoDataError(WidgetkitError, FileNotFoundError):
+    """No shipped demo file of that name (the message lists the names there are)."""
+
+
 def data_dir() -> Path:
-    """The folder of the shipped demo data."""
+    """The folder of the shipped demo data (inside the installed package; read it, do not
+    write there: :func:`copy_demo` gives you a copy of your own)."""
     return _PKG / "data"
 
 
+def data_names() -> list[str]:
+    """The names of the shipped demo spectra (``SAMPLES``), e.g. ``"hcl_cell_296K.jdx"``."""
+    return sorted(SAMPLES)
+
+
 def data_path(name: str) -> Path:
-    """The path of one shipped demo file, e.g. ``data_path("hcl_cell_296K.jdx")``."""
-    p = data_dir() / name
-    if not p.is_file():
+    """The path of one shipped demo file, ready for :func:`widgetkit.read_spectrum`.
+
+    Parameters
+    ----------
+    name : str
+        One of :func:`data_names` (``"hcl_cell_296K.jdx"``: HCl 1-0 band, transmittance,
+        296 K; ``"hcl_cell_420K.csv"``: the same cell at 420 K as delimited text;
+        ``"co_overview.jdx"``: CO fundamental and first overtone), or ``"README.md"``
+        (the invented scenario behind them).
+
+    Returns
+    -------
+    pathlib.Path
+
+    Raises
+    ------
+    DemoDataError
+        (also a ``FileNotFoundError``) for any other name; the message lists the files.
+
+    Examples
+    --------
+    >>> import widgetkit as wk
+    >>> s = wk.Session.from_file(wk.demo.data_path("hcl_cell_296K.jdx"))  # doctest: +SKIP
+    """
+    p = data_dir() / str(name)
+    if Path(str(name)).name != str(name) or not p.is_file():
         known = ", ".join(sorted(f.name for f in data_dir().iterdir() if f.is_file()))
-        raise FileNotFoundError(f"no demo file {name!r}; the demo files are: {known}")
+        raise DemoDataError(f"no demo file {name!r}; the demo files are: {known}")
     return p
 
 
@@ -245,13 +282,25 @@ def jupyter_command(folder: str | os.PathLike, *, notebook: str = QUICK_START,
     return cmd
 
 
+def running_as_root() -> bool:
+    """True when the process runs with user id 0 (root, as in most containers)."""
+    return hasattr(os, "geteuid") and os.geteuid() == 0
+
+
+ROOT_NOTE = ("running as root (as in most containers): starting Jupyter with --allow-root; the "
+             "server still listens on 127.0.0.1 only, with its token")
+
+
 def run_demo(folder: str | os.PathLike | None = None, *, browser: bool = True,
              ask: Callable[[str], bool] | None = None, port: int | None = None,
-             allow_root: bool = False,
+             allow_root: bool | None = None,
              launcher: Callable[[Sequence[str], Path], int] | None = None,
              echo: Callable[[str], None] | None = None) -> int:
     """Copy the demo (:func:`copy_demo`) and start JupyterLab there (:func:`jupyter_command`).
 
+    ``allow_root``: None (default) passes Jupyter's ``--allow-root`` exactly when the
+    process runs as root (Jupyter refuses to start as root otherwise) and says so in
+    one line; True or False force it on or off.
     ``launcher(cmd, cwd) -> exit status`` runs the command (default: ``subprocess.call``,
     waiting until the server stops); tests inject their own. Returns its exit status.
     """
@@ -263,10 +312,14 @@ def run_demo(folder: str | os.PathLike | None = None, *, browser: bool = True,
     for rel, backup in report.backups.items():
         say(f"  replaced {rel}; your edited copy is saved as {backup}")
     say(SAFETY_NOTE)
+    root = running_as_root()
+    if allow_root is None:
+        allow_root = root
+        if root:
+            say(ROOT_NOTE)
+    elif root and not allow_root:
+        say("note: you are root and --allow-root was turned off; Jupyter will refuse to start")
     cmd = jupyter_command(report.folder, browser=browser, port=port, allow_root=allow_root)
-    if not allow_root and hasattr(os, "geteuid") and os.geteuid() == 0:
-        say("note: you are root; Jupyter refuses to start as root unless you add --allow-root "
-            "(better: run the demo as an ordinary user)")
     say("starting JupyterLab on 127.0.0.1 (token authentication on): " + " ".join(cmd[2:]))
     run = launcher or (lambda c, cwd: subprocess.call(list(c), cwd=cwd))
     return int(run(cmd, report.folder))

@@ -1,11 +1,10 @@
 """Handbook constants for demos and examples.
 
 Values: Huber and Herzberg, *Constants of Diatomic Molecules* (1979), recalled
-from memory as given in the project's reference notes
-(shared/reference/diatomics.md); cm⁻¹, r_e in Å; ground states X ¹Σ⁺.
+from memory; cm⁻¹, r_e in Å; ground states X ¹Σ⁺.
 ``D_e`` is the centrifugal-distortion constant (taken equal for all v).
 
-For HCl, ``gamma_e`` ≈ 0.0017 cm⁻¹ is of LOW confidence (the notes say it is
+For HCl, ``gamma_e`` ≈ 0.0017 cm⁻¹ is of LOW confidence (it is
 needed to reproduce high-J lines to 0.01 cm⁻¹ from B_e and α_e alone);
 ω_e y_e and D_e are of medium confidence. These numbers are for demos; tests
 that use them as check values must say "handbook value, from memory".
