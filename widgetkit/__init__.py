@@ -8,7 +8,7 @@ The headless API (no widget is imported by ``import widgetkit``)::
     s.to_absorbance()
     s.find_peaks(min_snr=8)
     s.fit_lines(shape="voigt")
-    s.assign_band(wk.Diatomic("H", "Cl"))
+    s.assign_band(wk.Diatomic("H", "Cl"))     # or wk.Linear("OCO"), kind="parallel"
     s.constants
 
 Sub-packages ``wk.lines``, ``wk.levels``, ``wk.oscillator``, ``wk.simulate``,
@@ -47,6 +47,7 @@ __all__ = [
     "Step",
     "VerifyReport",
     "Diatomic",
+    "Linear",
     "WidgetkitError",
     "SpectrumFormatError",
     "SessionFormatError",
@@ -75,6 +76,7 @@ _LAZY_NAMES = {
     "Step": ("session", "Step"),
     "VerifyReport": ("session", "VerifyReport"),
     "Diatomic": ("levels", "Diatomic"),
+    "Linear": ("levels", "Linear"),
 }
 
 

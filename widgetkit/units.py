@@ -6,6 +6,14 @@ Conversions (CODATA constants from :mod:`scipy.constants`):
 * wavelength λ in nm: ν̃ = 10⁷ / λ
 * wavelength λ in µm: ν̃ = 10⁴ / λ
 * frequency ν in THz: ν̃ = ν·10¹² / (100 c), 1 THz ≈ 33.35641 cm⁻¹
+* wavelengths measured in air: λ_vac = n(σ) λ_air with the refractive index of
+  standard dry air of Edlén (Metrologia 2 (1966) 71), in the form adopted by the
+  IAU (Morton, ApJS 130 (2000) 403)::
+
+      n − 1 = 8.34254e-5 + 2.406147e-2 / (130 − σ²) + 1.5998e-4 / (38.9 − σ²)
+
+  with σ the vacuum wavenumber in µm⁻¹ (15 °C, 101 325 Pa, 0.03 % CO₂); valid from
+  about 200 nm into the infrared, good to about 1e-8 in n for standard air.
 """
 
 from __future__ import annotations
@@ -14,7 +22,8 @@ import re
 
 import numpy as np
 
-__all__ = ["X_UNITS", "normalise_x_unit", "to_wavenumber", "from_wavenumber", "C_CM_PER_S"]
+__all__ = ["X_UNITS", "normalise_x_unit", "to_wavenumber", "from_wavenumber", "C_CM_PER_S",
+           "air_refractive_index", "air_to_vacuum_nm", "vacuum_to_air_nm"]
 
 #: speed of light in cm/s (CODATA exact value, 299 792 458 m/s)
 C_CM_PER_S = 299_792_458.0 * 100.0
@@ -96,3 +105,29 @@ def from_wavenumber(values, unit: str) -> np.ndarray:
     if np.any(v <= 0):
         raise ValueError(f"wavenumbers must be positive to convert to a wavelength in {unit}")
     return (1.0e7 if unit == "nm" else 1.0e4) / v
+
+
+def air_refractive_index(vacuum_wavenumber_cm):
+    """Refractive index n of standard dry air at vacuum wavenumber ν̃ (cm⁻¹), Edlén (1966) as in
+    the module docstring (σ = ν̃ / 10⁴ in µm⁻¹)."""
+    sigma2 = (np.asarray(vacuum_wavenumber_cm, dtype=np.float64) / 1.0e4) ** 2
+    return 1.0 + 8.34254e-5 + 2.406147e-2 / (130.0 - sigma2) + 1.5998e-4 / (38.9 - sigma2)
+
+
+def vacuum_to_air_nm(vacuum_nm):
+    """Air wavelength (nm) of light of vacuum wavelength ``vacuum_nm``: λ_air = λ_vac / n."""
+    lv = np.asarray(vacuum_nm, dtype=np.float64)
+    return lv / air_refractive_index(1.0e7 / lv)
+
+
+def air_to_vacuum_nm(air_nm):
+    """Vacuum wavelength (nm) of light of air wavelength ``air_nm``: λ_vac = n(λ_vac) λ_air,
+    solved by fixed-point iteration (n depends weakly on λ; converged to < 1e-12 relative)."""
+    la = np.asarray(air_nm, dtype=np.float64)
+    if np.any(~np.isfinite(la)) or np.any(la < 185.0):
+        raise ValueError("air wavelengths must be finite and at least 185 nm (the dispersion "
+                         "formula holds from about 200 nm into the infrared)")
+    lv = la * air_refractive_index(1.0e7 / la)
+    for _ in range(6):
+        lv = la * air_refractive_index(1.0e7 / lv)
+    return lv

@@ -29,10 +29,15 @@ def rot_constant(v, B_e: float, alpha_e: float = 0.0, gamma_e: float = 0.0):
     return B_e - alpha_e * h + gamma_e * h**2
 
 
-def rot_term(J, B_v, D_v=0.0):
-    """F_v(J) = B_v J(J+1) − D_v J²(J+1)² in cm⁻¹."""
+def rot_term(J, B_v, D_v=0.0, l=0):
+    """F_v(J) = B_v x − D_v x² in cm⁻¹ with x = J(J+1) − ℓ².
+
+    ``l`` is the vibrational angular momentum ℓ of a linear polyatomic level
+    (Herzberg, *Infrared and Raman Spectra of Polyatomic Molecules*, 1945);
+    0 for a diatomic, where x = J(J+1).
+    """
     x = np.asarray(J, dtype=float)
-    x = x * (x + 1.0)
+    x = x * (x + 1.0) - float(l) ** 2
     return B_v * x - D_v * x**2
 
 

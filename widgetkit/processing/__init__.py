@@ -5,7 +5,7 @@ All functions are pure: they take a :class:`~widgetkit.spectrum.Spectrum` or
 plain arrays and return new values, record nothing and print nothing. The
 session (:mod:`widgetkit.session`) calls them and records each call as a step.
 
-Modules: :mod:`.transform` (crop, to_absorbance, to_transmittance),
+Modules: :mod:`.transform` (crop, to_absorbance, to_transmittance, to_raman_shift),
 :mod:`.baseline` (baseline_poly, baseline_als, subtract_baseline),
 :mod:`.peaks` (estimate_noise, find_peaks, nearest_maximum, peak_row,
 peak_table), :mod:`.decimate` (decimate_minmax).
@@ -32,13 +32,22 @@ from .peaks import (
     peak_table,
     refine_parabola,
 )
-from .transform import MAX_TRANSMITTANCE, crop, to_absorbance, to_transmittance
+from .transform import (
+    MAX_TRANSMITTANCE,
+    crop,
+    excitation_wavenumber,
+    to_absorbance,
+    to_raman_shift,
+    to_transmittance,
+)
 
 __all__ = [
     "ProcessingError",
     "crop",
     "to_absorbance",
     "to_transmittance",
+    "to_raman_shift",
+    "excitation_wavenumber",
     "MAX_TRANSMITTANCE",
     "baseline_poly",
     "baseline_als",

@@ -1,4 +1,4 @@
-"""Cropping and the absorbance/transmittance conversion.
+"""Cropping, the absorbance/transmittance conversion and the Raman-shift axis.
 
 Each function takes a :class:`~widgetkit.spectrum.Spectrum` and returns a new
 one; the input is never changed. ``meta`` and ``source`` are carried over
@@ -13,9 +13,11 @@ import numpy as np
 
 from ..errors import SpectrumFormatError
 from ..spectrum import Spectrum
+from ..units import air_refractive_index, air_to_vacuum_nm, normalise_x_unit, to_wavenumber
 from ._common import ProcessingError, describe_runs
 
-__all__ = ["crop", "to_absorbance", "to_transmittance", "MAX_TRANSMITTANCE"]
+__all__ = ["crop", "to_absorbance", "to_transmittance", "MAX_TRANSMITTANCE", "to_raman_shift",
+           "excitation_wavenumber"]
 
 #: transmittance fractions above this are refused by :func:`to_absorbance`
 #: (they look like percent, which must be divided by 100 first)
@@ -168,3 +170,114 @@ def to_transmittance(spectrum: Spectrum) -> Spectrum:
             "overflow T = 10**(-A); check the data (is it really decadic absorbance?)"
         )
     return spectrum.replace(y=np.power(10.0, -a), y_kind="transmittance")
+
+
+def excitation_wavenumber(excitation: float, unit: str = "nm", medium: str | None = None) -> float:
+    """Vacuum wavenumber (cm⁻¹) of the exciting laser line.
+
+    Parameters
+    ----------
+    excitation : float
+        The laser line, > 0.
+    unit : str
+        ``"nm"`` (or ``"um"``) for a wavelength, ``"cm-1"`` for a wavenumber (vacuum).
+    medium : {"air", "vacuum"}
+        Required for a wavelength: laser lines are quoted both ways (532.0 nm in air is
+        532.148 nm in vacuum). An air wavelength is converted with Edlén's dispersion of
+        standard air (:func:`widgetkit.units.air_to_vacuum_nm`). For ``"cm-1"`` only
+        ``"vacuum"`` (or None) is accepted.
+    """
+    try:
+        value = float(excitation)
+    except (TypeError, ValueError):
+        raise ProcessingError(f"excitation must be a number, got {excitation!r}") from None
+    if not (math.isfinite(value) and value > 0):
+        raise ProcessingError(f"excitation must be a positive number, got {excitation!r}")
+    try:
+        u = normalise_x_unit(unit)
+    except ValueError as exc:
+        raise ProcessingError(f"excitation unit: {exc}") from None
+    if u == "THz":
+        raise ProcessingError("give the excitation as a wavelength ('nm') or a wavenumber ('cm-1')")
+    if u == "cm-1":
+        if medium not in (None, "vacuum"):
+            raise ProcessingError(
+                f"medium={medium!r} with a wavenumber: widgetkit takes excitation wavenumbers as "
+                "vacuum values; give an air wavelength with unit='nm', medium='air' instead")
+        return value
+    if medium not in ("air", "vacuum"):
+        raise ProcessingError(
+            f"say whether the excitation wavelength {value:g} {u} is measured in air or in vacuum: "
+            "medium='air' or medium='vacuum' (laser lines are quoted both ways)")
+    nm = value * (1000.0 if u == "um" else 1.0)
+    if medium == "air":
+        try:
+            nm = float(air_to_vacuum_nm(nm))
+        except ValueError as exc:
+            raise ProcessingError(f"excitation {value:g} {u} in air: {exc}") from None
+    return float(to_wavenumber(nm, "nm"))
+
+
+def to_raman_shift(spectrum: Spectrum, excitation: float, *, unit: str = "nm",
+                   medium: str | None = None, axis_medium: str = "vacuum") -> Spectrum:
+    """Re-express a spectrum recorded against absolute wavenumber as Raman shift.
+
+    Δν̃ = ν̃₀ − ν̃_s with ν̃₀ the vacuum wavenumber of the laser line
+    (:func:`excitation_wavenumber`) and ν̃_s that of the scattered light: Stokes lines
+    get positive shifts, anti-Stokes lines negative ones (kept). The result is sorted
+    ascending in Δν̃ (the order of the points reverses).
+
+    Parameters
+    ----------
+    spectrum : Spectrum
+        x is the absolute wavenumber of the scattered light (cm⁻¹), as readers give it
+        for files in cm⁻¹ or wavelength. ``y_kind`` "intensity" (an "absorbance" label,
+        which readers give when a file does not say, is taken as intensity; transmittance
+        is refused).
+    excitation, unit, medium
+        The laser line, see :func:`excitation_wavenumber`.
+    axis_medium : {"vacuum", "air"}
+        ``"air"`` when the file's x axis was a wavelength measured in air, so that the
+        reader's ν̃ = 10⁷/λ is an air value: each point is then corrected to vacuum,
+        ν̃_vac = ν̃_air / n (Edlén).
+
+    Returns
+    -------
+    Spectrum
+        x = Raman shift (cm⁻¹, ascending), y unchanged (reversed), ``y_kind="intensity"``;
+        ``meta`` gains ``x_axis="raman_shift"``, ``technique="raman"``,
+        ``excitation_wavenumber`` (vacuum cm⁻¹) and ``raman_shift`` (how it was made).
+
+    Raises
+    ------
+    ProcessingError
+        Bad excitation or medium; a spectrum that is already a Raman shift; shifts that
+        cannot be right (the spectrum lies more than 10 000 cm⁻¹ from the laser line: a
+        wavelength given as a wavenumber or the reverse).
+    """
+    meta = spectrum.meta
+    if meta.get("x_axis") == "raman_shift":
+        raise ProcessingError("the spectrum's x axis is already a Raman shift (meta x_axis = "
+                              "'raman_shift'); nothing to convert")
+    if spectrum.y_kind == "transmittance":
+        raise ProcessingError("a transmittance spectrum is an absorption measurement, not Raman "
+                              "scattering; to_raman_shift needs scattered intensity")
+    if axis_medium not in ("vacuum", "air"):
+        raise ProcessingError(f"axis_medium must be 'vacuum' or 'air', got {axis_medium!r}")
+    nu0 = excitation_wavenumber(excitation, unit, medium)
+    x = spectrum.x
+    if axis_medium == "air":
+        x = x / air_refractive_index(x / air_refractive_index(x))
+    shift = nu0 - x[::-1]
+    far = float(np.min(np.abs(shift)))
+    if far > 10000.0:
+        raise ProcessingError(
+            f"the spectrum ({spectrum.x[0]:.6g}-{spectrum.x[-1]:.6g} cm-1) lies {far:.0f} cm-1 or more "
+            f"from the laser line at {nu0:.6g} cm-1 (vacuum); check the excitation and its unit "
+            f"(given: {excitation!r} {unit})")
+    info = {"excitation": float(excitation), "unit": unit, "medium": medium,
+            "axis_medium": axis_medium, "excitation_wavenumber": nu0,
+            "y_kind_before": spectrum.y_kind}
+    meta.update({"x_axis": "raman_shift", "technique": "raman", "excitation_wavenumber": nu0,
+                 "raman_shift": info})
+    return spectrum.replace(x=shift, y=spectrum.y[::-1], y_kind="intensity", meta=meta)

@@ -163,6 +163,20 @@ class Session:
         """Convert a transmittance spectrum to absorbance, A = −log₁₀ T."""
         self._run("to_absorbance", {})
 
+    def to_raman_shift(self, excitation: float, *, unit: str = "nm", medium: str | None = None,
+                       axis_medium: str = "vacuum") -> None:
+        """Re-express the spectrum (absolute wavenumber of scattered light) as Raman shift,
+        Δν̃ = ν̃₀ − ν̃ (Stokes positive, anti-Stokes kept as negative shifts).
+
+        ``excitation`` is the laser line in ``unit`` (``"nm"`` or ``"cm-1"``); for a
+        wavelength, ``medium`` must say ``"air"`` or ``"vacuum"``. ``axis_medium="air"``
+        when the file's own wavelengths were measured in air. See
+        :func:`widgetkit.processing.to_raman_shift`. Peaks, lines and assignments of the
+        absolute axis are cleared (the step's result lists them).
+        """
+        self._run("to_raman_shift", {"excitation": excitation, "unit": unit, "medium": medium,
+                                     "axis_medium": axis_medium})
+
     def subtract_baseline(self, method: str = "poly", **opts) -> None:
         """Subtract a baseline: ``"poly"`` (``degree=``) or ``"als"`` (``lam=``, ``p=``).
 
