@@ -20,3 +20,27 @@ def band_spectrum():
 @pytest.fixture
 def session(band_spectrum):
     return wk.Session(band_spectrum)
+
+
+@pytest.fixture(scope="session")
+def hcl_saved(tmp_path_factory):
+    """A saved session of a simulated H-Cl 1-0 band (widgetkit.simulate from the handbook
+    constants in wk.simulate.HANDBOOK; demo data, self-consistency only): peaks, a Gaussian
+    line fit and a rovibrational assignment. Tests load their own copy."""
+    hcl = wk.Diatomic("H", "Cl")
+    sp = wk.simulate.rovibrational(hcl, wk.simulate.HANDBOOK["1H-35Cl"], x_range=(2700, 3050),
+                                   step=0.05, seed=3, noise=0.001, resolution=0.3,
+                                   temperature=296.0)
+    s = wk.Session(sp)
+    s.find_peaks(min_snr=10)
+    s.fit_lines(shape="gaussian")
+    s.assign_band(hcl, temperature=296.0)
+    path = tmp_path_factory.mktemp("hcl") / "hcl.session.json"
+    s.save(path)
+    return path
+
+
+@pytest.fixture
+def hcl(hcl_saved):
+    """A fresh copy of the saved H-Cl session (load, find_peaks, fit_lines, assign_band)."""
+    return wk.Session.load(hcl_saved)

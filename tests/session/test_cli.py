@@ -16,7 +16,7 @@ def test_verify_exits_0_on_a_good_file_1_on_a_changed_one_and_2_on_an_unreadable
     bad = tmp_path / "bad.json"
     bad.write_text(json.dumps(doc))
     assert main(["verify", str(bad)]) == 1
-    assert "step 2 (crop)" in capsys.readouterr().out
+    assert "step 1 (crop)" in capsys.readouterr().out
 
     junk = tmp_path / "junk.json"
     junk.write_bytes(b"\x00\x01 not json")

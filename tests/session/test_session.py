@@ -99,7 +99,7 @@ def test_verify_names_the_step_and_field_when_a_parameter_was_changed(session, t
     _tamper(path, lambda d: d["steps"][1]["params"].update(lo=2760.0))
     report = wk.Session.load(path).verify()
     assert not report.ok
-    assert any(m.startswith("step 2 (crop) result.x_min") for m in report.mismatches)
+    assert any(m.startswith("step 1 (crop) result.x_min") for m in report.mismatches)
 
 
 def test_verify_names_the_step_when_a_recorded_result_was_changed(session, tmp_path):
@@ -108,7 +108,7 @@ def test_verify_names_the_step_when_a_recorded_result_was_changed(session, tmp_p
     _tamper(path, lambda d: d["steps"][3]["result"]["peaks"]["position"].__setitem__(1, 2901.0))
     report = wk.Session.load(path).verify()
     assert not report.ok
-    assert any("step 4 (find_peaks) result.peaks.position[1]" in m for m in report.mismatches)
+    assert any("step 3 (find_peaks) result.peaks.position[1]" in m for m in report.mismatches)
 
 
 def test_verify_reports_changed_source_data_by_its_sha256(session, tmp_path):

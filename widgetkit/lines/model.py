@@ -53,21 +53,21 @@ class WindowedModel:
     x_ref : float
         Baseline axis centre.
     n_lines : int
-    tmap : ThetaMap
-        Variables -> θ.
+    tmap : ThetaMap or None
+        Variables -> θ (None to evaluate θ directly, as :mod:`.record` does).
     window : float or None
         Half-width of each window in HWHM; None for the full evaluation.
     """
 
     def __init__(self, x, y, weights, shape: Shape, baseline: Baseline, x_ref: float,
-                 n_lines: int, tmap: ThetaMap, window: float | None):
+                 n_lines: int, tmap: ThetaMap | None, window: float | None):
         self.x, self.y, self.w = x, y, weights
         self.shape, self.baseline = shape, baseline
         self.u = x - x_ref
         self.n_lines, self.tmap, self.window = n_lines, tmap, window
         self.n_lp = len(shape.param_names)
         self.n_b = len(baseline.params)
-        self._var_index = [tmap.vindex[n] for n in tmap.var_names]
+        self._var_index = [] if tmap is None else [tmap.vindex[n] for n in tmap.var_names]
         self.wings = np.zeros(x.size)
 
     # ------------------------------------------------------------- windows

@@ -1,11 +1,26 @@
-"""Step kinds for line fitting and level assignment."""
+"""Step kinds for line fitting and level assignment.
+
+Their results hold a full record of the result object (``result["record"]``,
+see :mod:`widgetkit.session.records`), so reopening a session rebuilds the line
+fit and the assignment from the record (``restore``) instead of fitting again.
+"""
 
 from __future__ import annotations
 
+import numpy as np
+
 from ..errors import AssignmentError, FitError, SessionStateError
-from .steps import State, StepKind, register_step, table_to_json
+from .records import RESULT_TYPES, Restored, decode, encode_fields, table_from_json, table_kinds
+from .steps import RecordMismatch, State, StepKind, cleared_text, register_step, table_to_json
 
 __all__ = ["FitLines", "AssignBand", "SetAssignment", "ClearAssignment", "molecule_from_param"]
+
+#: LineFit fields not recorded: the table and statistics are recorded beside the record,
+#: the arrays are rebuilt from the spectrum (:func:`widgetkit.lines.record.model_curves`),
+#: the lmfit objects and evaluation counts come from running the fit again when asked for
+_LINEFIT_NOT_RECORDED = ("table", "chisqr", "redchi", "converged", "result", "params", "nfev",
+                         "njev", "x", "y", "model_y", "baseline_y", "components", "residual")
+_CURVES = ("x", "y", "model_y", "baseline_y", "components", "residual")
 
 
 @register_step
@@ -36,10 +51,61 @@ class FitLines(StepKind):
             err.fit = fit
             raise err
         result = {"lines": table_to_json(fit.table), "chisqr": float(fit.chisqr),
-                  "redchi": float(fit.redchi), "converged": True}
+                  "redchi": float(fit.redchi), "converged": True,
+                  "record": encode_fields(fit, skip=_LINEFIT_NOT_RECORDED)}
+        cleared = {} if state.assignment is None else {"assignment": _n_assigned(state.assignment)}
+        if cleared:
+            result["cleared"] = cleared
         summary = (f"fitted {len(fit.table)} {opts.get('shape', 'voigt')} lines, "
-                   f"reduced chi-square {fit.redchi:.3g}")
+                   f"reduced chi-square {fit.redchi:.3g}" + cleared_text(cleared))
         return state.evolve(line_fit=fit, assignment=None), result, summary
+
+    #: diagnostics that legitimately differ between machines (the solver's last step size)
+    volatile = ("record.fields.message",)
+
+    def restore(self, state, params, result, ctx):
+        rec = result.get("record")
+        if not isinstance(rec, dict) or rec.get("type") != "LineFit":
+            return self.apply(state, params, ctx)[0]  # recorded without a record: fit again
+        fields = decode(rec.get("fields"), where="fit_lines result.record")
+        table = table_from_json(result.get("lines", {}), where="fit_lines result.lines")
+        spec = fields.get("spec")
+        if not isinstance(spec, dict) or "line_id" not in table:
+            raise RecordMismatch("the line fit record lacks its settings or line ids")
+        _check_fit_record(state, table, spec)
+        sp = state.require_spectrum()
+        curves: dict = {}
+
+        def curve(name):
+            def compute():
+                if not curves:
+                    from ..lines.record import model_curves
+
+                    bp = fields.get("baseline_params")
+                    curves.update(model_curves(
+                        sp.x, sp.y, table, shape=spec["shape"], baseline=spec["baseline"],
+                        baseline_values=[] if bp is None else bp["value"].tolist(),
+                        window=spec.get("window"), region=spec.get("region")))
+                return curves[name]
+            return compute
+
+        fields.update(table=table, chisqr=result.get("chisqr"), redchi=result.get("redchi"),
+                      converged=bool(result.get("converged")), nfev=None, njev=None)
+        restored = Restored("LineFit", fields, lazy={n: curve(n) for n in _CURVES},
+                            real=lambda: self.apply(state, params, ctx)[0].line_fit)
+        return state.evolve(line_fit=restored, assignment=None)
+
+
+def _check_fit_record(state: State, table, spec: dict) -> None:
+    """The recorded fit must be of the peaks this state holds (ids and positions)."""
+    peaks = state.peaks
+    ids = [int(i) for i in spec.get("line_ids") or []]
+    by_id = dict(zip(peaks["peak_id"].tolist(), peaks["position"].tolist()))
+    positions = spec.get("positions") or []
+    if len(ids) != len(positions) or any(by_id.get(i) != p for i, p in zip(ids, positions)):
+        raise RecordMismatch("the recorded fit was made from peaks this state does not hold")
+    if not set(table["line_id"].tolist()) <= set(ids):
+        raise RecordMismatch("the recorded lines are not among the fitted peaks")
 
 
 def molecule_from_param(value):
@@ -75,7 +141,35 @@ def _assign(state: State, spec: dict, locks: dict):
 
 
 def _assignment_result(out) -> dict:
-    return {"assignments": table_to_json(out.assignments), "constants": table_to_json(out.constants)}
+    return {"assignments": table_to_json(out.assignments), "constants": table_to_json(out.constants),
+            "record": encode_fields(out, skip=("assignments", "constants"))
+            | {"table_kinds": {"assignments": table_kinds(out.assignments),
+                               "constants": table_kinds(out.constants)}}}
+
+
+def _restored_assignment(state: State, result: dict, where: str):
+    """The assignment rebuilt from a recorded result, checked against the state's line fit;
+    None when the result holds no record (the caller computes it then)."""
+    rec = result.get("record")
+    if not isinstance(rec, dict):
+        return None
+    if rec.get("type") not in RESULT_TYPES:
+        raise RecordMismatch(f"the record names result type {rec.get('type')!r}")
+    kinds = rec.get("table_kinds") or {}
+    fields = decode(rec.get("fields"), where=f"{where} result.record")
+    for name in ("assignments", "constants"):
+        fields[name] = table_from_json(result.get(name, {}), kinds.get(name),
+                                       where=f"{where} result.{name}")
+    fit = state.line_fit
+    a = fields["assignments"]
+    if fit is None or "line_id" not in a:
+        raise RecordMismatch("the recorded assignment has no line fit to belong to")
+    lines = fit.table.set_index("line_id")["position"]
+    ids = a["line_id"].tolist()
+    if not set(ids) <= set(lines.index.tolist()) or not np.array_equal(
+            lines.loc[ids].to_numpy(dtype=float), a["position"].to_numpy(dtype=float)):
+        raise RecordMismatch("the recorded assignment is not of the fitted lines")
+    return Restored(rec["type"], fields)
 
 
 def _n_assigned(out) -> int:
@@ -95,15 +189,21 @@ class AssignBand(StepKind):
         return (state.evolve(assignment=out, assign_spec=dict(params)), _assignment_result(out),
                 summary)
 
+    def restore(self, state, params, result, ctx):
+        restored = _restored_assignment(state, result, self.kind)
+        if restored is None:
+            return self.apply(state, params, ctx)[0]
+        return state.evolve(assignment=restored, assign_spec=dict(params))
+
 
 def _line_ids(state: State) -> set[int]:
     fit = state.line_fit
     return set() if fit is None else {int(i) for i in fit.table["line_id"]}
 
 
-def _relock(state: State, changes: dict[int, dict], what: str):
-    """Apply lock changes (line_id -> labels; empty labels = locked as unassigned) and re-run
-    the last assignment with them; nothing changes when that fails."""
+def _new_locks(state: State, changes: dict[int, dict], what: str) -> tuple[State, dict]:
+    """The state with lock changes applied (line_id -> labels; empty labels = locked as
+    unassigned), and the result entry listing them."""
     known_ids = _line_ids(state)
     for line_id in changes:
         if line_id not in known_ids:
@@ -111,12 +211,28 @@ def _relock(state: State, changes: dict[int, dict], what: str):
             raise SessionStateError(f"{what}: no line with line_id {line_id}; line ids are {known}")
     locks = {int(k): dict(v) for k, v in state.locks.items()}
     locks.update({int(k): dict(v) for k, v in changes.items()})
-    new = state.evolve(locks=locks)
-    result = {"locks": {str(k): locks[k] for k in sorted(changes)}}
+    return state.evolve(locks=locks), {"locks": {str(k): locks[k] for k in sorted(changes)}}
+
+
+def _relock(state: State, changes: dict[int, dict], what: str):
+    """Apply lock changes and re-run the last assignment with them; nothing changes when
+    that fails."""
+    new, result = _new_locks(state, changes, what)
     if state.assign_spec is None:
         return new, result
-    out = _assign(state, state.assign_spec, locks)
+    out = _assign(state, state.assign_spec, dict(new.locks))
     return new.evolve(assignment=out), {**result, **_assignment_result(out)}
+
+
+def _restore_relock(kind: StepKind, state: State, params: dict, result: dict, ctx,
+                    changes: dict[int, dict], what: str) -> State:
+    new, _ = _new_locks(state, changes, what)
+    if state.assign_spec is None:
+        return new
+    restored = _restored_assignment(state, result, what)
+    if restored is None:
+        return kind.apply(state, params, ctx)[0]
+    return new.evolve(assignment=restored)
 
 
 def _check_labels(line_id, labels) -> dict:
@@ -127,21 +243,28 @@ def _check_labels(line_id, labels) -> dict:
     return labels
 
 
+def _lock_changes(params: dict) -> dict[int, dict]:
+    # one line (line_id, labels) or several at once (assignments: {line_id: labels})
+    if "assignments" in params:
+        return {int(k): _check_labels(k, v) for k, v in params["assignments"].items()}
+    return {int(params["line_id"]): _check_labels(params["line_id"], params["labels"])}
+
+
 @register_step
 class SetAssignment(StepKind):
     kind = "set_assignment"
     tolerance = 1e-6
 
     def apply(self, state, params, ctx):
-        # one line (line_id, labels) or several at once (assignments: {line_id: labels})
-        if "assignments" in params:
-            changes = {int(k): _check_labels(k, v) for k, v in params["assignments"].items()}
-        else:
-            changes = {int(params["line_id"]): _check_labels(params["line_id"], params["labels"])}
+        changes = _lock_changes(params)
         new, result = _relock(state, changes, "set_assignment")
         text = "; ".join(f"line {k}: " + ", ".join(f"{a}={b}" for a, b in v.items())
                          for k, v in changes.items())
         return new, result, f"locked {text}"
+
+    def restore(self, state, params, result, ctx):
+        return _restore_relock(self, state, params, result, ctx, _lock_changes(params),
+                               "set_assignment")
 
 
 @register_step
@@ -154,3 +277,6 @@ class ClearAssignment(StepKind):
         new, result = _relock(state, {lid: {}}, "clear_assignment")
         return new, result, f"line {lid} left unassigned (locked)"
 
+    def restore(self, state, params, result, ctx):
+        return _restore_relock(self, state, params, result, ctx, {int(params["line_id"]): {}},
+                               "clear_assignment")

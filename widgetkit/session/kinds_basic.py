@@ -1,13 +1,32 @@
-"""Step kinds for loading, processing, peaks and notes."""
+"""Step kinds for loading, processing, peaks and notes.
+
+Steps that change the spectrum clear what was derived from it
+(:func:`~widgetkit.session.steps.drop_dependents`): a crop keeps the peaks inside
+the new range (their values are unchanged) and clears the line fit and the
+assignment; a baseline subtraction or a conversion changes every value, so it
+clears the peaks too. A new ``find_peaks`` replaces the peaks and so clears the
+line fit, the assignment and the locks. Peak ids come from ``State.next_peak_id``
+and are never given out twice. Computation modules are imported inside ``apply``
+so that reopening a session (``restore``) needs none of them.
+"""
 
 from __future__ import annotations
 
 import numpy as np
 import pandas as pd
 
-from .. import processing
 from ..errors import SessionStateError
-from .steps import Context, State, StepKind, register_step, table_to_json
+from .records import table_from_json
+from .steps import (
+    Context,
+    RecordMismatch,
+    State,
+    StepKind,
+    cleared_text,
+    drop_dependents,
+    register_step,
+    table_to_json,
+)
 
 __all__ = ["Load", "Crop", "ToAbsorbance", "SubtractBaseline", "FindPeaks", "AddPeak",
            "RemovePeak", "Note"]
@@ -36,12 +55,15 @@ class Crop(StepKind):
     kind = "crop"
 
     def apply(self, state, params, ctx):
-        sp = processing.crop(state.require_spectrum(), params["lo"], params["hi"])
+        from ..processing import crop
+
+        sp = crop(state.require_spectrum(), params["lo"], params["hi"])
         peaks = state.peaks
         keep = (peaks["position"] >= sp.x[0]) & (peaks["position"] <= sp.x[-1])
-        peaks = peaks[keep].reset_index(drop=True)
-        new = state.evolve(spectrum=sp, baseline=None, peaks=peaks)
-        return new, _spectrum_result(sp), f"cropped to {sp.x[0]:.6g}–{sp.x[-1]:.6g} cm-1"
+        new, cleared = drop_dependents(state, spectrum=sp, baseline=None,
+                                       peaks=peaks[keep].reset_index(drop=True))
+        return (new, _with_cleared(_spectrum_result(sp), cleared),
+                f"cropped to {sp.x[0]:.6g}–{sp.x[-1]:.6g} cm-1" + cleared_text(cleared))
 
 
 @register_step
@@ -49,8 +71,12 @@ class ToAbsorbance(StepKind):
     kind = "to_absorbance"
 
     def apply(self, state, params, ctx):
-        sp = processing.to_absorbance(state.require_spectrum())
-        return state.evolve(spectrum=sp, baseline=None), _spectrum_result(sp), "converted to absorbance"
+        from ..processing import to_absorbance
+
+        sp = to_absorbance(state.require_spectrum())
+        new, cleared = drop_dependents(state, spectrum=sp, baseline=None, peaks=_no_peaks(state))
+        return (new, _with_cleared(_spectrum_result(sp), cleared),
+                "converted to absorbance" + cleared_text(cleared))
 
 
 @register_step
@@ -58,16 +84,19 @@ class SubtractBaseline(StepKind):
     kind = "subtract_baseline"
 
     def apply(self, state, params, ctx):
+        from ..processing import subtract_baseline
+
         opts = dict(params)
         method = opts.pop("method")
-        sp, baseline = processing.subtract_baseline(state.require_spectrum(), method, **opts)
+        sp, baseline = subtract_baseline(state.require_spectrum(), method, **opts)
         b = np.asarray(baseline, dtype=float)
         result = _spectrum_result(sp) | {
             "baseline_mean": float(b.mean()), "baseline_min": float(b.min()),
             "baseline_max": float(b.max()), "baseline_first": float(b[0]), "baseline_last": float(b[-1]),
         }
-        return (state.evolve(spectrum=sp, baseline=b), result,
-                f"subtracted a {method} baseline (mean {b.mean():.4g})")
+        new, cleared = drop_dependents(state, spectrum=sp, baseline=b, peaks=_no_peaks(state))
+        return (new, _with_cleared(result, cleared),
+                f"subtracted a {method} baseline (mean {b.mean():.4g})" + cleared_text(cleared))
 
 
 @register_step
@@ -75,16 +104,53 @@ class FindPeaks(StepKind):
     kind = "find_peaks"
 
     def apply(self, state, params, ctx):
+        from ..processing import find_peaks
+
         sp = state.require_spectrum()
         noise = state.noise()
-        peaks = processing.find_peaks(sp.x, sp.y, min_snr=params.get("min_snr", 5.0),
-                                      min_separation=params.get("min_separation"), noise=noise)
+        peaks = find_peaks(sp.x, sp.y, min_snr=params.get("min_snr", 5.0),
+                           min_separation=params.get("min_separation"), noise=noise)
         peaks = peaks.assign(origin="found")
         peaks = peaks.drop(columns=["index"], errors="ignore").reset_index(drop=True)
+        peaks = _renumber(peaks, state.next_peak_id)
         cols = [c for c in peaks.columns if c != "origin"]
-        result = {"noise": noise, "peaks": table_to_json(peaks[cols])}
-        return (state.evolve(peaks=peaks), result,
-                f"found {len(peaks)} peaks above SNR {params.get('min_snr', 5.0):g} (noise {noise:.3g})")
+        new, cleared = drop_dependents(state, peaks=peaks)
+        new = new.evolve(next_peak_id=state.next_peak_id + len(peaks))
+        result = _with_cleared({"noise": noise, "peaks": table_to_json(peaks[cols])}, cleared)
+        return (new, result,
+                f"found {len(peaks)} peaks above SNR {params.get('min_snr', 5.0):g} "
+                f"(noise {noise:.3g})" + cleared_text(cleared))
+
+    def restore(self, state, params, result, ctx):
+        peaks = _recorded_peaks(result.get("peaks"), state.next_peak_id)
+        new, _ = drop_dependents(state, peaks=peaks.assign(origin="found"))
+        return new.evolve(next_peak_id=state.next_peak_id + len(peaks))
+
+
+def _renumber(peaks: pd.DataFrame, first: int) -> pd.DataFrame:
+    """Peak ids ``first, first + 1, ...`` in table order."""
+    out = peaks.copy()
+    out["peak_id"] = np.arange(first, first + len(out), dtype=np.int64)
+    return out
+
+
+def _recorded_peaks(columns, first: int) -> pd.DataFrame:
+    """The peak table of a recorded ``find_peaks`` result, checked against the id counter."""
+    table = table_from_json(columns or {}, where="find_peaks result.peaks")
+    needed = {"peak_id", "position", "height", "snr"}
+    if not needed <= set(table.columns):
+        raise RecordMismatch(f"peak table lacks {sorted(needed - set(table.columns))}")
+    if table["peak_id"].tolist() != list(range(first, first + len(table))):
+        raise RecordMismatch("recorded peak ids do not follow the session's id counter")
+    return table.astype({"peak_id": "int64"})
+
+
+def _no_peaks(state: State) -> pd.DataFrame:
+    return state.peaks.iloc[0:0]
+
+
+def _with_cleared(result: dict, cleared: dict) -> dict:
+    return {**result, "cleared": cleared} if cleared else result
 
 
 @register_step
@@ -92,6 +158,8 @@ class AddPeak(StepKind):
     kind = "add_peak"
 
     def apply(self, state, params, ctx):
+        from .. import processing
+
         sp = state.require_spectrum()
         pos = float(params["position"])
         if not sp.x[0] <= pos <= sp.x[-1]:
@@ -101,17 +169,37 @@ class AddPeak(StepKind):
         noise = state.noise()
         if params.get("snap", True):
             pos = float(processing.nearest_maximum(sp.x, sp.y, pos, noise=noise))
-        peaks = state.peaks
-        pid = int(peaks["peak_id"].max()) + 1 if len(peaks) else 1
+        pid = state.next_peak_id
         row = {"peak_id": pid, **processing.peak_row(sp.x, sp.y, pos, noise), "origin": "manual"}
         row.pop("index", None)
-        height = row["height"]
-        new = pd.concat([peaks, pd.DataFrame([row])], ignore_index=True) if len(peaks) else \
-            pd.DataFrame([row])
-        new = new.sort_values("position", kind="stable").reset_index(drop=True)
-        new["peak_id"] = new["peak_id"].astype("int64")
-        result = {"peak_id": pid, "position": pos, "height": height}
-        return state.evolve(peaks=new), result, f"added peak {pid} at {pos:.6g} cm-1"
+        new, cleared = _with_row(state, row)
+        result = _with_cleared({"peak_id": pid, "position": pos, "height": row["height"],
+                                "snr": row.get("snr"), "prominence": row.get("prominence")},
+                               cleared)
+        return new, result, f"added peak {pid} at {pos:.6g} cm-1" + cleared_text(cleared)
+
+    def restore(self, state, params, result, ctx):
+        pid = result.get("peak_id")
+        if pid != state.next_peak_id or not isinstance(result.get("position"), float):
+            raise RecordMismatch("recorded peak id or position does not fit the session")
+        row = {"peak_id": pid, "position": result["position"], "height": result.get("height"),
+               "snr": result.get("snr"), "prominence": result.get("prominence"),
+               "origin": "manual"}
+        if "prominence" not in result:  # recorded without it: compute the row again
+            return self.apply(state, params, ctx)[0]
+        return _with_row(state, {k: (np.nan if v is None else v) for k, v in row.items()})[0]
+
+
+def _with_row(state: State, row: dict) -> tuple[State, dict]:
+    """The state with one more peak (sorted by position; the id counter moves on; the line
+    fit and assignment, made without it, are cleared) and what was cleared."""
+    peaks = state.peaks
+    new = pd.concat([peaks, pd.DataFrame([row])], ignore_index=True) if len(peaks) else \
+        pd.DataFrame([row])
+    new = new.sort_values("position", kind="stable").reset_index(drop=True)
+    new["peak_id"] = new["peak_id"].astype("int64")
+    out, cleared = drop_dependents(state, peaks=new)
+    return out.evolve(next_peak_id=int(row["peak_id"]) + 1), cleared
 
 
 @register_step
@@ -124,8 +212,11 @@ class RemovePeak(StepKind):
         if pid not in set(peaks["peak_id"].tolist()):
             known = ", ".join(str(i) for i in peaks["peak_id"].tolist()[:20]) or "none"
             raise SessionStateError(f"remove_peak: no peak with peak_id {pid}; ids are {known}")
-        new = peaks[peaks["peak_id"] != pid].reset_index(drop=True)
-        return state.evolve(peaks=new), {"removed": pid, "npeaks": len(new)}, f"removed peak {pid}"
+        new, cleared = drop_dependents(
+            state, peaks=peaks[peaks["peak_id"] != pid].reset_index(drop=True))
+        cleared.pop("peaks", None)  # the removed peak is the point of the step
+        result = _with_cleared({"removed": pid, "npeaks": len(new.peaks)}, cleared)
+        return new, result, f"removed peak {pid}" + cleared_text(cleared)
 
 
 @register_step

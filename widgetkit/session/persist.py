@@ -7,9 +7,9 @@ import os
 from ..errors import SessionFormatError, SessionStateError, WidgetkitError
 from ..spectrum import Spectrum
 from . import codec
-from .steps import STEP_KINDS, Context, State, Step, software_versions, utc_now
+from .steps import STEP_KINDS, Context, RecordMismatch, State, Step, software_versions, utc_now
 
-__all__ = ["decode_source", "replay_for_load", "session_document"]
+__all__ = ["decode_source", "restore_states", "session_document"]
 
 
 def _source_of(rec: dict) -> dict | None:
@@ -52,11 +52,19 @@ def decode_source(rec: dict, path: str, problems: list[str]) -> Spectrum:
     return sp
 
 
-def replay_for_load(steps: list[Step], ctx: Context, path: str) -> list[State]:
-    """The state after each step; a step that cannot be replayed is a format error."""
+def restore_states(steps: list[Step], ctx: Context, path: str) -> tuple[list[State], list[int]]:
+    """The state after each step, rebuilt from the recorded results (fast reopen).
+
+    Each kind's :meth:`~widgetkit.session.steps.StepKind.restore` is used; where it finds
+    that the record does not fit the state it raises ``RecordMismatch`` and the step is
+    computed instead (``apply``). Returns the states and the numbers of the steps that had
+    to be computed for that reason. A step that can be neither restored nor computed is a
+    :class:`SessionFormatError` naming it (steps are numbered from 0, the load step).
+    """
     if steps[0].kind != "load":
         raise SessionFormatError("field steps/0/kind: the first step must be 'load'", path=path)
     states: list[State] = []
+    recomputed: list[int] = []
     state = State()
     for i, step in enumerate(steps):
         kind = STEP_KINDS.get(step.kind)
@@ -65,12 +73,16 @@ def replay_for_load(steps: list[Step], ctx: Context, path: str) -> list[State]:
                 f"field steps/{i}/kind: unknown step kind {step.kind!r} "
                 f"(known: {', '.join(sorted(STEP_KINDS))})", path=path)
         try:
-            state, _, _ = kind.apply(state, dict(step.params), ctx)
+            try:
+                state = kind.restore(state, dict(step.params), step.result, ctx)
+            except RecordMismatch:
+                recomputed.append(i)
+                state, _, _ = kind.apply(state, dict(step.params), ctx)
         except WidgetkitError as exc:
             raise SessionFormatError(
-                f"step {i + 1} ({step.kind}) cannot be replayed: {exc}", path=path) from exc
+                f"step {i} ({step.kind}) cannot be reopened: {exc}", path=path) from exc
         states.append(state)
-    return states
+    return states, recomputed
 
 
 def session_document(sources: list[dict], spectra: dict[str, Spectrum], steps: list[Step], *,

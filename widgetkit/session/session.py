@@ -25,7 +25,7 @@ from ..errors import SessionStateError, WidgetkitError
 from ..spectrum import Spectrum
 from . import codec, persist
 from .steps import STEP_KINDS, Context, State, Step, software_versions, utc_now
-from .verify import VerifyReport, compare_results
+from .verify import VerifyReport, compare_results, cut, without_paths
 
 __all__ = ["Session", "SessionEvent"]
 
@@ -135,15 +135,18 @@ class Session:
         for rec in doc["sources"]:
             self._add_source(rec, persist.decode_source(rec, str(path), self._source_problems))
         self._steps = [Step(**s) for s in doc["steps"]]
-        self._states = persist.replay_for_load(self._steps, self._ctx, str(path))
+        self._states, recomputed = persist.restore_states(self._steps, self._ctx, str(path))
+        self._source_problems += [
+            f"step {i} ({self._steps[i].kind}): the recorded result does not fit the state "
+            "before it, so it was computed again on reopening" for i in recomputed]
         return self
 
     # ------------------------------------------------------------------ running steps
     def _run(self, kind: str, params: dict) -> Step:
         if self._cursor is not None:
             raise SessionStateError(
-                f"the session is showing step {self._cursor + 1} of {len(self._steps)}; call "
-                "view_latest() before changing the analysis (nothing was changed)")
+                f"the session is showing step {self._cursor} of steps 0..{len(self._steps) - 1}; "
+                "call view_latest() before changing the analysis (nothing was changed)")
         params = _json_params(kind, params)
         previous = self._states[-1] if self._states else State()
         new_state, result, summary = STEP_KINDS[kind].apply(previous, params, self._ctx)
@@ -443,7 +446,9 @@ class Session:
         """Replay every step from the source data and compare with the recorded results.
 
         Integers, labels and booleans must match exactly; floats to 1e-9 relative unless
-        the step kind declares its own tolerance. A changed source hash is a mismatch too.
+        the step kind declares its own tolerance; summaries must match exactly. A changed
+        source hash is a mismatch too. Steps are numbered from 0 (the load step), as in
+        :attr:`history` and :meth:`view`.
         """
         mismatches = list(self._source_problems)
         for rec in self._sources:
@@ -454,14 +459,18 @@ class Session:
         checked = 0
         for i, step in enumerate(self._steps):
             kind = STEP_KINDS[step.kind]
-            where = f"step {i + 1} ({step.kind})"
+            where = f"step {i} ({step.kind})"
             try:
-                state, result, _ = kind.apply(state, dict(step.params), self._ctx)
+                state, result, summary = kind.apply(state, dict(step.params), self._ctx)
             except WidgetkitError as exc:
                 mismatches.append(f"{where}: replay failed: {exc}")
                 break
             checked += 1
             result = json.loads(json.dumps(result, allow_nan=False))
-            compare_results(step.result, result, rtol=kind.tolerance, where=f"{where} result",
-                            out=mismatches)
+            compare_results(without_paths(step.result, kind.volatile),
+                            without_paths(result, kind.volatile), rtol=kind.tolerance,
+                            where=f"{where} result", out=mismatches)
+            if summary != step.summary:
+                mismatches.append(f"{where} summary: recorded {cut(step.summary)}, "
+                                  f"replayed {cut(summary)}")
         return VerifyReport(ok=not mismatches, mismatches=mismatches, steps_checked=checked)

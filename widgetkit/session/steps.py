@@ -18,6 +18,15 @@ parameters; it returns the new state, the result to record and the summary::
 
 The session adds a public method that validates its arguments and calls
 ``self._run("smooth", params)``.
+
+Fast reopen: :meth:`StepKind.restore` rebuilds the state from the recorded
+result instead of computing it again (the default runs ``apply``);
+:meth:`Session.load` uses it, :meth:`Session.verify` always runs ``apply``.
+
+Dependent results are invalidated: a step that changes the spectrum or the
+peaks clears what was derived from them (:func:`drop_dependents`) and says so
+in its result (``"cleared"``) and summary; earlier states are kept, so undo
+brings everything back.
 """
 
 from __future__ import annotations
@@ -36,9 +45,10 @@ import pandas as pd
 
 from ..errors import SessionStateError
 from ..spectrum import Spectrum
+from .records import table_to_json
 
 __all__ = ["Step", "State", "StepKind", "STEP_KINDS", "register_step", "software_versions",
-           "Context", "table_to_json", "utc_now"]
+           "Context", "table_to_json", "utc_now", "drop_dependents", "cleared_text", "RecordMismatch"]
 
 PEAK_COLUMNS = ["peak_id", "position", "height", "snr"]
 
@@ -123,6 +133,9 @@ class State:
         The parameters of the last ``assign_band`` step (re-used after manual edits).
     locks : dict
         Manual assignments, line_id -> labels.
+    next_peak_id : int
+        The id the next new peak gets. Ids only grow: a peak id (and so a line id)
+        is never given to a different peak within a session.
     """
 
     spectrum: Spectrum | None = None
@@ -132,6 +145,7 @@ class State:
     assignment: Any = None
     assign_spec: dict | None = None
     locks: Mapping[int, dict] = field(default_factory=dict)
+    next_peak_id: int = 1
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     def evolve(self, **changes) -> State:
@@ -171,12 +185,39 @@ class StepKind:
 
     kind: ClassVar[str] = ""
     tolerance: ClassVar[float] = 1e-9
+    #: dotted paths in the result that ``verify`` does not compare: diagnostics that
+    #: legitimately differ between machines (a solver's last step size in a message)
+    volatile: ClassVar[tuple[str, ...]] = ()
 
     def apply(self, state: State, params: dict, ctx: Context) -> tuple[State, dict, str]:
+        """Compute the step: ``(new state, result to record, one-line summary)``.
+
+        A pure function of the previous state and the parameters (run live, on replay
+        by :meth:`Session.verify`, and by the default :meth:`restore`).
+        """
         raise NotImplementedError
+
+    def restore(self, state: State, params: dict, result: dict, ctx: Context) -> State:
+        """The state after this step, rebuilt from its recorded ``result`` (fast reopen).
+
+        :meth:`Session.load` calls this instead of :meth:`apply`. The default runs
+        :meth:`apply`; a kind whose computation is expensive (fits, assignments)
+        overrides it to rebuild its result objects from the record, which must then
+        hold everything needed (see :mod:`widgetkit.session.records`). An override
+        checks that the record agrees with ``state`` (the line ids exist, the sizes
+        match) and raises :class:`RecordMismatch` when it does not: the session then
+        runs :meth:`apply` for this step instead, so a damaged record never shows
+        numbers no computation produced (``verify`` reports the difference).
+        """
+        return self.apply(state, params, ctx)[0]
 
     def __repr__(self) -> str:
         return f"<step kind {self.kind!r}>"
+
+
+class RecordMismatch(Exception):
+    """Raised by :meth:`StepKind.restore` when the recorded result does not fit the state
+    (internal: the session falls back to :meth:`StepKind.apply`)."""
 
 
 STEP_KINDS: dict[str, StepKind] = {}
@@ -192,29 +233,73 @@ def register_step(cls: type[StepKind]) -> type[StepKind]:
     return cls
 
 
-def _plain(v):
-    """numpy scalars -> Python; NaN/inf -> None (JSON has no NaN)."""
-    if isinstance(v, (np.bool_, bool)):
-        return bool(v)
-    if isinstance(v, (np.integer,)):
-        return int(v)
-    if isinstance(v, (float, np.floating)):
-        f = float(v)
-        return f if np.isfinite(f) else None
-    if v is None or (isinstance(v, float) and np.isnan(v)):
-        return None
-    if isinstance(v, str):
-        return v
-    try:
-        if pd.isna(v):
-            return None
-    except (TypeError, ValueError):
-        pass
-    return v
+def drop_dependents(state: State, *, spectrum: Spectrum | None = None,
+                    peaks: pd.DataFrame | None = None, baseline: Any = ...
+                    ) -> tuple[State, dict]:
+    """The state with a new spectrum and/or peak table, and what that cleared.
+
+    Parameters
+    ----------
+    state : State
+        The state before the step.
+    spectrum : Spectrum, optional
+        The new spectrum (a step that changes the spectrum).
+    peaks : DataFrame, optional
+        The new peak table (a step that replaces or filters the peaks).
+    baseline : ndarray or None, optional
+        The new baseline for display (unchanged when not given).
+
+    Returns
+    -------
+    state : State
+        Line fit, assignment and the assignment's settings cleared (they were derived
+        from the old spectrum or peaks); locks kept only for peaks still present.
+    cleared : dict
+        What was cleared, for the step's result: ``lines`` (number of fitted lines),
+        ``assignment`` (number of assigned lines), ``locks`` (line ids), ``peaks``
+        (number of peaks dropped). Empty when nothing was.
+    """
+    changes: dict[str, Any] = {}
+    if spectrum is not None:
+        changes["spectrum"] = spectrum
+    if baseline is not ...:
+        changes["baseline"] = baseline
+    new_peaks = state.peaks if peaks is None else peaks
+    if peaks is not None:
+        changes["peaks"] = peaks
+    cleared: dict[str, Any] = {}
+    n_dropped = len(set(state.peaks["peak_id"].tolist()) - set(new_peaks["peak_id"].tolist()))
+    if n_dropped:
+        cleared["peaks"] = n_dropped
+    if state.line_fit is not None:
+        cleared["lines"] = int(len(state.line_fit.table))
+    if state.assignment is not None:
+        labels = state.assignment.assignments.get("label")
+        cleared["assignment"] = 0 if labels is None else int(labels.notna().sum())
+    keep = set(new_peaks["peak_id"].tolist())
+    gone = sorted(int(k) for k in state.locks if int(k) not in keep)
+    if gone:
+        cleared["locks"] = gone
+    locks = {k: v for k, v in state.locks.items() if int(k) in keep}
+    new = state.evolve(line_fit=None, assignment=None, assign_spec=None, locks=locks, **changes)
+    return new, cleared
 
 
-def table_to_json(df: pd.DataFrame | None) -> dict:
-    """A DataFrame as ``{column: [values]}`` of plain JSON values."""
-    if df is None:
-        return {}
-    return {str(c): [_plain(v) for v in df[c].tolist()] for c in df.columns}
+def cleared_text(cleared: dict) -> str:
+    """``"; cleared 34 fitted lines, the assignment and 2 locks"`` (empty when nothing was)."""
+    parts = []
+    if cleared.get("peaks"):
+        n = cleared["peaks"]
+        parts.append(f"{n} peak{'s' if n != 1 else ''}")
+    if "lines" in cleared:
+        n = cleared["lines"]
+        parts.append(f"{n} fitted line{'s' if n != 1 else ''}")
+    if "assignment" in cleared:
+        parts.append("the assignment")
+    if cleared.get("locks"):
+        n = len(cleared["locks"])
+        parts.append(f"{n} lock{'s' if n != 1 else ''}")
+    if not parts:
+        return ""
+    text = parts[0] if len(parts) == 1 else ", ".join(parts[:-1]) + " and " + parts[-1]
+    return f"; cleared {text} (undo brings them back)"

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-__all__ = ["VerifyReport", "compare_results"]
+__all__ = ["VerifyReport", "compare_results", "cut", "without_paths"]
 
 
 @dataclass(frozen=True)
@@ -17,7 +17,8 @@ class VerifyReport:
     ok : bool
         True when every source hash and every recorded result was reproduced.
     mismatches : list of str
-        One line per difference, naming the step (1-based number and kind) or source and the field.
+        One line per difference, naming the step (numbered from 0, the load step, as in
+        ``Session.history``) and kind, or the source, and the field.
     steps_checked : int
     """
 
@@ -36,6 +37,28 @@ class VerifyReport:
         return "\n".join(lines)
 
 
+def cut(value, limit: int = 120) -> str:
+    """``repr(value)`` cut to ``limit`` characters (messages never dump arrays)."""
+    text = repr(value)
+    return text if len(text) <= limit else text[: limit - 25] + f"… ({len(text):,} characters)"
+
+
+def without_paths(result, paths) -> object:
+    """A copy of ``result`` without the dotted ``paths`` (for fields verify skips)."""
+    if not paths or not isinstance(result, dict):
+        return result
+    out = dict(result)
+    for path in paths:
+        head, _, rest = path.partition(".")
+        if head not in out:
+            continue
+        if rest:
+            out[head] = without_paths(out[head], [rest])
+        else:
+            del out[head]
+    return out
+
+
 def _close(a: float, b: float, rtol: float) -> bool:
     if a == b:
         return True
@@ -51,7 +74,7 @@ def compare_results(recorded, replayed, *, rtol: float, where: str, out: list[st
     """
     if isinstance(recorded, bool) or isinstance(replayed, bool):
         if recorded is not replayed:
-            out.append(f"{where}: recorded {recorded!r}, replayed {replayed!r}")
+            out.append(f"{where}: recorded {cut(recorded)}, replayed {cut(replayed)}")
         return
     if isinstance(recorded, int) and isinstance(replayed, int):
         if recorded != replayed:
@@ -85,4 +108,4 @@ def compare_results(recorded, replayed, *, rtol: float, where: str, out: list[st
             out.append(f"{where}: … and {len(sub) - limit} more differences")
         return
     if recorded != replayed:
-        out.append(f"{where}: recorded {recorded!r}, replayed {replayed!r}")
+        out.append(f"{where}: recorded {cut(recorded)}, replayed {cut(replayed)}")

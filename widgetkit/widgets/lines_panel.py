@@ -116,7 +116,9 @@ class LinesPanel(PlotPanel):
         shape = fit.spec.get("shape", "") if isinstance(fit.spec, dict) else ""
         return (f'<div class="wk-fit-summary"><span style="color:{color}"><b>{ok}</b></span> · '
                 f"{len(fit.table)} {html.escape(str(shape))} lines · reduced χ² "
-                f"{format_value(fit.redchi, 4)} · {fit.nfev} evaluations · "
+                f"{format_value(fit.redchi, 4)} · "
+                + ("reopened from the record · " if fit.nfev is None
+                   else f"{fit.nfev} evaluations · ") +
                 f"<span style='color:#777'>{html.escape(str(fit.message))[:200]}</span></div>")
 
     # ------------------------------------------------------------------ actions
