@@ -250,32 +250,32 @@ def allowed_lines(lower: VibLevel, upper: VibLevel, isotopologue, J_max: int, *,
         raise AssignmentError(f"process must be 'ir' or 'raman', got {process!r}")
     if isotopologue.centrosymmetric and (lower.inversion == upper.inversion) == change:
         return _no_lines()  # infrared needs g <-> u, Raman g <-> g or u <-> u
-    rows = []
-    for Jl in range(int(lower.l), int(J_max) + 1):
-        for cl in components(lower):
-            pl = parity(Jl, cl)
-            wl = isotopologue.spin_weight(pl, lower.inversion)
-            if wl == 0:
-                continue
-            for dJ in dJs:
-                Ju = Jl + dJ
-                if Ju < upper.l or (Ju == 0 and Jl == 0):
-                    continue
-                for cu in components(upper):
-                    pu = parity(Ju, cu)
-                    if (pu != pl) != change:
-                        continue
-                    if process == "ir":
-                        f = float(honl_london_linear(lower.l, upper.l, Jl, dJ))
-                    else:
-                        f = float(placzek_teller(Jl, dJ))
-                    # a Raman Q line also carries the isotropic part (J = 0 included)
-                    if f > 0 or (process == "raman" and dJ == 0):
-                        rows.append((Jl, Ju, cl, cu, BRANCH_LETTERS[dJ], f, wl))
-    if not rows:
+    parts = []
+    Jl = np.arange(int(lower.l), int(J_max) + 1)
+    for cl in components(lower):
+        pl = parity(Jl, cl)
+        wl = np.asarray(isotopologue.spin_weight(pl, lower.inversion))
+        for dJ in dJs:
+            Ju = Jl + dJ
+            for cu in components(upper):
+                pu = parity(Ju, cu)
+                ok = (wl > 0) & (Ju >= upper.l) & ((pu != pl) == change)
+                if change:  # J = 0 <-> 0 is forbidden for a dipole transition
+                    ok &= ~((Ju == 0) & (Jl == 0))
+                if process == "ir":
+                    f = honl_london_linear(lower.l, upper.l, Jl, dJ)
+                else:
+                    f = placzek_teller(Jl, dJ)
+                # a Raman Q line also carries the isotropic part (J = 0 included)
+                ok &= (f > 0) | (process == "raman" and dJ == 0)
+                n = int(ok.sum())
+                if n:
+                    parts.append((Jl[ok], Ju[ok], np.full(n, cl, dtype=object),
+                                  np.full(n, cu, dtype=object),
+                                  np.full(n, BRANCH_LETTERS[dJ], dtype=object), f[ok],
+                                  wl[ok].astype(float)))
+    if not parts:
         return _no_lines()
-    cols = list(zip(*rows))
-    return LineSet(np.array(cols[0], dtype=int), np.array(cols[1], dtype=int),
-                   np.array(cols[2], dtype=object), np.array(cols[3], dtype=object),
-                   np.array(cols[4], dtype=object), np.array(cols[5], dtype=float),
-                   np.array(cols[6], dtype=float))
+    cols = [np.concatenate([p[k] for p in parts]) for k in range(7)]
+    order = np.lexsort((cols[1], cols[0]))
+    return LineSet(*(c[order] for c in cols))

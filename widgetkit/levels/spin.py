@@ -36,6 +36,8 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from fractions import Fraction
 
+import numpy as np
+
 from ..errors import AssignmentError
 
 __all__ = ["NUCLEAR_SPINS", "nuclear_spin", "SpinStatistics", "spin_statistics", "parity"]
@@ -73,14 +75,14 @@ def nuclear_spin(symbol: str, Z: int, A: int, spins: Mapping[str, float] | None 
         f"Linear(..., spins={{'{symbol}': 1.5}}) (value from a table of nuclear moments)")
 
 
-def parity(J, component: str) -> int:
-    """Parity (+1 or −1) of a level with rotational quantum number J and e/f ``component``."""
-    sign = 1 if int(J) % 2 == 0 else -1
-    if component == "e":
-        return sign
-    if component == "f":
-        return -sign
-    raise AssignmentError(f"component must be 'e' or 'f', got {component!r}")
+def parity(J, component: str):
+    """Parity (+1 or −1) of levels with rotational quantum number J (int or array) and e/f
+    ``component``."""
+    if component not in ("e", "f"):
+        raise AssignmentError(f"component must be 'e' or 'f', got {component!r}")
+    sign = 1 - 2 * (np.asarray(J, dtype=int) % 2)
+    sign = sign if component == "e" else -sign
+    return int(sign) if np.ndim(sign) == 0 else sign
 
 
 @dataclass(frozen=True)
@@ -104,19 +106,22 @@ class SpinStatistics:
     n_antisymmetric: int
     epsilon: int
 
-    def weight(self, p: int, inversion: str | None) -> int:
-        """Spin weight of a level of parity ``p`` in a vibronic state ``inversion`` ("g", "u", None).
+    def weight(self, p, inversion: str | None):
+        """Spin weight of levels of parity ``p`` (±1, int or array) in a vibronic state
+        ``inversion`` ("g", "u", None).
 
         For a molecule without a centre of symmetry every level has the same weight.
         """
         if not self.centrosymmetric:
-            return self.n_symmetric
-        if inversion not in ("g", "u"):
-            raise AssignmentError(
-                "a vibrational level of a centrosymmetric molecule needs its inversion symmetry "
-                f"'g' or 'u', got {inversion!r}")
-        chi = p * (1 if inversion == "g" else -1)
-        return self.n_symmetric if chi * self.epsilon > 0 else self.n_antisymmetric
+            w = np.full(np.shape(p), self.n_symmetric)
+        else:
+            if inversion not in ("g", "u"):
+                raise AssignmentError(
+                    "a vibrational level of a centrosymmetric molecule needs its inversion symmetry "
+                    f"'g' or 'u', got {inversion!r}")
+            chi = np.asarray(p) * (1 if inversion == "g" else -1) * self.epsilon
+            w = np.where(chi > 0, self.n_symmetric, self.n_antisymmetric)
+        return int(w) if np.ndim(w) == 0 else w
 
     @property
     def ratio(self) -> float:

@@ -35,7 +35,7 @@ from ..spectrum import Spectrum
 from .lines import SimulationError, check_temperature, line_list
 
 __all__ = ["doppler_sigma", "doppler_fwhm", "voigt_fwhm", "render_lines", "rovibrational",
-           "vibrational"]
+           "vibrational", "render_spectrum", "check_render_params"]
 
 _FWHM_PER_SIGMA = 2.0 * math.sqrt(2.0 * math.log(2.0))
 _MAX_POINTS = 5_000_000
@@ -131,7 +131,7 @@ def _baseline(x: np.ndarray, baseline) -> np.ndarray:
 
 
 def _jsonable(value):
-    if isinstance(value, Diatomic):
+    if isinstance(value, Diatomic) or hasattr(value, "to_dict"):
         return value.to_dict()
     if isinstance(value, Mapping):
         return {str(k): _jsonable(v) for k, v in value.items()}
@@ -144,20 +144,54 @@ def _jsonable(value):
     return value
 
 
-def _simulate(function: str, params: dict, *, title: str | None, rotational: bool = True) -> Spectrum:
-    p = params
-    if p["y_kind"] not in ("absorbance", "transmittance"):
-        raise SimulationError(f"y_kind must be 'absorbance' or 'transmittance', got {p['y_kind']!r}")
+def check_render_params(p: dict, y_kinds=("absorbance", "transmittance")) -> dict:
+    """Validate the rendering parameters shared by every simulated spectrum; draw and record a
+    noise seed when noise is asked for without one. Returns ``p`` (a copy when a seed was drawn)."""
+    if p["y_kind"] not in y_kinds:
+        raise SimulationError(f"y_kind must be {' or '.join(map(repr, y_kinds))}, got {p['y_kind']!r}")
     for name in ("strength", "lorentz_hwhm", "resolution", "noise", "window"):
         v = p[name]
         if not (isinstance(v, (int, float)) and math.isfinite(v) and v >= 0):
             raise SimulationError(f"{name} must be a finite number >= 0, got {v!r}")
     if not p["window"] >= 3:
         raise SimulationError(f"window must be at least 3 line widths, got {p['window']!r}")
-    seed = p["seed"]
-    if seed is None and p["noise"] > 0:
-        seed = int(np.random.SeedSequence().entropy % 2**63)  # recorded so the noise can be redrawn
-        p = {**p, "seed": seed}
+    if p["seed"] is None and p["noise"] > 0:
+        # recorded so the noise can be redrawn
+        p = {**p, "seed": int(np.random.SeedSequence().entropy % 2**63)}
+    return p
+
+
+def render_spectrum(lines: pd.DataFrame, sigma_doppler: np.ndarray, p: dict, *, function: str,
+                    title: str, meta: dict | None = None) -> Spectrum:
+    """A simulated :class:`Spectrum` from a line table (``position``, ``intensity``).
+
+    Gaussian σ = sqrt(σ_D² + σ_R²) per line, Lorentzian γ = ``p["lorentz_hwhm"]``; y =
+    strength · Σ profiles / tallest single line + baseline (absorbance, or 10^(−A) for
+    transmittance, or scattered intensity), then Gaussian noise; ``meta["simulated"]`` records
+    the function, every parameter and the widgetkit version.
+    """
+    pos = lines["position"].to_numpy()
+    area = lines["intensity"].to_numpy()
+    sigma = np.sqrt(sigma_doppler**2 + (p["resolution"] / _FWHM_PER_SIGMA) ** 2)
+    gamma = float(p["lorentz_hwhm"])
+    fv = voigt_fwhm(sigma, gamma)
+    x = _grid(p["x"], p["x_range"], p["step"], lines, float(fv.min()), float(fv.max()))
+    peaks = area * voigt_profile(0.0, sigma, gamma)
+    scale = p["strength"] / float(peaks.max())
+    a = scale * render_lines(x, pos, area, sigma, gamma, window=p["window"]) + _baseline(x, p["baseline"])
+    y = 10.0 ** (-a) if p["y_kind"] == "transmittance" else a
+    if p["noise"] > 0:
+        y = y + np.random.default_rng(p["seed"]).normal(0.0, p["noise"], size=x.size)
+    out = {"title": title, **(meta or {}),
+           "simulated": {"function": f"widgetkit.simulate.{function}",
+                         "params": _jsonable(p),
+                         "widgetkit_version": __version__,
+                         "n_lines": int(len(lines))}}
+    return Spectrum(x, y, y_kind=p["y_kind"], meta=out)
+
+
+def _simulate(function: str, params: dict, *, title: str | None, rotational: bool = True) -> Spectrum:
+    p = check_render_params(params)
     lines = line_list(p["molecule"], p["constants"], bands=p["bands"], temperature=p["temperature"],
                       J_max=p["J_max"], min_relative=p["min_relative"],
                       herman_wallis=p["herman_wallis"], q_branch=p.get("q_branch", False),
@@ -167,28 +201,11 @@ def _simulate(function: str, params: dict, *, title: str | None, rotational: boo
                  .groupby(["isotopologue", "band", "v_upper", "v_lower"], as_index=False)
                  .agg(intensity=("intensity", "sum"), w=("w", "sum"), mass=("mass", "first")))
         lines = lines.assign(position=lines["w"] / lines["intensity"])
-    pos = lines["position"].to_numpy()
-    area = lines["intensity"].to_numpy()
-    sig_d = doppler_sigma(pos, p["temperature"], lines["mass"].to_numpy())
-    sigma = np.sqrt(sig_d**2 + (p["resolution"] / _FWHM_PER_SIGMA) ** 2)
-    gamma = float(p["lorentz_hwhm"])
-    fv = voigt_fwhm(sigma, gamma)
-    x = _grid(p["x"], p["x_range"], p["step"], lines, float(fv.min()), float(fv.max()))
-    peaks = area * voigt_profile(0.0, sigma, gamma)
-    scale = p["strength"] / float(peaks.max())
-    a = scale * render_lines(x, pos, area, sigma, gamma, window=p["window"]) + _baseline(x, p["baseline"])
-    y = a if p["y_kind"] == "absorbance" else 10.0 ** (-a)
-    if p["noise"] > 0:
-        y = y + np.random.default_rng(seed).normal(0.0, p["noise"], size=x.size)
+    sig_d = doppler_sigma(lines["position"].to_numpy(), p["temperature"], lines["mass"].to_numpy())
     mol = p["molecule"]
     name = title or (f"simulated {mol.atoms[0]}{mol.atoms[1]} "
                      f"{', '.join(f'{a}-{b}' for a, b in p['bands'])} at {p['temperature']:g} K")
-    meta = {"title": name,
-            "simulated": {"function": f"widgetkit.simulate.{function}",
-                          "params": _jsonable(p),
-                          "widgetkit_version": __version__,
-                          "n_lines": int(len(lines))}}
-    return Spectrum(x, y, y_kind=p["y_kind"], meta=meta)
+    return render_spectrum(lines, sig_d, p, function=function, title=name)
 
 
 def rovibrational(molecule: Diatomic, constants: Mapping[str, float], *, x=None, x_range=None,
