@@ -154,12 +154,12 @@ def test_encoding_then_decoding_gives_back_the_integers(values, width):
     assert np.array_equal(d.line_x, d.line_first.astype(float))  # X names its first ordinate
 
 
-def test_values_with_more_digits_than_int64_holds_are_read_as_floats():
+def test_values_with_more_digits_than_int64_holds_are_read_exactly_then_rounded_once():
     d = decode_xydata(b"0.060000000000000005 1 2\n", line0=1)
     assert d.y.tolist() == [1, 2]
     assert d.line_x.tolist() == [0.060000000000000005]  # float("0.060000000000000005")
-    with pytest.raises(SpectrumFormatError, match="more than 18 digits"):
-        decode_xydata(b"1 A2345678901234567890\n", line0=1)  # an SQZ integer beyond int64
+    # an SQZ integer beyond int64 (hand-encoded: A = 1 then the digits), rounded once
+    assert ys("1 A2345678901234567890") == [float(12345678901234567890)]
 
 
 def test_long_decimal_values_are_rounded_once_like_float():

@@ -115,11 +115,14 @@ def test_a_line_x_that_does_not_match_its_point_is_refused(tmp_path):
     assert info.value.line == 17
 
 
-def test_deltax_and_firsty_must_agree_with_the_data(tmp_path):
-    with pytest.raises(SpectrumFormatError, match="DELTAX"):
-        read_jcamp(write(tmp_path, LR07.replace("##DELTAX=1", "##DELTAX=2")))
-    with pytest.raises(SpectrumFormatError, match="FIRSTY"):
+def test_a_firsty_beyond_its_written_digits_is_refused_and_a_nominal_deltax_only_warned(
+        tmp_path):
+    with pytest.raises(SpectrumFormatError, match="FIRSTY") as info:
         read_jcamp(write(tmp_path, LR07.replace("##FIRSTY=0.100", "##FIRSTY=0.2")))
+    assert info.value.line == 14 and "checks='warn'" in str(info.value)
+    # x comes from FIRSTX, LASTX and NPOINTS, which the line X values confirm
+    s = read_jcamp(write(tmp_path, LR07.replace("##DELTAX=1", "##DELTAX=2")))
+    assert s.x.tolist() == list(range(2000, 2010)) and "DELTAX=2" in s.meta["warnings"][0]
 
 
 def test_ntuples_is_refused_naming_the_label_and_line(tmp_path):
@@ -167,13 +170,21 @@ def test_unknown_y_units_need_y_kind(tmp_path):
     assert read_jcamp(p, y_kind="intensity").y_kind == "intensity"
 
 
-def test_a_label_before_any_title_is_refused(tmp_path):
-    with pytest.raises(SpectrumFormatError, match="before any ##TITLE"):
-        read_jcamp(write(tmp_path, "##JCAMP-DX=4.24\n" + LR07))
-    with pytest.raises(SpectrumFormatError, match="after the last ##END") as info:
-        read_jcamp(write(tmp_path, LR07 + "##YUNITS=ABSORBANCE\n"))
-    assert info.value.line == 20
+def test_labels_before_the_title_belong_to_the_first_block(tmp_path):
+    own = LR07.replace("##JCAMP-DX=4.24 $$ hand-made test file\n", "")
+    text = "##JCAMP-DX=4.24\n##XUNITS=MICROMETERS\n" + own
+    s = read_jcamp(write(tmp_path, text))
+    assert s.meta["jcamp"]["jcampdx"] == "4.24" and len(s) == 10
+    assert s.meta["x_unit"] == "cm-1"  # the block's own ##XUNITS=1/CM wins over the preamble
+
+
+def test_records_after_the_last_end_are_ignored_with_a_warning_unless_they_hold_data(tmp_path):
+    s = read_jcamp(write(tmp_path, LR07 + "##YUNITS=ABSORBANCE\n"))
+    assert len(s) == 10 and "line 20" in s.meta["warnings"][0]
     assert len(read_jcamp(write(tmp_path, LR07 + "##END=\n"))) == 10  # a stray END is harmless
+    with pytest.raises(SpectrumFormatError, match="outside any block") as info:
+        read_jcamp(write(tmp_path, LR07 + "##XYPOINTS=(XY..XY)\n1,2\n"))
+    assert info.value.line == 20
 
 
 def test_the_yfactor_keeps_seven_significant_digits():
@@ -261,5 +272,5 @@ def test_xfactor_scales_the_line_x_of_xydata(tmp_path):
 
 def test_a_corrupt_dup_count_cannot_expand_beyond_npoints(tmp_path):
     text = LR07.replace("2009H1", "2009H1s99999999")  # a count of 999,999,999
-    with pytest.raises(SpectrumFormatError, match="DUP counts expand"):
+    with pytest.raises(SpectrumFormatError, match="DUP count of 999999999 expands"):
         read_jcamp(write(tmp_path, text))

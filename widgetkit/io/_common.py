@@ -6,7 +6,6 @@ from __future__ import annotations
 import hashlib
 import io
 import os
-import re
 import secrets
 from typing import Any
 
@@ -15,10 +14,22 @@ import numpy as np
 from ..errors import SpectrumFormatError
 from ..spectrum import Y_KINDS, Spectrum
 from ..units import normalise_x_unit, to_wavenumber
+from ._labels import parse_x_label, parse_y_label
 
-#: fraction transmittance above this maximum is taken as percent (common practice: a
-#: measured fraction hardly exceeds 1 by more than noise, percent values run to 100)
-PERCENT_THRESHOLD = 1.5
+__all__ = ["absolute_path", "read_bytes", "source_of", "HashingReader", "decode_text",
+           "transcode", "split_lines", "check_not_binary", "parse_x_label", "parse_y_label",
+           "resolve_x_unit", "resolve_y_kind", "check_choice", "finish", "atomic_write",
+           "PERCENT_THRESHOLD", "PERCENT_LIMIT", "FRACTION_WARN", "CHECKS"]
+
+#: transmittance whose file says neither percent nor fraction is taken as percent when its
+#: maximum exceeds this (common practice: a fraction exceeds 1 only by noise, fringes or a
+#: reference mismatch -- films reach 1.5 -- while percent values of a usable spectrum run
+#: well above 2, which would be an absorbance of 1.7 everywhere)
+PERCENT_THRESHOLD = 2.0
+#: a fraction above this is kept but flagged in ``meta["warnings"]`` (common practice)
+FRACTION_WARN = 1.2
+#: the values of the ``checks=`` option of the readers
+CHECKS = ("strict", "warn")
 #: above this maximum, "transmittance" is neither a fraction nor percent
 PERCENT_LIMIT = 150.0
 
@@ -76,12 +87,32 @@ class HashingReader(io.RawIOBase):
             self.size += len(chunk)
 
 
+def transcode(data: bytes) -> bytes:
+    """UTF-16 text (with its byte-order mark) re-encoded as UTF-8; other bytes as they are.
+
+    UTF-16 files hold NUL bytes and would otherwise be taken as binary."""
+    if data[:2] in (b"\xff\xfe", b"\xfe\xff"):
+        try:
+            return data.decode("utf-16").encode("utf-8")
+        except UnicodeDecodeError:
+            return data
+    return data
+
+
 def decode_text(data: bytes) -> str:
     """Text of a file: UTF-8 (optional BOM), else Latin-1 (which never fails)."""
     try:
         return data.decode("utf-8-sig")
     except UnicodeDecodeError:
         return data.decode("latin-1")
+
+
+def split_lines(text: str) -> list[str]:
+    """Lines of ``text`` split at CR LF, LF or a lone CR (as pandas' parser and Python's
+    universal newlines do), without the line ends. Line ``k`` (1-based) is ``[k - 1]``."""
+    if "\r" in text:
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
+    return text.split("\n")
 
 
 def check_not_binary(data: bytes, path: str) -> None:
@@ -92,63 +123,6 @@ def check_not_binary(data: bytes, path: str) -> None:
         raise SpectrumFormatError("the file holds binary data (a NUL byte); widgetkit reads "
                                   "delimited text and JCAMP-DX; export the spectrum as one of "
                                   "these", path=path, line=line)
-
-
-_PAREN = re.compile(r"[\(\[\{]\s*([^\)\]\}]*?)\s*[\)\]\}]")
-_SLASH = re.compile(r"^([^\W\d][\w .'-]*?)\s*/\s*(\S.*)$")
-_X_WORDS = (("raman shift", "cm-1"), ("wavenumber", "cm-1"), ("wave number", "cm-1"),
-            ("shift", "cm-1"), ("wavelength", None), ("frequency", None), ("lambda", None))
-
-
-def parse_x_label(label: str | None) -> tuple[str | None, str | None]:
-    """Unit and quantity named by an x column label.
-
-    ``"Wavenumber (cm-1)" -> ("cm-1", "wavenumber")``, ``"wavelength / nm" -> ("nm",
-    "wavelength")``, ``"Raman shift (cm-1)" -> ("cm-1", "raman shift")``,
-    ``"wavelength" -> (None, "wavelength")`` (a quantity without unit), ``"x" -> (None, None)``.
-    """
-    if not label:
-        return None, None
-    low = label.strip().lower()
-    quantity = next((w for w, _ in _X_WORDS if w in low), None)
-    candidates = [m.group(1) for m in _PAREN.finditer(low)]
-    m = _SLASH.match(low)
-    if m:
-        candidates.append(m.group(2))
-    candidates += [low, low.split()[-1] if low.split() else low]
-    for c in candidates:
-        c = c.replace("rel.", "").replace("relative", "").strip()
-        try:
-            return normalise_x_unit(c), quantity
-        except ValueError:
-            continue
-    default = next((u for w, u in _X_WORDS if w == quantity), None)
-    return default, quantity
-
-
-def parse_y_label(label: str | None) -> tuple[str | None, bool | None, str | None]:
-    """What a y column label says: ``(y_kind, percent, quantity)``.
-
-    ``percent`` is True for "%" or "percent", False for "(fraction)", else None.
-    ``"Transmittance (%)" -> ("transmittance", True, "transmittance")``,
-    ``"Absorbance" -> ("absorbance", None, "absorbance")``, ``"Intensity (counts)" ->
-    ("intensity", None, "intensity")``, ``"Reflectance" -> ("intensity", None, "reflectance")``.
-    """
-    if not label:
-        return None, None, None
-    low = label.strip().lower()
-    percent = True if ("%" in low or "percent" in low) else (
-        False if "fraction" in low else None)
-    if "absorb" in low:
-        return "absorbance", percent, "absorbance"
-    if "transmi" in low or re.fullmatch(r"%\s*t|t\s*\(?%\)?", low):
-        return "transmittance", percent, "transmittance"
-    if "reflect" in low:
-        return "intensity", percent, "reflectance"
-    for word in ("intens", "count", "raman", "emission", "signal", "a.u", "arb", "cps"):
-        if word in low:
-            return "intensity", percent, "intensity"
-    return None, percent, None
 
 
 def resolve_x_unit(x_unit: str | None, from_file: str | None, quantity: str | None,
@@ -168,6 +142,14 @@ def resolve_x_unit(x_unit: str | None, from_file: str | None, quantity: str | No
     return "cm-1", "default"
 
 
+def check_choice(name: str, value, allowed, path: str):
+    """Refuse an option value outside ``allowed`` (a :class:`SpectrumFormatError`)."""
+    if value not in allowed:
+        raise SpectrumFormatError(f"{name} must be one of {', '.join(map(repr, allowed))}, got "
+                                  f"{value!r}", path=path)
+    return value
+
+
 def resolve_y_kind(y_kind: str | None, from_file: str | None, *, path: str,
                    where: str) -> tuple[str, str]:
     """The y kind to use and where it came from (``"argument"`` or ``"file"``)."""
@@ -185,13 +167,20 @@ def resolve_y_kind(y_kind: str | None, from_file: str | None, *, path: str,
 
 def finish(x: np.ndarray, y: np.ndarray, *, x_unit: str, y_kind: str, percent: bool | None,
            meta: dict[str, Any], source: dict[str, Any], path: str,
-           row_lines: np.ndarray | None = None) -> Spectrum:
+           row_lines: np.ndarray | None = None, percent_from: str = "the file") -> Spectrum:
     """Validate raw columns in file order and build the spectrum.
 
-    Converts x to cm⁻¹ (vacuum, :func:`widgetkit.units.to_wavenumber`), turns percent
-    transmittance into a fraction (``percent`` True, or None and max(y) > 1.5), sorts by x
-    and refuses non-finite values, fewer than 3 points and duplicate x. ``row_lines`` gives
-    the 1-based file line of each row for the messages.
+    Converts x to cm⁻¹ (vacuum, :func:`widgetkit.units.to_wavenumber`) unless x is a Raman
+    shift or already in cm⁻¹ (negative values are kept there: anti-Stokes shifts), turns
+    percent transmittance into a fraction, sorts by x and refuses non-finite values, fewer
+    than 3 points and duplicate x. ``row_lines`` gives the 1-based file line of each row for
+    the messages.
+
+    Percent or fraction is decided in this order: ``percent`` (True or False, from the
+    caller's argument or the file's label, ``percent_from`` says which), else the data range
+    (percent when max(y) > :data:`PERCENT_THRESHOLD`). ``meta["transmittance_percent"]`` and
+    ``meta["percent_from"]`` record the decision; a fraction above :data:`FRACTION_WARN` adds
+    a line to ``meta["warnings"]``.
     """
 
     def line_of(i) -> int | None:
@@ -219,18 +208,7 @@ def finish(x: np.ndarray, y: np.ndarray, *, x_unit: str, y_kind: str, percent: b
         x = to_wavenumber(x, x_unit)
         meta["x_converted"] = f"{x_unit} -> cm-1 (vacuum)"
     if y_kind == "transmittance":
-        ymax = float(np.max(y))
-        if percent is None:
-            percent = ymax > PERCENT_THRESHOLD
-            if percent:
-                meta["percent_detected_from"] = f"values (max {ymax!r} > {PERCENT_THRESHOLD})"
-        if percent and ymax > PERCENT_LIMIT:
-            raise SpectrumFormatError(
-                f"transmittance values reach {ymax!r}, beyond percent (<= {PERCENT_LIMIT}); "
-                "pass y_kind='intensity' if these are not transmittance", path=path)
-        if percent:
-            y = y / 100.0
-        meta["transmittance_percent"] = bool(percent)
+        y = _percent_to_fraction(y, percent, percent_from, meta, path)
     if not np.all(x[1:] > x[:-1]):
         order = np.argsort(x, kind="stable")
         xs = x[order]
@@ -243,7 +221,31 @@ def finish(x: np.ndarray, y: np.ndarray, *, x_unit: str, y_kind: str, percent: b
                 "remove or average the repeated rows", path=path, line=line_of(j))
         x, y = xs, y[order]
         meta["sorted"] = "ascending wavenumber (file order differed)"
+    if not meta.get("warnings"):
+        meta.pop("warnings", None)
     return Spectrum(x, y, y_kind=y_kind, meta=meta, source=source)
+
+
+def _percent_to_fraction(y: np.ndarray, percent: bool | None, percent_from: str,
+                         meta: dict[str, Any], path: str) -> np.ndarray:
+    ymax = float(np.max(y))
+    if percent is None:
+        percent = ymax > PERCENT_THRESHOLD
+        percent_from = (f"the values (max {ymax:.6g} {'>' if percent else '<='} "
+                        f"{PERCENT_THRESHOLD:g}; the file does not say)")
+    meta["transmittance_percent"] = bool(percent)
+    meta["percent_from"] = percent_from
+    if percent and ymax > PERCENT_LIMIT:
+        raise SpectrumFormatError(
+            f"transmittance values reach {ymax!r}, beyond percent (<= {PERCENT_LIMIT:g}); "
+            "pass y_kind='intensity' if these are not transmittance", path=path)
+    if percent:
+        return y / 100.0
+    if ymax > FRACTION_WARN:
+        meta.setdefault("warnings", []).append(
+            f"transmittance read as a fraction reaches {ymax:.6g} (decided from "
+            f"{percent_from}); pass percent=True if the values are percent")
+    return y
 
 
 def atomic_write(path: str, data: bytes) -> None:

@@ -12,9 +12,8 @@ files and give the same numbers.
 
 from __future__ import annotations
 
+import csv
 import os
-import re
-from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -25,6 +24,7 @@ from ._common import (
     HashingReader,
     absolute_path,
     atomic_write,
+    check_choice,
     check_not_binary,
     decode_text,
     finish,
@@ -34,141 +34,27 @@ from ._common import (
     resolve_x_unit,
     resolve_y_kind,
     source_of,
+    split_lines,
+    transcode,
 )
+from ._labels import bracketed, header_fields, resolution_cm1, sample_state, technique_of
+from ._text_sniff import DELIM_NAMES, NONFINITE, Layout, is_numeric, sniff_file, split_cells
 
 __all__ = ["read_text", "write_csv"]
-
-_HEAD_BYTES = 1 << 16
-_NUM = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?\Z")
-_NONFINITE = {"nan", "+nan", "-nan", "inf", "+inf", "-inf", "infinity", "+infinity",
-              "-infinity", "na", "n/a", "null", "none"}
-_DELIM_NAMES = {",": "comma", "\t": "tab", ";": "semicolon", None: "whitespace"}
-
-
-@dataclass
-class _Layout:
-    delimiter: str | None  # None: runs of whitespace
-    decimal: str
-    ncols: int
-    skip: int  # physical lines before the first data line
-    names: list[str] | None
-    trailing: bool = False  # rows end with a separator: read by the reference parser
-    header: list[str] = field(default_factory=list)
-    comments: list[str] = field(default_factory=list)
-
-
-def _split(line: str, delimiter: str | None, trailing: bool = False) -> list[str]:
-    """Cells of a line; with ``trailing``, one separator at the end (``1.0;2.0;``) makes no
-    cell."""
-    cells = line.split() if delimiter is None else line.split(delimiter)
-    if trailing and len(cells) > 1 and not cells[-1].strip():
-        cells.pop()
-    return [c.strip().strip('"').strip() for c in cells]
-
-
-def _numeric(cell: str, decimal: str) -> bool:
-    if decimal == ",":
-        if "." in cell:
-            return False
-        cell = cell.replace(",", ".")
-    return bool(_NUM.match(cell)) or cell.lower() in _NONFINITE
-
-
-def _guess(line: str) -> tuple[str | None, str, int, bool] | None:
-    """Separator, decimal mark, column count and trailing separator of a data line, or None
-    if it is not a data line."""
-    for delim in ("\t", ";", ",", None):
-        if delim is not None and delim not in line:
-            continue
-        for trailing in (False, True) if delim is not None else (False,):
-            cells = _split(line, delim, trailing)
-            if len(cells) < 2:
-                continue
-            decimals = ["."] if delim == "," else ([",", "."] if any("," in c for c in cells)
-                                                 else ["."])
-            for dec in decimals:
-                if all(_numeric(c, dec) for c in cells):
-                    return delim, dec, len(cells), trailing
-    return None
-
-
-def _sniff(head: str, complete: bool, path: str) -> _Layout:
-    lines = head.split("\n")
-    header: list[str] = []
-    comments: list[str] = []
-    layout = None
-    last_comment_at = -2
-    for i, raw in enumerate(lines):
-        s = raw.strip()
-        if not s:
-            continue
-        if s.startswith("#"):
-            comments.append(s.lstrip("#").strip())
-            last_comment_at = i
-            continue
-        g = _guess(s.split("#", 1)[0].strip())
-        if g is None:
-            header.append(s)
-            continue
-        delim, dec, ncols, trailing = g
-        names = None
-        if header:
-            names = _header_names(header[-1], delim, ncols)
-        if names is None and comments and last_comment_at == i - 1:
-            names = _header_names(comments[-1], delim, ncols)
-        layout = _Layout(delim, dec, ncols, i, names, trailing, header, comments[:20])
-        break
-    if layout is None:
-        if not complete:
-            raise SpectrumFormatError("no numeric data in the first 64 KiB; expected rows of "
-                                      "two or more numbers", path=path)
-        first = next(((k + 1, ln.strip()) for k, ln in enumerate(lines)
-                      if ln.strip() and not ln.strip().startswith("#")), None)
-        if first is None:
-            raise SpectrumFormatError("the file holds no data rows (only blank or comment "
-                                      "lines); expected rows of two or more numbers", path=path)
-        raise SpectrumFormatError(
-            f"no data row found: expected two or more numbers per line separated by comma, "
-            f"tab, semicolon or blanks; the first line reads {first[1][:60]!r}",
-            path=path, line=first[0])
-    return layout
-
-
-def _merge_units(words: list[str]) -> list[str]:
-    """Join blank-separated label words so that units stay with their quantity:
-    ``["Wavenumber", "(cm-1)", "Absorbance"] -> ["Wavenumber (cm-1)", "Absorbance"]``."""
-    out: list[str] = []
-    for w in words:
-        if out and (w[0] in "([{/" or out[-1].endswith("/")):
-            out[-1] += " " + w
-        else:
-            out.append(w)
-    return out
-
-
-def _header_names(line: str, delim: str | None, ncols: int) -> list[str] | None:
-    tries = [delim] if delim is not None else ["\t", "  ", ",", ";", None, "units"]
-    for d in tries:
-        if d == "  ":
-            cells = [c.strip() for c in re.split(r"\s{2,}", line.strip())]
-        elif d == "units":
-            cells = _merge_units(line.split())
-        else:
-            cells = _split(line, d, trailing=True)
-        if len(cells) == ncols and all(cells):
-            return cells
-    return None
 
 
 def _unit_in(label: str | None) -> str | None:
     """The text in brackets or after a slash in a label: ``"Intensity (counts)" -> "counts"``."""
     if not label:
         return None
-    m = re.search(r"[\(\[]\s*([^\)\]]+?)\s*[\)\]]", label) or re.search(r"\s/\s*(\S.*)$", label)
-    return m.group(1) if m else None
+    inside = bracketed(label)
+    if inside:
+        return inside[0] or None
+    i = label.find(" /")
+    return label[i + 2:].strip() or None if i >= 0 else None
 
 
-def _select_y(layout: _Layout, y_column, path: str) -> int:
+def _select_y(layout: Layout, y_column, path: str) -> int:
     ny = layout.ncols - 1
     if y_column is None:
         return 0
@@ -180,8 +66,9 @@ def _select_y(layout: _Layout, y_column, path: str) -> int:
     if isinstance(y_column, str):
         names = layout.names[1:] if layout.names else []
         low = [n.lower() for n in names]
-        if y_column.strip().lower() in low:
-            return low.index(y_column.strip().lower())
+        want = y_column.strip().strip('"').strip().lower()
+        if want in low:
+            return low.index(want)
         raise SpectrumFormatError(
             f"no y column named {y_column!r}; the y columns are "
             f"{names if names else 'unnamed (no header line)'}; give a name or a 0-based index",
@@ -190,64 +77,99 @@ def _select_y(layout: _Layout, y_column, path: str) -> int:
                               f"{y_column!r}", path=path)
 
 
-def _fast_columns(path: str, layout: _Layout, ycol: int):
-    """Parse with pandas; return (x, y, sha, size) or None when the reference parser is needed."""
+def _fast_columns(path: str, layout: Layout, ycol: int):
+    """Parse with pandas from the first data line on; return (x, y, sha, size) or None when
+    the reference parser is needed (any cell pandas cannot take as a float, a quote, a short
+    row). Both parsers take the same numbers where both succeed."""
     import pandas as pd
 
-    if layout.trailing:
+    if layout.trailing or layout.transcoded:
         return None
     sep = r"\s+" if layout.delimiter is None else layout.delimiter
     with open(path, "rb") as f:
         reader = HashingReader(f)
+        left = layout.offset
+        while left > 0:  # the header bytes are hashed but not parsed
+            chunk = reader.read(left)
+            if not chunk:
+                return None
+            left -= len(chunk)
         try:
             frame = pd.read_csv(
-                reader, sep=sep, header=None, skiprows=layout.skip, comment="#",
-                decimal=layout.decimal, engine="c", dtype=np.float64, na_filter=False,
-                encoding="latin-1", skip_blank_lines=True, names=list(range(layout.ncols)),
-                index_col=False)
+                reader, sep=sep, header=None, comment="#", decimal=layout.decimal,
+                engine="c", dtype=np.float64, na_filter=False, encoding="latin-1",
+                skip_blank_lines=True, names=list(range(layout.ncols)), index_col=False,
+                quoting=csv.QUOTE_NONE)
         except Exception:  # any trouble: the reference parser explains it
             return None
         reader.drain()
-    x = frame[0].to_numpy()
-    y = frame[1 + ycol].to_numpy()
-    return x, y, reader.sha.hexdigest(), reader.size
+    values = frame.to_numpy()
+    if values.size and np.isnan(values).any():  # a missing field: the reference says where
+        return None
+    return values[:, 0], values[:, 1 + ycol], reader.sha.hexdigest(), reader.size
 
 
-def _reference_rows(text: str, layout: _Layout, path: str) -> tuple[np.ndarray, np.ndarray]:
-    """Line-by-line parse of every data row: values (rows, ncols) and 1-based line numbers."""
-    rows: list[list[float]] = []
+def _reference_rows(text: str, layout: Layout, ycol: int,
+                    path: str) -> tuple[np.ndarray, np.ndarray]:
+    """Line-by-line parse of every data row: x, y and the 1-based line of each row.
+
+    The x and y cells must be finite numbers; the other columns must hold numbers, which may
+    be NaN or infinite there (they are not read)."""
+    xs: list[float] = []
+    ys: list[float] = []
     lines_of: list[int] = []
     dec = layout.decimal
-    for k, raw in enumerate(text.split("\n")[layout.skip:], start=layout.skip + 1):
+    read = (0, 1 + ycol)
+    mark = " with decimal comma" if dec == "," else ""
+    for k, raw in enumerate(split_lines(text)[layout.skip:], start=layout.skip + 1):
         s = raw.split("#", 1)[0].strip()
         if not s:
             continue
-        cells = _split(s, layout.delimiter, layout.trailing)
+        cells = split_cells(s, layout.delimiter, layout.trailing)
         if len(cells) != layout.ncols:
             raise SpectrumFormatError(
                 f"this row has {len(cells)} field(s) but the data has {layout.ncols} columns "
-                f"separated by {_DELIM_NAMES[layout.delimiter]}; fix the row or remove it",
+                f"separated by {DELIM_NAMES[layout.delimiter]}; fix the row or remove it",
                 path=path, line=k)
-        vals = []
         for j, c in enumerate(cells):
-            if not _numeric(c, dec) or c.lower() in _NONFINITE:
-                what = ("an empty cell" if not c else
-                        f"the value {c!r} is not finite" if c.lower() in _NONFINITE else
-                        f"{c!r} is not a number")
-                mark = " with decimal comma" if dec == "," else ""
-                raise SpectrumFormatError(
-                    f"column {j + 1}: {what}; every data cell must be a finite number{mark}",
-                    path=path, line=k)
-            vals.append(float(c.replace(",", ".") if dec == "," else c))
-        rows.append(vals)
+            finite_needed = j in read
+            if is_numeric(c, dec) and not (finite_needed and c.lower() in NONFINITE):
+                continue
+            what = ("an empty cell" if not c else
+                    f"the value {c!r} is not finite" if c.lower() in NONFINITE else
+                    f"{c[:40]!r} is not a number")
+            rule = ("must be a finite number" if finite_needed else
+                    "must be a number (NaN allowed in a column that is not read)")
+            raise SpectrumFormatError(f"column {j + 1}: {what}; this cell {rule}{mark}",
+                                      path=path, line=k)
+        xs.append(float(cells[0].replace(",", ".") if dec == "," else cells[0]))
+        yc = cells[1 + ycol]
+        ys.append(float(yc.replace(",", ".") if dec == "," else yc))
         lines_of.append(k)
-    if not rows:
+    if not xs:
         raise SpectrumFormatError("the file holds no data rows", path=path)
-    return np.array(rows, np.float64), np.array(lines_of, np.int64)
+    return np.array(xs, np.float64), np.array(ys, np.float64), np.array(lines_of, np.int64)
+
+
+def _typed_meta(layout: Layout, x_label, y_label, x_quantity, unit: str, meta: dict) -> None:
+    """resolution, sample_state, technique and x_axis from the labels and header fields."""
+    fields = header_fields(layout.comments + layout.header)
+    res = next((v for k, v in fields.items() if k.startswith("resolution")), None)
+    if res is not None and resolution_cm1(res, None) is not None:
+        meta["resolution"] = resolution_cm1(res, None)
+    state = fields.get("state") or fields.get("sample state") or fields.get("phase")
+    if state and sample_state(state):
+        meta["sample_state"] = sample_state(state)
+    technique = technique_of(fields.get("technique"), x_label, y_label)
+    if technique:
+        meta["technique"] = technique
+    if unit == "cm-1" and x_quantity == "raman shift":
+        meta["x_axis"] = "raman_shift"
+        meta.setdefault("technique", "raman")
 
 
 def read_text(path, *, x_unit: str | None = None, y_kind: str | None = None,
-              y_column: int | str | None = None) -> Spectrum:
+              y_column: int | str | None = None, percent: bool | None = None) -> Spectrum:
     """Read a spectrum from delimited text.
 
     Parameters
@@ -256,25 +178,32 @@ def read_text(path, *, x_unit: str | None = None, y_kind: str | None = None,
         The file. Columns are separated by comma, tab, semicolon or blanks (detected); a
         decimal comma (``2885,97;0,123``) is accepted with tab, semicolon or blank separators.
         Lines before the first numeric row are header lines, the last of them naming the
-        columns (for example ``Wavenumber (cm-1),Absorbance``); ``#`` lines are comments.
+        columns (for example ``Wavenumber (cm-1),Absorbance``; double quotes around a name
+        are removed, and a quoted name may span lines); ``#`` starts a comment. Lines end at
+        LF, CR LF or a lone CR.
     x_unit : {"cm-1", "nm", "um", "THz"}, optional
         Unit of the first column; default taken from its label, else cm⁻¹. Given, it wins over
         the label (both are kept in ``meta``). Wavelength is taken as vacuum wavelength:
-        ν̃ = 10⁷/λ[nm] = 10⁴/λ[µm]; frequency ν̃ = ν/(100 c).
+        ν̃ = 10⁷/λ[nm] = 10⁴/λ[µm]; frequency ν̃ = ν/(100 c). A Raman shift (label such as
+        ``Raman shift (cm-1)``) stays as it is, negative anti-Stokes values included.
     y_kind : {"absorbance", "transmittance", "intensity"}, optional
         What the y column holds; default from its label. Required when the label says nothing.
-        Transmittance in percent (label with "%", or no unit and a maximum above 1.5) is
-        divided by 100 and ``meta["transmittance_percent"]`` is True.
     y_column : int or str, optional
         Which y column when there are several: its header name or its 0-based index among the
-        y columns (the x column not counted). Default the first.
+        y columns (the x column not counted). Default the first. Columns that are not read
+        must hold numbers, NaN and infinity included.
+    percent : bool, optional
+        Transmittance only: True when the values are percent (divided by 100), False for a
+        fraction. Default: from the label ("%", "percent", "fraction"), else percent when
+        max(y) > 2. ``meta["transmittance_percent"]`` and ``meta["percent_from"]`` record it.
 
     Returns
     -------
     Spectrum
         Sorted to ascending wavenumber. ``source`` holds the absolute path, sha256 and size
         of the file and ``format="text"``; ``meta`` the title, labels, units, columns,
-        separator, decimal mark, header and comment lines and ``read_options``.
+        separator, decimal mark, header and comment lines, the typed keys of
+        :func:`widgetkit.io.read_spectrum` and ``read_options``.
 
     Raises
     ------
@@ -285,62 +214,66 @@ def read_text(path, *, x_unit: str | None = None, y_kind: str | None = None,
         that is not a finite number, fewer than 3 rows or a repeated x: with the 1-based line.
     """
     apath = absolute_path(path)
+    check_choice("percent", percent, (None, True, False), apath)
     options = {"x_unit": x_unit, "y_kind": y_kind,
-               "y_column": int(y_column) if isinstance(y_column, np.integer) else y_column}
-    with open(apath, "rb") as f:
-        head = f.read(_HEAD_BYTES + 1)
-    complete = len(head) <= _HEAD_BYTES
-    if not complete:  # sniff whole lines only
-        head = head[: head.rfind(b"\n", 0, _HEAD_BYTES) + 1]
-    if not head:
-        raise SpectrumFormatError("the file is empty; expected columns of numbers", path=apath)
-    check_not_binary(head, apath)
-    layout = _sniff(decode_text(head), complete, apath)
+               "y_column": int(y_column) if isinstance(y_column, np.integer) else y_column,
+               "percent": percent}
+    if os.path.isdir(apath):
+        read_bytes(apath)  # raises the usual error for a folder
+    layout = sniff_file(apath)
     ycol = _select_y(layout, y_column, apath)
     names = layout.names
     x_label = names[0] if names else None
     y_label = names[1 + ycol] if names else None
     file_x_unit, x_quantity = parse_x_label(x_label)
-    file_kind, percent, y_quantity = parse_y_label(y_label)
+    file_kind, file_percent, y_quantity = parse_y_label(y_label)
     unit, unit_from = resolve_x_unit(x_unit, file_x_unit, x_quantity, path=apath,
                                      where=f"x column label {x_label!r}" if x_label else
                                      "file (no header)")
     kind, kind_from = resolve_y_kind(y_kind, file_kind, path=apath,
                                      where=f"y column label {y_label!r}" if y_label else
                                      "file (no header line naming the columns)")
-    if kind != "transmittance":
-        percent = None
-    title = next((re.split(r"[:=]", c, maxsplit=1)[1].strip() for c in layout.comments
-                  + layout.header if re.match(r"\s*title\s*[:=]", c, re.I)), None)
+    fields = header_fields(layout.comments + layout.header)
     meta: dict[str, Any] = {
-        "title": title or os.path.splitext(os.path.basename(apath))[0],
+        "title": fields.get("title") or os.path.splitext(os.path.basename(apath))[0],
         "x_unit": unit, "x_unit_from": unit_from, "x_label": x_label,
         "x_quantity": x_quantity or ("wavenumber" if unit == "cm-1" else None),
         "y_label": y_label, "y_unit": _unit_in(y_label), "y_quantity": y_quantity or kind,
         "y_kind_from": kind_from,
         "columns": names, "y_column": y_label if y_label is not None else ycol,
-        "delimiter": _DELIM_NAMES[layout.delimiter], "decimal": layout.decimal,
+        "delimiter": DELIM_NAMES[layout.delimiter], "decimal": layout.decimal,
         "header": layout.header, "comments": layout.comments, "read_options": options,
     }
     if file_x_unit is not None and file_x_unit != unit:
         meta["x_unit_in_file"] = file_x_unit
     if file_kind is not None and file_kind != kind:
         meta["y_kind_in_file"] = file_kind
-    common = dict(x_unit=unit, y_kind=kind, percent=percent, path=apath)
+    _typed_meta(layout, x_label, y_label, x_quantity, unit, meta)
+    use_percent, percent_from = percent, "the percent= argument"
+    if use_percent is None and file_percent is not None:
+        use_percent, percent_from = file_percent, f"the y label {y_label!r}"
+    common = dict(x_unit=unit, y_kind=kind, path=apath, percent_from=percent_from,
+                  percent=use_percent if kind == "transmittance" else None)
     fast = _fast_columns(apath, layout, ycol)
     if fast is not None:
         x, y, sha, size = fast
         source = {"path": apath, "sha256": sha, "format": "text", "size": size}
         try:
-            return finish(x, y, meta=dict(meta), source=source, **common)
+            return finish(x, y, meta=_copy_meta(meta), source=source, **common)
         except SpectrumFormatError:
             pass  # the reference parser gives the line
         del x, y
     data = read_bytes(apath)
-    check_not_binary(data, apath)
-    values, row_lines = _reference_rows(decode_text(data), layout, apath)
-    return finish(values[:, 0], values[:, 1 + ycol], meta=meta,
-                  source=source_of(apath, data, "text"), row_lines=row_lines, **common)
+    text = decode_text(transcode(data))
+    check_not_binary(text.encode("utf-8", "surrogatepass") if layout.transcoded else data,
+                     apath)
+    x, y, row_lines = _reference_rows(text, layout, ycol, apath)
+    return finish(x, y, meta=meta, source=source_of(apath, data, "text"),
+                  row_lines=row_lines, **common)
+
+
+def _copy_meta(meta: dict) -> dict:
+    return {k: (list(v) if isinstance(v, list) else v) for k, v in meta.items()}
 
 
 _Y_LABELS = {"absorbance": "absorbance", "transmittance": "transmittance (fraction)",
