@@ -210,3 +210,23 @@ def test_sample_notebooks_are_valid_and_use_only_shipped_demo_files():
             assert name in demo.SAMPLES, f"{nb_path.name} reads {name}, which the demo does not ship"
         text = "\n".join(c.source for c in nb.cells)
         assert "no safety judgement" in text, f"{nb_path.name} lacks the safety note"
+
+
+@pytest.mark.slow
+def test_notebook_05_shows_its_report_figures_from_files_that_exist(tmp_path):
+    # run the notebook as a reader would, in a folder of its own, and follow every image link
+    # of the Markdown it displays from that folder (a link resolving elsewhere is a broken image)
+    import re
+
+    import nbformat
+    from nbclient import NotebookClient
+
+    nb = nbformat.read(ROOT / "sample_notebooks" / "05-supplementary-material.ipynb", as_version=4)
+    NotebookClient(nb, timeout=300, kernel_name="python3",
+                   resources={"metadata": {"path": str(tmp_path)}}).execute()
+    shown = [o["data"]["text/markdown"] for c in nb.cells if c.cell_type == "code"
+             for o in c.get("outputs", []) if "text/markdown" in o.get("data", {})]
+    links = [link for md in shown for link in re.findall(r"!\[[^\]]*\]\(([^)]+)\)", md)]
+    assert len(links) >= 2                                   # the spectrum and the residuals
+    for link in links:
+        assert (tmp_path / link).is_file(), f"broken image link {link!r} in notebook 05"

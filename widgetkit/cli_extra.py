@@ -19,7 +19,6 @@ from __future__ import annotations
 
 import argparse
 import sys
-from pathlib import Path
 
 __all__ = ["register_report", "register_demo", "COMMANDS"]
 
@@ -42,15 +41,21 @@ def _err(cmd: str, text: str) -> None:
 
 def _cmd_report(args: argparse.Namespace) -> int:
     from .errors import WidgetkitError
-    from .report import REPORT_FORMATS, collect, write_bundle, write_report
+    from .report import collect, write_bundle, write_report
+    from .report.bundle import check_bundle_folder
+    from .report.write import check_report_path
     from .session import Session
 
     if args.output is None and args.bundle is None:
         _err("report", "give -o OUT (a .md, .html, .tex or .csv file) and/or --bundle DIR")
         return 2
-    if args.output is not None and Path(args.output).suffix.lower() not in REPORT_FORMATS:
-        _err("report", f"cannot tell the report format from {args.output!r}: the name must end in "
-             f"{', '.join(REPORT_FORMATS)} (for example report.html)")
+    try:  # every path is checked before the session is read
+        if args.output is not None:
+            check_report_path(args.output)
+        if args.bundle is not None:
+            check_bundle_folder(args.bundle, overwrite=args.overwrite)
+    except (WidgetkitError, OSError) as exc:
+        _err("report", str(exc))
         return 2
     try:
         session = Session.load(args.file)
@@ -66,8 +71,8 @@ def _cmd_report(args: argparse.Namespace) -> int:
             for path in write_report(data, args.output):
                 print(f"wrote {path}")
         if args.bundle is not None:
-            bundle = write_bundle(session, args.bundle, overwrite=args.overwrite, title=args.title)
-            print(f"wrote {bundle}")
+            bundle = write_bundle(session, args.bundle, overwrite=args.overwrite, data=data)
+            print(f"wrote the {bundle}")
     except (WidgetkitError, OSError) as exc:
         _err("report", str(exc))
         return 2

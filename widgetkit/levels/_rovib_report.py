@@ -80,7 +80,8 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
         elif mdl.kind == "offset":
             add("band_origin", mdl.values["band_origin"], float(np.sqrt(mdl.cov5[0, 0])))
             covs[name] = pd.DataFrame([[mdl.cov5[0, 0]]], index=["band_origin"], columns=["band_origin"])
-            msgs.append(f"{name}: only the band origin was fitted ({len(sel)} lines); B and D held "
+            msgs.append(f"{name}: only the band origin was fitted ({len(sel)} "
+                        f"{'line' if len(sel) == 1 else 'lines'}); B and D held "
                         f"at values scaled from {st.seed_iso}")
         if len(sel):
             r = data.x[sel] - st.calc[sel]
@@ -99,7 +100,8 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
     cd = pd.DataFrame(cd_rows, columns=["isotopologue", "state", "J", "lines", "value", "stderr",
                                         "calc", "obs_minus_calc"])
     cdf = pd.DataFrame(consts, columns=["isotopologue", "name", "value", "stderr", "unit"])
-    msgs.append(f"{int(good.sum())} of {n} lines fitted after {st.rounds} rounds")
+    msgs.append(f"{int(good.sum())} of {n} {'line' if n == 1 else 'lines'} fitted after "
+                f"{st.rounds} {'round' if st.rounds == 1 else 'rounds'}")
     seed = st.models.get(st.seed_iso)
     birge = (float(np.sqrt(seed.fit.fit.reduced_chi2))
              if seed is not None and seed.fit is not None and sig is not None
@@ -161,4 +163,5 @@ def _report_flags(table: pd.DataFrame, msgs: list) -> None:
     un = table[table["isotopologue"].isna()]
     if len(un):
         ids = ", ".join(str(v) for v in un["line_id"].tolist()[:20])
-        msgs.append(f"{len(un)} lines unassigned (line_id {ids}{', ...' if len(un) > 20 else ''})")
+        msgs.append(f"{len(un)} {'line' if len(un) == 1 else 'lines'} unassigned "
+                    f"(line_id {ids}{', ...' if len(un) > 20 else ''})")

@@ -27,7 +27,8 @@ LINE_VALUE_COLUMNS = {"position": "position_err", "area": "area_err", "fwhm": "f
 
 @dataclass(frozen=True)
 class StepRecord:
-    """One step of the record as a report shows it (1-based ``number``)."""
+    """One step of the record as a report shows it (``number`` from 0: the load is step 0,
+    so step i is ``session.history[i]``)."""
 
     number: int
     kind: str
@@ -66,10 +67,17 @@ class ReportData:
         The fitted model (on the fitted points) when the line fit provides it.
     y_kind : str
     verified : bool or None
-        The outcome of :meth:`Session.verify` when :func:`collect` was asked to run it.
+        The outcome of :meth:`Session.verify` when :func:`collect` was asked to run it;
+        None when verification was not run (reports then say so).
     verify_messages : list of str
     messages : list of str
         What the assignment flagged, left out or cross-checked (its ``messages``).
+    methods : list of str
+        The methods paragraphs (:func:`~widgetkit.report.methods.describe_methods`).
+    flags : list of str
+        What to look at twice (:func:`~widgetkit.report.flags.collect_flags`).
+    at_bound : frozenset of (line_id, column)
+        Line-table cells whose parameter ended on a bound.
     """
 
     title: str
@@ -89,6 +97,9 @@ class ReportData:
     verified: bool | None = None
     verify_messages: list = field(default_factory=list)
     messages: list = field(default_factory=list)
+    methods: list = field(default_factory=list)
+    flags: list = field(default_factory=list)
+    at_bound: frozenset = field(default_factory=frozenset)
 
     def tables(self) -> dict[str, pd.DataFrame]:
         """The result tables in report order: lines, assignments, constants, extras."""
@@ -155,7 +166,9 @@ def collect(session, *, title: str | None = None, verify: bool = False) -> Repor
     -------
     ReportData
     """
-    from ..session.session import ASSIGNMENT_COLUMNS, CONSTANT_COLUMNS, LINE_COLUMNS
+    from ..session.session import ASSIGNMENT_COLUMNS, LINE_COLUMNS
+    from .flags import collect_flags
+    from .methods import describe_methods, latest_constants
 
     history = session.history
     state = session.state_at(len(history) - 1)  # the latest state, whatever is being viewed
@@ -166,19 +179,19 @@ def collect(session, *, title: str | None = None, verify: bool = False) -> Repor
                  or (sources[0].get("path") or "").replace("\\", "/").rsplit("/", 1)[-1]
                  or "widgetkit session")
     fit, assignment = state.line_fit, state.assignment
+    flags = collect_flags(session)
     x = np.array(sp.x, dtype=float)
     data = dict(
         title=str(title),
         generated=datetime.now(timezone.utc).isoformat(timespec="seconds"),
         sources=[{k: r.get(k) for k in ("id", "path", "format", "size", "sha256", "data_sha256")}
                  for r in sources],
-        steps=[StepRecord(i + 1, s.kind, dict(s.params), s.summary, s.at)
+        steps=[StepRecord(i, s.kind, dict(s.params), s.summary, s.at)
                for i, s in enumerate(history)],
         lines=pd.DataFrame(columns=LINE_COLUMNS) if fit is None else fit.table.copy(),
         assignments=(pd.DataFrame(columns=ASSIGNMENT_COLUMNS) if assignment is None
                      else assignment.assignments.copy()),
-        constants=(pd.DataFrame(columns=CONSTANT_COLUMNS) if assignment is None
-                   else assignment.constants.copy()),
+        constants=latest_constants(session),
         extra_tables=_extra_tables(assignment),
         software=_software(history),
         spectrum_x=x,
@@ -187,6 +200,9 @@ def collect(session, *, title: str | None = None, verify: bool = False) -> Repor
         model_y=_model_curve(fit, x)[1],
         y_kind=sp.y_kind,
         messages=[str(m) for m in (getattr(assignment, "messages", None) or [])],
+        methods=describe_methods(session),
+        flags=list(flags.items),
+        at_bound=flags.at_bound,
     )
     if verify:
         rep = session.verify()

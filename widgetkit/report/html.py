@@ -9,12 +9,9 @@ from __future__ import annotations
 
 from html import escape
 
-import pandas as pd
-
-from .cells import cell_text, table_columns
 from .data import ReportData
 from .figures import report_figures, to_svg
-from .render import NOTATION_NOTE, _source_rows, _title, _verify_line, _version
+from .render import report_blocks
 
 __all__ = ["render_html"]
 
@@ -28,7 +25,8 @@ tbody tr:last-child td { border-bottom: 2px solid #222; }
 th, td { padding: 0.2em 0.7em; text-align: left; vertical-align: top; }
 td.num { text-align: right; white-space: nowrap; }
 code, .hash { font-family: ui-monospace, monospace; font-size: 0.85em; word-break: break-all; }
-.ok { color: #05612a; } .bad { color: #a3001b; }
+.ok { color: #05612a; } .bad { color: #a3001b; font-weight: bold; }
+.warn { color: #7a4b00; font-weight: bold; }
 figure { margin: 1em 0; } figure svg { max-width: 100%; height: auto; }
 """
 
@@ -55,46 +53,30 @@ def _table(head: list[str], rows: list[list[str]], *, code_cols: tuple[int, ...]
     return "\n".join(out)
 
 
-def _df_table(df: pd.DataFrame) -> str:
-    if not len(df):
-        return "<p>(none)</p>"
-    cols = table_columns(df)
-    return _table([c.heading for c in cols],
-                  [[cell_text(row, c) for c in cols] for _, row in df.iterrows()])
-
-
 def render_html(data: ReportData, *, figures=True) -> str:
     """The report as one self-contained HTML page (inline CSS and SVG figures).
 
     ``figures``: True to draw them (:func:`~widgetkit.report.figures.report_figures`),
     False for none, or a mapping name -> matplotlib Figure already drawn.
     """
+    figs = (report_figures(data) if figures is True else figures) or {}
     out = ["<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
            f"<title>Analysis report: {escape(data.title)}</title>", f"<style>{_CSS}</style>",
-           "</head>", "<body>", f"<h1>Analysis report: {escape(data.title)}</h1>",
-           f"<p>Generated {escape(data.generated)} by widgetkit {escape(_version(data))}. "
-           f"{escape(NOTATION_NOTE)}</p>"]
-    v = _verify_line(data)
-    if v:
-        out.append(f'<p class="{"ok" if data.verified else "bad"}">{escape(v)}</p>')
-    out += ["<h2>Source data</h2>",
-            _table(["id", "file", "format", "bytes", "sha256 of the file", "sha256 of the data"],
-                   _source_rows(data), code_cols=(4, 5)),
-            "<h2>Processing record</h2>",
-            _table(["#", "step", "parameters", "summary", "time (UTC)"],
-                   [[str(s.number), s.kind, s.params_text, s.summary, s.at] for s in data.steps],
-                   code_cols=(2,))]
-    if figures:
-        figs = report_figures(data) if figures is True else figures
-        for name, fig in figs.items():
-            out.append(f'<figure id="figure-{escape(name)}">{to_svg(fig)}'
-                       f"<figcaption>{escape(name)}</figcaption></figure>")
-    if data.messages:
-        out += ["<h2>Notes of the assignment</h2>", "<ul>"]
-        out += [f"<li>{escape(m)}</li>" for m in data.messages] + ["</ul>"]
-    for name, df in data.tables().items():
-        out += [f"<h2>{escape(_title(name))}</h2>", _df_table(df)]
-    out += ["<h2>Software</h2>",
-            _table(["package", "version"], [[k, v] for k, v in data.software.items()]),
-            "</body>", "</html>", ""]
+           "</head>", "<body>"]
+    for b in report_blocks(data, figures={n: f for n, f in figs.items()}):
+        if b.kind == "title":
+            out.append(f"<h1>{escape(b.text)}</h1>")
+        elif b.kind == "heading":
+            out.append(f"<h2>{escape(b.text)}</h2>")
+        elif b.kind == "para":
+            cls = f' class="{b.tone}"' if b.tone else ""
+            out.append(f"<p{cls}>{escape(b.text)}</p>")
+        elif b.kind == "bullets":
+            out += ["<ul>"] + [f"<li>{escape(i)}</li>" for i in b.items] + ["</ul>"]
+        elif b.kind == "table":
+            out.append(_table(b.head, b.items, code_cols=b.code))
+        elif b.kind == "figures":
+            out += [f'<figure id="figure-{escape(name)}">{to_svg(fig)}'
+                    f"<figcaption>{escape(name)}</figcaption></figure>" for name, fig in b.items]
+    out += ["</body>", "</html>", ""]
     return "\n".join(out)

@@ -1,13 +1,12 @@
-"""Reports and the supplementary bundle show exactly the session's values.
+"""Reports show exactly the session's values, rounded by their uncertainties, in one notation.
 
-The session analysed here is the demo spectrum (invented scenario, simulated data):
-every check is a self-consistency check between the session and what the report
-says, read back from the report files.
+The session analysed here is the demo spectrum (invented scenario, simulated data): every
+check is a self-consistency check between the session and what the report says, read back
+from the report.
 """
 
 from __future__ import annotations
 
-import hashlib
 import json
 import math
 import re
@@ -17,7 +16,6 @@ import pandas as pd
 import pytest
 
 import widgetkit as wk
-from widgetkit.cli import main
 from widgetkit.report import (
     ReportFormatError,
     collect,
@@ -28,45 +26,12 @@ from widgetkit.report import (
     render_html,
     render_latex,
     render_markdown,
-    write_bundle,
     write_report,
 )
 from widgetkit.report.cells import table_columns
 from widgetkit.report.figures import spectrum_figure, to_svg
 
-
-@pytest.fixture(scope="module")
-def session():
-    """The 296 K HCl demo band analysed end to end (cropped, Gaussian lines: fast)."""
-    s = wk.Session.from_file(wk.demo.data_path("hcl_cell_296K.jdx"))
-    s.crop(2690.0, 3070.0)
-    s.to_absorbance()
-    s.subtract_baseline("als", lam=1e6, p=0.01)
-    s.find_peaks(min_snr=8)
-    s.fit_lines(shape="gaussian", baseline="linear")
-    s.assign_band(wk.Diatomic("H", "Cl"), temperature=296)
-    s.note("demo analysis for the report tests")
-    return s
-
-
-@pytest.fixture(scope="module")
-def data(session):
-    return collect(session)
-
-
-def _md_tables(text: str) -> dict[str, list[dict[str, str]]]:
-    """The pipe tables of a Markdown report by section heading, as lists of row dicts."""
-    out = {}
-    for block in re.split(r"^## ", text, flags=re.M)[1:]:
-        title, _, body = block.partition("\n")
-        rows = [ln for ln in body.splitlines() if ln.startswith("| ") and not ln.startswith("| ---")]
-        if len(rows) < 1:
-            continue
-        split = [[c.strip().replace("\\|", "|") for c in re.split(r"(?<!\\)\|", r)[1:-1]]
-                 for r in rows]
-        head = split[0]
-        out[title.strip()] = [dict(zip(head, r)) for r in split[1:]]
-    return out
+from .mdtables import md_section, md_tables
 
 
 def _shown_decimals(cell: str) -> int:
@@ -110,48 +75,97 @@ def test_value_columns_are_paired_with_their_error_columns():
 
 
 def test_markdown_constants_equal_the_session_constants(session, data):
-    tables = _md_tables(render_markdown(data))
-    rows = tables["Constants"]
+    rows = md_tables(render_markdown(data))["Constants"]
     consts = session.constants
     assert len(rows) == len(consts) > 0
     for row, (_, c) in zip(rows, consts.iterrows()):
-        assert row["isotopologue"] == c["isotopologue"] and row["name"] == c["name"]
-        assert row["unit"] == c["unit"]
+        # isotopologues as the trade writes them, units in one notation (the data keep ASCII)
+        assert row["isotopologue"] == wk.formatting.display_isotopologue(c["isotopologue"])
+        assert row["isotopologue"] in ("H³⁵Cl", "H³⁷Cl") and row["name"] == c["name"]
+        assert row["unit"] == c["unit"].replace("cm-1", "cm⁻¹")
         stderr = None if pd.isna(c["stderr"]) else float(c["stderr"])
-        assert _agrees(row["value"], float(c["value"]), stderr), (row, c.to_dict())
+        if stderr is not None:
+            assert _agrees(row["value"], float(c["value"]), stderr), (row, c.to_dict())
+    stats = {r["name"]: r["value"] for r in rows}
+    assert re.fullmatch(r"0\.00\d\d\d", stats["rms"])        # a statistic: 3 significant digits
+    assert stats["n_lines"].isdigit()
 
 
 def test_markdown_lines_and_assignments_equal_the_session_tables(session, data):
-    tables = _md_tables(render_markdown(data))
+    tables = md_tables(render_markdown(data))
     lines = session.lines
     for row, (_, ln) in zip(tables["Fitted lines"], lines.iterrows(), strict=True):
-        assert int(row["line_id"]) == ln["line_id"]
+        assert int(row["line"]) == ln["line_id"]
         assert _agrees(row["position (cm⁻¹)"], ln["position"], ln["position_err"])
         assert _agrees(row["area"], ln["area"], ln["area_err"])
     a = session.assignments
     for row, (_, r) in zip(tables["Assignments"], a.iterrows(), strict=True):
         assert parse_cell(row["label"]) == (r["label"] if isinstance(r["label"], str) else None)
-        if pd.notna(r["obs_minus_calc"]):
-            shown = parse_cell(row["obs − calc (cm⁻¹)"])
-            assert shown == pytest.approx(float(r["obs_minus_calc"]), rel=1e-9, abs=1e-15)
         assert parse_cell(row["outlier"]) == bool(r["outlier"])
+        if pd.notna(r["obs_minus_calc"]):
+            # obs − calc rounded to the decimal place of the position as shown
+            shown = row["obs − calc (cm⁻¹)"]
+            decimals = _shown_decimals(row["position (cm⁻¹)"])
+            assert _shown_decimals(shown) == decimals, (shown, row["position (cm⁻¹)"])
+            assert abs(float(shown) - r["obs_minus_calc"]) <= 0.5 * 10.0 ** -decimals * (1 + 1e-9)
+        # weights 1/σ² with two significant digits (σ itself is known to about one)
+        w = row["weight (cm²)"]
+        assert float(w) == pytest.approx(float(f"{r['weight']:.2g}"), rel=1e-12)
+        assert len(re.sub(r"e.*|^0\.0*|\.", "", w).rstrip("0") or "0") <= 2, w
 
 
-def test_markdown_names_the_source_hash_and_every_step_with_its_parameters(session, data):
+def test_no_number_shows_more_digits_than_its_uncertainty_supports(data):
     text = render_markdown(data)
-    tables = _md_tables(text)
+    for title in ("Fitted lines", "Assignments", "Constants", "Combination differences"):
+        for row in md_tables(text)[title]:
+            for cell in row.values():
+                # no plain float of 7 or more significant digits (the 10-digit cells are gone)
+                assert not re.fullmatch(r"-?\d*\.\d{7,}", cell), (title, cell)
+
+
+def test_markdown_names_the_source_hash_and_every_step_from_zero(session, data):
+    text = render_markdown(data)
+    tables = md_tables(text)
     src = session.sources[0]
     assert tables["Source data"][0]["sha256 of the file"] == src["sha256"]
     steps = tables["Processing record"]
-    assert [s["step"] for s in steps] == [s.kind for s in session.history]
+    assert [s["kind"] for s in steps] == [s.kind for s in session.history]
+    assert [int(s["step"]) for s in steps] == list(range(len(session.history)))  # load = step 0
+    assert steps[0]["kind"] == "load"
     for shown, step in zip(steps, session.history):
-        assert json.loads(shown["parameters"].strip("`")) == step.params
+        assert json.loads(shown["parameters"]) == step.params
     assert {r["package"]: r["version"] for r in tables["Software"]}["numpy"] == np.__version__
-    assert session.assignment.messages and all(f"- {m}" in text for m in session.assignment.messages)
+    notes = md_section(text, "Notes of the assignment")
+    assert len(notes.strip().splitlines()) == len(session.assignment.messages)
 
 
-def test_csv_reads_back_to_exactly_the_session_tables(session, data):
-    tables = read_report_csv(render_csv(data))
+def test_one_unit_notation_in_markdown_and_html(data):
+    for text in (render_markdown(data), render_html(data, figures=False)):
+        prose = re.sub(r"`[^`]*`", "", text)           # parameters are shown as recorded
+        assert "cm-1" not in prose and "cm⁻¹" in prose
+        assert "1H-35Cl" not in prose and "H³⁵Cl" in prose
+
+
+def test_the_report_says_when_verification_was_not_run(session, data):
+    assert data.verified is None
+    for text in (render_markdown(data), render_html(data, figures=False), render_latex(data)):
+        assert "Verification not run" in text and "widgetkit verify" in text
+    checked = collect(session, verify=True)
+    text = render_markdown(checked)
+    assert "Verification not run" not in text and "Verified: all 8 steps replay" in text
+
+
+def test_csv_tables_each_read_with_pandas_and_equal_the_session(session, data):
+    texts = render_csv(data, index_name="r.csv")
+    assert list(texts)[0] == "r.csv"
+    for name, text in texts.items():
+        assert not text.startswith("#")                   # no comment lines, no sections
+        df = pd.read_csv(pd.io.common.StringIO(text))     # every file is one plain table
+        assert len(df.columns) >= 1, name
+    index = pd.read_csv(pd.io.common.StringIO(texts["r.csv"]))
+    assert set(index["file"]) == set(texts) - {"r.csv"}
+    assert dict(zip(index["table"], index["rows"]))["lines"] == len(session.lines)
+    tables = read_report_csv(texts)
     pd.testing.assert_frame_equal(tables["constants"].reset_index(drop=True),
                                   session.constants.reset_index(drop=True), check_dtype=False,
                                   check_exact=True)
@@ -162,8 +176,12 @@ def test_csv_reads_back_to_exactly_the_session_tables(session, data):
     assert np.array_equal(a["obs_minus_calc"].to_numpy(float),
                           session.assignments["obs_minus_calc"].to_numpy(float), equal_nan=True)
     assert [json.loads(p) for p in tables["steps"]["params"]] == [s.params for s in session.history]
+    assert tables["steps"]["step"].tolist() == list(range(len(session.history)))
     assert tables["sources"]["sha256"].iloc[0] == session.sources[0]["sha256"]
     assert tables["notes"]["message"].tolist() == list(session.assignment.messages)
+    about = dict(zip(tables["report"]["key"], tables["report"]["value"]))
+    assert about["verified"] == "not run"
+    assert tables["methods"]["paragraph"].str.contains("reduced chi-square").any()
 
 
 def test_html_is_one_self_contained_page_with_inline_figures(data):
@@ -173,24 +191,25 @@ def test_html_is_one_self_contained_page_with_inline_figures(data):
     assert "<script" not in page
     assert not re.search(r"""(src|href)=["']?(https?:|//|file:)""", page)   # nothing fetched
     # the constants it shows are the Markdown report's (the same cells)
-    for row in _md_tables(render_markdown(data))["Constants"]:
+    for row in md_tables(render_markdown(data))["Constants"]:
         assert f">{row['value']}<" in page
 
 
-def test_latex_has_booktabs_tables_and_escaped_text(data):
+def test_latex_is_ascii_with_booktabs_tables_and_escaped_text(data):
     tex = render_latex(data)
     assert tex.startswith(r"\documentclass") and r"\usepackage{booktabs}" in tex
+    assert tex.isascii()                                   # every symbol written as LaTeX
     n = tex.count(r"\begin{longtable}")
     assert n >= 5 and tex.count(r"\toprule") == n == tex.count(r"\bottomrule")
     assert r"B\_upper" in tex and "B_upper" not in tex.replace(r"B\_upper", "")
-    assert not re.search(r"[−⁻¹σ]", tex)                 # written as LaTeX, not raw symbols
-    body = re.sub(r"\\[{}]", "", tex)
-    assert body.count("{") == body.count("}")
+    assert "cm$^{-1}$" in tex and "cm-1" not in tex and "H$^{35}$Cl" in tex
+    body = re.sub(r"\\[{}$]", "", tex)
+    assert body.count("{") == body.count("}") and body.count("$") % 2 == 0
 
 
 def test_latex_shows_the_markdown_values_in_math_mode(data):
     tex = render_latex(data)
-    for row in _md_tables(render_markdown(data))["Constants"]:
+    for row in md_tables(render_markdown(data))["Constants"]:
         cell = row["value"]
         mant, _, exp = cell.partition("e")
         want = f"${mant}\\times10^{{{int(exp)}}}$" if exp else f"${cell}$"
@@ -204,8 +223,10 @@ def test_a_session_without_results_still_reports_its_source_and_record(tmp_path)
     assert len(d.lines) == len(d.assignments) == len(d.constants) == 0 and d.messages == []
     md = render_markdown(d)
     assert "(none)" in md and s.sources[0]["sha256"] in md and "to_absorbance" in md
+    assert "A = −log₁₀ T" in md_section(md, "Methods")
     tables = read_report_csv(render_csv(d))
     assert tables["steps"]["kind"].tolist() == ["load", "to_absorbance"]
+    assert len(tables["lines"]) == 0 and "position" in tables["lines"].columns
     assert "<svg" in render_html(d) and r"\end{document}" in render_latex(d)
 
 
@@ -221,8 +242,12 @@ def test_write_report_picks_the_format_from_the_suffix(session, tmp_path):
     assert (tmp_path / "r.md").read_text(encoding="utf-8").startswith("# Analysis report")
     write_report(session, tmp_path / "r.tex")
     assert (tmp_path / "r_spectrum.pdf").read_bytes()[:5] == b"%PDF-"
-    write_report(session, tmp_path / "r.csv")
-    assert "# table: constants" in (tmp_path / "r.csv").read_text(encoding="utf-8")
+    written = write_report(session, tmp_path / "r.csv")
+    assert written[0].endswith("r.csv") and str(tmp_path / "r_constants.csv") in written
+    for p in written:
+        pd.read_csv(p)                                      # each one a plain table
+    assert read_report_csv(tmp_path / "r.csv")["constants"]["value"].tolist() == \
+        session.constants["value"].tolist()
     with pytest.raises(ReportFormatError, match=r"\.md, \.html"):
         write_report(session, tmp_path / "r.docx")
 
@@ -236,59 +261,3 @@ def test_report_of_a_session_viewing_an_old_step_shows_the_latest_state(session)
         assert session.viewing == 2          # collecting did not move the view
     finally:
         session.view_latest()
-
-
-def test_bundle_holds_everything_with_matching_checksums(session, tmp_path):
-    b = write_bundle(session, tmp_path / "supp")
-    folder = tmp_path / "supp"
-    for name in ("session.json", "report.md", "report.html", "report.tex", "report.csv",
-                 "spectrum_processed.jdx", "spectrum_processed.csv", "spectrum_source.csv",
-                 "README.md", "SHA256SUMS"):
-        assert (folder / name).is_file(), name
-    for line in (folder / "SHA256SUMS").read_text(encoding="utf-8").splitlines():
-        digest, name = line.split("  ", 1)
-        assert hashlib.sha256((folder / name).read_bytes()).hexdigest() == digest == b.files[name]
-    readme = (folder / "README.md").read_text(encoding="utf-8")
-    assert "widgetkit verify session.json" in readme and "sha256sum -c SHA256SUMS" in readme
-    assert wk.Session.load(folder / "session.json").verify().ok
-    exact = wk.read_spectrum(folder / "spectrum_processed.csv")
-    assert np.array_equal(exact.x, session.spectrum.x) and np.array_equal(exact.y, session.spectrum.y)
-    jdx = wk.read_spectrum(folder / "spectrum_processed.jdx")
-    # DIFDUP keeps 7 significant digits of the largest |y| (write_jcamp's documented contract)
-    assert np.allclose(jdx.y, session.spectrum.y, rtol=0, atol=np.abs(session.spectrum.y).max() * 1e-6)
-    assert session.path is None or not str(session.path).startswith(str(folder))
-
-
-def test_bundle_refuses_a_folder_that_holds_files_unless_told(session, tmp_path):
-    (tmp_path / "notes.txt").write_text("mine", encoding="utf-8")
-    with pytest.raises(wk.WidgetkitError, match="overwrite=True"):
-        write_bundle(session, tmp_path)
-    write_bundle(session, tmp_path, overwrite=True)
-    assert (tmp_path / "notes.txt").read_text(encoding="utf-8") == "mine"
-    assert (tmp_path / "session.json").is_file()
-
-
-def test_cli_report_writes_reports_and_bundles(session, tmp_path, capsys):
-    saved = tmp_path / "s.json"
-    session.save(saved)
-    out = tmp_path / "out.html"
-    assert main(["report", str(saved), "-o", str(out), "--verify", "--bundle", str(tmp_path / "b")]) == 0
-    assert "Verified: all" in out.read_text(encoding="utf-8")
-    assert (tmp_path / "b" / "SHA256SUMS").is_file()
-    assert main(["report", str(saved), "--bundle", str(tmp_path / "b")]) == 2   # not empty
-    assert "overwrite" in capsys.readouterr().err
-    assert main(["report", str(tmp_path / "missing.json"), "-o", str(tmp_path / "x.md")]) == 2
-    assert main(["report", str(saved), "-o", str(tmp_path / "x.docx")]) == 2
-    assert "x.docx" in capsys.readouterr().err
-    assert main(["report", str(saved)]) == 2                                    # nothing asked
-
-
-def test_cli_report_exits_1_and_says_so_when_the_record_does_not_replay(tmp_path):
-    s = wk.Session.from_file(wk.demo.data_path("hcl_cell_296K.jdx"))
-    s.to_absorbance()
-    s.find_peaks(min_snr=8)
-    doc = s.to_document()
-    doc["steps"][-1]["result"]["tampered"] = True      # a result the replay cannot produce
-    (tmp_path / "t.json").write_text(json.dumps(doc), encoding="utf-8")
-    assert main(["report", str(tmp_path / "t.json"), "-o", str(tmp_path / "t.md"), "--verify"]) == 1
-    assert "NOT verified" in (tmp_path / "t.md").read_text(encoding="utf-8")

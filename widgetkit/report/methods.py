@@ -1,0 +1,375 @@
+"""The methods paragraphs of a report: how every number was obtained.
+
+:func:`describe_methods` reads a session's steps and the results held in its
+latest state and writes, in plain sentences, what a referee needs to judge the
+numbers: the data and each processing step (steps numbered from 0, the load
+being step 0), how the lines were fitted (profile, baseline, which parameters
+were free, fixed or tied, what the weights were, how the standard errors were
+obtained), how the constants were fitted (model, weights, free and fixed
+constants, covariance scaling, outlier rule, locks) and, when present, a
+band-model fit. Only what the session holds is stated; a result another part
+of widgetkit adds later is described from its step when its details are unknown.
+
+Text is plain Unicode (cm⁻¹, σ, ν₀); the renderers escape it for their format.
+"""
+
+from __future__ import annotations
+
+import inspect
+import math
+import os
+import re
+
+import numpy as np
+import pandas as pd
+
+from ..formatting import article, display_isotopologue, format_value, plural, tidy_text
+
+__all__ = ["describe_methods", "describe_step", "free_constants", "latest_constants"]
+
+_SHAPE_NAMES = {"gaussian": "Gaussian", "lorentzian": "Lorentzian", "voigt": "Voigt",
+                "pseudo_voigt": "pseudo-Voigt"}
+_WIDTH_NAMES = {"sigma": "Gaussian σ", "gamma": "Lorentzian γ (HWHM)"}
+_BASELINE_NAMES = {None: "no baseline", "none": "no baseline", "constant": "a constant baseline",
+                   "linear": "a linear baseline", "poly2": "a quadratic baseline",
+                   "exponential": "an exponential baseline b₀·exp(−b₁x)"}
+_CONSTANT_NAMES = {"band_origin": "ν₀", "B_upper": "B′", "B_lower": "B″", "D_upper": "D′",
+                   "D_lower": "D″", "omega_e": "ωe", "omega_e_x_e": "ωexe", "omega_e_y_e": "ωeye"}
+
+
+_SUP = str.maketrans("0123456789-+", "⁰¹²³⁴⁵⁶⁷⁸⁹⁻ ")
+
+
+def _num(v, sig: int = 4) -> str:
+    """A number for a sentence: ``sig`` significant digits, powers of ten as 1.5×10⁻⁶."""
+    s = format_value(v, sig)
+    m = re.fullmatch(r"(-?[\d.]+)e([-+]\d+)", s)
+    if m is None:
+        return s
+    power = "10" + str(int(m[2])).translate(_SUP).strip()
+    return power if m[1] == "1" else f"{m[1]}×{power}"
+
+
+def _and(items: list[str]) -> str:
+    """``"a"``, ``"a and b"``, ``"a, b and c"``."""
+    items = [i for i in items if i]
+    return items[0] if len(items) == 1 else ", ".join(items[:-1]) + " and " + items[-1] \
+        if items else ""
+
+
+def _source_sentence(session) -> str:
+    sp = session.source_spectrum
+    src = session.sources[0] if session.sources else {}
+    name = os.path.basename(str(src.get("path") or "")) or "a spectrum given in memory"
+    fmt = f" ({src['format']})" if src.get("format") else ""
+    text = (f"The data are {name}{fmt}: {plural(int(sp.x.size), 'point')} from "
+            f"{_num(sp.x[0], 6)} to {_num(sp.x[-1], 6)} cm⁻¹, read as {sp.y_kind} (step 0).")
+    meta = sp.meta or {}
+    extra = []
+    if isinstance(meta.get("resolution"), (int, float)):
+        extra.append(f"resolution {_num(meta['resolution'])} cm⁻¹")
+    if meta.get("sample_state"):
+        extra.append(f"sample state {meta['sample_state']}")
+    if meta.get("technique"):
+        extra.append(f"technique {meta['technique']}")
+    if extra:
+        text += " The file states " + ", ".join(extra) + "."
+    return text
+
+
+def describe_step(index: int, step) -> str:
+    """One sentence for a processing step (the fits have paragraphs of their own)."""
+    p, r = step.params, step.result or {}
+    k = step.kind
+    if k == "crop":
+        return f"Step {index} kept {_num(p['lo'], 6)}–{_num(p['hi'], 6)} cm⁻¹."
+    if k == "to_absorbance":
+        return f"Step {index} converted transmittance T to absorbance A = −log₁₀ T."
+    if k == "subtract_baseline":
+        method = p.get("method", "poly")
+        if method == "als":
+            what = (f"{article('ALS')} (asymmetric least squares) baseline with smoothness "
+                    f"λ = {_num(p.get('lam', 'default'))} and asymmetry p = {_num(p.get('p', 'default'))}")
+        elif method == "poly":
+            deg = p.get("degree")
+            what = ("a polynomial baseline" + (f" of degree {deg}" if deg is not None else "")
+                    + ", fitted with the peaks masked iteratively")
+        else:
+            what = article(f"{method} baseline")
+        return f"Step {index} subtracted {what}."
+    if k == "find_peaks":
+        n = len((r.get("peaks") or {}).get("peak_id", []))
+        noise = r.get("noise")
+        sep = p.get("min_separation")
+        return (f"Step {index} found {plural(n, 'peak')} whose height above the local baseline "
+                f"exceeds {_num(p.get('min_snr'))} times the noise σ"
+                + (f" = {_num(noise, 3)} (estimated from the data)" if noise is not None else "")
+                + (f", at least {_num(sep)} cm⁻¹ apart" if sep else "") + ".")
+    if k == "add_peak":
+        return (f"Step {index} added peak {r.get('peak_id')} by hand at "
+                f"{_num(r.get('position', p.get('position')), 8)} cm⁻¹"
+                + (" (moved to the nearest maximum)" if p.get("snap", True) else "") + ".")
+    if k == "remove_peak":
+        return f"Step {index} removed peak {p.get('peak_id')} by hand."
+    if k == "note":
+        return f"Step {index} is a note: “{' '.join(str(p.get('text', '')).split())}”."
+    if k == "fit_lines":
+        return f"Step {index} fitted the lines (see Line fit)."
+    if k == "assign_band":
+        return f"Step {index} assigned the lines and fitted the constants (see Assignment)."
+    if k == "set_assignment":
+        locks = p.get("assignments") or {p.get("line_id"): p.get("labels") or {}}
+        return (f"Step {index} locked by hand " + "; ".join(
+            f"line {lid} {_lock_text(lab)}" for lid, lab in locks.items()) + ".")
+    if k == "clear_assignment":
+        return f"Step {index} left line {p.get('line_id')} unassigned by hand (locked so)."
+    return f"Step {index} ({k}): {tidy_text(step.summary)}."
+
+
+def _last(history, kinds) -> int | None:
+    for i in range(len(history) - 1, -1, -1):
+        if history[i].kind in kinds:
+            return i
+    return None
+
+
+def _param_roles(fit) -> tuple[int, list[str], list[str]]:
+    """(number of free parameters, fixed descriptions, tied descriptions) of a line fit."""
+    params = getattr(fit, "params", None)
+    if params is None:
+        return -1, [], []
+    from .flags import parameter_label
+
+    free, fixed, tied = 0, [], []
+    for name, par in params.items():
+        if par.expr is not None:
+            tied.append(f"{parameter_label(name)} = {par.expr}")
+        elif not par.vary:
+            fixed.append(f"{parameter_label(name)} fixed at {_num(par.value, 6)}")
+        else:
+            free += 1
+    return free, fixed, tied
+
+
+def _line_fit_paragraph(session, state) -> str | None:
+    fit = state.line_fit
+    i = _last(session.history, ("fit_lines",))
+    if fit is None or i is None:
+        return None
+    p = session.history[i].params
+    spec = fit.spec if isinstance(getattr(fit, "spec", None), dict) else {}
+    shape = spec.get("shape", p.get("shape", "voigt"))
+    widths = {"gaussian": ["sigma"], "lorentzian": ["gamma"]}.get(shape, ["sigma", "gamma"])
+    n = len(fit.table)
+    shared = spec.get("shared_width", p.get("shared_width"))
+    width_text = _and([_WIDTH_NAMES[w] for w in widths])
+    if shared is True:
+        per_line = f"area and position free for each line, one {width_text} shared by all"
+    elif shared:
+        per_line = f"area and position free for each line, widths shared as given ({shared})"
+    else:
+        per_line = _and(["area", "position", *[_WIDTH_NAMES[w] for w in widths]]) + \
+            " free for each line"
+    x = getattr(fit, "x", None)
+    where = ""
+    if x is not None and len(x):
+        where = f" over {_num(x[0], 6)}–{_num(x[-1], 6)} cm⁻¹ ({plural(len(x), 'point')})"
+    base = spec.get("baseline", p.get("baseline", "linear"))
+    out = [f"Line fit (step {i}). {plural(n, 'line')} fitted together with "
+           f"{_SHAPE_NAMES.get(shape, shape)} profiles ({per_line}) on "
+           f"{_BASELINE_NAMES.get(base, article(str(base) + ' baseline'))}{where}, by non-linear "
+           "least squares (Levenberg–Marquardt on the analytic Jacobian, finished with lmfit's "
+           "trust-region solver)."]
+    if p.get("weights") is not None:
+        out.append("The residuals were weighted by the weights given with the step, "
+                   "wᵢ = 1/σᵢ per point.")
+    else:
+        out.append("The residuals were not weighted (every point has weight 1).")
+    free, fixed, tied = _param_roles(fit)
+    redchi = getattr(fit, "redchi", None)
+    nfree = getattr(getattr(fit, "result", None), "nfree", None)
+    err = ("Standard errors are the square roots of the diagonal of the covariance matrix "
+           "(JᵀJ)⁻¹ of the free parameters scaled by the reduced chi-square χ²/ν")
+    if redchi is not None and math.isfinite(float(redchi)):
+        err += f" = {_num(redchi, 3)}"
+    if nfree is not None:
+        err += f" (ν = {nfree} degrees of freedom"
+        err += f", {plural(free, 'free parameter')})" if free >= 0 else ")"
+    out.append(err + ", so the noise level is taken from the scatter of the residuals; height and "
+               "FWHM and their errors follow from the fitted parameters by linear propagation "
+               "with the full covariance.")
+    out.append("Fixed: " + ("; ".join(fixed) if fixed else "none") + ". Tied: "
+               + ("; ".join(tied) if tied else "none") + ".")
+    out.append("Widths are bounded below by a tenth of the sampling step; a parameter that ends "
+               "on a bound is listed under Flags and its standard error is not meaningful.")
+    conv = getattr(fit, "converged", None)
+    if conv is not None:
+        out.append("The fit converged (the remaining Gauss–Newton step lowers χ² by less than "
+                   "10⁻⁴ of χ²/ν)." if conv else "The fit did NOT converge (see Flags).")
+    return " ".join(out)
+
+
+def free_constants(assignment) -> dict[str, list[str]]:
+    """Isotopologue -> names of the constants that were fitted (free), from the covariance
+    the assignment result holds (one matrix per isotopologue, or one for a progression)."""
+    cov = getattr(assignment, "covariance", None)
+    if isinstance(cov, pd.DataFrame):
+        iso = ""
+        consts = getattr(assignment, "constants", None)
+        if isinstance(consts, pd.DataFrame) and "isotopologue" in consts and len(consts):
+            iso = str(consts["isotopologue"].iloc[0])
+        return {iso: [str(c) for c in cov.columns]}
+    if isinstance(cov, dict):
+        return {str(k): [str(c) for c in v.columns] for k, v in cov.items()
+                if isinstance(v, pd.DataFrame)}
+    return {}
+
+
+def _default(func_name: str, arg: str, fallback):
+    from .. import levels
+
+    try:
+        return inspect.signature(getattr(levels, func_name)).parameters[arg].default
+    except (AttributeError, KeyError, TypeError, ValueError):  # pragma: no cover
+        return fallback
+
+
+def _chi2_text(a: pd.DataFrame, iso: str, n_free: int) -> str | None:
+    if not {"weight", "obs_minus_calc"} <= set(a.columns):
+        return None
+    sel = a[(a["weight"] > 0) & a["obs_minus_calc"].notna()] if "isotopologue" not in a or not iso \
+        else a[(a["isotopologue"] == iso) & (a["weight"] > 0) & a["obs_minus_calc"].notna()]
+    n = len(sel)
+    dof = n - n_free
+    if dof <= 0:
+        return f"{plural(n, 'line')}, no degrees of freedom left"
+    chi2 = float(np.sum(sel["weight"].to_numpy(float) * sel["obs_minus_calc"].to_numpy(float) ** 2))
+    return f"{plural(n, 'line')}, χ²/ν = {_num(chi2 / dof, 3)}"
+
+
+def _assignment_paragraph(session, state) -> str | None:
+    asg = state.assignment
+    i = _last(session.history, ("assign_band",))
+    if asg is None or i is None:
+        return None
+    p = session.history[i].params
+    kind = p.get("kind", "rovibrational")
+    a = asg.assignments
+    free = free_constants(asg)
+    isos = [k for k in free] or sorted({str(v) for v in a.get("isotopologue", []) if pd.notna(v)})
+    names = _and([display_isotopologue(k) for k in isos if k]) or "the molecule"
+    has_err = "position_err" in a and a["position_err"].notna().any()
+    if kind == "rovibrational":
+        band = getattr(asg, "band", (1, 0))
+        model = (f"Assignment (step {i}). The lines were assigned to the P and R branches of the "
+                 f"{band[0]}–{band[1]} band of {names}, and for each isotopologue "
+                 "ν = ν₀ + F′(J′) − F″(J″) with F(J) = B J(J+1) − D J²(J+1)² was fitted to the "
+                 "assigned line positions by weighted linear least squares.")
+        rule = _default("assign_rovibrational", "outlier_sigma", 4.0)
+    elif kind == "progression":
+        model = (f"Assignment (step {i}). The band centres were assigned to vibrational "
+                 "transitions v′–v″ and G(v) = ωe(v+½) − ωexe(v+½)² (+ ωeye(v+½)³) fitted to them "
+                 "by weighted linear least squares.")
+        rule = None
+    else:
+        model = (f"Assignment (step {i}, kind {kind}). The lines were assigned and the constants "
+                 "fitted to their positions by weighted linear least squares.")
+        rule = None
+    out = [model]
+    if has_err:
+        out.append("The weights are w = 1/σ², σ the standard error of each line position from the "
+                   "line fit (the weight column of the assignment table, in cm²; 0 for lines left "
+                   "out).")
+    else:
+        out.append("No position errors were available: all weights are equal.")
+    out.append("The covariance matrix is (AᵀWA)⁻¹ multiplied by max(1, χ²/ν): the stated errors "
+               "are trusted unless the scatter shows them too small"
+               + (", and without stated errors it is scaled by χ²/ν" if not has_err else "") + ".")
+    for iso, names_ in free.items():
+        chi = _chi2_text(a, iso, len(names_))
+        label = display_isotopologue(iso) if iso else "all lines"
+        consts = ", ".join(f"{_CONSTANT_NAMES.get(c, c)} ({c})" if c in _CONSTANT_NAMES else c
+                           for c in names_)
+        out.append(f"Free for {label}: {consts}" + (f" ({chi})" if chi else "") + ".")
+    held = [m for m in (getattr(asg, "messages", None) or []) if "held at" in str(m)]
+    out.append("Fixed: " + ("; ".join(tidy_text(m) for m in held) if held
+                            else "none") + ".")
+    if rule is not None:
+        rule = p.get("outlier_sigma", rule)
+        out.append(f"Lines more than {_num(rule)} σ from the fit are flagged as outliers and left "
+                   "out of it, as are blended lines; locked lines always stay in.")
+    out.append("Derived constants (such as B_e, α_e, r_e, the force constant or T_rot) and their "
+               "standard errors follow by linear propagation with the covariance matrix.")
+    locks = state.locks or {}
+    if locks:
+        out.append(f"{plural(len(locks), 'line')} locked by hand: "
+                   + "; ".join(f"line {k} " + (_lock_text(v) if v else "left unassigned")
+                               for k, v in sorted(locks.items())) + ".")
+    return " ".join(out)
+
+
+def _lock_text(labels: dict) -> str:
+    """``{"label": "R(0)", "isotopologue": "1H-35Cl"}`` -> ``"as R(0) of H³⁵Cl"``."""
+    labels = dict(labels or {})
+    rest = {k: v for k, v in labels.items() if k not in ("label", "isotopologue")}
+    text = "as " + str(labels["label"]) if labels.get("label") else "with " + ", ".join(
+        f"{k} = {v}" for k, v in rest.items())
+    if labels.get("isotopologue"):
+        text += f" of {display_isotopologue(labels['isotopologue'])}"
+    return text
+
+
+def latest_constants(session) -> pd.DataFrame:
+    """The constants of the session's latest state, whichever step is being viewed (the
+    session's own table, with every column other parts add, such as ``method``)."""
+    if session.viewing == len(session.history) - 1:
+        return session.constants
+    asg = session.state_at(len(session.history) - 1).assignment
+    consts = getattr(asg, "constants", None)
+    return consts.copy() if isinstance(consts, pd.DataFrame) else pd.DataFrame(
+        columns=["isotopologue", "name", "value", "stderr", "unit"])
+
+
+def _band_model_paragraph(session, state) -> str | None:
+    consts = latest_constants(session)
+    if "method" not in consts or not (consts["method"] == "band model").any():
+        return None
+    i = next((j for j in range(len(session.history) - 1, -1, -1)
+              if "band_model" in session.history[j].kind), None)
+    bm = consts[consts["method"] == "band model"]
+    free = bm[bm["stderr"].notna()]["name"].tolist()
+    where = f" (step {i})" if i is not None else ""
+    out = [f"Band model{where}. The spectrum was fitted with a band simulated from the term "
+           "values (line intensities from Hönl–London factors and Boltzmann populations, "
+           "convolved with the instrument function) by non-linear least squares; standard errors "
+           "from the covariance matrix of the fit scaled by the reduced chi-square."]
+    out.append("Free: " + (", ".join(dict.fromkeys(free)) or "none") + ".")
+    fix = (session.history[i].params.get("fix") if i is not None else None) or {}
+    if isinstance(fix, dict) and fix:
+        out.append("Fixed: " + "; ".join(f"{k} at {v}" for k, v in fix.items()) + ".")
+    elif isinstance(fix, (list, tuple)) and fix:
+        out.append("Fixed at their starting values: " + ", ".join(map(str, fix)) + ".")
+    else:
+        out.append("Fixed: none.")
+    return " ".join(out)
+
+
+def describe_methods(session) -> list[str]:
+    """The methods paragraphs of ``session`` (its latest state), in report order.
+
+    Returns
+    -------
+    list of str
+        Plain Unicode paragraphs: data and processing, line fit, assignment, band
+        model (each only when the session holds it).
+    """
+    history = session.history
+    state = session.state_at(len(history) - 1)
+    first = _source_sentence(session)
+    steps = [describe_step(i, s) for i, s in enumerate(history) if i > 0]
+    out = [" ".join([first, *steps])]
+    for make in (_line_fit_paragraph, _assignment_paragraph, _band_model_paragraph):
+        text = make(session, state)
+        if text:
+            out.append(text)
+    return out
