@@ -204,16 +204,20 @@ def column_label(name: str, *, unit: bool = True) -> str:
 
 _PLUS_MINUS = re.compile(r"(?<![\w.])([-+]?\d+(?:\.\d+)?(?:[eE][-+]?\d+)?) ± "
                          r"(\d+(?:\.\d+)?(?:[eE][-+]?\d+)?)(?![\w.])")
+_ONE_PLURAL = re.compile(r"(?<![\d.,])\b1 (line|peak|point|step|round|lock|file|isotopologue|"
+                         r"band|constant)s\b")
 _ISOTOPOLOGUE_KEY = re.compile(r"(?<![\w-])\d+[A-Z][a-z]?(?:-\d+[A-Z][a-z]?)+(?![\w-])")
 
 
 def tidy_text(text) -> str:
     """A sentence of a result or message as a report shows it: ``"a ± b"`` in the
-    value(uncertainty) notation, isotopologue keys as H³⁵Cl, wavenumber units as cm⁻¹.
+    value(uncertainty) notation, isotopologue keys as H³⁵Cl, wavenumber units as cm⁻¹,
+    and "1 lines" as "1 line".
 
     >>> tidy_text("1H-37Cl: ratio 0.312642 ± 0.0013, shift -4.43657e-06 ± 8e-06 cm-1")
     'H³⁷Cl: ratio 0.313(1), shift -4(8)e-6 cm⁻¹'
     """
     s = _PLUS_MINUS.sub(lambda m: format_uncertainty(float(m[1]), float(m[2])), str(text))
     s = _ISOTOPOLOGUE_KEY.sub(lambda m: display_isotopologue(m.group(0)), s)
+    s = _ONE_PLURAL.sub(lambda m: "1 " + m[1], s)
     return unicode_units(s)

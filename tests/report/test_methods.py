@@ -30,8 +30,34 @@ def test_methods_say_how_the_line_fit_errors_were_obtained(session):
     assert f"ν = {fit.result.nfree} degrees of freedom" in text
     n_free = sum(p.vary and p.expr is None for p in fit.params.values())
     assert f"{n_free} free parameters" in text
-    assert "Fixed: none. Tied: none." in text
+    assert "Fixed: none. Tied or bounded by hand: none." in text
 
+
+def test_fixed_and_tied_parameters_are_named_with_their_values():
+    s = wk.Session.from_file(wk.demo.data_path("hcl_cell_296K.jdx"))
+    s.crop(2890.0, 2950.0)
+    s.to_absorbance()
+    s.find_peaks(min_snr=20)
+    a, b, c = (int(i) for i in s.peaks["peak_id"].iloc[:3])
+    s.fit_lines(shape="voigt", constraints={f"l{a}_gamma": 0.12, f"l{b}_gamma": f"l{c}_gamma",
+                                            f"l{c}_sigma": {"min": 0.05, "max": 0.5}})
+    text = " ".join(describe_methods(s))
+    assert f"Fixed: line {a} Lorentzian γ (HWHM) at 0.12." in text
+    assert f"line {b} Lorentzian γ (HWHM) = line {c} Lorentzian γ (HWHM)" in text
+    assert f"line {c} Gaussian σ bounded to [0.05, 0.5]" in text
+    fit = s.line_fit
+    n_free = sum(p.vary and p.expr is None for p in fit.params.values())
+    assert f"{n_free} free parameters" in text and f"ν = {fit.result.nfree} degrees" in text
+
+
+def test_the_report_of_a_reopened_session_equals_that_of_the_live_one(session, tmp_path):
+    # the reopened session holds results rebuilt from the record; the report must not differ
+    # (and must not refit: it reads only what the record holds)
+    session.save(tmp_path / "s.json")
+    reopened = wk.Session.load(tmp_path / "s.json")
+    live, again = collect(session), collect(reopened)
+    assert render_markdown(again).split("\n", 3)[3] == render_markdown(live).split("\n", 3)[3]
+    assert getattr(reopened.line_fit, "restored", False)
 
 def test_methods_name_the_free_constants_and_the_weights_of_the_assignment(session):
     text = " ".join(describe_methods(session))
@@ -89,16 +115,18 @@ def test_a_width_on_its_bound_is_flagged_and_never_shown_as_value_and_error():
     s.fit_lines(shape="voigt", baseline="linear")
     bounds = bound_parameters(s.line_fit)
     assert bounds, "the demo fit was expected to hold a width on its bound"
-    name, side, value, bound, err = bounds[0]
-    assert side == "lower" and value == pytest.approx(bound, rel=1e-6)
+    name, lid, col, value, err = bounds[0]
+    par = s.line_fit.params[name]
+    assert value == par.value and err == pytest.approx(par.stderr, rel=1e-12)  # the table's
+    assert value == pytest.approx(par.min, rel=1e-6)         # and it is the parameter's minimum
+    assert name == f"l{lid}_{col}"
     flags = collect_flags(s)
-    lid = int(name[1:].split("_")[0])
-    assert (lid, name.split("_")[1]) in flags.at_bound
-    assert any(f.startswith(f"Line {lid} ") and "ends on its lower bound" in f
+    assert (lid, col) in flags.at_bound
+    assert any(f.startswith(f"Line {lid} ") and "ended on a bound" in f
                and "not meaningful" in f for f in flags.items)
     d = collect(s)
     row = next(r for r in md_tables(render_markdown(d))["Fitted lines"] if r["line"] == str(lid))
-    cell = row["Gaussian σ (cm⁻¹)" if name.endswith("sigma") else "Lorentzian γ (HWHM) (cm⁻¹)"]
+    cell = row["Gaussian σ (cm⁻¹)" if col == "sigma" else "Lorentzian γ (HWHM) (cm⁻¹)"]
     assert cell.endswith("(at bound)") and "(" not in cell.replace("(at bound)", "")
     assert not any("ended at its bound" in f for f in flags.items)   # said once, in words
 

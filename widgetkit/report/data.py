@@ -18,6 +18,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from .flags import known
+
 __all__ = ["ReportData", "StepRecord", "collect", "LINE_VALUE_COLUMNS"]
 
 #: line-table columns shown as value(uncertainty) pairs: column -> its standard-error column
@@ -113,12 +115,12 @@ def _model_curve(fit, x: np.ndarray) -> tuple[np.ndarray | None, np.ndarray | No
     ``best_fit`` of its lmfit result on the spectrum's x); (None, None) otherwise."""
     if fit is None:
         return None, None
-    fx, fy = getattr(fit, "x", None), getattr(fit, "model_y", None)
+    fx, fy = known(fit, "x"), known(fit, "model_y")
     if fx is not None and fy is not None:
         fx, fy = np.asarray(fx, dtype=float), np.asarray(fy, dtype=float)
         if fx.shape == fy.shape and fx.ndim == 1:
             return fx, fy
-    y = getattr(getattr(fit, "result", None), "best_fit", None)
+    y = getattr(known(fit, "result"), "best_fit", None)
     if y is not None and np.shape(y) == x.shape:
         return x, np.asarray(y, dtype=float)
     return None, None
@@ -130,6 +132,8 @@ def _extra_tables(assignment: Any) -> dict[str, pd.DataFrame]:
     out: dict[str, pd.DataFrame] = {}
     if dataclasses.is_dataclass(assignment):
         names = [f.name for f in dataclasses.fields(assignment)]
+    elif getattr(assignment, "restored", False) is True:  # rebuilt from the record
+        names = [n for n in dir(assignment) if not n.startswith("_")]
     else:
         names = [n for n in vars(assignment) if not n.startswith("_")] if hasattr(
             assignment, "__dict__") else []
@@ -199,7 +203,7 @@ def collect(session, *, title: str | None = None, verify: bool = False) -> Repor
         model_x=_model_curve(fit, x)[0],
         model_y=_model_curve(fit, x)[1],
         y_kind=sp.y_kind,
-        messages=[str(m) for m in (getattr(assignment, "messages", None) or [])],
+        messages=[str(m) for m in (known(assignment, "messages") or [])],
         methods=describe_methods(session),
         flags=list(flags.items),
         at_bound=flags.at_bound,

@@ -19,7 +19,8 @@ import pandas as pd
 
 from ..formatting import display_isotopologue, format_value, plural, tidy_text
 
-__all__ = ["collect_flags", "parameter_label", "bound_parameters", "assignment_flags", "Flags"]
+__all__ = ["collect_flags", "parameter_label", "bound_parameters", "assignment_flags", "Flags",
+           "known", "parameter_text"]
 
 _WIDTHS = {"sigma": "Gaussian σ", "gamma": "Lorentzian γ (HWHM)", "area": "area",
            "position": "position"}
@@ -56,59 +57,80 @@ def parameter_label(name: str) -> str:
     return name
 
 
-def _near(v: float, b: float, scale: float) -> bool:
-    return math.isfinite(b) and abs(v - b) <= 1e-6 * max(abs(b), scale, 1e-300)
+def known(obj, name: str, default=None):
+    """``obj.name`` when the result holds it without recomputing anything: a result restored
+    from the saved record (``restored`` True) answers only for what it recorded, so a report of
+    a reopened session never refits; ``default`` otherwise."""
+    if obj is None:
+        return default
+    if getattr(obj, "restored", False) is True and name not in dir(obj):
+        return default
+    return getattr(obj, name, default)
 
 
-def bound_parameters(fit) -> list[tuple[str, str, float, float, float | None]]:
-    """Free parameters of a line fit that ended on a bound:
-    ``(name, "lower"/"upper", value, bound, stderr)``; empty when the fit holds no parameters."""
-    params = getattr(fit, "params", None)
+_AT_BOUND = re.compile(r"^(\S+) ended at its bound$")
+
+
+def bound_parameters(fit) -> list[tuple[str, object, str | None, float | None, float | None]]:
+    """Parameters the line fit held on a bound of their allowed range (the fit's own
+    convergence test says so in its ``flags``, which the session records):
+    ``(name, line_id or None, table column or None, value, stderr)``, value and stderr from
+    the line table when the parameter is a line's."""
+    table = known(fit, "table")
     out = []
-    for name, par in (params or {}).items():
-        if not par.vary or par.expr is not None or par.value is None:
-            continue
-        v = float(par.value)
-        err = None if par.stderr is None or not math.isfinite(par.stderr) else float(par.stderr)
-        scale = 1e-3 * (err or 0.0)
-        for side, b in (("lower", par.min), ("upper", par.max)):
-            if b is not None and _near(v, float(b), scale):
-                out.append((name, side, v, float(b), err))
-                break
+    for texts in (known(fit, "flags") or {}).values():
+        for text in texts:
+            m = _AT_BOUND.match(str(text))
+            if m is None:
+                continue
+            name = m[1]
+            lm = _LINE_PARAM.match(name)
+            lid = col = value = err = None
+            if lm:
+                lid = int(lm[1]) if lm[1].isdigit() else lm[1]
+                col = lm[2]
+                if isinstance(table, pd.DataFrame) and col in table and "line_id" in table:
+                    row = table[table["line_id"].astype(str) == str(lm[1])]
+                    if len(row):
+                        value = float(row[col].iloc[0])
+                        e = row[col + "_err"].iloc[0] if col + "_err" in row else None
+                        err = float(e) if e is not None and pd.notna(e) else None
+            out.append((name, lid, col, value, err))
     return out
 
 
+def parameter_text(text: str) -> str:
+    """Every parameter name inside ``text`` (a message, a tie expression) written as the trade
+    says it: ``"l5_gamma = l7_gamma"`` -> ``"line 5 Lorentzian γ (HWHM) = line 7 ..."``."""
+    return _NAME_IN_TEXT.sub(lambda m: parameter_label(m.group(0)), str(text))
+
+
 def _rename(text: str) -> str:
-    return tidy_text(_NAME_IN_TEXT.sub(lambda m: parameter_label(m.group(0)), str(text)))
+    return tidy_text(parameter_text(text))
 
 
 def _line_fit_flags(fit) -> tuple[list[str], set]:
     items, cells = [], set()
     if fit is None:
         return items, cells
-    if getattr(fit, "converged", True) is False:
-        items.append("The line fit did NOT converge: " + _rename(getattr(fit, "message", "")))
-    named = set()
-    for name, side, v, b, err in bound_parameters(fit):
-        named.add(name)
-        m = _LINE_PARAM.match(name)
-        if m:
-            key = int(m[1]) if m[1].isdigit() else m[1]
-            cells.add((key, m[2]))
+    if known(fit, "converged", True) is False:
+        items.append("The line fit did NOT converge: " + _rename(known(fit, "message", "")))
+    for name, lid, col, v, err in bound_parameters(fit):
+        if lid is not None:
+            cells.add((lid, col))
         unit = " cm⁻¹" if name.endswith(("sigma", "gamma", "position")) else ""
         label = parameter_label(name)
-        items.append(f"{label[:1].upper()}{label[1:]} = {format_value(v, 4)}{unit} ends on its {side} "
-                     f"bound ({format_value(b, 4)}{unit}): the value is a limit, not a measurement"
+        value = f" = {format_value(v, 3)}{unit}" if v is not None else ""
+        items.append(f"{label[:1].upper()}{label[1:]}{value} ended on a bound of its allowed "
+                     "range: the value is a limit, not a measurement"
                      + (f", and its standard error ({format_value(err, 2)}) is not meaningful"
-                        if err is not None else "") + ".")
-    for key, texts in (getattr(fit, "flags", None) or {}).items():
+                        if err is not None and math.isfinite(err) else "") + ".")
+    for key, texts in (known(fit, "flags") or {}).items():
         where = "Line fit" if key == "fit" else f"Line {key}"
-        for t in texts:
-            m = re.match(r"^(\S+) ended at its bound$", str(t))
-            if m and m[1] in named:
-                continue
-            items.append(f"{where}: {_rename(t)}.")
-    pruned = getattr(fit, "pruned", None)
+        for text in texts:
+            if not _AT_BOUND.match(str(text)):
+                items.append(f"{where}: {_rename(text)}.")
+    pruned = known(fit, "pruned")
     if isinstance(pruned, dict):
         items += [f"Line {k} was pruned from the fit: {_rename(v)}." for k, v in pruned.items()]
     elif isinstance(pruned, (list, tuple)):
@@ -127,15 +149,15 @@ def assignment_flags(asg) -> list[str]:
     if asg is None:
         return []
     items = []
-    status = getattr(asg, "status", None)
-    reasons = [str(r) for r in (getattr(asg, "reasons", None) or [])]
+    status = known(asg, "status")
+    reasons = [str(r) for r in (known(asg, "reasons") or [])]
     if status == "doubtful":
         items.append("The assignment is DOUBTFUL" + (": " + "; ".join(_rename(r) for r in reasons)
                                                      if reasons else "") + ".")
     elif status is None:
-        items += [_rename(m) for m in (getattr(asg, "messages", None) or [])
+        items += [_rename(m) for m in (known(asg, "messages") or [])
                   if str(m).startswith("DOUBTFUL")]
-    a = getattr(asg, "assignments", None)
+    a = known(asg, "assignments")
     if isinstance(a, pd.DataFrame) and len(a):
         if "outlier" in a:
             for _, r in a[a["outlier"].astype(bool)].iterrows():
@@ -163,11 +185,11 @@ def _other_results(state) -> list[str]:
                 f.name.startswith("_"):
             continue
         obj = getattr(state, f.name, None)
-        if getattr(obj, "status", None) == "doubtful":
-            reasons = "; ".join(_rename(r) for r in (getattr(obj, "reasons", None) or []))
+        if known(obj, "status") == "doubtful":
+            reasons = "; ".join(_rename(r) for r in (known(obj, "reasons") or []))
             items.append(f"The {f.name.replace('_', ' ')} result is DOUBTFUL"
                          + (f": {reasons}" if reasons else "") + ".")
-        if getattr(obj, "converged", True) is False:
+        if known(obj, "converged", True) is False:
             items.append(f"The {f.name.replace('_', ' ')} did NOT converge.")
     return items
 

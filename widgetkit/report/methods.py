@@ -24,8 +24,10 @@ import numpy as np
 import pandas as pd
 
 from ..formatting import article, display_isotopologue, format_value, plural, tidy_text
+from .flags import known
 
-__all__ = ["describe_methods", "describe_step", "free_constants", "latest_constants"]
+__all__ = ["describe_methods", "describe_step", "free_constants", "latest_constants",
+           "summary_text"]
 
 _SHAPE_NAMES = {"gaussian": "Gaussian", "lorentzian": "Lorentzian", "voigt": "Voigt",
                 "pseudo_voigt": "pseudo-Voigt"}
@@ -77,6 +79,19 @@ def _source_sentence(session) -> str:
     return text
 
 
+_BASELINE_SUMMARY = re.compile(r"\bsubtracted a (als|poly) baseline")
+
+
+def summary_text(step) -> str:
+    """A step's recorded one-line summary as a report shows it (:func:`~widgetkit.formatting.
+    tidy_text`; "a als baseline" read as "an ALS baseline"). The record itself is unchanged:
+    ``verify`` compares it."""
+    text = _BASELINE_SUMMARY.sub(lambda m: "subtracted " + ("an ALS" if m[1] == "als" else
+                                                             "a polynomial") + " baseline",
+                                 str(step.summary))
+    return tidy_text(text)
+
+
 def describe_step(index: int, step) -> str:
     """One sentence for a processing step (the fits have paragraphs of their own)."""
     p, r = step.params, step.result or {}
@@ -123,7 +138,7 @@ def describe_step(index: int, step) -> str:
             f"line {lid} {_lock_text(lab)}" for lid, lab in locks.items()) + ".")
     if k == "clear_assignment":
         return f"Step {index} left line {p.get('line_id')} unassigned by hand (locked so)."
-    return f"Step {index} ({k}): {tidy_text(step.summary)}."
+    return f"Step {index} ({k}): {summary_text(step)}."
 
 
 def _last(history, kinds) -> int | None:
@@ -133,22 +148,44 @@ def _last(history, kinds) -> int | None:
     return None
 
 
-def _param_roles(fit) -> tuple[int, list[str], list[str]]:
-    """(number of free parameters, fixed descriptions, tied descriptions) of a line fit."""
-    params = getattr(fit, "params", None)
-    if params is None:
-        return -1, [], []
-    from .flags import parameter_label
+def _constraint_roles(constraints) -> tuple[list[str], list[str]]:
+    """(fixed, tied) descriptions of a line fit's ``constraints`` as recorded in its settings:
+    a number fixes a parameter, a string ties it by an expression, a mapping may do either
+    (``vary``/``value``, ``expr``); ``"doppler"`` fixes Gaussian widths to Doppler widths."""
+    from .flags import parameter_label, parameter_text
 
-    free, fixed, tied = 0, [], []
-    for name, par in params.items():
-        if par.expr is not None:
-            tied.append(f"{parameter_label(name)} = {par.expr}")
-        elif not par.vary:
-            fixed.append(f"{parameter_label(name)} fixed at {_num(par.value, 6)}")
-        else:
-            free += 1
-    return free, fixed, tied
+    fixed, tied = [], []
+    for name, c in (constraints or {}).items():
+        if name == "doppler" and isinstance(c, dict):
+            which = f" of lines {c['lines']}" if c.get("lines") else ""
+            fixed.append(f"the Gaussian σ{which} at the Doppler width of {_num(c.get('mass'))} u "
+                         f"at {_num(c.get('temperature'))} K")
+        elif isinstance(c, bool):
+            continue
+        elif isinstance(c, (int, float)):
+            fixed.append(f"{parameter_label(name)} at {_num(c, 6)}")
+        elif isinstance(c, str):
+            tied.append(f"{parameter_label(name)} = {parameter_text(c)}")
+        elif isinstance(c, dict):
+            if c.get("expr"):
+                tied.append(f"{parameter_label(name)} = {parameter_text(c['expr'])}")
+            elif c.get("vary") is False:
+                fixed.append(f"{parameter_label(name)} at "
+                             + (_num(c["value"], 6) if "value" in c else "its starting value"))
+            if c.get("min") is not None or c.get("max") is not None:
+                tied.append(f"{parameter_label(name)} bounded to [{c.get('min', '−∞')}, "
+                            f"{c.get('max', '∞')}]")
+    return fixed, tied
+
+
+def _degrees_of_freedom(fit) -> int | None:
+    """ν = χ²/(χ²/ν) from the two recorded statistics (a restored fit holds no lmfit result)."""
+    chisqr, redchi = known(fit, "chisqr"), known(fit, "redchi")
+    try:
+        nu = float(chisqr) / float(redchi)
+    except (TypeError, ValueError, ZeroDivisionError):
+        return None
+    return int(round(nu)) if math.isfinite(nu) and nu > 0 else None
 
 
 def _line_fit_paragraph(session, state) -> str | None:
@@ -157,10 +194,10 @@ def _line_fit_paragraph(session, state) -> str | None:
     if fit is None or i is None:
         return None
     p = session.history[i].params
-    spec = fit.spec if isinstance(getattr(fit, "spec", None), dict) else {}
+    spec = known(fit, "spec") if isinstance(known(fit, "spec"), dict) else {}
     shape = spec.get("shape", p.get("shape", "voigt"))
     widths = {"gaussian": ["sigma"], "lorentzian": ["gamma"]}.get(shape, ["sigma", "gamma"])
-    n = len(fit.table)
+    n = len(known(fit, "table", []))
     shared = spec.get("shared_width", p.get("shared_width"))
     width_text = _and([_WIDTH_NAMES[w] for w in widths])
     if shared is True:
@@ -170,7 +207,7 @@ def _line_fit_paragraph(session, state) -> str | None:
     else:
         per_line = _and(["area", "position", *[_WIDTH_NAMES[w] for w in widths]]) + \
             " free for each line"
-    x = getattr(fit, "x", None)
+    x = known(fit, "x")
     where = ""
     if x is not None and len(x):
         where = f" over {_num(x[0], 6)}–{_num(x[-1], 6)} cm⁻¹ ({plural(len(x), 'point')})"
@@ -185,24 +222,26 @@ def _line_fit_paragraph(session, state) -> str | None:
                    "wᵢ = 1/σᵢ per point.")
     else:
         out.append("The residuals were not weighted (every point has weight 1).")
-    free, fixed, tied = _param_roles(fit)
-    redchi = getattr(fit, "redchi", None)
-    nfree = getattr(getattr(fit, "result", None), "nfree", None)
+    fixed, tied = _constraint_roles(spec.get("constraints"))
+    redchi = known(fit, "redchi")
+    nu = _degrees_of_freedom(fit)
+    x = known(fit, "x")
     err = ("Standard errors are the square roots of the diagonal of the covariance matrix "
            "(JᵀJ)⁻¹ of the free parameters scaled by the reduced chi-square χ²/ν")
     if redchi is not None and math.isfinite(float(redchi)):
         err += f" = {_num(redchi, 3)}"
-    if nfree is not None:
-        err += f" (ν = {nfree} degrees of freedom"
-        err += f", {plural(free, 'free parameter')})" if free >= 0 else ")"
+    if nu is not None:
+        err += f" (ν = {nu} degrees of freedom"
+        err += (f", {plural(len(x) - nu, 'free parameter')})" if x is not None and len(x) > nu
+                else ")")
     out.append(err + ", so the noise level is taken from the scatter of the residuals; height and "
                "FWHM and their errors follow from the fitted parameters by linear propagation "
                "with the full covariance.")
-    out.append("Fixed: " + ("; ".join(fixed) if fixed else "none") + ". Tied: "
+    out.append("Fixed: " + ("; ".join(fixed) if fixed else "none") + ". Tied or bounded by hand: "
                + ("; ".join(tied) if tied else "none") + ".")
     out.append("Widths are bounded below by a tenth of the sampling step; a parameter that ends "
                "on a bound is listed under Flags and its standard error is not meaningful.")
-    conv = getattr(fit, "converged", None)
+    conv = known(fit, "converged")
     if conv is not None:
         out.append("The fit converged (the remaining Gauss–Newton step lowers χ² by less than "
                    "10⁻⁴ of χ²/ν)." if conv else "The fit did NOT converge (see Flags).")
@@ -212,10 +251,10 @@ def _line_fit_paragraph(session, state) -> str | None:
 def free_constants(assignment) -> dict[str, list[str]]:
     """Isotopologue -> names of the constants that were fitted (free), from the covariance
     the assignment result holds (one matrix per isotopologue, or one for a progression)."""
-    cov = getattr(assignment, "covariance", None)
+    cov = known(assignment, "covariance")
     if isinstance(cov, pd.DataFrame):
         iso = ""
-        consts = getattr(assignment, "constants", None)
+        consts = known(assignment, "constants")
         if isinstance(consts, pd.DataFrame) and "isotopologue" in consts and len(consts):
             iso = str(consts["isotopologue"].iloc[0])
         return {iso: [str(c) for c in cov.columns]}
@@ -260,7 +299,7 @@ def _assignment_paragraph(session, state) -> str | None:
     names = _and([display_isotopologue(k) for k in isos if k]) or "the molecule"
     has_err = "position_err" in a and a["position_err"].notna().any()
     if kind == "rovibrational":
-        band = getattr(asg, "band", (1, 0))
+        band = known(asg, "band", (1, 0))
         model = (f"Assignment (step {i}). The lines were assigned to the P and R branches of the "
                  f"{band[0]}–{band[1]} band of {names}, and for each isotopologue "
                  "ν = ν₀ + F′(J′) − F″(J″) with F(J) = B J(J+1) − D J²(J+1)² was fitted to the "
@@ -291,7 +330,7 @@ def _assignment_paragraph(session, state) -> str | None:
         consts = ", ".join(f"{_CONSTANT_NAMES.get(c, c)} ({c})" if c in _CONSTANT_NAMES else c
                            for c in names_)
         out.append(f"Free for {label}: {consts}" + (f" ({chi})" if chi else "") + ".")
-    held = [m for m in (getattr(asg, "messages", None) or []) if "held at" in str(m)]
+    held = [m for m in (known(asg, "messages") or []) if "held at" in str(m)]
     out.append("Fixed: " + ("; ".join(tidy_text(m) for m in held) if held
                             else "none") + ".")
     if rule is not None:
