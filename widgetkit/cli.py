@@ -2,7 +2,9 @@
 
 ``widgetkit verify FILE``
     Replay a saved session; exit 0 when it reproduces its recorded results,
-    1 when it does not (the mismatches are printed), 2 when the file is unreadable.
+    1 when it does not (the mismatches are printed, steps numbered from 0, the
+    load step), 2 when the file is unreadable or malformed (one line on stderr,
+    never a traceback).
 
 ``widgetkit report`` and ``widgetkit demo``: see :mod:`widgetkit.cli_extra`.
 """
@@ -26,8 +28,15 @@ def _cmd_verify(args: argparse.Namespace) -> int:
     except FileNotFoundError:
         print(f"widgetkit verify: {args.file}: no such file", file=sys.stderr)
         return 2
+    except IsADirectoryError:
+        print(f"widgetkit verify: {args.file}: is a folder, not a session file", file=sys.stderr)
+        return 2
     except (WidgetkitError, OSError) as exc:
         print(f"widgetkit verify: cannot read the session: {exc}", file=sys.stderr)
+        return 2
+    except Exception as exc:  # never a traceback for a file, whatever it holds
+        print(f"widgetkit verify: cannot read the session {args.file}: "
+              f"{type(exc).__name__}: {str(exc)[:200]}", file=sys.stderr)
         return 2
     report = session.verify()
     print(f"{args.file}: {report}")

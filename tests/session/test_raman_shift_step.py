@@ -20,10 +20,11 @@ def test_the_shift_is_a_step_that_clears_peaks_and_replays(tmp_path):
     assert len(s.peaks) == 2
     s.to_raman_shift(18796.99, unit="cm-1")
     step = s.history[-1]
-    assert step.kind == "to_raman_shift" and step.result["cleared"] == ["peaks"]
+    assert step.kind == "to_raman_shift" and step.result["cleared"] == {"peaks": 2}
     assert len(s.peaks) == 0 and s.spectrum.meta["x_axis"] == "raman_shift"
     s.find_peaks(min_snr=20)
     assert np.allclose(sorted(s.peaks["position"]), [1555.0, 2330.0], atol=0.05)  # what was made
+    assert set(s.peaks["peak_id"]) == {3, 4}  # the ids of the cleared peaks are not given again
     s.save(tmp_path / "raman.json")
     again = wk.Session.load(tmp_path / "raman.json")
     assert again.verify().ok

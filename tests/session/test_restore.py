@@ -75,8 +75,10 @@ def test_restored_results_are_read_only(hcl):
 def test_verify_still_runs_every_step(hcl_saved, monkeypatch):
     s = wk.Session.load(hcl_saved)
     _no_computation(monkeypatch)
-    with pytest.raises(AssertionError, match="ran a fit"):
-        s.verify()
+    report = s.verify()
+    assert not report.ok
+    assert "step 2 (fit_lines): replay failed: AssertionError: 'reopening ran a fit" in \
+        report.mismatches[0]
 
 
 def test_editing_after_reopening_works_on_the_restored_fit(hcl):
@@ -151,3 +153,18 @@ def test_values_survive_the_record():
 def test_a_record_naming_an_unknown_type_is_refused():
     with pytest.raises(wk.SessionFormatError, match="result type 'os:system'"):
         records.result_type("os:system")
+
+
+def test_reopening_in_a_fresh_process_imports_no_fitting_validation_or_assignment_code(hcl_saved):
+    import subprocess
+    import sys
+
+    code = ("import sys, widgetkit as wk; s = wk.Session.load(sys.argv[1]); s.lines; "
+            "s.constants; s.peaks; "
+            "heavy = [m for m in ('lmfit', 'scipy', 'jsonschema', 'widgetkit.levels', "
+            "'widgetkit.processing', 'widgetkit.lines.fitting', 'matplotlib', 'ipywidgets') "
+            "if m in sys.modules]; print(','.join(heavy))")
+    run = subprocess.run([sys.executable, "-c", code, str(hcl_saved)], capture_output=True,
+                         text=True, timeout=120)
+    assert run.returncode == 0, run.stderr
+    assert run.stdout.strip() == ""

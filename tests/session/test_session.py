@@ -62,8 +62,10 @@ def test_the_load_step_cannot_be_undone(session):
 
 
 def test_parameters_that_are_not_plain_data_are_refused(session):
-    with pytest.raises(wk.SessionStateError, match="plain data"):
+    with pytest.raises(wk.ProcessingError, match="argument 'degree' must be a whole number"):
         session.subtract_baseline("poly", degree=object())
+    with pytest.raises(wk.FitError, match="argument 'constraints.l1_area' must be plain data"):
+        session.fit_lines(constraints={"l1_area": object()})
     assert len(session.history) == 1
 
 

@@ -7,26 +7,16 @@ derivatives (:mod:`.shapes`), registered by name in :data:`SHAPES`; baselines
 in :data:`BASELINES`. Each line is evaluated on a window around its centre,
 the Jacobian is sparse and analytic, and convergence is checked by our own
 test, not the solver's flag (:mod:`.fitting`).
+
+The names below load on first use, so that importing a light module of this
+package (:mod:`.expressions`, say, to check a constraint in a saved session)
+does not import lmfit.
 """
 
 from __future__ import annotations
 
-from .baselines import BASELINES, Baseline
-from .expressions import check_expression
-from .fitting import CONVERGENCE_TOL, DEFAULT_WINDOW, LineFit, fit
-from .shapes import (
-    SHAPES,
-    Shape,
-    doppler_sigma,
-    gaussian,
-    lorentzian,
-    olivero_fwhm,
-    pseudo_voigt,
-    tch_parameters,
-    voigt,
-    voigt_fwhm,
-)
-from .start import estimate_noise
+import importlib
+from typing import Any
 
 __all__ = [
     "fit",
@@ -48,3 +38,25 @@ __all__ = [
     "estimate_noise",
     "check_expression",
 ]
+
+#: public name -> the module (in this package) that defines it
+_WHERE = {
+    "fit": "fitting", "LineFit": "fitting", "DEFAULT_WINDOW": "fitting",
+    "CONVERGENCE_TOL": "fitting", "BASELINES": "baselines", "Baseline": "baselines",
+    "check_expression": "expressions", "estimate_noise": "start",
+    **{name: "shapes" for name in ("SHAPES", "Shape", "doppler_sigma", "gaussian", "lorentzian",
+                                   "olivero_fwhm", "pseudo_voigt", "tch_parameters", "voigt",
+                                   "voigt_fwhm")},
+}
+
+
+def __getattr__(name: str) -> Any:
+    if name in _WHERE:
+        value = getattr(importlib.import_module(f".{_WHERE[name]}", __name__), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'widgetkit.lines' has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__))

@@ -31,6 +31,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import SessionFormatError
+from . import jsonfile, structure
 
 __all__ = ["FORMAT", "VERSION", "MIGRATIONS", "encode_array", "decode_array", "migrate",
            "validate", "atomic_write_text", "read_document"]
@@ -57,11 +58,13 @@ def decode_array(d: dict, *, where: str) -> tuple[np.ndarray, bool]:
     """
     if d.get("dtype") != "<f8" or d.get("encoding") != "base64":
         raise SessionFormatError(f"{where}: only base64 '<f8' arrays are supported, "
-                                 f"got dtype {d.get('dtype')!r}, encoding {d.get('encoding')!r}")
+                                 f"got dtype {str(d.get('dtype'))[:20]!r}, encoding "
+                                 f"{str(d.get('encoding'))[:20]!r}")
     try:
         raw = base64.b64decode(d["data"], validate=True)
-    except (binascii.Error, ValueError) as exc:
-        raise SessionFormatError(f"{where}: the base64 data is corrupt ({exc})") from None
+    except (binascii.Error, ValueError):
+        raise SessionFormatError(f"{where}: the base64 data is corrupt (not base64 text of "
+                                 "whole 8-byte numbers)") from None
     n = int(np.prod(d["shape"])) if d["shape"] else 1
     if len(raw) != 8 * n:
         raise SessionFormatError(
@@ -78,16 +81,12 @@ def _schema(version: int) -> dict:
 
 
 def validate(doc: dict, *, path: str | None = None) -> None:
-    """Check a current-version document against the shipped JSON Schema."""
-    import jsonschema
-
-    validator = jsonschema.Draft202012Validator(_schema(VERSION))
-    errors = sorted(validator.iter_errors(doc), key=lambda e: list(e.absolute_path))
-    if errors:
-        e = errors[0]
-        field = "/".join(str(p) for p in e.absolute_path) or "(top level)"
-        more = f" (and {len(errors) - 1} more problem(s))" if len(errors) > 1 else ""
-        raise SessionFormatError(f"field {field}: {e.message}{more}", path=path)
+    """Check a current-version document against the shipped JSON Schema
+    (:mod:`.structure` interprets it: no validator package is imported)."""
+    found = structure.problems(doc, _schema(VERSION))
+    if found:
+        more = " (and more problems)" if len(found) > 1 else ""
+        raise SessionFormatError(found[0] + more, path=path)
 
 
 def migrate(doc: dict, *, path: str | None = None) -> dict:
@@ -115,18 +114,16 @@ def migrate(doc: dict, *, path: str | None = None) -> dict:
 
 
 def read_document(path: str | os.PathLike) -> dict:
-    """Read, migrate and validate a session file; raises SessionFormatError on any problem."""
-    p = str(path)
-    try:
-        text = Path(p).read_text(encoding="utf-8")
-    except UnicodeDecodeError as exc:
-        raise SessionFormatError(f"not a text (UTF-8 JSON) file: {exc}", path=p) from None
-    try:
-        doc = json.loads(text)
-    except json.JSONDecodeError as exc:
-        raise SessionFormatError(
-            f"invalid JSON at line {exc.lineno}, column {exc.colno}: {exc.msg}", path=p) from None
-    doc = migrate(doc, path=p)
+    """Read, migrate and validate a session file; raises SessionFormatError on any problem
+    of its content (and OSError when it cannot be read at all)."""
+    p = os.fspath(path)
+    size = os.stat(p).st_size
+    if size > jsonfile.MAX_BYTES:
+        raise SessionFormatError(f"the file holds {size:,} bytes, more than the "
+                                 f"{jsonfile.MAX_BYTES:,} a session file may have", path=p)
+    with open(p, "rb") as fh:
+        data = fh.read()
+    doc = migrate(jsonfile.parse(data, path=p), path=p)
     validate(doc, path=p)
     return doc
 

@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import AssignmentError, FitError, SessionStateError
+from .params import Param, ParamProblem, show
 from .records import RESULT_TYPES, Restored, decode, encode_fields, table_from_json, table_kinds
 from .steps import RecordMismatch, State, StepKind, cleared_text, register_step, table_to_json
 
@@ -22,12 +23,82 @@ _LINEFIT_NOT_RECORDED = ("table", "chisqr", "redchi", "converged", "result", "pa
                          "njev", "x", "y", "model_y", "baseline_y", "components", "residual")
 _CURVES = ("x", "y", "model_y", "baseline_y", "components", "residual")
 
+#: most parameters given confidence intervals in one fit (each costs many refits)
+MAX_CONF_INTERVAL = 8
+#: most model values (lines × points) one fit may hold: its components alone are 8 bytes each
+MAX_FIT_CELLS = 200_000_000
+#: the registered line shapes with their width parameters, and the baselines (a test keeps
+#: these equal to the registries of widgetkit.lines, which this module must not import)
+SHAPE_WIDTHS = {"gaussian": ("sigma",), "lorentzian": ("gamma",), "voigt": ("sigma", "gamma"),
+                "pseudo_voigt": ("sigma", "gamma")}
+SHAPE_NAMES = tuple(SHAPE_WIDTHS)
+BASELINE_NAMES = ("none", "constant", "linear", "poly2", "exponential")
+_CONSTRAINT_KEYS = ("value", "min", "max", "vary", "expr")
+
+
+def _check_constraints(constraints: dict | None) -> None:
+    """Constraint entries well formed, every expression readable and evaluable in its
+    parts made of numbers (names are checked against the fit's parameters when it runs)."""
+    from ..lines.expressions import check_grammar
+
+    for name, spec in (constraints or {}).items():
+        field = f"constraints.{name}"
+        try:
+            if name == "doppler":
+                if not isinstance(spec, dict) or not {"temperature", "mass"} <= set(spec):
+                    raise ParamProblem(field, "must be {'temperature': K, 'mass': u} (and "
+                                              f"optionally 'lines'), got {show(spec)}")
+                for key in ("temperature", "mass"):
+                    Param(key, "number", above=0).check(spec[key], f"{field}.{key}")
+            elif isinstance(spec, str):
+                check_grammar(spec, name)
+            elif isinstance(spec, dict):
+                extra = sorted(set(spec) - set(_CONSTRAINT_KEYS))
+                if extra:
+                    raise ParamProblem(field, f"has unknown keys {extra}; use "
+                                              f"{', '.join(_CONSTRAINT_KEYS)}")
+                if isinstance(spec.get("expr"), str) and spec["expr"]:
+                    check_grammar(spec["expr"], name)
+            elif isinstance(spec, bool) or not isinstance(spec, (int, float)):
+                raise ParamProblem(field, "must be an expression, a number or a dict of "
+                                          f"{', '.join(_CONSTRAINT_KEYS)}, got {show(spec)}")
+        except FitError as exc:
+            raise ParamProblem(field, str(exc)) from None
+
 
 @register_step
 class FitLines(StepKind):
     kind = "fit_lines"
     # an iterative solver: identical on one machine, tiny differences across BLAS builds
     tolerance = 1e-6
+    parameters = (
+        Param("shape", "choice", "voigt", choices=SHAPE_NAMES, doc="line shape"),
+        Param("shared_width", ("boolean", "choice", "mapping"), False, choices=("sigma", "gamma"),
+              doc="one width for all lines, one width kind, or groups of line ids"),
+        Param("baseline", "choice", "linear", choices=BASELINE_NAMES, nullable=True,
+              doc="baseline fitted with the lines"),
+        Param("region", "range", None, nullable=True, unit="cm-1", doc="fit only lo <= x <= hi"),
+        Param("window", "number", 100.0, above=1, nullable=True,
+              doc="evaluation window, in half widths"),
+        Param("heights", "numbers", None, nullable=True, null_items=True,
+              doc="starting heights (null: estimate)"),
+        Param("widths", "numbers", None, nullable=True, null_items=True, unit="cm-1",
+              doc="starting FWHM (null: estimate)"),
+        Param("noise", "number", None, above=0, nullable=True, doc="noise sigma of y"),
+        Param("constraints", "mapping", None, nullable=True,
+              doc="ties, fixed values, bounds, 'doppler' (see widgetkit.lines.params)"),
+        Param("weights", "numbers", None, nullable=True, max_items=100_000_000,
+              doc="residual weights, 1/sigma per point"),
+        Param("conf_interval", "strings", None, nullable=True, max_items=MAX_CONF_INTERVAL,
+              doc="parameters given confidence intervals"),
+        Param("max_passes", "integer", 4, minimum=1, maximum=50, doc="solver restarts"),
+    )
+    argument_error = FitError
+
+    def check_params(self, params):
+        out = super().check_params(params)
+        _check_constraints(out.get("constraints"))
+        return out
 
     def apply(self, state: State, params: dict, ctx):
         from .. import lines
@@ -43,6 +114,7 @@ class FitLines(StepKind):
             where = "" if region is None else f" inside the region {region}"
             raise SessionStateError(
                 f"fit_lines: there are no peaks{where} to fit; run find_peaks() or add_peak() first")
+        _check_fit_size(len(peaks), sp, region)
         fit = lines.fit(sp.x, sp.y, peaks["position"].to_numpy(dtype=float),
                         line_ids=[int(i) for i in peaks["peak_id"]], **opts)
         if not fit.converged:
@@ -96,6 +168,15 @@ class FitLines(StepKind):
         return state.evolve(line_fit=restored, assignment=None)
 
 
+def _check_fit_size(n_lines: int, sp, region) -> None:
+    n = sp.x.size if region is None else int(np.count_nonzero(
+        (sp.x >= min(region)) & (sp.x <= max(region))))
+    if n_lines * n > MAX_FIT_CELLS:
+        raise FitError(f"fit_lines: {n_lines:,} lines on {n:,} points is more than one fit can "
+                       f"hold ({MAX_FIT_CELLS:,} model values); fit a region at a time "
+                       "(region=(lo, hi)) or remove peaks")
+
+
 def _check_fit_record(state: State, table, spec: dict) -> None:
     """The recorded fit must be of the peaks this state holds (ids and positions)."""
     peaks = state.peaks
@@ -106,6 +187,10 @@ def _check_fit_record(state: State, table, spec: dict) -> None:
         raise RecordMismatch("the recorded fit was made from peaks this state does not hold")
     if not set(table["line_id"].tolist()) <= set(ids):
         raise RecordMismatch("the recorded lines are not among the fitted peaks")
+    needed = ["area", "position", *SHAPE_WIDTHS.get(spec.get("shape"), ("?",))]
+    if not set(needed + ["height", "fwhm"]) <= set(table.columns) or not np.all(
+            np.isfinite(table[needed].to_numpy(dtype=float))):
+        raise RecordMismatch("the recorded line table lacks finite values of its parameters")
 
 
 def molecule_from_param(value):
@@ -138,6 +223,26 @@ def _assign(state: State, spec: dict, locks: dict):
     else:
         raise AssignmentError(f"kind must be 'rovibrational' or 'progression', got {kind!r}")
     return out
+
+
+#: the assignment kinds (dispatched in ``_assign``)
+ASSIGNMENT_KINDS = ("rovibrational", "progression", "parallel", "perpendicular",
+                    "raman_rotational", "raman_vibrational")
+
+
+def _check_molecule(value) -> None:
+    if isinstance(value, str):
+        if not 0 < len(value) <= 64:
+            raise ParamProblem("molecule", f"must be a formula such as 'HCl', got {show(value)}")
+        return
+    atoms = value.get("atoms")
+    if not (isinstance(atoms, list) and 2 <= len(atoms) <= 32
+            and all(isinstance(a, str) and 0 < len(a) <= 8 for a in atoms)):
+        raise ParamProblem("molecule.atoms", f"must be a list of 2 to 32 atom symbols such as "
+                                             f"['H', '35Cl'], got {show(atoms)}")
+    if "min_abundance" in value:
+        Param("min_abundance", "number", minimum=0.0, below=1.0).check(
+            value["min_abundance"], "molecule.min_abundance")
 
 
 def _assignment_result(out) -> dict:
@@ -181,6 +286,44 @@ def _n_assigned(out) -> int:
 class AssignBand(StepKind):
     kind = "assign_band"
     tolerance = 1e-6
+    parameters = (
+        Param("molecule", ("string", "mapping"),
+              doc="a formula ('HCl') or a molecule's to_dict() ({'atoms': [...], ...})"),
+        Param("kind", "choice", "rovibrational", choices=ASSIGNMENT_KINDS,
+              doc="what to assign"),
+        Param("temperature", "number", None, above=0, maximum=1e5, nullable=True, unit="K",
+              doc="temperature of the sample"),
+        # rovibrational options (widgetkit.levels.assign_rovibrational)
+        Param("outlier_sigma", "number", 4.0, above=0, doc="outlier threshold, in sigmas"),
+        Param("max_rounds", "integer", 20, minimum=1, maximum=1000, doc="refinement rounds"),
+        Param("min_rounds", "integer", 1, minimum=0, maximum=1000, doc="refinement rounds"),
+        Param("band", "json", [1, 0], doc="(v_upper, v_lower)"),
+        Param("centrifugal", "choice", "separate", choices=("separate", "shared", "none"),
+              doc="centrifugal distortion fitted"),
+        Param("match_fraction", "number", 0.3, above=0, below=1, doc="matching tolerance"),
+        Param("seed_fraction", "number", 0.25, above=0, below=1, doc="seeding tolerance"),
+        # progression options (widgetkit.levels.fit_progression)
+        Param("isotopologue", "string", None, nullable=True, doc="the isotopologue assigned"),
+        Param("v_max", "integer", 6, minimum=1, maximum=50, doc="highest upper level"),
+        Param("hot_max", "integer", 3, minimum=0, maximum=20, doc="highest lower level"),
+        Param("max_anharmonicity", "number", 0.05, above=0, below=1,
+              doc="largest omega_e x_e / omega_e"),
+        Param("n_terms", "integer", None, minimum=1, maximum=3, nullable=True,
+              doc="terms of G(v)"),
+        Param("max_labellings", "integer", 24, minimum=1, maximum=10_000,
+              doc="labellings compared"),
+    )
+    argument_error = AssignmentError
+
+    def check_params(self, params):
+        out = super().check_params(params)
+        _check_molecule(out["molecule"])
+        band = out.get("band")
+        if "band" in out and not (isinstance(band, list) and len(band) == 2 and all(
+                isinstance(v, int) and 0 <= v <= 100 for v in band) and band[0] != band[1]):
+            raise ParamProblem("band", f"must be (v_upper, v_lower), two different whole numbers "
+                                       f"from 0 to 100, got {show(band)}")
+        return out
 
     def apply(self, state, params, ctx):
         out = _assign(state, params, dict(state.locks))
@@ -235,6 +378,22 @@ def _restore_relock(kind: StepKind, state: State, params: dict, result: dict, ct
     return new.evolve(assignment=restored)
 
 
+_LABEL_KEYS = {"label": "string", "isotopologue": "string", "v_upper": "integer",
+               "v_lower": "integer", "J_upper": "integer", "J_lower": "integer"}
+
+
+def _check_labels_param(labels, field: str) -> None:
+    if not isinstance(labels, dict):
+        raise ParamProblem(field, f"must be a mapping of labels, got {show(labels)}")
+    for key, value in labels.items():
+        kind = _LABEL_KEYS.get(key)
+        if kind is None:
+            raise ParamProblem(f"{field}.{key}", "is not a label; use "
+                                                 f"{', '.join(_LABEL_KEYS)}")
+        Param(key, kind, nullable=True, minimum=0 if kind == "integer" else None,
+              maximum=1000 if kind == "integer" else None).check(value, f"{field}.{key}")
+
+
 def _check_labels(line_id, labels) -> dict:
     labels = dict(labels or {})
     if not labels:
@@ -254,6 +413,27 @@ def _lock_changes(params: dict) -> dict[int, dict]:
 class SetAssignment(StepKind):
     kind = "set_assignment"
     tolerance = 1e-6
+    parameters = (
+        Param("line_id", "integer", None, minimum=1, doc="the line locked (with labels)"),
+        Param("labels", "mapping", None, doc="label=, isotopologue=, v_upper=, ..."),
+        Param("assignments", "mapping", None, doc="several locks: {line_id: labels}"),
+    )
+    argument_error = AssignmentError
+
+    def check_params(self, params):
+        out = super().check_params(params)
+        if ("assignments" in out) == ("line_id" in out or "labels" in out):
+            raise ParamProblem("line_id", "give either line_id and labels, or assignments")
+        if "assignments" in out:
+            for key, labels in out["assignments"].items():
+                Param("line_id", "integer", minimum=1).check(
+                    int(key) if key.isdigit() else key, f"assignments.{key}")
+                _check_labels_param(labels, f"assignments.{key}")
+        else:
+            if "line_id" not in out or "labels" not in out:
+                raise ParamProblem("labels" if "line_id" in out else "line_id", "is required")
+            _check_labels_param(out["labels"], "labels")
+        return out
 
     def apply(self, state, params, ctx):
         changes = _lock_changes(params)
@@ -271,6 +451,8 @@ class SetAssignment(StepKind):
 class ClearAssignment(StepKind):
     kind = "clear_assignment"
     tolerance = 1e-6
+    parameters = (Param("line_id", "integer", minimum=1, doc="the line left unassigned"),)
+    argument_error = AssignmentError
 
     def apply(self, state, params, ctx):
         lid = int(params["line_id"])

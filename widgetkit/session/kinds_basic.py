@@ -15,7 +15,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from ..errors import SessionStateError
+from ..errors import ProcessingError, SessionStateError
+from .params import Param, ParamProblem
 from .records import table_from_json
 from .steps import (
     Context,
@@ -40,6 +41,7 @@ def _spectrum_result(sp) -> dict:
 @register_step
 class Load(StepKind):
     kind = "load"
+    parameters = (Param("source", "string", doc="id of the source record"),)
 
     def apply(self, state: State, params: dict, ctx: Context):
         src = params["source"]
@@ -53,6 +55,9 @@ class Load(StepKind):
 @register_step
 class Crop(StepKind):
     kind = "crop"
+    parameters = (Param("lo", "number", unit="cm-1", doc="one end of the range kept"),
+                  Param("hi", "number", unit="cm-1", doc="the other end (order free)"))
+    argument_error = ProcessingError
 
     def apply(self, state, params, ctx):
         from ..processing import crop
@@ -69,6 +74,8 @@ class Crop(StepKind):
 @register_step
 class ToAbsorbance(StepKind):
     kind = "to_absorbance"
+    parameters = ()
+    argument_error = ProcessingError
 
     def apply(self, state, params, ctx):
         from ..processing import to_absorbance
@@ -82,6 +89,31 @@ class ToAbsorbance(StepKind):
 @register_step
 class SubtractBaseline(StepKind):
     kind = "subtract_baseline"
+    parameters = (
+        Param("method", "choice", choices=("poly", "als"), doc="baseline model"),
+        Param("degree", "integer", 3, minimum=0, maximum=50, doc="poly: polynomial degree"),
+        Param("k", "number", 3.0, above=0,
+              doc="poly: points above k noise sigmas are masked as peaks"),
+        Param("noise", "number", None, above=0, nullable=True, doc="poly: noise sigma"),
+        Param("max_iter", "integer", None, minimum=1, maximum=1000,
+              doc="iterations (poly 100, als 10)"),
+        Param("tol", "number", 0.01, above=0, doc="poly: convergence tolerance"),
+        Param("lam", "number", 1e5, above=0, doc="als: smoothness"),
+        Param("p", "number", 0.01, above=0, below=1, doc="als: asymmetry"),
+    )
+    #: the options of each method (a test keeps these equal to processing.baseline_options)
+    METHOD_OPTIONS = {"poly": ("degree", "k", "noise", "max_iter", "tol"),
+                      "als": ("lam", "p", "max_iter")}
+    argument_error = ProcessingError
+
+    def check_params(self, params):
+        out = super().check_params(params)
+        allowed = self.METHOD_OPTIONS[out["method"]]
+        for name in out:
+            if name != "method" and name not in allowed:
+                raise ParamProblem(name, f"is not an option of the {out['method']!r} baseline "
+                                         f"(its options: {', '.join(allowed)})")
+        return out
 
     def apply(self, state, params, ctx):
         from ..processing import subtract_baseline
@@ -102,6 +134,13 @@ class SubtractBaseline(StepKind):
 @register_step
 class FindPeaks(StepKind):
     kind = "find_peaks"
+    parameters = (
+        Param("min_snr", "number", 5.0, above=0, maximum=1e9,
+              doc="smallest prominence, in noise sigmas"),
+        Param("min_separation", "number", None, minimum=0, nullable=True, unit="cm-1",
+              doc="smallest distance between peaks"),
+    )
+    argument_error = ProcessingError
 
     def apply(self, state, params, ctx):
         from ..processing import find_peaks
@@ -156,6 +195,9 @@ def _with_cleared(result: dict, cleared: dict) -> dict:
 @register_step
 class AddPeak(StepKind):
     kind = "add_peak"
+    parameters = (Param("position", "number", unit="cm-1", doc="where the peak is"),
+                  Param("snap", "boolean", True, doc="move it to the nearest maximum"))
+    argument_error = ProcessingError
 
     def apply(self, state, params, ctx):
         from .. import processing
@@ -205,6 +247,8 @@ def _with_row(state: State, row: dict) -> tuple[State, dict]:
 @register_step
 class RemovePeak(StepKind):
     kind = "remove_peak"
+    parameters = (Param("peak_id", "integer", minimum=1, doc="the peak removed"),)
+    argument_error = ProcessingError
 
     def apply(self, state, params, ctx):
         pid = int(params["peak_id"])
@@ -222,6 +266,7 @@ class RemovePeak(StepKind):
 @register_step
 class Note(StepKind):
     kind = "note"
+    parameters = (Param("text", "string", doc="the note"),)
 
     def apply(self, state, params, ctx):
         text = str(params["text"])

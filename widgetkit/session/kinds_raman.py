@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
-from .. import processing
-from .kinds_basic import _spectrum_result
-from .steps import State, StepKind, register_step
+from ..errors import ProcessingError
+from .kinds_basic import _spectrum_result, _with_cleared
+from .params import Param
+from .steps import State, StepKind, cleared_text, drop_dependents, register_step
 
 __all__ = ["ToRamanShift"]
 
@@ -16,19 +17,26 @@ class ToRamanShift(StepKind):
     cleared (the result says which were present)."""
 
     kind = "to_raman_shift"
+    parameters = (
+        Param("excitation", "number", above=0, doc="the laser line, in unit"),
+        Param("unit", "string", "nm", doc="unit of excitation: 'nm' or 'cm-1'"),
+        Param("medium", "choice", None, choices=("air", "vacuum"), nullable=True,
+              doc="where a wavelength was measured"),
+        Param("axis_medium", "choice", "vacuum", choices=("air", "vacuum"),
+              doc="where the file's own wavelengths were measured"),
+    )
+    argument_error = ProcessingError
 
     def apply(self, state: State, params: dict, ctx):
+        from .. import processing
+
         sp = processing.to_raman_shift(state.require_spectrum(), params["excitation"],
                                        unit=params.get("unit", "nm"), medium=params.get("medium"),
                                        axis_medium=params.get("axis_medium", "vacuum"))
-        cleared = [name for name, there in (
-            ("baseline", state.baseline is not None), ("peaks", len(state.peaks) > 0),
-            ("line fit", state.line_fit is not None), ("assignment", state.assignment is not None),
-            ("locks", bool(state.locks))) if there]
-        new = State(spectrum=sp)
+        new, cleared = drop_dependents(state, spectrum=sp, baseline=None,
+                                       peaks=state.peaks.iloc[0:0])
         nu0 = sp.meta["excitation_wavenumber"]
-        result = _spectrum_result(sp) | {"excitation_wavenumber": nu0, "cleared": cleared}
+        result = _with_cleared(_spectrum_result(sp) | {"excitation_wavenumber": nu0}, cleared)
         summary = (f"Raman shift from the laser line at {nu0:.6g} cm-1 (vacuum): "
-                   f"{sp.x[0]:.6g} to {sp.x[-1]:.6g} cm-1"
-                   + (f"; cleared {', '.join(cleared)}" if cleared else ""))
+                   f"{sp.x[0]:.6g} to {sp.x[-1]:.6g} cm-1" + cleared_text(cleared))
         return new, result, summary

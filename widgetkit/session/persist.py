@@ -7,9 +7,11 @@ import os
 from ..errors import SessionFormatError, SessionStateError, WidgetkitError
 from ..spectrum import Spectrum
 from . import codec
-from .steps import STEP_KINDS, Context, RecordMismatch, State, Step, software_versions, utc_now
+from .params import ParamProblem
+from .steps import STEP_KINDS, Context, State, Step, software_versions, utc_now
+from .verify import cut
 
-__all__ = ["decode_source", "restore_states", "session_document"]
+__all__ = ["check_steps", "decode_source", "restore_states", "session_document"]
 
 
 def _source_of(rec: dict) -> dict | None:
@@ -19,6 +21,21 @@ def _source_of(rec: dict) -> dict | None:
 
 
 def decode_source(rec: dict, path: str, problems: list[str]) -> Spectrum:
+    """The spectrum of one source record: from its embedded data, or else by re-reading
+    the original file. Hash mismatches are appended to ``problems`` (``verify`` reports them);
+    anything that cannot be decoded is a :class:`SessionFormatError` naming the source."""
+    try:
+        return _decode_source(rec, path, problems)
+    except SessionFormatError:
+        raise
+    except Exception as exc:
+        what = str(exc) if isinstance(exc, WidgetkitError) else \
+            f"{type(exc).__name__}: {cut(str(exc), 200)}"
+        raise SessionFormatError(f"source {cut(rec.get('id'), 40)} cannot be read: {what}",
+                                 path=path) from None
+
+
+def _decode_source(rec: dict, path: str, problems: list[str]) -> Spectrum:
     """The spectrum of one source record: from its embedded data, or else by re-reading
     the original file. Hash mismatches are appended to ``problems`` (``verify`` reports them)."""
     sid = rec["id"]
@@ -52,35 +69,53 @@ def decode_source(rec: dict, path: str, problems: list[str]) -> Spectrum:
     return sp
 
 
+def check_steps(steps: list[dict], path: str) -> None:
+    """Every step of a document: a known kind (load first) with parameters that fit its
+    declaration; the first problem is a :class:`SessionFormatError` naming the step (from 0)
+    and the field. Runs before anything is decoded or computed."""
+    if steps[0].get("kind") != "load":
+        raise SessionFormatError("field steps/0/kind: the first step must be 'load'", path=path)
+    for i, step in enumerate(steps):
+        kind = STEP_KINDS.get(step["kind"])
+        if kind is None:
+            raise SessionFormatError(
+                f"field steps/{i}/kind: unknown step kind {cut(step['kind'], 40)} "
+                f"(known: {', '.join(sorted(STEP_KINDS))})", path=path)
+        if i and step["kind"] == "load":
+            raise SessionFormatError(f"field steps/{i}/kind: only step 0 may be 'load'", path=path)
+        try:
+            kind.check_params(step["params"])
+        except ParamProblem as exc:
+            raise SessionFormatError(f"step {i} ({step['kind']}), field params.{exc.field}: "
+                                     f"{exc.problem}", path=path) from None
+
+
 def restore_states(steps: list[Step], ctx: Context, path: str) -> tuple[list[State], list[int]]:
     """The state after each step, rebuilt from the recorded results (fast reopen).
 
     Each kind's :meth:`~widgetkit.session.steps.StepKind.restore` is used; where it finds
-    that the record does not fit the state it raises ``RecordMismatch`` and the step is
-    computed instead (``apply``). Returns the states and the numbers of the steps that had
-    to be computed for that reason. A step that can be neither restored nor computed is a
-    :class:`SessionFormatError` naming it (steps are numbered from 0, the load step).
+    that the record does not fit the state (``RecordMismatch``, or a record too damaged to
+    read) the step is computed instead (``apply``). Returns the states and the numbers of
+    the steps computed for that reason. A step that can be neither restored nor computed
+    is a :class:`SessionFormatError` naming it (steps are numbered from 0, the load step).
     """
-    if steps[0].kind != "load":
-        raise SessionFormatError("field steps/0/kind: the first step must be 'load'", path=path)
     states: list[State] = []
     recomputed: list[int] = []
     state = State()
     for i, step in enumerate(steps):
-        kind = STEP_KINDS.get(step.kind)
-        if kind is None:
-            raise SessionFormatError(
-                f"field steps/{i}/kind: unknown step kind {step.kind!r} "
-                f"(known: {', '.join(sorted(STEP_KINDS))})", path=path)
+        kind = STEP_KINDS[step.kind]
         try:
             try:
-                state = kind.restore(state, dict(step.params), step.result, ctx)
-            except RecordMismatch:
+                new = kind.restore(state, dict(step.params), step.result, ctx)
+            except Exception:  # RecordMismatch, or a record too damaged to read
                 recomputed.append(i)
-                state, _, _ = kind.apply(state, dict(step.params), ctx)
-        except WidgetkitError as exc:
-            raise SessionFormatError(
-                f"step {i} ({step.kind}) cannot be reopened: {exc}", path=path) from exc
+                new = kind.apply(state, dict(step.params), ctx)[0]
+        except Exception as exc:
+            what = str(exc) if isinstance(exc, WidgetkitError) else \
+                f"{type(exc).__name__}: {cut(str(exc), 200)}"
+            raise SessionFormatError(f"step {i} ({step.kind}) cannot be reopened: {what}",
+                                     path=path) from exc
+        state = new
         states.append(state)
     return states, recomputed
 

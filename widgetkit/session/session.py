@@ -21,9 +21,10 @@ from typing import Any
 
 import pandas as pd
 
-from ..errors import SessionStateError, WidgetkitError
+from ..errors import SessionFormatError, SessionStateError, WidgetkitError
 from ..spectrum import Spectrum
 from . import codec, persist
+from .params import ParamProblem, show
 from .steps import STEP_KINDS, Context, State, Step, software_versions, utc_now
 from .verify import VerifyReport, compare_results, cut, without_paths
 
@@ -34,6 +35,16 @@ LINE_COLUMNS = ["line_id", "position", "position_err", "area", "area_err", "heig
 ASSIGNMENT_COLUMNS = ["line_id", "position", "isotopologue", "v_upper", "v_lower", "J_upper",
                       "J_lower", "label", "calc", "obs_minus_calc", "outlier"]
 CONSTANT_COLUMNS = ["isotopologue", "name", "value", "stderr", "unit"]
+
+
+def checked_params(kind: str, params: dict) -> dict:
+    """``params`` checked against the kind's declaration (:mod:`.params`) and normalised;
+    a bad value raises the kind's ``argument_error`` naming the argument and the value."""
+    k = STEP_KINDS[kind]
+    try:
+        return k.check_params(params)
+    except ParamProblem as exc:
+        raise k.argument_error(f"{kind}: argument {exc.field!r} {exc.problem}") from None
 
 
 def _json_params(kind: str, params: dict) -> dict:
@@ -128,10 +139,14 @@ class Session:
             version than this code, or a step cannot be replayed.
         """
         doc = codec.read_document(path)
+        persist.check_steps(doc["steps"], str(path))
         self = cls.__new__(cls)
         self._init_empty()
         self.created = doc["created"]
         self.path = str(path)
+        ids = [rec["id"] for rec in doc["sources"]]
+        if len(set(ids)) != len(ids):
+            raise SessionFormatError("field sources: two sources have the same id", path=path)
         for rec in doc["sources"]:
             self._add_source(rec, persist.decode_source(rec, str(path), self._source_problems))
         self._steps = [Step(**s) for s in doc["steps"]]
@@ -147,7 +162,7 @@ class Session:
             raise SessionStateError(
                 f"the session is showing step {self._cursor} of steps 0..{len(self._steps) - 1}; "
                 "call view_latest() before changing the analysis (nothing was changed)")
-        params = _json_params(kind, params)
+        params = checked_params(kind, params)
         previous = self._states[-1] if self._states else State()
         new_state, result, summary = STEP_KINDS[kind].apply(previous, params, self._ctx)
         step = Step(kind=kind, params=params, at=utc_now(), summary=summary,
@@ -160,7 +175,7 @@ class Session:
 
     def crop(self, lo: float, hi: float) -> None:
         """Keep ``lo <= x <= hi`` (cm⁻¹)."""
-        self._run("crop", {"lo": float(lo), "hi": float(hi)})
+        self._run("crop", {"lo": lo, "hi": hi})
 
     def to_absorbance(self) -> None:
         """Convert a transmittance spectrum to absorbance, A = −log₁₀ T."""
@@ -190,19 +205,17 @@ class Session:
     def find_peaks(self, *, min_snr: float = 5.0, min_separation: float | None = None
                    ) -> pd.DataFrame:
         """Find peaks whose prominence exceeds ``min_snr`` times the noise; replaces the peak table."""
-        self._run("find_peaks", {"min_snr": float(min_snr),
-                                 "min_separation": None if min_separation is None
-                                 else float(min_separation)})
+        self._run("find_peaks", {"min_snr": min_snr, "min_separation": min_separation})
         return self.peaks
 
     def add_peak(self, position: float, *, snap: bool = True) -> int:
         """Add a peak at ``position`` (moved to the nearest local maximum when ``snap``)."""
-        step = self._run("add_peak", {"position": float(position), "snap": bool(snap)})
+        step = self._run("add_peak", {"position": position, "snap": snap})
         return int(step.result["peak_id"])
 
     def remove_peak(self, peak_id: int) -> None:
         """Remove the peak ``peak_id``."""
-        self._run("remove_peak", {"peak_id": int(peak_id)})
+        self._run("remove_peak", {"peak_id": peak_id})
 
     def fit_lines(self, *, shape: str = "voigt", shared_width=False, baseline: str | None = "linear",
                   region=None, **options) -> pd.DataFrame:
@@ -213,8 +226,7 @@ class Session:
         Returns :attr:`lines`.
         """
         params = {"shape": shape, "shared_width": shared_width, "baseline": baseline,
-                  "region": None if region is None else [float(region[0]), float(region[1])],
-                  **options}
+                  "region": region, **options}
         self._run("fit_lines", params)
         return self.lines
 
@@ -228,8 +240,7 @@ class Session:
         """
         if hasattr(molecule, "to_dict"):
             molecule = molecule.to_dict()
-        params = {"molecule": molecule, "kind": kind,
-                  "temperature": None if temperature is None else float(temperature), **options}
+        params = {"molecule": molecule, "kind": kind, "temperature": temperature, **options}
         self._run("assign_band", params)
         return self.assignments
 
@@ -238,21 +249,24 @@ class Session:
 
         Locked assignments always win; the last ``assign_band`` is re-run with the locks.
         """
-        self._run("set_assignment", {"line_id": int(line_id), "labels": labels})
+        self._run("set_assignment", {"line_id": line_id, "labels": labels})
 
     def set_assignments(self, assignments: dict) -> None:
         """Lock several lines at once, ``{line_id: {"label": "R(0)", ...}, ...}``, in one step
         (when one lock alone cannot put a wrong assignment right)."""
-        self._run("set_assignment", {"assignments": {str(int(k)): dict(v)
-                                                     for k, v in assignments.items()}})
+        if not isinstance(assignments, dict):
+            raise STEP_KINDS["set_assignment"].argument_error(
+                f"set_assignments: argument 'assignments' must be a dict {{line_id: labels}}, "
+                f"got {show(assignments)}")
+        self._run("set_assignment", {"assignments": {str(k): v for k, v in assignments.items()}})
 
     def clear_assignment(self, line_id: int) -> None:
         """Leave one line unassigned (locked so; e.g. a blend or an impurity line)."""
-        self._run("clear_assignment", {"line_id": int(line_id)})
+        self._run("clear_assignment", {"line_id": line_id})
 
     def note(self, text: str) -> None:
         """Add a note to the record."""
-        self._run("note", {"text": str(text)})
+        self._run("note", {"text": text})
 
     def undo(self) -> Step:
         """Drop the last step (the first, ``load``, cannot be undone); returns it."""
@@ -277,6 +291,13 @@ class Session:
         if not 0 < i < n:
             raise SessionStateError(f"replay_with: step index {index} must be in 1..{n - 1} "
                                     "(the load step cannot be changed)")
+        step = self._steps[i]
+        try:
+            STEP_KINDS[step.kind].check_params({**step.params, **params})
+        except ParamProblem as exc:
+            raise STEP_KINDS[step.kind].argument_error(
+                f"replay_with: step {i} ({step.kind}) parameter {exc.field!r} {exc.problem}"
+            ) from None
         new = Session.__new__(Session)
         new._init_empty()
         for rec in self._sources:
@@ -462,8 +483,10 @@ class Session:
             where = f"step {i} ({step.kind})"
             try:
                 state, result, summary = kind.apply(state, dict(step.params), self._ctx)
-            except WidgetkitError as exc:
-                mismatches.append(f"{where}: replay failed: {exc}")
+            except Exception as exc:  # a damaged file may make any computation fail
+                what = str(exc) if isinstance(exc, WidgetkitError) else \
+                    f"{type(exc).__name__}: {cut(str(exc), 200)}"
+                mismatches.append(f"{where}: replay failed: {what}")
                 break
             checked += 1
             result = json.loads(json.dumps(result, allow_nan=False))

@@ -37,14 +37,14 @@ import platform
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from datetime import datetime, timezone
-from importlib import metadata
 from typing import Any, ClassVar
 
 import numpy as np
 import pandas as pd
 
-from ..errors import SessionStateError
+from ..errors import SessionStateError, WidgetkitError
 from ..spectrum import Spectrum
+from .params import Param, check_params
 from .records import table_to_json
 
 __all__ = ["Step", "State", "StepKind", "STEP_KINDS", "register_step", "software_versions",
@@ -65,6 +65,8 @@ def software_versions() -> dict[str, str]:
 
 @functools.lru_cache(maxsize=1)
 def _software_versions() -> dict[str, str]:
+    from importlib import metadata  # here: reopening a session never needs it
+
     out = {"python": platform.python_version()}
     for pkg in ("widgetkit", "numpy", "scipy", "pandas", "lmfit"):
         try:
@@ -181,13 +183,27 @@ class StepKind:
 
     ``tolerance`` is the relative tolerance ``verify`` uses for floating-point
     results of this kind (integers, strings and booleans always compare exactly).
+
+    ``parameters`` declares the parameters (:class:`~widgetkit.session.params.Param`);
+    :meth:`check_params` checks them for live calls and for saved files alike, before
+    anything is computed (None: any bounded JSON, for a kind that declares nothing yet).
+    ``argument_error`` is the error a live call with a bad argument raises.
     """
 
     kind: ClassVar[str] = ""
+    parameters: ClassVar[tuple[Param, ...] | None] = None
+    argument_error: ClassVar[type[WidgetkitError]] = SessionStateError
     tolerance: ClassVar[float] = 1e-9
     #: dotted paths in the result that ``verify`` does not compare: diagnostics that
     #: legitimately differ between machines (a solver's last step size in a message)
     volatile: ClassVar[tuple[str, ...]] = ()
+
+    def check_params(self, params: dict) -> dict:
+        """The parameters checked against :attr:`parameters` and normalised (numbers as
+        float, whole numbers as int); raises
+        :class:`~widgetkit.session.params.ParamProblem`. Override to add rules between
+        parameters (call this first); never compute or import anything heavy here."""
+        return check_params(self.parameters, params)
 
     def apply(self, state: State, params: dict, ctx: Context) -> tuple[State, dict, str]:
         """Compute the step: ``(new state, result to record, one-line summary)``.
