@@ -24,6 +24,7 @@ from typing import Any
 
 from .errors import (
     AssignmentError,
+    FilePathError,
     FitError,
     OscillatorError,
     ProcessingError,
@@ -57,6 +58,7 @@ __all__ = [
     "SimulationError",
     "FitError",
     "AssignmentError",
+    "FilePathError",
     "io",
     "processing",
     "lines",

@@ -21,6 +21,7 @@ __all__ = [
     "SimulationError",
     "FitError",
     "AssignmentError",
+    "FilePathError",
 ]
 
 
@@ -87,3 +88,8 @@ class FitError(WidgetkitError, RuntimeError):
 
 class AssignmentError(WidgetkitError, ValueError):
     """Lines could not be assigned to levels, or constants could not be fitted."""
+
+
+class FilePathError(WidgetkitError, OSError):
+    """A file cannot be written (or read) where asked: the folder is missing, a file stands
+    where a folder should be, or permission is lacking. The message names the user's path."""

@@ -7,17 +7,10 @@ import pytest
 import widgetkit as wk
 
 
-@pytest.fixture(scope="module")
-def assigned():
-    hcl = wk.Diatomic("H", "Cl")
-    sp = wk.simulate.rovibrational(hcl, wk.simulate.HANDBOOK["1H-35Cl"], x_range=(2700, 3050),
-                                   step=0.05, seed=3, noise=0.001, resolution=0.3,
-                                   temperature=296.0)
-    s = wk.Session(sp)
-    s.find_peaks(min_snr=10)
-    s.fit_lines(shape="gaussian")
-    s.assign_band(hcl, temperature=296.0)
-    return s
+@pytest.fixture
+def assigned(hcl):
+    """The simulated H-Cl session of conftest (peaks, Gaussian fit, assignment)."""
+    return hcl
 
 
 def _line(s, label, iso="1H-35Cl"):

@@ -7,6 +7,7 @@ import random
 
 import jsonschema
 import pytest
+from _mutations import json_paths
 
 import widgetkit as wk
 from widgetkit.session import codec, structure
@@ -23,22 +24,12 @@ def document(tmp_path_factory):
     return s.to_document()
 
 
-def _walk(value, path=()):
-    yield path
-    if isinstance(value, dict):
-        for k, v in value.items():
-            yield from _walk(v, (*path, k))
-    elif isinstance(value, list):
-        for i, v in enumerate(value[:3]):
-            yield from _walk(v, (*path, i))
-
-
 _REPLACEMENTS = [None, True, 0, -1, 1.5, "", "x" * 70, "zzz", [], [1], {}, {"a": 1}, 2**60]
 
 
 def _mutants(doc, n=400, seed=11):
     rng = random.Random(seed)
-    paths = [p for p in _walk(doc) if p]
+    paths = [p for p in json_paths(doc) if p]
     for _ in range(n):
         path = rng.choice(paths)
         new = copy.deepcopy(doc)

@@ -22,11 +22,9 @@ import binascii
 import hashlib
 import json
 import os
-import tempfile
 from collections.abc import Callable
 from functools import lru_cache
 from importlib import resources
-from pathlib import Path
 
 import numpy as np
 
@@ -128,29 +126,11 @@ def read_document(path: str | os.PathLike) -> dict:
     return doc
 
 
-def atomic_write_text(path: str | os.PathLike, text: str) -> None:
-    """Write ``text`` to ``path`` atomically: temporary file in the same folder, flush,
-    fsync, rename. On any failure the previous file is left untouched."""
-    target = Path(path)
-    folder = target.parent if str(target.parent) else Path(".")
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, target)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
-    try:  # make the rename durable where the platform allows it
-        dfd = os.open(folder, os.O_RDONLY)
-        try:
-            os.fsync(dfd)
-        finally:
-            os.close(dfd)
-    except OSError:  # pragma: no cover - not every filesystem allows fsync on a folder
-        pass
+def atomic_write_text(path: str | os.PathLike, text: str) -> str:
+    """Write ``text`` to ``path`` atomically (:func:`widgetkit._files.atomic_write`: a
+    temporary file in the same folder, fsync, rename; symbolic links written through; the
+    umask's mode for a new file; temporaries of killed saves removed). On any failure the
+    previous file is left untouched. Returns the real path written."""
+    from .._files import atomic_write
+
+    return atomic_write(path, text.encode("utf-8"))

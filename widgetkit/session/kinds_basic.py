@@ -38,9 +38,13 @@ def _spectrum_result(sp) -> dict:
             "y_kind": sp.y_kind, "data_sha256": sp.data_sha256()}
 
 
+_SOURCE_FIELDS = ("path", "sha256", "size", "format", "y_kind", "meta", "read_options")
+
+
 @register_step
 class Load(StepKind):
     kind = "load"
+    tolerance = 0.0  # the source's identity and metadata are reproduced exactly
     parameters = (Param("source", "string", doc="id of the source record"),)
 
     def apply(self, state: State, params: dict, ctx: Context):
@@ -48,7 +52,11 @@ class Load(StepKind):
         if src not in ctx.sources:
             raise SessionStateError(f"load step names source {src!r}, which the session does not hold")
         sp = ctx.sources[src]
-        return (State(spectrum=sp), _spectrum_result(sp),
+        rec = ctx.records.get(src, {})
+        # the source's identity as recorded: verify compares it with the source record, so an
+        # edit of a recorded hash, size or metadata value is a mismatch
+        result = _spectrum_result(sp) | {"source": {k: rec.get(k) for k in _SOURCE_FIELDS}}
+        return (State(spectrum=sp), result,
                 f"loaded {sp.x.size} points, {sp.x[0]:.6g}–{sp.x[-1]:.6g} cm-1 ({sp.y_kind})")
 
 

@@ -118,7 +118,8 @@ class Session:
 
     @property
     def _ctx(self) -> Context:
-        return Context(sources=self._source_spectra)
+        return Context(sources=self._source_spectra,
+                       records={rec["id"]: rec for rec in self._sources})
 
     # ------------------------------------------------------------------ constructors
     @classmethod
@@ -457,7 +458,14 @@ class Session:
         """Write the session to ``path`` atomically (the previous file survives a failure).
 
         With ``embed=True`` (default) the file holds the source data and is self-contained.
+        A new file gets the umask's mode (0644 under umask 022), an existing one keeps its
+        mode; a symbolic link is written through. A missing folder, or a file where a folder
+        should be, raises :class:`~widgetkit.errors.FilePathError` naming the path before
+        anything is written.
         """
+        from .._files import check_writable
+
+        check_writable(path)  # before any work: a missing folder is named at once
         text = json.dumps(self.to_document(embed=embed), allow_nan=False, separators=(",", ":"))
         codec.atomic_write_text(path, text)
         self.path = str(path)

@@ -173,9 +173,11 @@ class State:
 
 @dataclass(frozen=True)
 class Context:
-    """What a step may read besides the state: the decoded source spectra by id."""
+    """What a step may read besides the state: the decoded source spectra by id, and the
+    source records (path, sha256, size, format, y_kind, meta, read_options) by id."""
 
     sources: Mapping[str, Spectrum]
+    records: Mapping[str, dict] = field(default_factory=dict)
 
 
 class StepKind:
