@@ -14,7 +14,8 @@ import re
 from decimal import ROUND_HALF_UP, Decimal
 
 __all__ = ["format_uncertainty", "format_value", "display_isotopologue", "plural", "article",
-           "COLUMN_LABELS", "column_label", "unicode_units", "tidy_text"]
+           "COLUMN_LABELS", "column_label", "unicode_units", "tidy_text", "summary_text",
+           "fit_verdict"]
 
 #: values at least this large, or smaller (non-zero) than SMALL, are written as mantissa(u)e±p
 LARGE = 1e9
@@ -221,3 +222,32 @@ def tidy_text(text) -> str:
     s = _ISOTOPOLOGUE_KEY.sub(lambda m: display_isotopologue(m.group(0)), s)
     s = _ONE_PLURAL.sub(lambda m: "1 " + m[1], s)
     return unicode_units(s)
+
+
+_BASELINE_SUMMARY = re.compile(r"\bsubtracted a (als|poly) baseline")
+
+
+def summary_text(summary) -> str:
+    """A step's recorded one-line summary as panels and reports show it (:func:`tidy_text`,
+    and "a als baseline" read as "an ALS baseline"). The record itself is never changed:
+    ``verify`` compares it."""
+    text = _BASELINE_SUMMARY.sub(lambda m: "subtracted " + ("an ALS" if m[1] == "als" else
+                                                             "a polynomial") + " baseline",
+                                 str(summary))
+    return tidy_text(text)
+
+
+_LIBRARY_PART = re.compile(r";\s*lmfit:.*$", re.S)
+
+
+def fit_verdict(converged, message="") -> str:
+    """Our own words for how a fit ended: ``"converged"``, or why not, without the solver
+    library's messages (they name its internals, not the user's problem)."""
+    if converged:
+        return "converged"
+    text = _LIBRARY_PART.sub("", str(message or "")).strip()
+    text = re.sub(r"^not converged:\s*", "", text)
+    if re.match(r"^the solver (stopped|failed)", text):
+        text = "the solver stopped before reaching the minimum (a parameter ran away or the " \
+               "model could not be evaluated)"
+    return "did not converge" + (f": {text}" if text else "")

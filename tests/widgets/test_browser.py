@@ -1,7 +1,10 @@
 """The panels in a real browser: JupyterLab on 127.0.0.1 driven by Debian's Chromium.
 
 Opens the quick-start notebook, runs all cells, waits for the bqplot SVG, presses
-"Find peaks" and "Fit lines" in the page and checks that the tables change.
+"Find peaks" and "Fit lines" in the page and checks that the tables change. Also,
+as a person would meet them: the baseline controls at a narrow width with the file
+browser open (nothing clipped), a click on a row of the peak table selecting the
+peak, the line table's headings, and the brush rectangle gone after Crop.
 Screenshots go to the test's tmp_path and to test-output/ in the repository.
 
 Needs the ``chromium`` executable on PATH (Debian: ``apt-get install chromium``)
@@ -123,6 +126,25 @@ def _rows(page, table: str) -> int:
     return page.locator(f"table.{table} tbody tr").count()
 
 
+def _peak_rows(page) -> int:
+    return page.locator(".wk-peaks select option").count()
+
+
+#: controls of the visible panel whose text does not fit (clipped labels) or that stick out
+#: past the app's right edge (the browser's own layout decides; nothing is assumed)
+_CLIPPED = """() => {
+    const app = document.querySelector('.wk-app').getBoundingClientRect();
+    const out = [];
+    for (const el of document.querySelectorAll('.wk-app .widget-label, .wk-app button')) {
+        if (!el.offsetParent) continue;
+        const r = el.getBoundingClientRect();
+        if (el.scrollWidth > el.clientWidth + 1 && el.classList.contains('widget-label'))
+            out.push('clipped: ' + el.textContent);
+        if (r.width > 0 && r.right > app.right + 1) out.push('outside: ' + el.textContent);
+    }
+    return out; }"""
+
+
 def test_the_quick_start_notebook_runs_and_its_buttons_change_the_tables(lab, tmp_path):
     chromium = _chromium()
     try:
@@ -152,6 +174,20 @@ def test_the_quick_start_notebook_runs_and_its_buttons_change_the_tables(lab, tm
             page.wait_for_selector(".bqplot svg path.line", timeout=90_000)
             _shot(page, tmp_path, "1-after-run-all")
 
+            # a small window with the file browser open beside the notebook: the ALS
+            # baseline controls wrap onto another line instead of being clipped
+            assert page.locator("#filebrowser:visible, .jp-FileBrowser:visible").count() > 0
+            page.set_viewport_size({"width": 1000, "height": 2600})
+            page.locator(".widget-dropdown", has_text="Baseline").locator("select").first \
+                .select_option(label="asymmetric least squares")
+            page.wait_for_selector(".wk-baseline-options .widget-hslider >> visible=true")
+            page.wait_for_timeout(500)
+            assert page.evaluate(_CLIPPED) == []
+            labels = page.locator(".wk-baseline-options .widget-label >> visible=true").all_inner_texts()
+            assert "smoothness λ" in labels and "asymmetry p" in labels
+            _shot(page, tmp_path, "1b-narrow-with-file-browser")
+            page.set_viewport_size({"width": 1400, "height": 2600})
+
             # brushing a region of the spectrum fills the crop fields (nothing is cropped yet)
             crop_from = page.locator(".widget-text:visible", has_text="from").locator("input").first
             before = crop_from.input_value()
@@ -165,20 +201,21 @@ def test_the_quick_start_notebook_runs_and_its_buttons_change_the_tables(lab, tm
             page.mouse.move(box["x"] + box["width"] * 0.6, y, steps=4)
             page.mouse.up()
             sync_api.expect(crop_from).not_to_have_value(before, timeout=20_000)
-            assert "press Crop" in page.locator(".wk-status-line:visible").first.inner_text()
+            sync_api.expect(page.locator(".wk-status-line:visible").first).to_contain_text(
+                "press Crop", timeout=20_000)
 
             page.locator(".widget-tab .lm-TabBar-tab", has_text="Peaks").first.click()
-            peaks_table = page.locator("table.wk-peaks").first
-            peaks_table.wait_for(state="visible")
-            assert "no peaks yet" in peaks_table.inner_text()
+            empty = page.locator(".wk-peaks-empty").first
+            empty.wait_for(state="visible")
+            assert "no peaks yet" in empty.inner_text()
             min_snr = page.locator(".widget-inline-hbox", has_text="min SNR").locator("input").first
             min_snr.fill("10")
             min_snr.press("Enter")
             page.locator("button.wk-find-peaks").first.click()
             page.wait_for_function(
-                "() => document.querySelectorAll('table.wk-peaks tbody tr').length > 3")
-            assert "no peaks yet" not in peaks_table.inner_text()
-            n_found = _rows(page, "wk-peaks")
+                "() => document.querySelectorAll('.wk-peaks select option').length > 3")
+            assert page.locator(".wk-peaks-empty").count() == 0
+            n_found = _peak_rows(page)
 
             # click on the plot (in the gap at the band origin): a peak is added at the
             # nearest maximum and selected; "Remove selected" takes it away again
@@ -187,17 +224,24 @@ def test_the_quick_start_notebook_runs_and_its_buttons_change_the_tables(lab, tm
             box = area.bounding_box()
             area.click(position={"x": box["width"] * 0.56, "y": box["height"] * 0.8})
             page.wait_for_function(
-                f"() => document.querySelectorAll('table.wk-peaks tbody tr').length > {n_found}")
-            assert "manual" in page.locator("table.wk-peaks tr.wk-selected").first.inner_text()
+                f"() => document.querySelectorAll('.wk-peaks select option').length > {n_found}")
+            sync_api.expect(page.locator(".wk-peaks select option:checked")).to_contain_text(
+                "manual", timeout=20_000)
             page.locator("button:visible", has_text="Remove selected").first.click()
             page.wait_for_function(
-                f"() => document.querySelectorAll('table.wk-peaks tbody tr').length == {n_found}")
-            assert "manual" not in peaks_table.inner_text()
+                f"() => document.querySelectorAll('.wk-peaks select option').length == {n_found}")
+            assert "manual" not in " ".join(page.locator(".wk-peaks select option").all_inner_texts())
             # click a marker: its row is selected
             page.locator("path.dot >> visible=true").nth(1).click()
             page.wait_for_function(
-                "() => document.querySelector('table.wk-peaks tr.wk-selected') !== null")
-            n_peaks = _rows(page, "wk-peaks")
+                "() => document.querySelector('.wk-peaks select option:checked') !== null")
+            # click a row of the table: that peak is selected (its id in the selection line)
+            row = page.locator(".wk-peaks select option").nth(4)
+            pid = row.inner_text().split()[0]
+            row.click()
+            sync_api.expect(page.locator(".widget-html:visible", has_text="peak ").filter(
+                has_text=f"peak {pid} at").first).to_be_visible(timeout=20_000)
+            n_peaks = _peak_rows(page)
             page.wait_for_timeout(500)
             _shot(page, tmp_path, "2-peaks-found")
 
@@ -213,6 +257,9 @@ def test_the_quick_start_notebook_runs_and_its_buttons_change_the_tables(lab, tm
             assert "no lines yet" not in text
             assert _rows(page, "wk-lines") == n_peaks  # one fitted line per peak
             assert re.search(r"\d\.\d+\(\d+\)", text)  # values with uncertainties
+            heads = lines_table.locator("th").all_inner_texts()
+            assert "Gaussian σ / cm⁻¹" in heads and "Lorentzian γ (HWHM) / cm⁻¹" in heads
+            assert "lmfit" not in page.locator(".wk-fit-summary").first.inner_text()
             page.wait_for_timeout(500)
             shot = _shot(page, tmp_path, "3-lines-fitted")
             assert shot.stat().st_size > 10_000
@@ -241,5 +288,23 @@ def test_the_quick_start_notebook_runs_and_its_buttons_change_the_tables(lab, tm
                             ).to_be_visible(timeout=20_000)
             _shot(page, tmp_path, "5-record")
             page.locator("button:visible", has_text="Latest").first.click()
+
+            # crop a brushed region: the brush rectangle goes with the old range
+            page.locator(".widget-tab .lm-TabBar-tab", has_text="Spectrum").first.click()
+            page.locator("button:visible", has_text="select region").first.click()
+            area = page.locator(".plotarea_events >> visible=true").first
+            box = area.bounding_box()
+            y = box["y"] + box["height"] * 0.5
+            page.mouse.move(box["x"] + box["width"] * 0.35, y)
+            page.mouse.down()
+            page.mouse.move(box["x"] + box["width"] * 0.65, y, steps=8)
+            page.mouse.up()
+            brush = page.locator(".wk-app .selection >> visible=true")
+            sync_api.expect(brush).to_have_count(1, timeout=20_000)
+            page.locator("button:visible", has_text="Crop").first.click()
+            sync_api.expect(page.locator(".wk-status-line:visible").first).to_contain_text(
+                "cropped to", timeout=20_000)
+            sync_api.expect(brush).to_have_count(0, timeout=20_000)
+            _shot(page, tmp_path, "6-cropped")
         finally:
             browser.close()

@@ -117,7 +117,11 @@ def test_assign_fills_the_assignment_and_constants_tables_and_both_plots(fitted)
     assert 0 not in m.astype(int)  # no line at m = 0 (the band-origin gap)
     assert panel.residual_points.y.size == len(a)
     assert panel.fortrat_calc.x.size == len(a)
-    assert "1H-35Cl" in panel.plot_legend.value and "outlier" in panel.plot_legend.value
+    # isotopologues as the trade writes them (the data keep the ASCII key)
+    assert "H³⁵Cl" in panel.plot_legend.value and "outlier" in panel.plot_legend.value
+    assert "1H-35Cl" not in panel.plot_legend.value and "1H-35Cl" in set(a["isotopologue"])
+    assert "<td>H³⁵Cl</td>" in html and "<td>H³⁵Cl</td>" in panel.constants_table.value
+    assert "cm-1" not in panel.constants_table.value and "<td>cm⁻¹</td>" in panel.constants_table.value
     assert "assign_band" in record.history_table.value
 
 

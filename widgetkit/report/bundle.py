@@ -27,10 +27,9 @@ from importlib import metadata
 from pathlib import Path
 
 from ..errors import WidgetkitError
-from ..formatting import plural
+from ..formatting import plural, summary_text
 from .data import ReportData, collect
 from .figures import report_figures
-from .methods import summary_text
 from .wheel import WheelInfo, build_wheel
 from .write import _file_mode, atomic_write, check_folder, write_report
 
@@ -105,7 +104,7 @@ def referee_readme(data: ReportData, files: dict[str, str], wheel: WheelInfo | N
     version = data.software.get("widgetkit", "unknown")
     src = data.sources[0] if data.sources else {}
     rows = "\n".join(f"| `{name}` | {_description(name)} |" for name in files)
-    steps = "\n".join(f"- step {s.number}: `{s.kind}`, {summary_text(s)}" for s in data.steps)
+    steps = "\n".join(f"- step {s.number}: `{s.kind}`, {summary_text(s.summary)}" for s in data.steps)
     software = ", ".join(f"{k} {v}" for k, v in data.software.items())
     python = data.software.get("python", "3")
     if wheel is not None:

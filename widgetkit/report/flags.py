@@ -17,7 +17,7 @@ import re
 
 import pandas as pd
 
-from ..formatting import display_isotopologue, format_value, plural, tidy_text
+from ..formatting import display_isotopologue, fit_verdict, format_value, plural, tidy_text
 
 __all__ = ["collect_flags", "parameter_label", "bound_parameters", "assignment_flags", "Flags",
            "known", "parameter_text"]
@@ -114,7 +114,8 @@ def _line_fit_flags(fit) -> tuple[list[str], set]:
     if fit is None:
         return items, cells
     if known(fit, "converged", True) is False:
-        items.append("The line fit did NOT converge: " + _rename(known(fit, "message", "")))
+        items.append("The line fit " + _rename(fit_verdict(False, known(fit, "message", "")))
+                     .replace("did not", "did NOT") + ".")
     for name, lid, col, v, err in bound_parameters(fit):
         if lid is not None:
             cells.add((lid, col))

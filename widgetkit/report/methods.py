@@ -23,11 +23,17 @@ import re
 import numpy as np
 import pandas as pd
 
-from ..formatting import article, display_isotopologue, format_value, plural, tidy_text
+from ..formatting import (
+    article,
+    display_isotopologue,
+    format_value,
+    plural,
+    summary_text,
+    tidy_text,
+)
 from .flags import known
 
-__all__ = ["describe_methods", "describe_step", "free_constants", "latest_constants",
-           "summary_text"]
+__all__ = ["describe_methods", "describe_step", "free_constants", "latest_constants"]
 
 _SHAPE_NAMES = {"gaussian": "Gaussian", "lorentzian": "Lorentzian", "voigt": "Voigt",
                 "pseudo_voigt": "pseudo-Voigt"}
@@ -79,19 +85,6 @@ def _source_sentence(session) -> str:
     return text
 
 
-_BASELINE_SUMMARY = re.compile(r"\bsubtracted a (als|poly) baseline")
-
-
-def summary_text(step) -> str:
-    """A step's recorded one-line summary as a report shows it (:func:`~widgetkit.formatting.
-    tidy_text`; "a als baseline" read as "an ALS baseline"). The record itself is unchanged:
-    ``verify`` compares it."""
-    text = _BASELINE_SUMMARY.sub(lambda m: "subtracted " + ("an ALS" if m[1] == "als" else
-                                                             "a polynomial") + " baseline",
-                                 str(step.summary))
-    return tidy_text(text)
-
-
 def describe_step(index: int, step) -> str:
     """One sentence for a processing step (the fits have paragraphs of their own)."""
     p, r = step.params, step.result or {}
@@ -138,7 +131,7 @@ def describe_step(index: int, step) -> str:
             f"line {lid} {_lock_text(lab)}" for lid, lab in locks.items()) + ".")
     if k == "clear_assignment":
         return f"Step {index} left line {p.get('line_id')} unassigned by hand (locked so)."
-    return f"Step {index} ({k}): {summary_text(step)}."
+    return f"Step {index} ({k}): {summary_text(step.summary)}."
 
 
 def _last(history, kinds) -> int | None:

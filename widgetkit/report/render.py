@@ -25,10 +25,9 @@ from dataclasses import dataclass, field
 
 import pandas as pd
 
-from ..formatting import plural, tidy_text
+from ..formatting import plural, summary_text, tidy_text
 from .cells import MISSING, cell_text, table_columns
 from .data import ReportData
-from .methods import summary_text
 
 __all__ = ["render_markdown", "report_blocks", "Block", "SECTION_TITLES", "NOTATION_NOTE",
            "verify_text"]
@@ -113,7 +112,7 @@ def report_blocks(data: ReportData, *, figures: Mapping | None = None) -> list[B
             Block("para", "Step 0 is the load; step i is the i-th change after it. Parameters "
                           "are shown exactly as recorded."),
             Block("table", head=_STEP_HEAD, code=(2,),
-                  items=[[str(s.number), s.kind, s.params_text, summary_text(s), s.at]
+                  items=[[str(s.number), s.kind, s.params_text, summary_text(s.summary), s.at]
                          for s in data.steps])]
     if figures:
         out.append(Block("figures", items=list(figures.items())))

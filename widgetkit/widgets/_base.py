@@ -7,19 +7,46 @@ in the status line instead of raising it. The session then notifies every
 subscribed panel (``Session.subscribe``, the one notification path, whose
 re-entrancy guard lives in the session) and each panel re-renders from the
 session in :meth:`Panel.render`.
+
+Busy indicator: while an action runs (:meth:`Panel.working`, used by every
+:meth:`Panel._call`), the status line shows what is being done with a turning
+mark, the panel's controls are disabled and the pointer shows progress. It is
+put up before the work starts, so anything that takes noticeable time (over
+half a second: fits, assignments, reading, reopening, verifying) shows it; a
+quick action replaces it with its result at once. A long computation may call
+the ``update(text)`` that :meth:`Panel.working` yields to show its progress.
+
+Status lines never go stale: after a change made elsewhere (another panel, a
+notebook cell), a step back or forward, an undo or a reopened session, every
+panel's status line says what the session now shows.
 """
 
 from __future__ import annotations
 
 import html
-from collections.abc import Callable
+import os
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from typing import Any
 
 import ipywidgets as ipw
 
 from ..errors import SessionStateError, WidgetkitError
+from ..formatting import plural, summary_text
 
-__all__ = ["Panel", "PlotPanel", "reverse_by_default", "status_html"]
+__all__ = ["Panel", "PlotPanel", "reverse_by_default", "status_html", "row", "BUSY_CSS"]
+
+#: spinner and progress cursor of the busy indicator (one style element, in every busy line)
+BUSY_CSS = ("<style>@keyframes wk-spin{to{transform:rotate(360deg)}}"
+            ".wk-spinner{display:inline-block;animation:wk-spin 1s linear infinite;"
+            "margin-right:0.4em}.wk-panel.wk-busy,.wk-panel.wk-busy *{cursor:progress}</style>")
+
+
+def row(*children: ipw.Widget, **layout) -> ipw.HBox:
+    """A row of controls that wraps onto a second line when the panel is narrow (a file
+    browser beside the notebook, a small window) instead of clipping its last controls."""
+    return ipw.HBox(list(children), layout=ipw.Layout(flex_flow="row wrap",
+                                                      align_items="center", **layout))
 
 _STATUS_STYLE = {
     "ok": "color:#1e6b30",
@@ -30,9 +57,11 @@ _STATUS_STYLE = {
 
 
 def status_html(kind: str, text: str) -> str:
-    """The status line's HTML: ``kind`` in ok, error, info, busy."""
+    """The status line's HTML: ``kind`` in ok, error, info, busy (with a turning mark)."""
+    mark = (BUSY_CSS + '<span class="wk-spinner" aria-hidden="true">◐</span>'
+            if kind == "busy" else "")
     return (f'<div class="wk-status wk-status-{kind}" style="{_STATUS_STYLE[kind]}">'
-            f"{html.escape(text)}</div>")
+            f"{mark}{html.escape(text)}</div>")
 
 
 class Panel(ipw.VBox):
@@ -64,6 +93,8 @@ class Panel(ipw.VBox):
         self._file_widgets: list[ipw.Widget] = []
         #: the error of the last action (None when it succeeded)
         self.last_error: Exception | None = None
+        #: True while an action of this panel runs (:meth:`working`)
+        self.busy = False
         self.status = ipw.HTML(status_html("info", ""), layout=ipw.Layout(min_height="1.6em"))
         self.status.add_class("wk-status-line")
         self._build()
@@ -77,31 +108,73 @@ class Panel(ipw.VBox):
 
     @session.setter
     def session(self, new) -> None:
-        if self._session is not None:
-            self._session.unsubscribe(self._on_session_change)
+        old = self._session
+        if old is not None:
+            old.unsubscribe(self._on_session_change)
         self._session = new
         if new is not None:
             new.subscribe(self._on_session_change)
         self._render_all()
+        if old is not None and new is not old:  # opened or reopened: nothing said before holds
+            self.show_status("info", self._session_text(new))
+
+    @staticmethod
+    def _session_text(s) -> str:
+        if s is None:
+            return "no session"
+        n = len(s.history)
+        where = f"reopened {os.path.basename(str(s.path))}: " if getattr(s, "path", None) else ""
+        return (f"{where}{plural(n, 'step')} (0–{n - 1}); showing step {s.viewing} "
+                f"({s.history[s.viewing].kind})")
 
     def _on_session_change(self, session, event) -> None:
         # the one path by which a panel learns of a change
         self._render_all()
+        if not self.busy:  # a panel's own action says how it went when it ends
+            self.show_status("info", self._event_text(session, event))
+
+    @staticmethod
+    def _view_text(s) -> str:
+        """Which state the session shows: the latest, or an earlier one (read-only)."""
+        n, i = len(s.history), s.viewing
+        if i == n - 1:
+            return f"showing the latest state (step {i}, {s.history[i].kind})"
+        return (f"showing the state after step {i} of {n - 1} ({s.history[i].kind}); the "
+                "analysis is read-only until you press Latest in the Record panel")
+
+    @staticmethod
+    def _event_text(s, event) -> str:
+        """What every panel's status line says after a change made elsewhere."""
+        n = len(s.history)
+        if event.kind == "view":
+            return Panel._view_text(s)
+        if event.kind == "undo":
+            gone = f" ({event.step.kind})" if event.step is not None else ""
+            return (f"undid step {n}{gone}; the latest is now step {n - 1} "
+                    f"({s.history[-1].kind})")
+        step = event.step
+        if step is None:
+            return ""
+        return f"step {event.index} ({step.kind}): {summary_text(step.summary)}"
 
     def _render_all(self) -> None:
         earlier = self._session is not None and self._session.viewing != len(
             self._session.history) - 1
         for w in self._action_widgets:
-            w.disabled = self._session is None or earlier or self.read_only
+            w.disabled = self._session is None or earlier or self.read_only or self.busy
         for w in self._file_widgets:
-            w.disabled = self.read_only
+            w.disabled = self.read_only or self.busy
         self.render()
 
-    def _use_session(self, new) -> None:
+    def _use_session(self, new, said: str | None = None) -> None:
+        """Show ``new`` in this panel (and every panel of the app); ``said`` is this panel's
+        own word on it (the other panels say what the new session holds)."""
         if self._owner is not None:
             self._owner.use_session(new)
         else:
             self.session = new
+        if said:
+            self.show_status("ok", said)
 
     def close(self) -> None:
         if self._session is not None:
@@ -129,13 +202,41 @@ class Panel(ipw.VBox):
     def show_status(self, kind: str, text: str) -> None:
         self.status.value = status_html(kind, text)
 
+    @contextmanager
+    def working(self, text: str) -> Iterator[Callable[[str], None]]:
+        """Show the busy indicator while the ``with`` block runs (see the module docstring).
+
+        Yields ``update(text)``, which shows progress in the status line. The panel's
+        controls are disabled meanwhile and restored afterwards, also when the block raises.
+        Nested use (an action inside another) keeps the outer indicator.
+        """
+        def update(message: str) -> None:
+            self.show_status("busy", message)
+
+        if self.busy:
+            yield update
+            return
+        self.busy = True
+        self.add_class("wk-busy")
+        update(text)
+        for w in (*self._action_widgets, *self._file_widgets):
+            w.disabled = True
+        try:
+            yield update
+        finally:
+            self.busy = False
+            self.remove_class("wk-busy")
+            self._render_all()
+
     def _call(self, what: str, fn: Callable | str, *args, ok: str | None = None,
-              catch: tuple[type[BaseException], ...] = (WidgetkitError,), **kwargs) -> Any:
+              catch: tuple[type[BaseException], ...] = (WidgetkitError,),
+              busy: str | None = None, **kwargs) -> Any:
         """Run a session method (given by name, or any callable); show its error, if any.
 
-        Returns the result, or None when a :class:`WidgetkitError` was raised
-        (the session is then unchanged; the message is in the status line).
-        File actions also pass ``catch=(WidgetkitError, OSError)`` (a missing file).
+        The busy indicator (:meth:`working`) says ``busy`` (default ``"<what>…"``)
+        while it runs. Returns the result, or None when a :class:`WidgetkitError`
+        was raised (the session is then unchanged; the message is in the status
+        line). File actions also pass ``catch=(WidgetkitError, OSError)`` (a missing file).
         """
         self.last_error = None
         if isinstance(fn, str):
@@ -147,7 +248,8 @@ class Panel(ipw.VBox):
                 self.show_status("error", f"{what}: {self.last_error}")
                 return None
         try:
-            result = fn(*args, **kwargs)
+            with self.working(busy or f"{what}…"):
+                result = fn(*args, **kwargs)
         except catch as exc:
             self.last_error = exc
             self.show_status("error", f"{what}: {exc}")

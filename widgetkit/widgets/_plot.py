@@ -31,8 +31,12 @@ MOUSE_MODES = ("zoom", "select", "click")
 #: decimated windows kept per curve (going back to the whole range is then free)
 CACHED_WINDOWS = 4
 
-COLORS = {"data": "#1f4e79", "baseline": "#d95f02", "model": "#c0392b", "component": "#7f8c8d",
-          "residual": "#444444", "peaks": "#e67e22", "selected": "#2ecc71", "region": "#8e44ad"}
+#: colours of the marks; the model (orange) and the outliers of the Levels panel (red,
+#: ``OUTLIER``) are told apart at a glance, also with the commonest colour-vision deficiencies
+#: (data blue and model orange are a pair of the Okabe–Ito palette, common practice)
+COLORS = {"data": "#1f4e79", "baseline": "#d95f02", "model": "#e69f00", "component": "#7f8c8d",
+          "residual": "#444444", "peaks": "#e67e22", "selected": "#2ecc71", "region": "#8e44ad",
+          "outlier": "#d7191c"}
 
 
 class _Curve:
@@ -211,6 +215,13 @@ class SpectrumFigure:
             raise ValueError(f"mouse mode must be one of {MOUSE_MODES}, got {mode!r}")
         self.mode = mode
         self.figure.interaction = {"zoom": self.panzoom, "select": self.brush, "click": None}[mode]
+
+    def clear_brush(self) -> None:
+        """Remove the brushed interval (its rectangle in the browser too), e.g. after a crop
+        made from it: the rectangle would otherwise stay over data that moved."""
+        with self.brush.hold_trait_notifications():
+            self.brush.selected = None
+        self.brush.reset()
 
     def on_brush(self, callback: Callable[[float, float], None]) -> None:
         """Call ``callback(lo, hi)`` (cm⁻¹, lo < hi) when a brushed interval is finished."""

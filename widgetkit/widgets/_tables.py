@@ -42,7 +42,8 @@ def _cell(v) -> str:
 
 def html_table(df: pd.DataFrame, *, name: str, columns: list[str] | None = None,
                headers: dict[str, str] | None = None, row_class=None, max_rows: int = 300,
-               empty: str = "no rows yet", formats: dict[str, str] | None = None) -> str:
+               empty: str = "no rows yet", formats: dict[str, str] | None = None,
+               converters: dict | None = None) -> str:
     """An HTML table of ``df``.
 
     A column ``c`` with a companion ``c_err`` (or ``stderr`` for ``value``) is
@@ -64,9 +65,13 @@ def html_table(df: pd.DataFrame, *, name: str, columns: list[str] | None = None,
         Rows shown; a final line says how many more there are.
     formats : dict, optional
         Format specs of columns without uncertainties (e.g. ``{"position": ".4f"}``).
+    converters : dict, optional
+        Column -> function of a cell value returning its text (e.g. isotopologue keys shown
+        as H³⁵Cl); missing values stay ``–``.
     """
     headers = headers or {}
     formats = formats or {}
+    converters = converters or {}
     cols = [c for c in (columns or list(df.columns)) if c in df.columns]
     err_of = {}
     for c in cols:
@@ -89,6 +94,8 @@ def html_table(df: pd.DataFrame, *, name: str, columns: list[str] | None = None,
                 text = format_uncertainty(v, None if err is None or pd.isna(err) else float(err))
             elif c in formats and isinstance(v, (int, float)) and not pd.isna(v):
                 text = format(v, formats[c])
+            elif c in converters and not (v is None or (isinstance(v, float) and pd.isna(v))):
+                text = str(converters[c](v))
             else:
                 text = _cell(v.item() if hasattr(v, "item") else v)
             cells.append(f"<td>{html.escape(text)}</td>")

@@ -10,7 +10,8 @@ import ipywidgets as ipw
 import numpy as np
 import pandas as pd
 
-from ._base import Panel
+from ..formatting import column_label, display_isotopologue, unicode_units
+from ._base import Panel, row
 from ._plot import COLORS
 from ._tables import html_table
 
@@ -21,8 +22,15 @@ KIND_CHOICES = [("rovibrational band (P/R lines)", "rovibrational"),
 ASSIGNMENT_COLUMNS = ["line_id", "position", "isotopologue", "label", "v_upper", "v_lower",
                       "J_upper", "J_lower", "calc", "obs_minus_calc", "outlier"]
 CONSTANT_COLUMNS = ["isotopologue", "name", "value", "stderr", "unit"]
-ISO_COLORS = ["#1f4e79", "#27ae60", "#8e44ad", "#d35400", "#16a085", "#7f8c8d"]  # no red
-OUTLIER_COLOR = "#e31a1c"
+#: one colour per isotopologue, none near the model's orange or the outliers' red
+ISO_COLORS = ["#1f4e79", "#009e73", "#cc79a7", "#56b4e9", "#7f8c8d", "#8e44ad"]
+OUTLIER_COLOR = COLORS["outlier"]
+#: how the tables show cells: isotopologue keys as the trade writes them, units as cm⁻¹
+CONVERTERS = {"isotopologue": display_isotopologue, "unit": unicode_units}
+HEADINGS = {c: column_label(c, unit=False) for c in ("line_id", "v_upper", "v_lower", "J_upper",
+                                                     "J_lower", "obs_minus_calc")}
+HEADINGS.update({"position": "position / cm⁻¹", "calc": "calc / cm⁻¹",
+                 "obs_minus_calc": "obs − calc / cm⁻¹"})
 
 
 def fortrat_m(J_upper, J_lower) -> np.ndarray:
@@ -110,14 +118,14 @@ class LevelsPanel(Panel):
         self.constants_table = ipw.HTML()
         self._actions(self.assign_button, self.lock_button, self.clear_button)
         self.children = [
-            ipw.HBox([self.molecule, self.kind, self.temperature, self.assign_button]),
+            row(self.molecule, self.kind, self.temperature, self.assign_button),
             self.status,
-            ipw.HBox([self.fortrat_fig, self.residual_fig]),
+            ipw.HBox([self.fortrat_fig, self.residual_fig]),  # two half-width plots share a line
             self.plot_legend,
             ipw.HTML("<b>Constants</b>"),
             self.constants_table,
-            ipw.HBox([self.edit_line, self.edit_label, self.edit_isotopologue, self.lock_button,
-                      self.clear_button]),
+            row(self.edit_line, self.edit_label, self.edit_isotopologue, self.lock_button,
+                self.clear_button),
             ipw.HTML("<b>Assignments</b> (outliers in red)"),
             self.assignment_table,
         ]
@@ -150,12 +158,12 @@ class LevelsPanel(Panel):
             a = a.assign(lock=["locked" if int(i) in locks else "" for i in a["line_id"]])
         self.assignment_table.value = html_table(
             a, name="assignments", columns=[*ASSIGNMENT_COLUMNS, "lock"],
-            headers={"obs_minus_calc": "obs − calc", "position": "position / cm⁻¹"},
-            formats={"obs_minus_calc": ".5f"},
+            headers=HEADINGS, formats={"obs_minus_calc": ".5f"}, converters=CONVERTERS,
             row_class=lambda r: "wk-outlier" if bool(r.get("outlier", False)) else "",
             empty="no assignment yet: fit lines, then press Assign")
         self.constants_table.value = html_table(s.constants, name="constants",
-                                                columns=CONSTANT_COLUMNS, empty="no constants yet")
+                                                columns=CONSTANT_COLUMNS, converters=CONVERTERS,
+                                                empty="no constants yet")
         if s.assignment is not self._shown_assignment:
             self._shown_assignment = s.assignment
             self._render_plots(a)
@@ -196,8 +204,9 @@ class LevelsPanel(Panel):
             self.residual_points.colors = [
                 OUTLIER_COLOR if bool(o) else c for o, c in zip(a["outlier"].tolist(), colors)]
         keys = sorted(set(isos))
-        items = [f'<span style="color:{ISO_COLORS[i % len(ISO_COLORS)]}">●</span> {html.escape(k)}'
-                 for i, k in enumerate(keys) if k]
+        items = [f'<span style="color:{ISO_COLORS[i % len(ISO_COLORS)]}">●</span> '
+                 f"{html.escape(display_isotopologue(k))}" for i, k in enumerate(keys) if k]
+        items.append(f'<span style="color:{COLORS["model"]}">━</span> calculated')
         items.append(f'<span style="color:{OUTLIER_COLOR}">●</span> outlier (obs − calc)')
         self.plot_legend.value = '<div class="wk-legend">' + " &nbsp; ".join(items) + "</div>"
 
@@ -211,7 +220,7 @@ class LevelsPanel(Panel):
     def _on_assign_click(self, _button) -> None:
         opts = self.assign_options()
         molecule = opts.pop("molecule")
-        self._call("assign", "assign_band", molecule, **opts)
+        self._call("assign", "assign_band", molecule, **opts, busy="assigning lines to levels…")
         if self.last_error is None:
             n = int(self.session.assignments["label"].notna().sum())
             self.show_status("ok", f"assigned {n} of {len(self.session.assignments)} lines")

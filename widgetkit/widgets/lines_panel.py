@@ -6,7 +6,8 @@ import html
 
 import ipywidgets as ipw
 
-from ._base import PlotPanel
+from ..formatting import column_label, fit_verdict, plural
+from ._base import PlotPanel, row
 from ._plot import COLORS, SpectrumFigure
 from ._tables import html_table
 from .numbers import format_value
@@ -22,16 +23,20 @@ LINE_COLUMNS = ["line_id", "position", "position_err", "area", "area_err", "heig
 
 _UNSET = object()
 
-HEADERS = {"position": "position / cm⁻¹", "fwhm": "fwhm / cm⁻¹", "sigma": "sigma / cm⁻¹",
-           "gamma": "gamma / cm⁻¹", "area": "area / (y·cm⁻¹)"}
+#: column headings in the trade's words (the data keep the one vocabulary: sigma, gamma)
+HEADERS = {"line_id": "line", "area": "area / (y·cm⁻¹)", "height": "height",
+           **{c: f"{column_label(c, unit=False)} / cm⁻¹"
+              for c in ("position", "fwhm", "sigma", "gamma")}}
+SHAPE_NAMES = dict((v, k) for k, v in SHAPE_CHOICES)
 
 
 class LinesPanel(PlotPanel):
     """Fit every peak (optionally inside a brushed region) with a line shape.
 
     The fit runs only when "Fit lines" is pressed (it may take seconds); the
-    button is disabled and says so while it runs. Under the spectrum: the
-    model, each line with the baseline, and the residuals ``y - model``.
+    button is disabled and says so while it runs, and the status line shows the
+    busy indicator. Under the spectrum: the model, each line with the baseline,
+    and the residuals ``y - model``.
     """
 
     title = "Lines"
@@ -39,7 +44,6 @@ class LinesPanel(PlotPanel):
     def __init__(self, session=None, *, reverse_x: bool | None = None, n_bins: int | None = None,
                  owner=None, read_only: bool = False, **kwargs):
         self._shown_fit = _UNSET
-        self.busy = False
         super().__init__(session, reverse_x=reverse_x, n_bins=n_bins, owner=owner,
                          read_only=read_only, **kwargs)
 
@@ -72,9 +76,9 @@ class LinesPanel(PlotPanel):
         self.table = ipw.HTML()
         self._actions(self.fit_button)
         self.children = [
-            ipw.HBox([self.shape, self.baseline, self.shared_width]),
-            ipw.HBox([self.use_region, self.region_lo, self.region_hi, self.fit_button]),
-            ipw.HBox([ipw.Label("mouse:"), self.mouse_mode, self.reset_zoom_button]),
+            row(self.shape, self.baseline, self.shared_width),
+            row(self.use_region, self.region_lo, self.region_hi, self.fit_button),
+            row(ipw.Label("mouse:"), self.mouse_mode, self.reset_zoom_button),
             *self.plot.widgets(),
             self.status,
             self.fit_summary,
@@ -109,17 +113,20 @@ class LinesPanel(PlotPanel):
 
     @staticmethod
     def _summary_html(fit) -> str:
+        """One line on the fit in our own words (never the solver library's messages)."""
         if fit is None:
             return ""
-        ok = "converged" if fit.converged else "NOT converged"
+        verdict = fit_verdict(fit.converged, getattr(fit, "message", ""))
         color = "#1e6b30" if fit.converged else "#b03a2e"
-        shape = fit.spec.get("shape", "") if isinstance(fit.spec, dict) else ""
-        return (f'<div class="wk-fit-summary"><span style="color:{color}"><b>{ok}</b></span> · '
-                f"{len(fit.table)} {html.escape(str(shape))} lines · reduced χ² "
-                f"{format_value(fit.redchi, 4)} · "
-                + ("reopened from the record · " if fit.nfev is None
-                   else f"{fit.nfev} evaluations · ") +
-                f"<span style='color:#777'>{html.escape(str(fit.message))[:200]}</span></div>")
+        spec = getattr(fit, "spec", None)
+        shape = spec.get("shape", "") if isinstance(spec, dict) else ""
+        lines = plural(len(fit.table), f"{SHAPE_NAMES.get(shape, shape)} line")
+        how = ("reopened from the record" if fit.nfev is None
+               else plural(int(fit.nfev), "model evaluation"))
+        return (f'<div class="wk-fit-summary"><span style="color:{color}"><b>'
+                f"{html.escape(verdict)}</b></span> · "
+                f"{html.escape(lines)} · reduced χ² {format_value(fit.redchi, 4)} · "
+                f"{html.escape(how)}</div>")
 
     # ------------------------------------------------------------------ actions
     def fit_options(self) -> dict:
@@ -133,22 +140,19 @@ class LinesPanel(PlotPanel):
     def _on_fit_click(self, _button) -> None:
         if self.busy:
             return
-        self.busy = True
-        self.fit_button.disabled = True
+        opts = self.fit_options()
+        n = len(self.session.peaks) if self.session is not None else 0
+        shape = SHAPE_NAMES.get(opts["shape"], opts["shape"])
         self.fit_button.description = "Fitting…"
         self.fit_button.icon = "hourglass-half"
-        opts = self.fit_options()
-        self.show_status("busy", f"fitting {opts['shape']} lines…")
         try:
-            self._call("fit lines", "fit_lines", **opts)
+            self._call("fit lines", "fit_lines", **opts, busy=f"fitting {plural(n, shape + ' line')}…")
         finally:
-            self.busy = False
             self.fit_button.description = "Fit lines"
             self.fit_button.icon = "line-chart"
-            self._render_all()
         if self.last_error is None:
             fit = self.session.line_fit
-            self.show_status("ok", f"fitted {len(fit.table)} lines, reduced χ² "
+            self.show_status("ok", f"fitted {plural(len(fit.table), 'line')}, reduced χ² "
                                    f"{format_value(fit.redchi, 4)}")
 
     def _on_brush(self, lo: float, hi: float) -> None:

@@ -2,15 +2,51 @@
 
 from __future__ import annotations
 
+import html
+import math
+
 import bqplot as bq
 import ipywidgets as ipw
 import numpy as np
+import pandas as pd
 
-from ._base import PlotPanel
+from ..formatting import plural
+from ._base import PlotPanel, row
 from ._plot import COLORS, SpectrumFigure
-from ._tables import html_table
 
-__all__ = ["PeaksPanel"]
+__all__ = ["PeaksPanel", "peak_rows"]
+
+#: the peak table's columns: name, heading, width (characters), format
+PEAK_COLUMNS = (("peak_id", "peak", 5, "d"), ("position", "position / cm⁻¹", 15, ".4f"),
+                ("height", "height", 10, ".4g"), ("snr", "SNR", 7, ".1f"),
+                ("origin", "found by", 9, "s"))
+_NBSP = "\u00a0"  # spaces a browser keeps inside a list entry
+_LIST_CSS = ("<style>.wk-peaks select, .wk-peaks-head{font-family:ui-monospace,monospace;"
+             "font-size:12px} .wk-peaks-head{white-space:pre;padding:0 5px;"
+             "background:#f3f3f3;border-bottom:1px solid #ddd}</style>")
+
+
+def _cell(value, width: int, fmt: str, left: bool) -> str:
+    if value is None or (isinstance(value, float) and math.isnan(value)) or value is pd.NA:
+        text = "–"
+    else:
+        try:
+            text = format(int(value) if fmt == "d" else value, fmt)
+        except (TypeError, ValueError):
+            text = str(value)
+    return text.ljust(width) if left else text.rjust(width)
+
+
+def peak_rows(peaks: pd.DataFrame) -> tuple[str, list[tuple[str, int]]]:
+    """The peak table as a heading and one entry per peak (text, peak_id), in fixed-width
+    columns, for the clickable list of the Peaks panel."""
+    cols = [c for c in PEAK_COLUMNS if c[0] in peaks.columns]
+    head = "  ".join(h.ljust(w) if n == "origin" else h.rjust(w) for n, h, w, _ in cols)
+    rows = []
+    for rec in peaks.to_dict("records"):
+        text = "  ".join(_cell(rec.get(n), w, f, n == "origin") for n, _, w, f in cols)
+        rows.append((text.replace(" ", _NBSP), int(rec["peak_id"])))
+    return head, rows
 
 
 class PeaksPanel(PlotPanel):
@@ -27,6 +63,7 @@ class PeaksPanel(PlotPanel):
                  owner=None, read_only: bool = False, **kwargs):
         self._shown_ids: list[int] = []
         self._shown_x = np.zeros(0)
+        self._filling_list = False
         self.selected_peak: int | None = None
         super().__init__(session, reverse_x=reverse_x, n_bins=n_bins, owner=owner,
                          read_only=read_only, **kwargs)
@@ -69,15 +106,20 @@ class PeaksPanel(PlotPanel):
         self.selected_label = ipw.HTML("no peak selected")
         self.remove_button = ipw.Button(description="Remove selected", icon="trash")
         self.remove_button.on_click(self._on_remove_click)
+        # the peak table: a list whose rows are clicked to select a peak (as its marker is)
         self.table = ipw.HTML()
+        self.peak_list = ipw.Select(options=[], rows=3, layout=ipw.Layout(width="auto"))
+        self.peak_list.add_class("wk-peaks")
+        self.peak_list.observe(self._on_peak_list_change, names=["value"])
         self._actions(self.find_button, self.add_button, self.remove_button)
         self.children = [
-            ipw.HBox([self.min_snr, self.min_separation, self.find_button]),
-            ipw.HBox([ipw.Label("mouse:"), self.mouse_mode, self.reset_zoom_button]),
+            row(self.min_snr, self.min_separation, self.find_button),
+            row(ipw.Label("mouse:"), self.mouse_mode, self.reset_zoom_button),
             *self.plot.widgets(),
-            ipw.HBox([self.add_position, self.add_button, self.selected_label, self.remove_button]),
+            row(self.add_position, self.add_button, self.selected_label, self.remove_button),
             self.status,
             self.table,
+            self.peak_list,
         ]
 
     # ------------------------------------------------------------------ rendering
@@ -96,13 +138,20 @@ class PeaksPanel(PlotPanel):
         if self.selected_peak not in ids:
             self.selected_peak = None
         self._set_markers(ids, peaks["position"].to_numpy(float), peaks["height"].to_numpy(float))
+        head, rows = peak_rows(peaks)
+        if not rows:
+            self.table.value = _LIST_CSS + '<div class="wk-peaks-empty">no peaks yet: press Find peaks</div>'
+        else:
+            self.table.value = (_LIST_CSS + f'<div class="wk-peaks-head">{html.escape(head)}</div>')
+        self._filling_list = True  # new options reset the list's value: not a user's click
+        try:
+            if list(self.peak_list.options) != rows:
+                self.peak_list.options = rows
+            self.peak_list.rows = max(3, min(len(rows), 15))
+            self.peak_list.layout.display = "" if rows else "none"
+        finally:
+            self._filling_list = False
         self._render_selection()
-        cols = [c for c in ("peak_id", "position", "height", "snr", "origin") if c in peaks]
-        self.table.value = html_table(
-            peaks, name="peaks", columns=cols, empty="no peaks yet: press Find peaks",
-            headers={"position": "position / cm⁻¹"},
-            formats={"position": ".4f", "height": ".4g", "snr": ".1f"},
-            row_class=lambda r: "wk-selected" if int(r["peak_id"]) == self.selected_peak else "")
 
     def _set_markers(self, ids: list[int], x: np.ndarray, y: np.ndarray) -> None:
         self._shown_ids = list(ids)
@@ -112,6 +161,8 @@ class PeaksPanel(PlotPanel):
             self.markers.y = np.asarray(y, dtype=float)
 
     def _render_selection(self) -> None:
+        if self.peak_list.value != self.selected_peak:
+            self.peak_list.value = self.selected_peak
         if self.selected_peak is None:
             self.markers.selected = None
             self.selected_label.value = "no peak selected"
@@ -125,9 +176,9 @@ class PeaksPanel(PlotPanel):
     def _on_find_click(self, _button) -> None:
         sep = float(self.min_separation.value)
         self._call("find peaks", "find_peaks", min_snr=float(self.min_snr.value),
-                   min_separation=sep if sep > 0 else None)
+                   min_separation=sep if sep > 0 else None, busy="finding peaks…")
         if self.last_error is None:
-            self.show_status("ok", f"found {len(self.session.peaks)} peaks")
+            self.show_status("ok", f"found {plural(len(self.session.peaks), 'peak')}")
 
     def add_peak_at(self, x: float) -> int | None:
         """Add a peak near ``x`` (snapped to the nearest local maximum); its id or None."""
@@ -158,6 +209,15 @@ class PeaksPanel(PlotPanel):
         if self.add_peak_at(x) is None:
             # refused (outside the data, or a read-only view): show the session's peaks again
             self.render()
+
+    def _on_peak_list_change(self, change) -> None:
+        # a click on a row of the peak table selects that peak, as a click on its marker does
+        new = change["new"]
+        if self._filling_list or new == self.selected_peak or (
+                new is not None and new not in self._shown_ids):
+            return
+        self.selected_peak = new
+        self._render_selection()
 
     def _on_marker_click(self, _mark, content: dict) -> None:
         data = content.get("data") or {}

@@ -10,7 +10,8 @@ import os
 import ipywidgets as ipw
 
 from ..errors import WidgetkitError
-from ._base import Panel
+from ..formatting import plural, summary_text
+from ._base import Panel, row
 from ._tables import TABLE_CSS
 
 __all__ = ["RecordPanel"]
@@ -62,12 +63,11 @@ class RecordPanel(Panel):
         self._actions(self.undo_button, self.note_button)
         self._file_actions(self.save_button, self.open_button)
         self.children = [
-            ipw.HBox([self.back_button, self.forward_button, self.latest_button,
-                      self.step_slider]),
+            row(self.back_button, self.forward_button, self.latest_button, self.step_slider),
             self.status,
             self.history_table,
-            ipw.HBox([self.note_text, self.note_button, self.undo_button]),
-            ipw.HBox([self.save_path, self.save_button, self.open_button, self.verify_button]),
+            row(self.note_text, self.note_button, self.undo_button),
+            row(self.save_path, self.save_button, self.open_button, self.verify_button),
             self.verify_report,
         ]
 
@@ -89,7 +89,8 @@ class RecordPanel(Panel):
             rows.append(f'<tr class="{cls}"><td>{i}</td><td>{html.escape(at)}</td>'
                         f"<td>{html.escape(st.kind)}</td>"
                         f'<td style="text-align:left">{html.escape(_params_text(st.params))}</td>'
-                        f'<td style="text-align:left">{html.escape(st.summary)}</td></tr>')
+                        f'<td style="text-align:left">{html.escape(summary_text(st.summary))}'
+                        "</td></tr>")
         self.history_table.value = (
             TABLE_CSS + '<table class="wk-table wk-history"><thead><tr><th>step</th>'
             "<th>time (UTC)</th><th>kind</th><th>parameters</th><th>summary</th></tr></thead>"
@@ -101,18 +102,11 @@ class RecordPanel(Panel):
         self.back_button.disabled = current <= 0
         self.forward_button.disabled = current >= n - 1
         self.latest_button.disabled = current >= n - 1
-        if current != n - 1:
-            self._show_viewing_status()
 
-    def _show_viewing_status(self) -> None:
-        s = self.session
-        n, current = len(s.history), s.viewing
-        if current == n - 1:
-            self.show_status("ok", f"showing the latest state (step {current})")
-        else:
-            self.show_status("info", f"showing the state after step {current} of {n - 1} "
-                                     f"({s.history[current].kind}); the analysis is read-only "
-                                     "until you press Latest")
+    def _on_session_change(self, session, event) -> None:
+        super()._on_session_change(session, event)
+        if event.kind in ("step", "undo"):  # the last verification was of another record
+            self.verify_report.value = ""
 
     # ------------------------------------------------------------------ actions
     def _go(self, index: int) -> None:
@@ -121,9 +115,9 @@ class RecordPanel(Panel):
         n = len(self.session.history)
         i = index + n if index < 0 else index
         if 0 <= i < n and i != self.session.viewing:
-            self._call("step", "view", i)
+            self._call("step", "view", i, busy=f"showing step {i}…")
             if self.last_error is None:
-                self._show_viewing_status()
+                self.show_status("info", self._view_text(self.session))
 
     def _on_step_slider_change(self, change) -> None:
         if self.session is not None and change["new"] != self.session.viewing:
@@ -143,8 +137,8 @@ class RecordPanel(Panel):
         if not path:
             self.show_status("error", "save: type a file name first")
             return
-        self._call("save", "save", path, catch=(WidgetkitError, OSError),
-                   ok=f"saved {len(self.session.history)} steps to {path}"
+        self._call("save", "save", path, catch=(WidgetkitError, OSError), busy=f"saving {path}…",
+                   ok=f"saved {plural(len(self.session.history), 'step')} to {path}"
                    if self.session is not None else "")
 
     def _on_open_click(self, _button) -> None:
@@ -152,20 +146,22 @@ class RecordPanel(Panel):
 
         path = os.path.expanduser(self.save_path.value.strip())
         new = self._call("reopen", Session.load, path, ok=f"reopened {path}",
-                         catch=(WidgetkitError, OSError))
+                         catch=(WidgetkitError, OSError), busy=f"reopening {path}…")
         if new is not None:
-            self._use_session(new)
             self.verify_report.value = ""
+            self._use_session(new, said=f"reopened {path}: {plural(len(new.history), 'step')}; "
+                                        "press Verify to replay them")
 
     def _on_verify_click(self, _button) -> None:
-        report = self._call("verify", "verify")
+        n = len(self.session.history) if self.session is not None else 0
+        report = self._call("verify", "verify", busy=f"replaying {plural(n, 'step')}…")
         if report is None:
             return
         if report.ok:
-            self.show_status("ok", f"verified: {report.steps_checked} steps replay to the "
-                                   "recorded results")
+            self.show_status("ok", f"verified: {plural(report.steps_checked, 'step')} replay to "
+                                   "the recorded results")
             self.verify_report.value = '<div class="wk-verify wk-verify-ok">✔ all steps replay</div>'
         else:
             items = "".join(f"<li>{html.escape(m)}</li>" for m in report.mismatches[:50])
-            self.show_status("error", f"verify: {len(report.mismatches)} mismatch(es)")
+            self.show_status("error", f"verify: {plural(len(report.mismatches), 'mismatch', 'mismatches')}")
             self.verify_report.value = f'<div class="wk-verify wk-verify-bad"><ul>{items}</ul></div>'

@@ -11,7 +11,8 @@ import numpy as np
 
 from .. import processing
 from ..errors import WidgetkitError
-from ._base import PlotPanel
+from ..formatting import article, unicode_units
+from ._base import PlotPanel, row
 from ._plot import COLORS, SpectrumFigure
 
 __all__ = ["SpectrumPanel"]
@@ -22,17 +23,51 @@ UPLOAD_SUFFIXES = ".csv,.txt,.tsv,.dat,.jdx,.dx,.jcamp"
 LIVE_PREVIEW_LIMIT = 200_000
 
 
+#: labels of a file worth showing: typed keys the readers set, and standard JCAMP-DX labels
+#: (normalised: lower case, no spaces or punctuation) -> what the metadata line calls them
+_TYPED = (("technique", "technique"), ("sample_state", "sample"))
+_FILE_LABELS = (("origin", "origin"), ("owner", "owner"), ("date", "date"), ("longdate", "date"),
+                ("spectrometerdatasystem", "instrument"), ("instrumentparameters", "settings"),
+                ("pathlength", "path length"), ("pressure", "pressure"),
+                ("temperature", "temperature"))
+_BASELINE_NAMES = {"poly": "polynomial", "als": "ALS"}
+
+
 def _short(value, limit: int = 80) -> str:
-    """A file label for display: scalars as text, containers by their size or keys only
-    (metadata may hold whole arrays)."""
-    if isinstance(value, dict):
-        inner = value.get("function") if isinstance(value.get("function"), str) else None
-        keys = ", ".join(str(k) for k in list(value)[:6])
-        return inner or "{" + keys + ("…" if len(value) > 6 else "") + "}"
-    if isinstance(value, (list, tuple)):
-        return f"[{len(value)} values]"
-    text = str(value)
+    text = " ".join(str(value).split())
     return text if len(text) <= limit else text[: limit - 1] + "…"
+
+
+def readable_metadata(meta: dict) -> list[tuple[str, str]]:
+    """What a person wants to know of a spectrum file, as (label, text) pairs: title, what
+    the file says of the sample and instrument, resolution, conversions made on reading and
+    the reader's warnings; never the reader's own bookkeeping keys."""
+    meta = meta or {}
+    out = []
+    if meta.get("title"):
+        out.append(("title", _short(meta["title"])))
+    for key, label in _TYPED:
+        if meta.get(key):
+            out.append((label, str(meta[key])))
+    if isinstance(meta.get("resolution"), (int, float)):
+        out.append(("resolution", f"{meta['resolution']:g} cm⁻¹"))
+    if meta.get("x_axis") == "raman_shift":
+        out.append(("x", "Raman shift"))
+    if meta.get("x_converted"):
+        out.append(("x in the file", unicode_units(str(meta["x_converted"]).replace("->", "→"))))
+    if meta.get("transmittance_percent"):
+        out.append(("y in the file", "percent transmittance (divided by 100)"))
+    jc = meta.get("jcamp") if isinstance(meta.get("jcamp"), dict) else {}
+    seen = {label for label, _ in out}
+    for key, label in _FILE_LABELS:
+        if jc.get(key) and label not in seen:
+            out.append((label, _short(jc[key], 60)))
+            seen.add(label)
+    warnings = meta.get("warnings") or []
+    if warnings:
+        out.append(("⚠ reader", f"{len(warnings)} warning{'s' if len(warnings) != 1 else ''}: "
+                    + _short(warnings[0], 120)))
+    return out
 
 
 class SpectrumPanel(PlotPanel):
@@ -103,12 +138,17 @@ class SpectrumPanel(PlotPanel):
         self.baseline_degree = ipw.BoundedIntText(value=3, min=0, max=15, description="degree",
                                                   continuous_update=False,
                                                   layout=ipw.Layout(width="180px"))
+        # descriptions in full ("initial" width) and sliders that keep a usable length: the
+        # row wraps instead of clipping them when a file browser narrows the notebook
+        wide = {"description_width": "initial"}
         self.baseline_lam = ipw.FloatLogSlider(value=1e6, base=10, min=2, max=11,
-                                               description="smoothness λ",
-                                               continuous_update=False, readout_format=".1e")
+                                               description="smoothness λ", style=wide,
+                                               continuous_update=False, readout_format=".1e",
+                                               layout=ipw.Layout(width="330px", min_width="260px"))
         self.baseline_p = ipw.FloatLogSlider(value=0.01, base=10, min=-4, max=-0.5,
-                                             description="asymmetry p",
-                                             continuous_update=False, readout_format=".3f")
+                                             description="asymmetry p", style=wide,
+                                             continuous_update=False, readout_format=".3f",
+                                             layout=ipw.Layout(width="320px", min_width="250px"))
         self.baseline_preview = ipw.Checkbox(value=True, description="preview", indent=False)
         self.subtract_button = ipw.Button(description="Subtract baseline", icon="minus",
                                           button_style="primary", layout=ipw.Layout(width="170px"))
@@ -119,16 +159,17 @@ class SpectrumPanel(PlotPanel):
 
         self._actions(self.crop_button, self.absorbance_button, self.subtract_button)
         self._file_actions(self.open_button, self.upload)
-        self.baseline_box = ipw.VBox()
+        self.baseline_box = row()
+        self.baseline_box.add_class("wk-baseline-options")
         self.children = [
-            ipw.HBox([self.path_text, self.open_button, self.upload]),
+            row(self.path_text, self.open_button, self.upload),
             self.meta_html,
-            ipw.HBox([ipw.Label("mouse:"), self.mouse_mode, self.reset_zoom_button, self.high_to_low]),
+            row(ipw.Label("mouse:"), self.mouse_mode, self.reset_zoom_button, self.high_to_low),
             *self.plot.widgets(),
-            ipw.HBox([ipw.Label("Crop:"), self.crop_lo, self.crop_hi, self.crop_button,
-                      self.absorbance_button]),
-            ipw.HBox([self.baseline_method, self.baseline_box, self.baseline_preview,
-                      self.subtract_button]),
+            row(ipw.Label("Crop:"), self.crop_lo, self.crop_hi, self.crop_button,
+                self.absorbance_button),
+            row(self.baseline_method, self.baseline_box, self.baseline_preview,
+                self.subtract_button),
             self.status,
         ]
         self._show_baseline_options()
@@ -169,8 +210,7 @@ class SpectrumPanel(PlotPanel):
             items.append(("format", str(src["format"])))
         if src.get("sha256"):
             items.append(("sha256", str(src["sha256"])[:12] + "…"))
-        for k, v in list(s.source_spectrum.meta.items())[:12]:
-            items.append((str(k), _short(v)))
+        items += readable_metadata(s.source_spectrum.meta)
         cells = " · ".join(f"<b>{html.escape(k)}</b> {html.escape(v)}" for k, v in items)
         return f'<div class="wk-meta" style="font-size:12px">{cells}</div>'
 
@@ -221,12 +261,15 @@ class SpectrumPanel(PlotPanel):
     # ------------------------------------------------------------------ actions
     def _on_subtract_click(self, _button) -> None:
         method, opts = self._baseline_opts()
+        name = article(_BASELINE_NAMES.get(method, method) + " baseline")
         self._call("subtract baseline", "subtract_baseline", method, **opts,
-                   ok=f"subtracted a {method} baseline")
+                   ok=f"subtracted {name}", busy=f"subtracting {name}…")
 
     def _on_crop_click(self, _button) -> None:
         lo, hi = sorted((float(self.crop_lo.value), float(self.crop_hi.value)))
         self._call("crop", "crop", lo, hi, ok=f"cropped to {lo:.6g}–{hi:.6g} cm⁻¹")
+        if self.last_error is None:
+            self.plot.clear_brush()  # the rectangle marked a region of the data before the crop
 
     def _on_absorbance_click(self, _button) -> None:
         self._call("to absorbance", "to_absorbance", ok="converted to absorbance, A = −log10 T")
@@ -248,10 +291,11 @@ class SpectrumPanel(PlotPanel):
     def _open(self, path: str) -> None:
         from ..session import Session
 
-        new = self._call("open", Session.from_file, path, ok=f"opened {os.path.basename(path)}",
-                         catch=(WidgetkitError, OSError))
+        name = os.path.basename(path)
+        new = self._call("open", Session.from_file, path, ok=f"opened {name}",
+                         catch=(WidgetkitError, OSError), busy=f"reading {name}…")
         if new is not None:
-            self._use_session(new)
+            self._use_session(new, said=f"opened {name}: {new.spectrum.x.size} points")
 
     def _on_open_click(self, _button) -> None:
         path = self.path_text.value.strip()
