@@ -66,6 +66,11 @@ def test_the_referee_readme_installs_the_shipped_wheel_not_a_registry_version(bu
     pins = [ln for ln in reqs.splitlines() if not ln.startswith("#")]
     assert f"numpy=={np.__version__}" in pins                 # the version the steps recorded
     assert not any(ln.startswith(("widgetkit", "python")) for ln in pins)  # the wheel is widgetkit
+    # every dependency of the package is pinned, once (pyproject.toml's list)
+    from widgetkit.report.wheel import dependency_names
+
+    names = [ln.split("==")[0].lower() for ln in pins]
+    assert sorted(names) == sorted({d.lower() for d in dependency_names()}) and "lmfit" in names
 
 
 def test_the_wheel_holds_the_running_code_and_is_reproducible(tmp_path):

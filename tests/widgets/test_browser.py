@@ -126,6 +126,19 @@ def _rows(page, table: str) -> int:
     return page.locator(f"table.{table} tbody tr").count()
 
 
+def _brush(page, start: float, end: float) -> None:
+    """Drag across the visible plot from ``start`` to ``end`` (fractions of its width) in the
+    "select region" mouse mode, as a person brushes a region."""
+    page.locator("button:visible", has_text="select region").first.click()
+    box = page.locator(".plotarea_events >> visible=true").first.bounding_box()
+    y = box["y"] + box["height"] * 0.5
+    page.mouse.move(box["x"] + box["width"] * start, y)
+    page.mouse.down()
+    page.mouse.move(box["x"] + box["width"] * (start + end) / 2, y, steps=8)
+    page.mouse.move(box["x"] + box["width"] * end, y, steps=4)
+    page.mouse.up()
+
+
 def _peak_rows(page) -> int:
     return page.locator(".wk-peaks select option").count()
 
@@ -191,15 +204,7 @@ def test_the_quick_start_notebook_runs_and_its_buttons_change_the_tables(lab, tm
             # brushing a region of the spectrum fills the crop fields (nothing is cropped yet)
             crop_from = page.locator(".widget-text:visible", has_text="from").locator("input").first
             before = crop_from.input_value()
-            page.locator("button:visible", has_text="select region").first.click()
-            area = page.locator(".plotarea_events >> visible=true").first
-            box = area.bounding_box()
-            y = box["y"] + box["height"] * 0.5
-            page.mouse.move(box["x"] + box["width"] * 0.3, y)
-            page.mouse.down()
-            page.mouse.move(box["x"] + box["width"] * 0.5, y, steps=8)
-            page.mouse.move(box["x"] + box["width"] * 0.6, y, steps=4)
-            page.mouse.up()
+            _brush(page, 0.3, 0.6)
             sync_api.expect(crop_from).not_to_have_value(before, timeout=20_000)
             sync_api.expect(page.locator(".wk-status-line:visible").first).to_contain_text(
                 "press Crop", timeout=20_000)
@@ -291,14 +296,7 @@ def test_the_quick_start_notebook_runs_and_its_buttons_change_the_tables(lab, tm
 
             # crop a brushed region: the brush rectangle goes with the old range
             page.locator(".widget-tab .lm-TabBar-tab", has_text="Spectrum").first.click()
-            page.locator("button:visible", has_text="select region").first.click()
-            area = page.locator(".plotarea_events >> visible=true").first
-            box = area.bounding_box()
-            y = box["y"] + box["height"] * 0.5
-            page.mouse.move(box["x"] + box["width"] * 0.35, y)
-            page.mouse.down()
-            page.mouse.move(box["x"] + box["width"] * 0.65, y, steps=8)
-            page.mouse.up()
+            _brush(page, 0.35, 0.65)
             brush = page.locator(".wk-app .selection >> visible=true")
             sync_api.expect(brush).to_have_count(1, timeout=20_000)
             page.locator("button:visible", has_text="Crop").first.click()

@@ -30,7 +30,7 @@ from ..errors import WidgetkitError
 from ..formatting import plural, summary_text
 from .data import ReportData, collect
 from .figures import report_figures
-from .wheel import WheelInfo, build_wheel
+from .wheel import WheelInfo, build_wheel, dependency_names
 from .write import _file_mode, atomic_write, check_folder, write_report
 
 __all__ = ["Bundle", "BundleExistsError", "write_bundle", "referee_readme", "check_bundle_folder"]
@@ -47,9 +47,6 @@ _DESCRIPTIONS = {
     "spectrum_source.csv": "the raw spectrum as loaded, comma-separated text (exact values)",
     "software/requirements.txt": "the dependency versions to install with the wheel",
 }
-#: dependencies whose versions the session does not record: pinned as installed at bundle time
-_OTHER_DEPENDENCIES = ("ipywidgets", "bqplot", "jsonschema", "periodictable", "matplotlib",
-                       "threadpoolctl")
 
 
 class BundleExistsError(WidgetkitError, FileExistsError):
@@ -91,7 +88,10 @@ def _requirements(data: ReportData) -> str:
     lines += [f"{k}=={v}" for k, v in data.software.items()
               if k not in ("python", "widgetkit") and v not in ("", "unknown")]
     lines.append("# the other dependencies, as installed when the bundle was written")
-    for pkg in _OTHER_DEPENDENCIES:
+    recorded = {k.lower() for k in data.software}
+    for pkg in dependency_names():
+        if pkg.lower() in recorded:
+            continue
         try:
             lines.append(f"{pkg}=={metadata.version(pkg)}")
         except metadata.PackageNotFoundError:

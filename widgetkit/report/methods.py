@@ -181,12 +181,21 @@ def _degrees_of_freedom(fit) -> int | None:
     return int(round(nu)) if math.isfinite(nu) and nu > 0 else None
 
 
+def _latest(session, result, kind: str):
+    """(step index, its parameters) of the last ``kind`` step when the state holds its
+    ``result``; None when it does not (never run, or cleared by a later step)."""
+    i = _last(session.history, (kind,))
+    if result is None or i is None:
+        return None
+    return i, session.history[i].params
+
+
 def _line_fit_paragraph(session, state) -> str | None:
     fit = state.line_fit
-    i = _last(session.history, ("fit_lines",))
-    if fit is None or i is None:
+    found = _latest(session, fit, "fit_lines")
+    if found is None:
         return None
-    p = session.history[i].params
+    i, p = found
     spec = known(fit, "spec") if isinstance(known(fit, "spec"), dict) else {}
     shape = spec.get("shape", p.get("shape", "voigt"))
     widths = {"gaussian": ["sigma"], "lorentzian": ["gamma"]}.get(shape, ["sigma", "gamma"])
@@ -281,10 +290,10 @@ def _chi2_text(a: pd.DataFrame, iso: str, n_free: int) -> str | None:
 
 def _assignment_paragraph(session, state) -> str | None:
     asg = state.assignment
-    i = _last(session.history, ("assign_band",))
-    if asg is None or i is None:
+    found = _latest(session, asg, "assign_band")
+    if found is None:
         return None
-    p = session.history[i].params
+    i, p = found
     kind = p.get("kind", "rovibrational")
     a = asg.assignments
     free = free_constants(asg)

@@ -18,13 +18,14 @@ from __future__ import annotations
 import base64
 import hashlib
 import io
+import re
 import subprocess
 import zipfile
 from dataclasses import dataclass
 from importlib import metadata
 from pathlib import Path
 
-__all__ = ["WheelInfo", "build_wheel", "package_files"]
+__all__ = ["WheelInfo", "build_wheel", "package_files", "dependency_names"]
 
 _EPOCH = (1980, 1, 1, 0, 0, 0)  # the earliest time a zip entry can hold: reproducible bytes
 _WHEEL = ("Wheel-Version: 1.0\nGenerator: widgetkit (report bundle)\nRoot-Is-Purelib: true\n"
@@ -106,6 +107,26 @@ def _from_installed(version: str) -> tuple[str, str | None] | None:
     return (text, licence) if text else None
 
 
+def _metadata(version: str) -> tuple[str, str | None]:
+    """(METADATA text, licence text) of the running widgetkit (see the module docstring)."""
+    return (_from_pyproject(_package_dir().parent) or _from_installed(version)
+            or (f"Metadata-Version: 2.1\nName: widgetkit\nVersion: {version}\n", None))
+
+
+def dependency_names() -> list[str]:
+    """The names of the packages the running widgetkit requires (its ``Requires-Dist``
+    without extras), in the order its metadata lists them."""
+    import widgetkit
+
+    out = []
+    for line in _metadata(widgetkit.__version__)[0].splitlines():
+        if line.startswith("Requires-Dist:") and "extra ==" not in line:
+            m = re.match(r"\s*([A-Za-z0-9][A-Za-z0-9._-]*)", line.split(":", 1)[1])
+            if m:
+                out.append(m[1])
+    return out
+
+
 def _git_origin(checkout: Path) -> str:
     if not (checkout / ".git").exists():
         return ""
@@ -146,8 +167,7 @@ def build_wheel(folder) -> WheelInfo:
     version = widgetkit.__version__
     root = _package_dir()
     checkout = root.parent
-    meta = _from_pyproject(checkout) or _from_installed(version) or (
-        f"Metadata-Version: 2.1\nName: widgetkit\nVersion: {version}\n", None)
+    meta = _metadata(version)
     dist_info = f"widgetkit-{version}.dist-info"
     entries = [(p.relative_to(checkout).as_posix(), p.read_bytes()) for p in package_files(root)]
     entries += [(f"{dist_info}/METADATA", meta[0].encode("utf-8")),
