@@ -22,6 +22,7 @@ __all__ = [
     "FitError",
     "AssignmentError",
     "FilePathError",
+    "SeriesError",
 ]
 
 
@@ -93,3 +94,12 @@ class AssignmentError(WidgetkitError, ValueError):
 class FilePathError(WidgetkitError, OSError):
     """A file cannot be written (or read) where asked: the folder is missing, a file stands
     where a folder should be, or permission is lacking. The message names the user's path."""
+
+
+class SeriesError(WidgetkitError, ValueError):
+    """A recipe, a series file or the arguments of a series run are invalid (the message
+    names the file, field or argument and says how to fix it)."""
+
+    def __init__(self, message: str, *, path: str | None = None):
+        self.path = None if path is None else str(path)
+        super().__init__(f"{self.path}: {message}" if self.path else message)

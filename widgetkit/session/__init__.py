@@ -5,9 +5,10 @@ one is a small class (see :mod:`widgetkit.session.steps`).
 """
 
 from . import kinds_analysis, kinds_basic, kinds_raman  # noqa: F401  (register the step kinds)
+from .recipe import Recipe, RecipeRun, RecipeStep
 from .session import Session, SessionEvent
 from .steps import STEP_KINDS, State, Step, StepKind, register_step
 from .verify import VerifyReport
 
 __all__ = ["Session", "SessionEvent", "Step", "State", "StepKind", "STEP_KINDS", "register_step",
-           "VerifyReport"]
+           "VerifyReport", "Recipe", "RecipeStep", "RecipeRun"]

@@ -310,6 +310,18 @@ class Session:
             new._run(step.kind, p)
         return new
 
+    def recipe(self):
+        """The steps after loading, as a :class:`~widgetkit.session.recipe.Recipe` to run on
+        other spectra (``wk.run_series``); ``Recipe.save(path)`` writes it as JSON.
+
+        Ids of peaks and lines become positions (with a tolerance); notes, locks no longer
+        held and steps replaced by a later one of the same kind are left out (see
+        :mod:`widgetkit.session.recipe`).
+        """
+        from .recipe import Recipe
+
+        return Recipe.from_session(self)
+
     # ------------------------------------------------------------------ stepping through the record
     def view(self, index: int) -> None:
         """Show the state after step ``index`` (0-based; negative counts from the end).
