@@ -29,3 +29,16 @@ def test_the_widget_layer_does_load_ipywidgets_when_imported():
     code = "import sys, widgetkit.widgets; print('ipywidgets' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "True"
+
+
+def test_the_series_face_loads_neither_widgets_nor_dask_until_a_cluster_is_used():
+    code = (
+        "import sys, widgetkit as wk\n"
+        "wk.run_series, wk.Recipe, wk.SeriesResult\n"
+        "import widgetkit.series\n"
+        "bad = sorted(m for m in sys.modules\n"
+        "             if m.split('.')[0] in ('ipywidgets', 'bqplot', 'dask', 'distributed'))\n"
+        "print(','.join(bad))\n"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == ""

@@ -28,6 +28,7 @@ from .errors import (
     FitError,
     OscillatorError,
     ProcessingError,
+    SeriesError,
     SessionFormatError,
     SessionStateError,
     SimulationError,
@@ -59,6 +60,10 @@ __all__ = [
     "FitError",
     "AssignmentError",
     "FilePathError",
+    "SeriesError",
+    "Recipe",
+    "run_series",
+    "SeriesResult",
     "io",
     "processing",
     "lines",
@@ -66,10 +71,11 @@ __all__ = [
     "oscillator",
     "simulate",
     "demo",
+    "series",
 ]
 
 _SUBMODULES = {"io", "processing", "lines", "levels", "oscillator", "simulate", "widgets",
-               "session", "report", "cli", "demo"}
+               "session", "report", "cli", "demo", "series"}
 _LAZY_NAMES = {
     "read_spectrum": ("io", "read_spectrum"),
     "write_csv": ("io", "write_csv"),
@@ -79,6 +85,9 @@ _LAZY_NAMES = {
     "VerifyReport": ("session", "VerifyReport"),
     "Diatomic": ("levels", "Diatomic"),
     "Linear": ("levels", "Linear"),
+    "Recipe": ("session", "Recipe"),
+    "run_series": ("series", "run_series"),
+    "SeriesResult": ("series", "SeriesResult"),
 }
 
 

@@ -8,6 +8,10 @@ export would carry and written as JCAMP-DX (DIFDUP) or CSV. The default folder
 is the package's own ``widgetkit/demo/data``; with ``--notebooks`` the sample
 notebooks of a source checkout (``sample_notebooks/``) are also copied into
 ``widgetkit/demo/notebooks`` so that an installed package ships them.
+
+The heating-ramp series (13 spectra, :func:`write_series`) is not shipped, to
+keep the package small: the series notebook writes it where it runs
+(``--series DIR`` writes it from the command line).
 """
 
 from __future__ import annotations
@@ -23,7 +27,8 @@ import numpy as np
 from ..spectrum import Spectrum
 from .scenario import SAMPLES, scenario_markdown
 
-__all__ = ["SPECTRA", "make_spectrum", "write_data", "sync_notebooks", "main"]
+__all__ = ["SPECTRA", "make_spectrum", "write_data", "sync_notebooks", "main", "write_series",
+           "write_labelled_jcamp", "ramp_gas_temperature", "RAMP_SET_POINTS"]
 
 _ORIGIN = "Quillmere Institute gas-phase group (fictional); simulated by widgetkit"
 _OWNER = "widgetkit demo data (invented scenario), free to use"
@@ -58,6 +63,72 @@ SPECTRA: dict[str, tuple[Callable[[], Spectrum], int]] = {
                                        "heated, 420 K (simulated)"), 5),
     "co_overview.jdx": (_co, 6),
 }
+
+
+# ---------------------------------------------------------------------- the heating ramp
+#: set points of the HC-20 heating ramp (K); the thirteenth file was recorded during a refill
+RAMP_SET_POINTS = tuple(300.0 + 20.0 * k for k in range(12))
+#: invented: the gas runs cooler than the heater's set point by this fraction of the excess
+#: over the room (the cell windows are not heated)
+RAMP_LAG = 0.045
+RAMP_ROOM = 296.0
+
+
+def ramp_gas_temperature(set_point: float) -> float:
+    """The gas temperature the demo simulates for a set point (K): set − 4.5 % of (set − 296 K)."""
+    return set_point - RAMP_LAG * (set_point - RAMP_ROOM)
+
+
+def _ramp_spectrum(k: int, set_point: float, *, strength: float = 0.9) -> Spectrum:
+    from .. import simulate
+    from ..levels import Diatomic
+
+    gas = ramp_gas_temperature(set_point)
+    return simulate.rovibrational(
+        Diatomic("H", "Cl"), simulate.HANDBOOK["1H-35Cl"], x_range=(2550.0, 3200.0), step=0.1,
+        resolution=0.5, temperature=gas, strength=strength, lorentz_hwhm=0.15, noise=0.002,
+        seed=3000 + k, baseline=(0.04, 0.015 + 0.002 * k, 0.006), y_kind="transmittance",
+        title=f"QM-24-{30 + k:03d} hydrogen chloride, HC-20 ramp, set point {set_point:.0f} K "
+              "(simulated)")
+
+
+def write_labelled_jcamp(spectrum: Spectrum, path: str | Path, labels: dict[str, str]) -> Path:
+    """Write ``spectrum`` as JCAMP-DX (DIFDUP, y rounded to 5 decimals as the instrument
+    export would) with extra labelled data records (``{"$SET TEMPERATURE": "340 K"}`` becomes
+    ``##$SET TEMPERATURE=340 K``, a user-defined label of JCAMP-DX 4.24) after ``##OWNER=``."""
+    from ..io import write_jcamp
+
+    sp = spectrum.replace(x=np.round(spectrum.x, 6), y=np.round(spectrum.y, 5))
+    path = Path(path)
+    write_jcamp(sp, path, form="DIFDUP", origin=_ORIGIN, owner=_OWNER)
+    lines = path.read_text(encoding="ascii").split("\n")
+    at = next(i for i, line in enumerate(lines) if line.startswith("##OWNER=")) + 1
+    lines[at:at] = [f"##{k}={v}" for k, v in labels.items()]
+    tmp = path.with_name(f".{path.name}.tmp")
+    tmp.write_text("\n".join(lines), encoding="ascii")
+    tmp.replace(path)
+    return path
+
+
+def write_series(folder: str | Path) -> list[Path]:
+    """Write the demo heating ramp to ``folder`` (created): 12 spectra of HCl in the HC-20
+    cell at set points 300–520 K (``hc20_ramp_01_300K.jdx`` ...) and a thirteenth recorded
+    at 520 K while the cell was being refilled (almost no gas). Each file carries
+    ``##$SET TEMPERATURE=`` (the heater's set point) and ``##$SAMPLE=``. The gas temperature
+    simulated is :func:`ramp_gas_temperature` of the set point. Deterministic (fixed seeds)."""
+    out = Path(folder)
+    out.mkdir(parents=True, exist_ok=True)
+    written = []
+    for k, T in enumerate(RAMP_SET_POINTS):
+        sp = _ramp_spectrum(k, T)
+        written.append(write_labelled_jcamp(
+            sp, out / f"hc20_ramp_{k + 1:02d}_{T:.0f}K.jdx",
+            {"$SET TEMPERATURE": f"{T:.0f} K", "$SAMPLE": f"QM-24-{30 + k:03d}"}))
+    refill = _ramp_spectrum(12, RAMP_SET_POINTS[-1], strength=0.004)
+    written.append(write_labelled_jcamp(
+        refill, out / "hc20_ramp_13_refill.jdx",
+        {"$SET TEMPERATURE": f"{RAMP_SET_POINTS[-1]:.0f} K", "$SAMPLE": "QM-24-042 (refill)"}))
+    return written
 
 
 def make_spectrum(name: str) -> Spectrum:
@@ -114,9 +185,14 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("folder", nargs="?", help="where to write (default: the package data folder)")
     parser.add_argument("--notebooks", action="store_true",
                         help="also copy sample_notebooks/*.ipynb into the package")
+    parser.add_argument("--series", metavar="DIR",
+                        help="also write the heating-ramp series (13 spectra) to DIR")
     args = parser.parse_args(argv)
     for p in write_data(args.folder):
         print(f"wrote {p} ({p.stat().st_size} bytes)")
+    if args.series:
+        for p in write_series(args.series):
+            print(f"wrote {p} ({p.stat().st_size} bytes)")
     if args.notebooks:
         for p in sync_notebooks():
             print(f"copied {p}")
