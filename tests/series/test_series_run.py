@@ -168,3 +168,26 @@ def test_a_series_is_saved_and_reopened(serial_run, tmp_path):
     shutil.rmtree(tmp_path / "copy" / "sessions")
     with pytest.raises(FileNotFoundError):
         back.sessions[0]
+
+
+def test_an_interrupted_run_keeps_what_it_finished_and_a_rerun_completes_it(
+        recipe, series_dir, tmp_path, monkeypatch):
+    import widgetkit.series.runner as runner
+
+    real, calls = runner.run_one, []
+
+    def stopped_at_the_third(task):  # Ctrl-C while the third spectrum runs
+        calls.append(task["name"])
+        if len(calls) == 3:
+            raise KeyboardInterrupt
+        return real(task)
+
+    files = sorted(series_dir.iterdir())[:4]
+    monkeypatch.setattr(runner, "run_one", stopped_at_the_third)
+    part = wk.run_series(recipe, files, workers=1, progress=False, out=tmp_path)
+    assert part.interrupted and len(part) == 2
+    assert part._doc["complete"] is False
+    monkeypatch.setattr(runner, "run_one", real)
+    done = wk.run_series(recipe, files, workers=1, progress=False, out=tmp_path)
+    assert not done.interrupted and len(done) == 4 and done._doc["complete"] is True
+    assert list(done.spectra["seconds"])[:2] == list(part.spectra["seconds"])  # not run again
