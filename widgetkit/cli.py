@@ -6,7 +6,10 @@
     load step), 2 when the file is unreadable or malformed (one line on stderr,
     never a traceback).
 
-``widgetkit report`` and ``widgetkit demo``: see :mod:`widgetkit.cli_extra`.
+``widgetkit verify SERIES_FILE``: every session of a series, see :mod:`widgetkit.cli_series`.
+
+``widgetkit report`` and ``widgetkit demo``: see :mod:`widgetkit.cli_extra`;
+``widgetkit series``: see :mod:`widgetkit.cli_series`.
 """
 
 from __future__ import annotations
@@ -15,13 +18,19 @@ import argparse
 import sys
 
 from .cli_extra import COMMANDS as _REPORT_AND_DEMO_COMMANDS
+from .cli_series import COMMANDS as _SERIES_COMMANDS
+from .cli_series import add_verify_options, verify_series
 
 __all__ = ["main"]
 
 
 def _cmd_verify(args: argparse.Namespace) -> int:
     from .errors import WidgetkitError
+    from .series.result import is_series_file
     from .session import Session
+
+    if is_series_file(args.file):
+        return verify_series(args)
 
     try:
         session = Session.load(args.file)
@@ -46,10 +55,11 @@ def _cmd_verify(args: argparse.Namespace) -> int:
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="widgetkit",
-        description="Vibrational spectroscopy sessions: verify, report, demo.")
+        description="Vibrational spectroscopy sessions: verify, report, demo, series.")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
     p = sub.add_parser("verify", help="replay a saved session and compare with its record")
-    p.add_argument("file", help="a saved session (.json)")
+    p.add_argument("file", help="a saved session (.json) or a series file (series.json)")
+    add_verify_options(p)
     p.set_defaults(func=_cmd_verify)
     for register in _EXTRA_COMMANDS:
         register(sub)
@@ -57,7 +67,7 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 #: functions that add further sub-commands (report, demo) to the parser
-_EXTRA_COMMANDS: list = [*_REPORT_AND_DEMO_COMMANDS]
+_EXTRA_COMMANDS: list = [*_REPORT_AND_DEMO_COMMANDS, *_SERIES_COMMANDS]
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -47,7 +47,10 @@ STATUS_COLORS = {"ok": "#1f4e79", "doubtful": "#e08214", "failed": "#b2182b"}
 
 
 def is_series_file(path: str | os.PathLike) -> bool:
-    """Whether ``path`` looks like a series file (its ``format`` field, read cheaply)."""
+    """Whether ``path`` looks like a series file (its ``format`` field, read cheaply), or is a
+    folder holding one."""
+    if os.path.isdir(path):
+        return is_series_file(os.path.join(path, SERIES_FILE))
     try:
         with open(path, "rb") as fh:
             head = fh.read(4096)
