@@ -10,7 +10,7 @@ from widgetkit.widgets import AnalysisApp, PeaksPanel, RecordPanel, SpectrumPane
 
 def _with_peaks(session):
     session.find_peaks(min_snr=10.0)
-    session.add_peak(2906.0)
+    session.add_peak(2854.0, snap=False)  # between P(1) and P(2): a place no peak holds
     return session
 
 
@@ -83,7 +83,7 @@ def test_save_writes_the_steps_taken_with_the_mouse_and_reopen_shows_them(tmp_pa
     app.peaks_panel.min_snr.value = 10.0
     app.peaks_panel.find_button.click()
     browser_side.update(app.peaks_panel.markers,
-                        x=np.append(app.peaks_panel.markers.x, 2906.0),
+                        x=np.append(app.peaks_panel.markers.x, 2854.0),
                         y=np.append(app.peaks_panel.markers.y, 0.1))
     app.record_panel.note_text.value = "demo run"
     app.record_panel.note_button.click()
@@ -92,7 +92,7 @@ def test_save_writes_the_steps_taken_with_the_mouse_and_reopen_shows_them(tmp_pa
     app.record_panel.save_button.click()
     doc = json.loads(path.read_text())
     assert [s["kind"] for s in doc["steps"]] == ["load", "find_peaks", "add_peak", "note"]
-    assert doc["steps"][2]["params"] == {"position": 2906.0, "snap": True}
+    assert doc["steps"][2]["params"] == {"position": 2854.0, "snap": True}
 
     other = AnalysisApp(wk.Session(session.source_spectrum))
     other.record_panel.save_path.value = str(path)

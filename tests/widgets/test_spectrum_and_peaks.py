@@ -183,14 +183,27 @@ def test_a_transmittance_spectrum_is_converted_to_absorbance_by_its_button(small
     assert panel.plot.y_axis.label == "absorbance"
 
 
-def test_adding_a_peak_on_a_maximum_that_has_one_says_so(session):
+def test_adding_a_peak_on_a_maximum_that_has_one_is_refused_naming_it(session):
     panel = PeaksPanel(session)
     panel.min_snr.value = 10.0
     panel.find_button.click()
-    first = float(session.peaks["position"].iloc[0])
-    panel.add_peak_at(first + 0.05)  # climbs to the same line top
-    assert session.history[-1].kind == "add_peak"  # recorded as asked
-    assert "same maximum as peak" in panel.status.value
+    first = session.peaks.iloc[0]
+    n = len(session.history)
+    assert panel.add_peak_at(float(first["position"]) + 0.05) is None  # climbs to that top
+    assert len(session.history) == n  # nothing recorded
+    assert f"already taken by peak {int(first['peak_id'])}" in panel.status.value
+
+
+def test_the_automatic_threshold_is_used_until_one_is_typed(session):
+    panel = PeaksPanel(session)
+    assert panel.auto_snr.value
+    panel.find_button.click()
+    assert session.history[-1].params["min_snr"] is None
+    assert "snr ≥" in panel.status.value and "noise" in panel.status.value
+    panel.min_snr.value = 12.0
+    assert not panel.auto_snr.value
+    panel.find_button.click()
+    assert session.history[-1].params["min_snr"] == 12.0
 
 
 def test_the_live_baseline_preview_starts_off_for_a_large_spectrum():

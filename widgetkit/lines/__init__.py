@@ -43,7 +43,7 @@ __all__ = [
 _WHERE = {
     "fit": "fitting", "LineFit": "fitting", "DEFAULT_WINDOW": "fitting",
     "CONVERGENCE_TOL": "fitting", "BASELINES": "baselines", "Baseline": "baselines",
-    "check_expression": "expressions", "estimate_noise": "start",
+    "check_expression": "expressions", "estimate_noise": "..processing.noise",
     **{name: "shapes" for name in ("SHAPES", "Shape", "doppler_sigma", "gaussian", "lorentzian",
                                    "olivero_fwhm", "pseudo_voigt", "tch_parameters", "voigt",
                                    "voigt_fwhm")},
@@ -52,7 +52,10 @@ _WHERE = {
 
 def __getattr__(name: str) -> Any:
     if name in _WHERE:
-        value = getattr(importlib.import_module(f".{_WHERE[name]}", __name__), name)
+        where = _WHERE[name]
+        module = importlib.import_module(where if where.startswith(".") else "." + where,
+                                         __name__)
+        value = getattr(module, name)
         globals()[name] = value
         return value
     raise AttributeError(f"module 'widgetkit.lines' has no attribute {name!r}")

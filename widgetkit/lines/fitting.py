@@ -43,6 +43,7 @@ import pandas as pd
 from threadpoolctl import threadpool_limits
 
 from ..errors import FitError
+from ..processing.noise import estimate_noise
 from . import solver
 from ._lmfit_sparse import SparseMinimizer
 from .baselines import get_baseline
@@ -50,7 +51,7 @@ from .derived import line_table, parameter_covariance
 from .model import WindowedModel
 from .params import ThetaMap, build_params, line_prefix, theta_names
 from .shapes import get_shape
-from .start import estimate_noise, starting_values
+from .start import starting_values
 
 __all__ = ["fit", "LineFit", "DEFAULT_WINDOW", "CONVERGENCE_TOL"]
 
@@ -238,7 +239,8 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     heights, widths : array_like, optional
         Starting heights (y units) and FWHM (cm⁻¹); NaN or None = estimate.
     noise : float, optional
-        Noise sigma of y; estimated as 1.4826 MAD(diff y)/sqrt(2) if None.
+        Noise sigma of y; measured on the line-free points if None
+        (:func:`widgetkit.processing.estimate_noise`).
     constraints : mapping, optional
         Ties, fixed values, bounds and ``"doppler"`` (:mod:`.params`).
     weights : array_like, optional

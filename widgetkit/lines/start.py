@@ -1,8 +1,6 @@
-"""Noise and robust starting values for a line fit.
+"""Robust starting values for a line fit (the noise σ is
+:func:`widgetkit.processing.estimate_noise`, the one implementation).
 
-* Noise: ``sigma = 1.4826 * MAD(diff y) / sqrt(2)`` (the median absolute
-  deviation of first differences, scaled to a Gaussian sigma; differencing
-  removes a smooth background, the sqrt(2) undoes the doubled variance).
 * Baseline: least squares on the points away from every line (first the
   outer 5 % of the data at each end, then every point more than 5 starting
   FWHM from any line).
@@ -20,16 +18,7 @@ import numpy as np
 
 from .baselines import Baseline
 
-__all__ = ["estimate_noise", "Starts", "starting_values"]
-
-
-def estimate_noise(y: np.ndarray) -> float:
-    """Noise sigma from the MAD of first differences: ``1.4826 MAD(diff y) / sqrt(2)``."""
-    d = np.diff(np.asarray(y, dtype=float))
-    if d.size == 0:
-        return 0.0
-    mad = np.median(np.abs(d - np.median(d)))
-    return float(1.4826 * mad / np.sqrt(2.0))
+__all__ = ["Starts", "starting_values"]
 
 
 @dataclass(frozen=True)

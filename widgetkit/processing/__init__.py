@@ -7,8 +7,10 @@ session (:mod:`widgetkit.session`) calls them and records each call as a step.
 
 Modules: :mod:`.transform` (crop, to_absorbance, to_transmittance, to_raman_shift),
 :mod:`.baseline` (baseline_poly, baseline_als, subtract_baseline),
-:mod:`.peaks` (estimate_noise, find_peaks, nearest_maximum, peak_row,
-peak_table), :mod:`.decimate` (decimate_minmax).
+:mod:`.noise` (measure_noise, estimate_noise: the one noise σ),
+:mod:`.envelope` (local baseline, typical width), :mod:`.peaks`
+(search_peaks, find_peaks), :mod:`.peak_edit` (nearest_maximum, peak_row,
+peak_table: peaks placed by hand), :mod:`.decimate` (decimate_minmax).
 """
 
 from __future__ import annotations
@@ -23,14 +25,18 @@ from .baseline import (
     subtract_baseline,
 )
 from .decimate import decimate_minmax
+from .envelope import local_baseline, typical_width
+from .noise import NoiseEstimate, estimate_noise, line_free_mask, measure_noise
+from .peak_edit import nearest_maximum, peak_row, peak_table
 from .peaks import (
     PEAK_COLUMNS,
-    estimate_noise,
+    PeakContext,
+    PeakSearch,
+    default_threshold,
     find_peaks,
-    nearest_maximum,
-    peak_row,
-    peak_table,
+    peak_context,
     refine_parabola,
+    search_peaks,
 )
 from .transform import (
     MAX_TRANSMITTANCE,
@@ -56,7 +62,17 @@ __all__ = [
     "subtract_baseline",
     "BASELINE_METHODS",
     "estimate_noise",
+    "measure_noise",
+    "NoiseEstimate",
+    "line_free_mask",
+    "local_baseline",
+    "typical_width",
     "find_peaks",
+    "search_peaks",
+    "peak_context",
+    "PeakContext",
+    "PeakSearch",
+    "default_threshold",
     "nearest_maximum",
     "peak_row",
     "peak_table",

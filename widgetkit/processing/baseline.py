@@ -17,7 +17,7 @@ from scipy.linalg import solveh_banded
 from ..errors import FitError
 from ..spectrum import Spectrum
 from ._common import ProcessingError, as_xy, as_y
-from .peaks import estimate_noise
+from .noise import estimate_noise
 
 __all__ = [
     "BASELINE_METHODS",

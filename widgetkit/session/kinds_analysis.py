@@ -92,6 +92,8 @@ class FitLines(StepKind):
         Param("conf_interval", "strings", None, nullable=True, max_items=MAX_CONF_INTERVAL,
               doc="parameters given confidence intervals"),
         Param("max_passes", "integer", 4, minimum=1, maximum=50, doc="solver restarts"),
+        Param("strict", "boolean", False,
+              doc="refuse a fit that has not converged instead of keeping it"),
     )
     argument_error = FitError
 
@@ -115,21 +117,29 @@ class FitLines(StepKind):
             raise SessionStateError(
                 f"fit_lines: there are no peaks{where} to fit; run find_peaks() or add_peak() first")
         _check_fit_size(len(peaks), sp, region)
+        strict = bool(opts.pop("strict", False))
         fit = lines.fit(sp.x, sp.y, peaks["position"].to_numpy(dtype=float),
                         line_ids=[int(i) for i in peaks["peak_id"]], **opts)
-        if not fit.converged:
-            err = FitError(f"the line fit did not converge ({fit.message}); the previous lines "
-                           "are kept. Try fewer lines, a region, or different starting peaks")
+        usable = np.all(np.isfinite(fit.table["position"])) and np.isfinite(fit.chisqr)
+        if not fit.converged and (strict or not usable):
+            why = "strict=True asks for a converged fit" if usable else "the result holds " \
+                "values that are not finite"
+            err = FitError(f"the line fit did not converge ({fit.message}) and {why}; the "
+                           "previous lines are kept. Try fewer lines, a region, or different "
+                           "starting peaks")
             err.fit = fit
             raise err
         result = {"lines": table_to_json(fit.table), "chisqr": float(fit.chisqr),
-                  "redchi": float(fit.redchi), "converged": True,
+                  "redchi": float(fit.redchi), "converged": bool(fit.converged),
                   "record": encode_fields(fit, skip=_LINEFIT_NOT_RECORDED)}
         cleared = {} if state.assignment is None else {"assignment": _n_assigned(state.assignment)}
         if cleared:
             result["cleared"] = cleared
         summary = (f"fitted {len(fit.table)} {opts.get('shape', 'voigt')} lines, "
-                   f"reduced chi-square {fit.redchi:.3g}" + cleared_text(cleared))
+                   f"reduced chi-square {fit.redchi:.3g}")
+        if not fit.converged:
+            summary += f"; NOT converged ({fit.message})"
+        summary += cleared_text(cleared)
         return state.evolve(line_fit=fit, assignment=None), result, summary
 
     #: diagnostics that legitimately differ between machines (the solver's last step size)

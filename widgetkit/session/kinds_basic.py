@@ -139,34 +139,71 @@ class SubtractBaseline(StepKind):
                 f"subtracted a {method} baseline (mean {b.mean():.4g})" + cleared_text(cleared))
 
 
+def _direction(sp) -> str:
+    """Dips for transmittance, peaks otherwise."""
+    return "down" if sp.y_kind == "transmittance" else "up"
+
+
+def _resolution(sp) -> float | None:
+    """The instrument resolution (cm-1) when the file says it."""
+    value = (sp.meta or {}).get("resolution")
+    try:
+        r = float(value)
+    except (TypeError, ValueError):
+        return None
+    return r if np.isfinite(r) and r > 0 else None
+
+
+def peak_context(state: State, noise_region=None):
+    """The peak-search context (noise, local baseline, width) of the state's spectrum,
+    computed once per spectrum and noise region."""
+    key = ("peak_context", None if noise_region is None else tuple(noise_region))
+    if key not in state._cache:
+        from .. import processing
+
+        sp = state.require_spectrum()
+        state._cache[key] = processing.peak_context(
+            sp.x, sp.y, noise_region=noise_region, direction=_direction(sp),
+            width=_resolution(sp))
+    return state._cache[key]
+
+
 @register_step
 class FindPeaks(StepKind):
     kind = "find_peaks"
     parameters = (
-        Param("min_snr", "number", 5.0, above=0, maximum=1e9,
-              doc="smallest prominence, in noise sigmas"),
+        Param("min_snr", "number", None, above=0, maximum=1e9, nullable=True,
+              doc="smallest height above the local baseline, in noise sigmas (null: "
+                  "automatic, from the length of the spectrum)"),
         Param("min_separation", "number", None, minimum=0, nullable=True, unit="cm-1",
               doc="smallest distance between peaks"),
+        Param("noise_region", "range", None, nullable=True, unit="cm-1",
+              doc="a flat stretch to measure the noise on"),
+        Param("min_prominence", "number", None, minimum=0, maximum=1e9, nullable=True,
+              doc="smallest prominence, in noise sigmas of the data searched"),
     )
     argument_error = ProcessingError
 
     def apply(self, state, params, ctx):
-        from ..processing import find_peaks
+        from ..processing import search_peaks
 
         sp = state.require_spectrum()
-        noise = state.noise()
-        peaks = find_peaks(sp.x, sp.y, min_snr=params.get("min_snr", 5.0),
-                           min_separation=params.get("min_separation"), noise=noise)
-        peaks = peaks.assign(origin="found")
+        context = peak_context(state, params.get("noise_region"))
+        search = search_peaks(
+            sp.x, sp.y, min_snr=params.get("min_snr"), min_separation=params.get("min_separation"),
+            min_prominence=params.get("min_prominence"), context=context)
+        peaks = search.table.assign(origin="found")
         peaks = peaks.drop(columns=["index"], errors="ignore").reset_index(drop=True)
         peaks = _renumber(peaks, state.next_peak_id)
         cols = [c for c in peaks.columns if c != "origin"]
         new, cleared = drop_dependents(state, peaks=peaks)
         new = new.evolve(next_peak_id=state.next_peak_id + len(peaks))
-        result = _with_cleared({"noise": noise, "peaks": table_to_json(peaks[cols])}, cleared)
-        return (new, result,
-                f"found {len(peaks)} peaks above SNR {params.get('min_snr', 5.0):g} "
-                f"(noise {noise:.3g})" + cleared_text(cleared))
+        result = _with_cleared({"noise": search.noise.sigma, "search": search.to_json(),
+                                "peaks": table_to_json(peaks[cols])}, cleared)
+        how = "automatic" if params.get("min_snr") is None else "given"
+        summary = (f"found {len(peaks)} peaks with snr ≥ {search.min_snr:.3g} ({how}); "
+                   f"{search.noise.describe()}")
+        return new, result, summary + cleared_text(cleared)
 
     def restore(self, state, params, result, ctx):
         peaks = _recorded_peaks(result.get("peaks"), state.next_peak_id)
@@ -200,11 +237,44 @@ def _with_cleared(result: dict, cleared: dict) -> dict:
     return {**result, "cleared": cleared} if cleared else result
 
 
+#: a click snaps to a top standing at least this many (smoothed) noise sigmas out
+SNAP_SIGMAS = 3.0
+
+
+def _local_width(peaks, pos: float, context, dx: float) -> float:
+    """About one line width (cm-1) near ``pos``: the nearest found peak's FWHM, else the
+    spectrum's typical width, else three samples."""
+    if len(peaks) and "fwhm" in peaks:
+        fw = peaks["fwhm"].to_numpy(dtype=float)
+        ok = np.isfinite(fw) & (fw > 0)
+        if ok.any():
+            d = np.abs(peaks["position"].to_numpy(dtype=float)[ok] - pos)
+            return float(fw[ok][int(np.argmin(d))])
+    if np.isfinite(context.width):
+        return float(context.width) * dx
+    return 3.0 * dx
+
+
+def _snap(sp, pos: float, context, width: float) -> float | None:
+    """The top of the line at ``pos`` when it is within ``width`` and stands out (climbing
+    the smoothed data above the local baseline, peaks up); None otherwise."""
+    from .. import processing
+
+    noise_s = context.noise.sigma * context.gain
+    try:
+        top = float(processing.nearest_maximum(sp.x, context.signal, pos, search=width,
+                                               noise=noise_s))
+    except ProcessingError:
+        return None  # no maximum within one line width
+    return top if np.interp(top, sp.x, context.signal) >= SNAP_SIGMAS * noise_s else None
+
+
 @register_step
 class AddPeak(StepKind):
     kind = "add_peak"
     parameters = (Param("position", "number", unit="cm-1", doc="where the peak is"),
-                  Param("snap", "boolean", True, doc="move it to the nearest maximum"))
+                  Param("snap", "boolean", True,
+                        doc="move it to the top of its line, when within one line width"))
     argument_error = ProcessingError
 
     def apply(self, state, params, ctx):
@@ -216,27 +286,46 @@ class AddPeak(StepKind):
             raise SessionStateError(
                 f"add_peak: position {pos:g} cm-1 is outside the spectrum "
                 f"({sp.x[0]:.6g}–{sp.x[-1]:.6g} cm-1)")
-        noise = state.noise()
-        if params.get("snap", True):
-            pos = float(processing.nearest_maximum(sp.x, sp.y, pos, noise=noise))
+        context = peak_context(state)
+        dx = float(np.median(np.diff(sp.x)))
+        peaks = state.peaks
+        width = _local_width(peaks, pos, context, dx)
+        top = _snap(sp, pos, context, width) if params.get("snap", True) else None
+        pos = pos if top is None else top
+        if len(peaks):
+            d = np.abs(peaks["position"].to_numpy(dtype=float) - pos)
+            k = int(np.argmin(d))
+            if d[k] <= max(1.5 * dx, 0.25 * width):
+                other = peaks.iloc[k]
+                raise SessionStateError(
+                    f"add_peak: {pos:.6g} cm-1 is already taken by peak "
+                    f"{int(other['peak_id'])} at {float(other['position']):.6g} cm-1 (closer than "
+                    f"a quarter of the line width, {width:.3g} cm-1); remove that peak first or "
+                    "place the new one further away")
         pid = state.next_peak_id
-        row = {"peak_id": pid, **processing.peak_row(sp.x, sp.y, pos, noise), "origin": "manual"}
+        row = {"peak_id": pid, **processing.peak_row(
+            sp.x, sp.y, pos, context.noise.sigma, baseline=context.baseline,
+            direction=context.direction), "origin": "manual"}
         row.pop("index", None)
+        row["fwhm"] = width
         new, cleared = _with_row(state, row)
         result = _with_cleared({"peak_id": pid, "position": pos, "height": row["height"],
-                                "snr": row.get("snr"), "prominence": row.get("prominence")},
-                               cleared)
-        return new, result, f"added peak {pid} at {pos:.6g} cm-1" + cleared_text(cleared)
+                                "snr": row["snr"], "prominence": row["prominence"],
+                                "fwhm": width, "baseline": row["baseline"],
+                                "snapped": top is not None}, cleared)
+        where = "" if top is not None or not params.get("snap", True) else \
+            " (no top within one line width: kept where it was put)"
+        return new, result, f"added peak {pid} at {pos:.6g} cm-1{where}" + cleared_text(cleared)
 
     def restore(self, state, params, result, ctx):
         pid = result.get("peak_id")
         if pid != state.next_peak_id or not isinstance(result.get("position"), float):
             raise RecordMismatch("recorded peak id or position does not fit the session")
-        row = {"peak_id": pid, "position": result["position"], "height": result.get("height"),
-               "snr": result.get("snr"), "prominence": result.get("prominence"),
-               "origin": "manual"}
         if "prominence" not in result:  # recorded without it: compute the row again
             return self.apply(state, params, ctx)[0]
+        row = {"peak_id": pid, "origin": "manual",
+               **{k: result.get(k) for k in ("position", "height", "snr", "prominence", "fwhm",
+                                             "baseline") if k in result}}
         return _with_row(state, {k: (np.nan if v is None else v) for k, v in row.items()})[0]
 
 

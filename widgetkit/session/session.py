@@ -203,14 +203,34 @@ class Session:
         """
         self._run("subtract_baseline", {"method": method, **opts})
 
-    def find_peaks(self, *, min_snr: float = 5.0, min_separation: float | None = None
-                   ) -> pd.DataFrame:
-        """Find peaks whose prominence exceeds ``min_snr`` times the noise; replaces the peak table."""
-        self._run("find_peaks", {"min_snr": min_snr, "min_separation": min_separation})
+    def find_peaks(self, *, min_snr: float | None = None, min_separation: float | None = None,
+                   noise_region=None, min_prominence: float | None = None) -> pd.DataFrame:
+        """Find the peaks (dips for transmittance) that stand out of the noise; replaces the
+        peak table and clears the line fit and assignment that rested on the old one.
+
+        ``snr`` is the height above the local baseline divided by the noise σ, measured on
+        the line-free points (or on ``noise_region=(lo, hi)``, a flat stretch in cm⁻¹).
+        ``min_snr=None`` (default) sets the threshold from the length of the spectrum so
+        that pure noise gives on average under 0.05 false peaks; see
+        :func:`widgetkit.processing.search_peaks`. The step records σ, how it was measured
+        and the threshold used.
+        """
+        params = {"min_snr": min_snr, "min_separation": min_separation}
+        if noise_region is not None:
+            params["noise_region"] = noise_region
+        if min_prominence is not None:
+            params["min_prominence"] = min_prominence
+        self._run("find_peaks", params)
         return self.peaks
 
     def add_peak(self, position: float, *, snap: bool = True) -> int:
-        """Add a peak at ``position`` (moved to the nearest local maximum when ``snap``)."""
+        """Add a peak at ``position``; returns its id.
+
+        With ``snap`` the peak moves to the top of the line it was put on, when that top
+        is within about one line width (else it stays where it was put). A position
+        already taken by a peak (closer than a quarter of a line width) is refused with
+        :class:`~widgetkit.errors.SessionStateError` naming that peak.
+        """
         step = self._run("add_peak", {"position": position, "snap": snap})
         return int(step.result["peak_id"])
 
@@ -219,15 +239,18 @@ class Session:
         self._run("remove_peak", {"peak_id": peak_id})
 
     def fit_lines(self, *, shape: str = "voigt", shared_width=False, baseline: str | None = "linear",
-                  region=None, **options) -> pd.DataFrame:
+                  region=None, strict: bool = False, **options) -> pd.DataFrame:
         """Fit every peak (inside ``region``) with a line shape; see :func:`widgetkit.lines.fit`.
 
-        A fit that does not converge raises :class:`~widgetkit.errors.FitError` (its ``.fit``
-        holds the unconverged result) and leaves the previous lines in place.
-        Returns :attr:`lines`.
+        A fit that stops before it has converged is kept and recorded with ``converged``
+        False and the reason (``s.line_fit.message``); with ``strict=True`` it is refused
+        instead (:class:`~widgetkit.errors.FitError`, whose ``.fit`` holds it) and the
+        previous lines stay. Returns :attr:`lines`.
         """
         params = {"shape": shape, "shared_width": shared_width, "baseline": baseline,
                   "region": region, **options}
+        if strict:
+            params["strict"] = True
         self._run("fit_lines", params)
         return self.lines
 

@@ -52,8 +52,10 @@ def peak_rows(peaks: pd.DataFrame) -> tuple[str, list[tuple[str, int]]]:
 class PeaksPanel(PlotPanel):
     """Find peaks above a signal-to-noise threshold and edit the peak list by hand.
 
-    In the mouse mode "add / select", a click on the plot background adds a
-    peak at the nearest local maximum (``Session.add_peak(x, snap=True)``) and
+    The threshold is automatic unless a minimum SNR is typed (the status line
+    then says the threshold used and how the noise was measured). In the mouse
+    mode "add / select", a click on the plot background adds a peak at the top
+    of the line clicked (``Session.add_peak(x, snap=True)``) and
     a click on a marker selects that peak, which "Remove" then deletes.
     """
 
@@ -81,9 +83,14 @@ class PeaksPanel(PlotPanel):
         self.markers.observe(self._on_markers_change, names=["x"])
         self.markers.on_element_click(self._on_marker_click)
 
+        self.auto_snr = ipw.Checkbox(value=True, description="automatic threshold",
+                                     indent=False, layout=ipw.Layout(width="165px"),
+                                     tooltip="set from the length of the spectrum so that "
+                                             "noise alone gives under 0.05 false peaks")
         self.min_snr = ipw.BoundedFloatText(value=5.0, min=0.1, max=1e6, step=0.5,
                                             description="min SNR", continuous_update=False,
                                             layout=ipw.Layout(width="170px"))
+        self.min_snr.observe(self._on_min_snr_change, names=["value"])
         self.min_separation = ipw.BoundedFloatText(value=0.0, min=0.0, max=1e4, step=0.1,
                                                    description="min sep.", continuous_update=False,
                                                    layout=ipw.Layout(width="170px"),
@@ -113,7 +120,7 @@ class PeaksPanel(PlotPanel):
         self.peak_list.observe(self._on_peak_list_change, names=["value"])
         self._actions(self.find_button, self.add_button, self.remove_button)
         self.children = [
-            row(self.min_snr, self.min_separation, self.find_button),
+            row(self.auto_snr, self.min_snr, self.min_separation, self.find_button),
             row(ipw.Label("mouse:"), self.mouse_mode, self.reset_zoom_button),
             *self.plot.widgets(),
             row(self.add_position, self.add_button, self.selected_label, self.remove_button),
@@ -173,28 +180,33 @@ class PeaksPanel(PlotPanel):
                                      f"{self._shown_x[i]:.6g} cm⁻¹")
 
     # ------------------------------------------------------------------ actions
+    def _on_min_snr_change(self, _change) -> None:
+        self.auto_snr.value = False  # a typed threshold is meant to be used
+
     def _on_find_click(self, _button) -> None:
         sep = float(self.min_separation.value)
-        self._call("find peaks", "find_peaks", min_snr=float(self.min_snr.value),
+        snr = None if self.auto_snr.value else float(self.min_snr.value)
+        self._call("find peaks", "find_peaks", min_snr=snr,
                    min_separation=sep if sep > 0 else None, busy="finding peaks…")
         if self.last_error is None:
-            self.show_status("ok", f"found {plural(len(self.session.peaks), 'peak')}")
+            search = self.session.history[-1].result.get("search", {})
+            used = search.get("min_snr")
+            how = f" with snr ≥ {used:.3g}" if isinstance(used, (int, float)) else ""
+            noise = search.get("noise", {})
+            sigma = noise.get("sigma")
+            extra = (f"; noise {sigma:.3g} ({noise.get('method', '')})"
+                     if isinstance(sigma, (int, float)) else "")
+            self.show_status("ok", f"found {plural(len(self.session.peaks), 'peak')}{how}{extra}")
 
     def add_peak_at(self, x: float) -> int | None:
-        """Add a peak near ``x`` (snapped to the nearest local maximum); its id or None."""
+        """Add a peak near ``x`` (moved to the top of its line when that is within about one
+        line width); its id, or None when refused (a position already taken is named in
+        the status line)."""
         pid = self._call("add peak", "add_peak", float(x), snap=True)
         if pid is not None:
             self.selected_peak = int(pid)
             self.render()
-            peaks = self.session.peaks
-            pos = float(peaks.set_index("peak_id").position[pid])
-            same = peaks[(peaks["peak_id"] != pid) & ((peaks["position"] - pos).abs() < 1e-6)]
-            if len(same):
-                self.show_status("info", f"added peak {pid} at {pos:.6g} cm⁻¹, on the same maximum "
-                                         f"as peak {int(same['peak_id'].iloc[0])}; remove one of "
-                                         "them before fitting")
-            else:
-                self.show_status("ok", f"added peak {pid} at {pos:.6g} cm⁻¹")
+            self.show_status("ok", self.session.history[-1].summary)
         return pid
 
     def _on_add_click(self, _button) -> None:
