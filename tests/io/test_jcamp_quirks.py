@@ -235,3 +235,19 @@ def test_a_written_raman_shift_spectrum_reads_back_as_a_shift(tmp_path):
                     meta={"x_label": "Raman shift (cm-1)"})
     back = read_jcamp(wk.write_jcamp(s, tmp_path / "r.jdx", form="AFFN"))
     assert back == s and back.meta["x_axis"] == "raman_shift"  # self-consistency
+
+
+@pytest.mark.parametrize("value, message", [("0.5E+400292241837", "exponent"),
+                                            ("1" * 80, "80 digits")])
+def test_numbers_no_float64_can_hold_are_refused_at_once(tmp_path, value, message):
+    # found by fuzzing: an exponent of 4e11 once made the decoder build a 4e11-digit integer
+    text = _xydata_file([f"1 5 {value}K", "2 7"], 3)
+    with pytest.raises(SpectrumFormatError, match=message) as info:
+        read_jcamp(write(tmp_path, text))
+    assert info.value.line == 9
+
+
+def test_numeric_labels_hold_nothing_but_their_number(tmp_path):
+    with pytest.raises(SpectrumFormatError, match="NPOINTS") as info:
+        read_jcamp(write(tmp_path, LR07.replace("##NPOINTS=10", "##NPOINTS=10x")))
+    assert info.value.line == 13

@@ -51,6 +51,9 @@ CLS[ord(".")] = _DOT
 
 #: token kinds
 ABS, DIF, DUP = 0, 1, 2
+#: a number may hold at most this many digits and an exponent of at most this magnitude
+#: (float64 holds 17 significant digits and exponents to about ±308)
+MAX_DIGITS, MAX_EXPONENT = 60, 400
 
 _POW10 = 10 ** np.arange(19, dtype=np.int64)
 _SIGNED_EXP = re.compile(rb"[0-9.][eE][+-][0-9]")
@@ -170,6 +173,15 @@ def tokenise_fast(a: np.ndarray, line0: int, path) -> Tokens | str | None:
     return Tokens(kind, affn, sign * mantissa, exponent, nl_cum[starts])
 
 
+def _check_size(ndigits: int, exp: bytes, path, line: int) -> None:
+    if ndigits > MAX_DIGITS:
+        raise fail(f"a value in the ordinate data has {ndigits} digits (at most {MAX_DIGITS})",
+                   path, line)
+    if exp and (len(exp) > 5 or abs(int(exp)) > MAX_EXPONENT):
+        raise fail(f"a value in the ordinate data has the exponent {exp[:12].decode()}, beyond "
+                   f"±{MAX_EXPONENT}; no float64 holds it", path, line)
+
+
 def tokenise_careful(block: bytes, line0: int, path, pattern: re.Pattern) -> Tokens | None:
     """One regular-expression pass; numbers as exact Python integers and exponents."""
     kinds: list[int] = []
@@ -199,6 +211,7 @@ def tokenise_careful(block: bytes, line0: int, path, pattern: re.Pattern) -> Tok
             body, _, exp = num.lower().partition(b"e")
             whole, _, frac = body.partition(b".")
             digits = (whole.lstrip(b"+-") + frac) or b"0"
+            _check_size(len(digits), exp, path, line0 + line)
             sign = -1 if body.startswith(b"-") else 1
             kinds.append(ABS)
             affn.append(True)
@@ -211,6 +224,7 @@ def tokenise_careful(block: bytes, line0: int, path, pattern: re.Pattern) -> Tok
             if rest.count(b".") > 1:
                 raise fail("a value in the ordinate data has two decimal points", path,
                            line0 + line)
+            _check_size(1 + len(whole) + len(frac), b"", path, line0 + line)
             magnitude = int(str(abs(v)) + (whole + frac).decode())
             kinds.append({_SQZ: ABS, _DIFC: DIF, _DUPC: DUP}[int(c)])
             affn.append(False)

@@ -156,10 +156,10 @@ def _check_children(block: dict[str, Any], path: str, checks: Checks) -> None:
 
 
 def number(entry, name: str, path: str) -> float:
-    """The leading number of a label's value (``(text, line, raw)``), or an error."""
+    """The number a label's value (``(text, line, raw)``) holds, nothing after it."""
     text, line = entry[0], entry[1]
-    num, _rest = number_and_rest(text)
-    if not num:
+    num, rest = number_and_rest(text)
+    if not num or rest:
         raise SpectrumFormatError(f"##{name}={text[:40]!r} is not a number", path=path,
                                   line=line)
     v = float(num)

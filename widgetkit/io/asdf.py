@@ -38,7 +38,16 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import SpectrumFormatError
-from ._asdf_tokens import ABS, DIF, DUP, Tokens, ambiguous_exponents, fail, tokenise
+from ._asdf_tokens import (
+    ABS,
+    DIF,
+    DUP,
+    MAX_DIGITS,
+    Tokens,
+    ambiguous_exponents,
+    fail,
+    tokenise,
+)
 from .asdf_encode import (
     encode_affn_lines,
     encode_dif,
@@ -217,10 +226,14 @@ def _expand_dup(yk, ym, ye, yl, line0, path, limit):
             np.repeat(yl[keep], rep))
 
 
-def _exact_ordinates(yk, ym, ye):
+def _exact_ordinates(yk, ym, ye, yl, line0, path):
     """Integers ``s`` and a common exponent ``E`` with ordinate ``i`` = ``s[i] * 10**E``."""
     e_min = int(ye.min())
     shift = ye - e_min
+    if int(shift.max()) > MAX_DIGITS:
+        k = int(np.argmax(shift))
+        raise fail(f"DIF data whose values span more than {MAX_DIGITS} decades of exponents; "
+                   "the ordinates are corrupt", path, line0 + yl[k])
     if ym.dtype != object and int(shift.max()) <= 18:
         bound = float(np.sum(np.abs(ym.astype(np.float64)) * 10.0 ** shift))
         if bound < 2.0 ** 62:  # every partial sum fits in int64
@@ -254,8 +267,12 @@ def _assemble(toks: Tokens, line0, path, limit, ycheck) -> XYDataLines:
     line_number = line0 + toks.line[xi]
     yk, ym, ye, yl = _expand_dup(toks.kind[yi], toks.mantissa[yi], toks.exponent[yi],
                                  toks.line[yi], line0, path, limit)
-    exact, e_common = _exact_ordinates(yk, ym, ye)
     n = yk.size
+    if not (yk == DIF).any():  # every ordinate stands alone: round each one once
+        return XYDataLines(y=_floats(ym, ye), line_x=line_x, line_x_step=line_x_step,
+                           line_first=_line_first(yl, n, np.zeros(n, bool)),
+                           line_number=np.asarray(line_number, np.int64))
+    exact, e_common = _exact_ordinates(yk, ym, ye, yl, line0, path)
     first_y = np.ones(n, bool)
     first_y[1:] = yl[1:] != yl[:-1]
     # Y-check: a line after one that ended in DIF repeats that last ordinate first
@@ -283,10 +300,17 @@ def _assemble(toks: Tokens, line0, path, limit, ycheck) -> XYDataLines:
             # keep the line's own (absolute) value for the point both lines hold
             exact = exact.copy()
             exact[bad - 1] = exact[bad]
-    keep = ~check
-    kept_before = np.cumsum(keep) - keep
-    line_first = kept_before[firsts] - check[firsts]
-    return XYDataLines(y=_floats(exact[keep], e_common), line_x=line_x,
-                       line_x_step=line_x_step, line_first=line_first.astype(np.int64),
+    return XYDataLines(y=_floats(exact[~check], e_common), line_x=line_x,
+                       line_x_step=line_x_step, line_first=_line_first(yl, n, check),
                        line_number=np.asarray(line_number, np.int64),
                        ycheck_failures=tuple(failures))
+
+
+def _line_first(yl, n: int, check) -> np.ndarray:
+    """Index, among the ordinates kept, of the ordinate each line's X belongs to."""
+    first_y = np.ones(n, bool)
+    first_y[1:] = yl[1:] != yl[:-1]
+    firsts = np.flatnonzero(first_y)
+    keep = ~check
+    kept_before = np.cumsum(keep) - keep
+    return (kept_before[firsts] - check[firsts]).astype(np.int64)
