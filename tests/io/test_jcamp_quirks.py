@@ -251,3 +251,28 @@ def test_numeric_labels_hold_nothing_but_their_number(tmp_path):
     with pytest.raises(SpectrumFormatError, match="NPOINTS") as info:
         read_jcamp(write(tmp_path, LR07.replace("##NPOINTS=10", "##NPOINTS=10x")))
     assert info.value.line == 13
+
+
+@pytest.mark.parametrize("form", ["DIFDUP", "AFFN", "XYPOINTS", "CSV"])
+def test_typed_metadata_survive_a_write_and_a_read(tmp_path, form):
+    x = np.linspace(-200.0, 1800.0, 101)
+    meta = {"title": "LR-25 typed", "resolution": 0.5, "sample_state": "liquid",
+            "technique": "raman", "x_axis": "raman_shift", "y_unit": "counts"}
+    s = wk.Spectrum(x, 5 + np.cos(x / 50), y_kind="intensity", meta=meta)
+    path = (wk.write_csv(s, tmp_path / "t.csv") if form == "CSV" else
+            wk.write_jcamp(s, tmp_path / "t.jdx", form=form))
+    back = read_spectrum(path)
+    for key in ("resolution", "sample_state", "technique", "x_axis"):
+        assert back.meta[key] == meta[key], key  # self-consistency: written then read
+    assert back.x[0] == -200.0  # the anti-Stokes side is kept
+
+
+def test_an_absorption_coefficient_unit_is_written_back_and_percent_never_is(tmp_path):
+    s = read_spectrum(DATA / "lr16_gas_coefficients.jdx")
+    back = read_spectrum(wk.write_jcamp(s, tmp_path / "c.jdx"))
+    assert back.meta["y_unit"] == s.meta["y_unit"] and back.meta["resolution"] == 0.125
+    t = read_spectrum(DATA / "lr14_semicolon_percent.csv")  # "Transmittance (%)"
+    again = read_spectrum(wk.write_jcamp(t, tmp_path / "t.jdx", form="XYPOINTS"))
+    assert np.array_equal(again.y, t.y)  # written as a fraction: not divided twice
+    with pytest.raises(SpectrumFormatError, match="form must be"):
+        wk.write_jcamp(s, tmp_path / "x.jdx", form="PACKED")

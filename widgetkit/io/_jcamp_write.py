@@ -23,6 +23,36 @@ def _one_line(s) -> str:
     return " ".join(str(s).replace("$$", "$ $").split())
 
 
+def _is_raman(meta) -> bool:
+    return (meta.get("x_axis") == "raman_shift" or meta.get("technique") == "raman"
+            or "raman" in str(meta.get("x_label", "")).lower())
+
+
+def _typed_labels(meta) -> list[str]:
+    """##RESOLUTION= and ##STATE= from the typed metadata (JCAMP-DX 4.24 optional labels)."""
+    out = []
+    r = meta.get("resolution")
+    if isinstance(r, (int, float)) and not isinstance(r, bool) and math.isfinite(r) and r > 0:
+        out.append(f"##RESOLUTION={float(r)!r}")
+    state = meta.get("sample_state")
+    if state in ("gas", "liquid", "solid"):
+        out.append(f"##STATE={state.upper()}")
+    return out
+
+
+def _yunits(spectrum: Spectrum) -> str:
+    """The file's own y unit when it names the same kind (an absorption coefficient stays
+    one), else the plain word for the kind; never a percent label (y is a fraction)."""
+    from ._labels import parse_y_label
+
+    unit = spectrum.meta.get("y_unit")
+    if isinstance(unit, str) and unit.strip():
+        kind, percent, _quantity = parse_y_label(unit)
+        if kind == spectrum.y_kind and not percent:
+            return _one_line(unit)
+    return _YUNITS[spectrum.y_kind]
+
+
 def yfactor_for(y: np.ndarray, digits: int = 7) -> float:
     """A power of ten that keeps ``digits`` significant digits of the largest |y|:
     10**(floor(log10(max|y|)) - digits + 1) (at least 1e-300), or 1 when y is all zero."""
@@ -54,32 +84,41 @@ def write_jcamp(spectrum: Spectrum, path, *, form: str = "DIFDUP", title: str | 
     title, origin, owner, data_type : str, optional
         ``##TITLE=`` (default ``meta["title"]``), ``##ORIGIN=``, ``##OWNER=`` (default
         "widgetkit" and "unknown"), ``##DATA TYPE=`` (default INFRARED SPECTRUM, or RAMAN
-        SPECTRUM for a Raman shift axis).
+        SPECTRUM for a Raman spectrum: ``meta["x_axis"] == "raman_shift"`` or
+        ``meta["technique"] == "raman"``).
+
+    Notes
+    -----
+    The typed metadata are written as JCAMP-DX labels so that they read back:
+    ``meta["resolution"]`` as ``##RESOLUTION=`` (cm⁻¹), ``meta["sample_state"]`` as
+    ``##STATE=``. ``##YUNITS=`` keeps the file's own y unit when it names the same kind (an
+    absorption coefficient stays one), else ABSORBANCE, TRANSMITTANCE (a fraction) or
+    ARBITRARY UNITS.
 
     Returns
     -------
     str
         The absolute path written (atomically: temporary file, then rename).
     """
+    if not isinstance(form, str) or form.upper() not in ("DIFDUP", "AFFN", "XYPOINTS"):
+        raise SpectrumFormatError(f"form must be 'DIFDUP', 'AFFN' or 'XYPOINTS', got {form!r}")
     form = form.upper()
-    if form not in ("DIFDUP", "AFFN", "XYPOINTS"):
-        raise ValueError(f"form must be 'DIFDUP', 'AFFN' or 'XYPOINTS', got {form!r}")
     x, y = spectrum.x, spectrum.y
     n = x.size
     meta = spectrum.meta
     jc = meta.get("jcamp") or {}
     if data_type is None:
-        data_type = jc.get("datatype") or (
-            "RAMAN SPECTRUM" if "raman" in str(meta.get("x_label", "")).lower()
-            else "INFRARED SPECTRUM")
+        data_type = jc.get("datatype") or ("RAMAN SPECTRUM" if _is_raman(meta)
+                                           else "INFRARED SPECTRUM")
     head = [
         f"##TITLE={_one_line(title if title is not None else meta.get('title') or 'spectrum')}",
         "##JCAMP-DX=4.24 $$ widgetkit",
         f"##DATA TYPE={_one_line(data_type)}",
         f"##ORIGIN={_one_line(origin or jc.get('origin') or 'widgetkit')}",
         f"##OWNER={_one_line(owner or jc.get('owner') or 'unknown')}",
-        "##XUNITS=1/CM", f"##YUNITS={_YUNITS[spectrum.y_kind]}",
     ]
+    head += _typed_labels(meta)
+    head += ["##XUNITS=1/CM", f"##YUNITS={_yunits(spectrum)}"]
     if form == "XYPOINTS":
         body = [f"##NPOINTS={n}", "##XYPOINTS=(XY..XY)"]
         body += [f"{a!r}, {b!r}" for a, b in zip(x.tolist(), y.tolist(), strict=True)]

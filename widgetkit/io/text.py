@@ -284,11 +284,14 @@ def write_csv(spectrum: Spectrum, path, *, y_label: str | None = None,
               title: str | None = None) -> str:
     """Write a spectrum as comma-separated text that reads back exactly.
 
-    The file is ``# title: ...`` (when there is a title), a header
-    ``wavenumber (cm-1),<y label>`` and one row per point, ascending, every number in the
-    shortest form that converts back to the same float64 (Python's ``repr``). The y label is
-    ``absorbance``, ``transmittance (fraction)`` or ``intensity`` unless given. The file is
-    written to a temporary name and then renamed, so a failed write leaves no partial file.
+    The file is ``# title: ...`` (when there is a title), comment lines for the typed
+    metadata (``# resolution: 0.5 cm-1``, ``# state: gas``, ``# technique: raman``), a header
+    ``wavenumber (cm-1),<y label>`` (``Raman shift (cm-1)`` for a shift axis) and one row per
+    point, ascending, every number in the shortest form that converts back to the same
+    float64 (Python's ``repr``). The y label is ``absorbance``, ``transmittance (fraction)``
+    or ``intensity`` unless given. The file is written to a temporary name and then renamed,
+    so a failed write leaves no partial file; :func:`read_text` reads back the same spectrum
+    and the same typed metadata.
 
     Parameters
     ----------
@@ -310,10 +313,19 @@ def write_csv(spectrum: Spectrum, path, *, y_label: str | None = None,
     apath = absolute_path(path)
     label = y_label or _Y_LABELS[spectrum.y_kind]
     title = spectrum.meta.get("title") if title is None else title
+    meta = spectrum.meta
     out = []
     if title:
         out.append("# title: " + " ".join(str(title).split()) + "\n")
-    out.append(f"wavenumber (cm-1),{label}\n")
+    r = meta.get("resolution")
+    if isinstance(r, (int, float)) and not isinstance(r, bool) and np.isfinite(r) and r > 0:
+        out.append(f"# resolution: {float(r)!r} cm-1\n")
+    if meta.get("sample_state") in ("gas", "liquid", "solid"):
+        out.append(f"# state: {meta['sample_state']}\n")
+    if meta.get("technique") in ("infrared", "raman"):
+        out.append(f"# technique: {meta['technique']}\n")
+    shift = meta.get("x_axis") == "raman_shift"
+    out.append(f"{'Raman shift' if shift else 'wavenumber'} (cm-1),{label}\n")
     xs, ys = spectrum.x.tolist(), spectrum.y.tolist()
     body = "\n".join(map("{!r},{!r}".format, xs, ys)) + "\n"
     atomic_write(apath, ("".join(out) + body).encode("utf-8"))
