@@ -155,6 +155,8 @@ def _floats(mantissa: np.ndarray, exponent) -> np.ndarray:
     """float64 of ``mantissa * 10**exponent``, each correctly rounded."""
     m = mantissa
     e = np.broadcast_to(np.asarray(exponent, np.int64), m.shape)
+    if m.dtype != object and not e.any():  # integers: one conversion, correctly rounded
+        return m.astype(np.float64)
     if m.dtype != object and m.size:
         small = (np.abs(m) < 2 ** 53) & (np.abs(e) <= 22)
         if small.all():  # both operands exact: one IEEE operation rounds correctly
@@ -235,9 +237,11 @@ def _exact_ordinates(yk, ym, ye, yl, line0, path):
         raise fail(f"DIF data whose values span more than {MAX_DIGITS} decades of exponents; "
                    "the ordinates are corrupt", path, line0 + yl[k])
     if ym.dtype != object and int(shift.max()) <= 18:
-        bound = float(np.sum(np.abs(ym.astype(np.float64)) * 10.0 ** shift))
-        if bound < 2.0 ** 62:  # every partial sum fits in int64
-            scaled = ym * _POW10_I64[shift]
+        exact_ints = not shift.any()
+        magnitude = np.abs(ym.astype(np.float64))
+        bound = float(np.sum(magnitude if exact_ints else magnitude * 10.0 ** shift))
+        if bound < 2.0 ** 61:  # every partial sum, and their differences, fit in int64
+            scaled = ym if exact_ints else ym * _POW10_I64[shift]
             return _running(yk, scaled), e_min
     scaled = np.array([int(m) * 10 ** int(s) for m, s in zip(ym.tolist(), shift.tolist(),
                                                               strict=True)], object)

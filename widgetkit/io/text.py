@@ -103,10 +103,10 @@ def _fast_columns(path: str, layout: Layout, ycol: int):
         except Exception:  # any trouble: the reference parser explains it
             return None
         reader.drain()
-    values = frame.to_numpy()
-    if values.size and np.isnan(values).any():  # a missing field: the reference says where
+    columns = [frame[c].to_numpy() for c in range(layout.ncols)]
+    if any(np.isnan(c).any() for c in columns):  # a missing field: the reference says where
         return None
-    return values[:, 0], values[:, 1 + ycol], reader.sha.hexdigest(), reader.size
+    return columns[0], columns[1 + ycol], reader.sha.hexdigest(), reader.size
 
 
 def _reference_rows(text: str, layout: Layout, ycol: int,
