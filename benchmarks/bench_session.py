@@ -63,7 +63,7 @@ def main() -> None:
     print(f"session with {N:,} points and {len(s.history)} steps; file {size / 1e6:.1f} MB")
     print(f"  save    {t_save:7.3f} s   (target < 2 s)   {t_save / t_npsave:6.1f}x numpy.save")
     print(f"  load    {t_load:7.3f} s   (target < 2 s)   {t_load / t_npload:6.1f}x numpy.load"
-          "  (load replays every step)")
+          "  (load restores the recorded states; bench_load.py times a fresh process)")
     print(f"  verify  {t_verify:7.3f} s   (target < 2 s)   replays and compares 10 steps")
     print(f"  baseline numpy.save {t_npsave * 1e3:.1f} ms, numpy.load {t_npload * 1e3:.1f} ms")
 

@@ -188,11 +188,24 @@ JSON_VALUES = st.recursive(
     max_leaves=6)
 
 
-@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow,
-                                                                   HealthCheck.function_scoped_fixture])
+_QUIET = [HealthCheck.too_slow, HealthCheck.function_scoped_fixture]
+
+
+@settings(max_examples=150, deadline=None, derandomize=True, suppress_health_check=_QUIET)
 @given(data=st.data())
 def test_any_single_change_is_refused_cleanly_or_opens_and_verifies_without_raising(
         small, tmp_path_factory, data):
+    _mutated_file_behaves(small, tmp_path_factory, data)
+
+
+@pytest.mark.slow
+@settings(max_examples=1000, deadline=None, suppress_health_check=_QUIET)
+@given(data=st.data())
+def test_many_random_single_changes_behave(small, tmp_path_factory, data):
+    _mutated_file_behaves(small, tmp_path_factory, data)
+
+
+def _mutated_file_behaves(small, tmp_path_factory, data):
     paths = [p for p in json_paths(small) if p]
     path = data.draw(st.sampled_from(paths))
     doc = json.loads(json.dumps(small))

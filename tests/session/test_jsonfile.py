@@ -3,6 +3,8 @@
 import json
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import widgetkit as wk
 from widgetkit.session import jsonfile
@@ -46,3 +48,24 @@ def test_bytes_that_are_not_utf8_and_files_too_large_are_refused(monkeypatch):
 def test_a_byte_order_mark_is_allowed_and_values_read_exactly():
     value = {"x": [0.1, -2.5e-300, 123456789012345678], "s": "é\\n"}
     assert jsonfile.parse(b"\xef\xbb\xbf" + json.dumps(value).encode()) == value
+
+
+def _depth(value):
+    if isinstance(value, dict):
+        return 1 + max((_depth(v) for v in value.values()), default=0)
+    if isinstance(value, list):
+        return 1 + max((_depth(v) for v in value), default=0)
+    return 0
+
+
+_TRICKY_TEXT = st.text(alphabet='[]{}"\\ab\n', max_size=8)
+_VALUES = st.recursive(st.none() | st.integers() | _TRICKY_TEXT,
+                       lambda inner: st.lists(inner, max_size=3)
+                       | st.dictionaries(_TRICKY_TEXT, inner, max_size=3), max_leaves=12)
+
+
+@settings(max_examples=400, deadline=None, derandomize=True)
+@given(_VALUES)
+def test_the_nesting_depth_measured_without_parsing_is_the_true_one(value):
+    text = json.dumps(value)  # strings full of brackets, quotes and backslashes
+    assert jsonfile.nesting_depth(text.encode()) == _depth(value)

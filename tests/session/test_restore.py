@@ -38,6 +38,19 @@ def test_reopening_runs_no_fit_and_no_assignment(hcl_saved, monkeypatch):
     assert len(s.lines) > 20 and s.assignments["label"].notna().sum() > 20
 
 
+def test_reopening_subtracts_the_recorded_baseline_without_computing_it(session, tmp_path,
+                                                                        monkeypatch):
+    import widgetkit.processing as processing
+
+    session.subtract_baseline("als", lam=1e5, p=0.01)
+    session.save(tmp_path / "s.json")
+    monkeypatch.setattr(processing, "subtract_baseline",
+                        lambda *a, **k: (_ for _ in ()).throw(AssertionError("computed")))
+    again = wk.Session.load(tmp_path / "s.json")
+    assert again.spectrum == session.spectrum  # bit for bit
+    np.testing.assert_array_equal(again.baseline, session.baseline)
+
+
 def test_restored_tables_equal_the_computed_ones_with_their_dtypes(hcl_saved):
     s = wk.Session.load(hcl_saved)
     fit, assignment = s.line_fit.real(), s.assignment.real()  # computed on demand

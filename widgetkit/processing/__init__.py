@@ -11,41 +11,15 @@ Modules: :mod:`.transform` (crop, to_absorbance, to_transmittance, to_raman_shif
 :mod:`.envelope` (local baseline, typical width), :mod:`.peaks`
 (search_peaks, find_peaks), :mod:`.peak_edit` (nearest_maximum, peak_row,
 peak_table: peaks placed by hand), :mod:`.decimate` (decimate_minmax).
+
+The names below load on first use (reopening a session converts to absorbance or
+crops without importing the baseline, noise and peak modules, which need scipy).
 """
 
 from __future__ import annotations
 
-from ._common import ProcessingError
-from .baseline import (
-    BASELINE_METHODS,
-    baseline_als,
-    baseline_options,
-    baseline_poly,
-    second_difference_penalty,
-    subtract_baseline,
-)
-from .decimate import decimate_minmax
-from .envelope import local_baseline, typical_width
-from .noise import NoiseEstimate, estimate_noise, line_free_mask, measure_noise
-from .peak_edit import nearest_maximum, peak_row, peak_table
-from .peaks import (
-    PEAK_COLUMNS,
-    PeakContext,
-    PeakSearch,
-    default_threshold,
-    find_peaks,
-    peak_context,
-    refine_parabola,
-    search_peaks,
-)
-from .transform import (
-    MAX_TRANSMITTANCE,
-    crop,
-    excitation_wavenumber,
-    to_absorbance,
-    to_raman_shift,
-    to_transmittance,
-)
+import importlib
+from typing import Any
 
 __all__ = [
     "ProcessingError",
@@ -80,3 +54,32 @@ __all__ = [
     "PEAK_COLUMNS",
     "decimate_minmax",
 ]
+
+#: public name -> the module (in this package) that defines it
+_WHERE = {
+    "ProcessingError": "_common", "decimate_minmax": "decimate",
+    **{name: "baseline" for name in ("BASELINE_METHODS", "baseline_als", "baseline_options",
+                                     "baseline_poly", "second_difference_penalty",
+                                     "subtract_baseline")},
+    **{name: "envelope" for name in ("local_baseline", "typical_width")},
+    **{name: "noise" for name in ("NoiseEstimate", "estimate_noise", "line_free_mask",
+                                  "measure_noise")},
+    **{name: "peak_edit" for name in ("nearest_maximum", "peak_row", "peak_table")},
+    **{name: "peaks" for name in ("PEAK_COLUMNS", "PeakContext", "PeakSearch",
+                                  "default_threshold", "find_peaks", "peak_context",
+                                  "refine_parabola", "search_peaks")},
+    **{name: "transform" for name in ("MAX_TRANSMITTANCE", "crop", "excitation_wavenumber",
+                                      "to_absorbance", "to_raman_shift", "to_transmittance")},
+}
+
+
+def __getattr__(name: str) -> Any:
+    if name in _WHERE:
+        value = getattr(importlib.import_module(f".{_WHERE[name]}", __name__), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'widgetkit.processing' has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__))

@@ -54,21 +54,27 @@ def decode_array(d: dict, *, where: str) -> tuple[np.ndarray, bool]:
 
     Raises :class:`SessionFormatError` naming ``where`` when the data cannot be decoded.
     """
-    if d.get("dtype") != "<f8" or d.get("encoding") != "base64":
-        raise SessionFormatError(f"{where}: only base64 '<f8' arrays are supported, "
-                                 f"got dtype {str(d.get('dtype'))[:20]!r}, encoding "
-                                 f"{str(d.get('encoding'))[:20]!r}")
+    if not isinstance(d, dict) or d.get("dtype") != "<f8" or d.get("encoding") != "base64":
+        got = (f"dtype {str(d.get('dtype'))[:20]!r}, encoding {str(d.get('encoding'))[:20]!r}"
+               if isinstance(d, dict) else type(d).__name__)
+        raise SessionFormatError(f"{where}: only base64 '<f8' arrays are supported, got {got}")
+    shape, data = d.get("shape"), d.get("data")
+    if not (isinstance(shape, list) and len(shape) == 1 and isinstance(shape[0], int)
+            and not isinstance(shape[0], bool) and 0 <= shape[0] <= 10**9):
+        raise SessionFormatError(f"{where}: shape must be [n] with 0 <= n <= 10**9")
+    if not isinstance(data, str) or not isinstance(d.get("sha256"), str):
+        raise SessionFormatError(f"{where}: data and sha256 must be text")
     try:
-        raw = base64.b64decode(d["data"], validate=True)
+        raw = base64.b64decode(data, validate=True)
     except (binascii.Error, ValueError):
         raise SessionFormatError(f"{where}: the base64 data is corrupt (not base64 text of "
                                  "whole 8-byte numbers)") from None
-    n = int(np.prod(d["shape"])) if d["shape"] else 1
+    n = shape[0]
     if len(raw) != 8 * n:
         raise SessionFormatError(
-            f"{where}: holds {len(raw)} bytes but shape {d['shape']} needs {8 * n}")
+            f"{where}: holds {len(raw)} bytes but shape {shape} needs {8 * n}")
     ok = hashlib.sha256(raw).hexdigest() == d["sha256"]
-    return np.frombuffer(raw, dtype="<f8").reshape(d["shape"]).astype(np.float64), ok
+    return np.frombuffer(raw, dtype="<f8").astype(np.float64), ok
 
 
 @lru_cache(maxsize=4)

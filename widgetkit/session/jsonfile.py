@@ -10,11 +10,10 @@ silently or fail on with a built-in error:
 * integers of more than :data:`MAX_INT_DIGITS` digits and numbers written with
   more than :data:`MAX_NUMBER_CHARS` characters (``int("9" * 5000)`` costs time
   and Python refuses beyond 4,300 digits),
-* nesting deeper than :data:`MAX_DEPTH` (the parser recurses once per level),
+* nesting deeper than :data:`MAX_DEPTH` (the parser recurses once per level;
+  it stops by itself at Python's recursion limit, and the depth of what it read
+  is then checked without recursion),
 * files larger than :data:`MAX_BYTES`.
-
-The nesting depth is measured before parsing, in linear time, without Python
-recursion.
 """
 
 from __future__ import annotations
@@ -37,8 +36,6 @@ MAX_INT_DIGITS = 20
 #: longest number literal (a float's shortest repr is at most 24 characters)
 MAX_NUMBER_CHARS = 40
 
-_STRING = re.compile(r'"[^"\\]*(?:\\.[^"\\]*)*"', re.DOTALL)
-_NOT_BRACKET = re.compile(r"[^\[\]{}]+")
 _TOKEN = re.compile(r'"[^"\\]*(?:\\.[^"\\]*)*"|[\[\]{}:,]|-?[0-9][0-9.eE+-]*|[A-Za-z]+|-[A-Za-z]+',
                     re.DOTALL)
 
@@ -82,12 +79,36 @@ def _pairs(pairs: list) -> dict:
     return out
 
 
-def nesting_depth(text: str) -> int:
-    """Deepest nesting of ``[`` and ``{`` outside strings (linear time, no recursion)."""
-    brackets = _NOT_BRACKET.sub("", _STRING.sub("", text))
+_KEEP = b"[]{}\""
+_DROP = bytes(b for b in range(256) if b not in _KEEP)
+_QUOTED = re.compile(rb'"[^"]*"')
+
+
+def _deeper_than(value, limit: int) -> bool:
+    """Whether lists and objects nest deeper than ``limit`` (iterative: no recursion)."""
+    stack = [(value, 1)]
+    while stack:
+        node, depth = stack.pop()
+        if depth > limit:
+            return True
+        for item in (node.values() if isinstance(node, dict) else node):
+            if isinstance(item, (dict, list)):
+                stack.append((item, depth + 1))
+    return False
+
+
+def nesting_depth(data: bytes) -> int:
+    """Deepest nesting of ``[`` and ``{`` outside strings, in linear time without recursion.
+
+    Escaped backslashes, then escaped quotes are removed (left to right, as JSON reads
+    them), every byte but brackets and quotes is dropped (``bytes.translate``), what lies
+    between quotes is dropped, and the depth is the largest running sum of the rest.
+    """
+    reduced = data.replace(b"\\\\", b"").replace(b'\\"', b"").translate(None, _DROP)
+    brackets = _QUOTED.sub(b"", reduced).replace(b'"', b"")
     if not brackets:
         return 0
-    codes = np.frombuffer(brackets.encode("ascii"), dtype=np.uint8)
+    codes = np.frombuffer(brackets, dtype=np.uint8)
     steps = np.where((codes == 91) | (codes == 123), 1, -1)
     return int(np.cumsum(steps).max())
 
@@ -105,13 +126,16 @@ def parse(data: bytes, *, path: str | None = None):
                                  "decoded", path=path) from None
     if text.startswith("\ufeff"):
         text = text[1:]
-    depth = nesting_depth(text)
-    if depth > MAX_DEPTH:
-        raise SessionFormatError(f"the JSON is nested {depth:,} levels deep (at most "
-                                 f"{MAX_DEPTH}); this is not a session file", path=path)
     try:
-        return json.loads(text, object_pairs_hook=_pairs, parse_int=_int, parse_float=_float,
-                          parse_constant=_constant)
+        value = json.loads(text, object_pairs_hook=_pairs, parse_int=_int, parse_float=_float,
+                           parse_constant=_constant)
+        if isinstance(value, (dict, list)) and _deeper_than(value, MAX_DEPTH):
+            raise RecursionError
+        return value
+    except RecursionError:  # the parser stops by itself far below any danger
+        raise SessionFormatError(f"the JSON is nested {nesting_depth(data):,} levels deep (at "
+                                 f"most {MAX_DEPTH}); this is not a session file",
+                                 path=path) from None
     except json.JSONDecodeError as exc:
         raise SessionFormatError(
             f"invalid JSON at line {exc.lineno}, column {exc.colno}: {exc.msg}", path=path
@@ -119,7 +143,7 @@ def parse(data: bytes, *, path: str | None = None):
     except _Problem as exc:
         raise SessionFormatError(f"{_locate(text, exc.token)}holds {exc.what}",
                                  path=path) from None
-    except (ValueError, RecursionError, MemoryError) as exc:  # pragma: no cover - bounded above
+    except (ValueError, MemoryError) as exc:  # pragma: no cover - bounded above
         raise SessionFormatError(f"the JSON cannot be read: {type(exc).__name__}",
                                  path=path) from None
 

@@ -16,6 +16,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import ProcessingError, SessionStateError
+from .codec import decode_array, encode_array
 from .params import Param, ParamProblem
 from .records import table_from_json
 from .steps import (
@@ -52,12 +53,17 @@ class Load(StepKind):
         if src not in ctx.sources:
             raise SessionStateError(f"load step names source {src!r}, which the session does not hold")
         sp = ctx.sources[src]
-        rec = ctx.records.get(src, {})
+        rec = {k: v for k, v in ctx.records.get(src, {}).items() if k != "data_sha256"}
         # the source's identity as recorded: verify compares it with the source record, so an
         # edit of a recorded hash, size or metadata value is a mismatch
         result = _spectrum_result(sp) | {"source": {k: rec.get(k) for k in _SOURCE_FIELDS}}
         return (State(spectrum=sp), result,
                 f"loaded {sp.x.size} points, {sp.x[0]:.6g}–{sp.x[-1]:.6g} cm-1 ({sp.y_kind})")
+
+    def restore(self, state, params, result, ctx):
+        if params["source"] not in ctx.sources:
+            return self.apply(state, params, ctx)[0]  # names the missing source
+        return State(spectrum=ctx.sources[params["source"]])  # no hashing: verify does that
 
 
 @register_step
@@ -68,6 +74,15 @@ class Crop(StepKind):
     argument_error = ProcessingError
 
     def apply(self, state, params, ctx):
+        new, cleared, sp = self._cropped(state, params)
+        return (new, _with_cleared(_spectrum_result(sp), cleared),
+                f"cropped to {sp.x[0]:.6g}–{sp.x[-1]:.6g} cm-1" + cleared_text(cleared))
+
+    def restore(self, state, params, result, ctx):
+        return self._cropped(state, params)[0]  # the same state, without hashing the result
+
+    @staticmethod
+    def _cropped(state: State, params: dict):
         from ..processing import crop
 
         sp = crop(state.require_spectrum(), params["lo"], params["hi"])
@@ -75,8 +90,7 @@ class Crop(StepKind):
         keep = (peaks["position"] >= sp.x[0]) & (peaks["position"] <= sp.x[-1])
         new, cleared = drop_dependents(state, spectrum=sp, baseline=None,
                                        peaks=peaks[keep].reset_index(drop=True))
-        return (new, _with_cleared(_spectrum_result(sp), cleared),
-                f"cropped to {sp.x[0]:.6g}–{sp.x[-1]:.6g} cm-1" + cleared_text(cleared))
+        return new, cleared, sp
 
 
 @register_step
@@ -92,6 +106,12 @@ class ToAbsorbance(StepKind):
         new, cleared = drop_dependents(state, spectrum=sp, baseline=None, peaks=_no_peaks(state))
         return (new, _with_cleared(_spectrum_result(sp), cleared),
                 "converted to absorbance" + cleared_text(cleared))
+
+    def restore(self, state, params, result, ctx):
+        from ..processing import to_absorbance
+
+        sp = to_absorbance(state.require_spectrum())  # the same state, without hashing it
+        return drop_dependents(state, spectrum=sp, baseline=None, peaks=_no_peaks(state))[0]
 
 
 @register_step
@@ -134,9 +154,23 @@ class SubtractBaseline(StepKind):
             "baseline_mean": float(b.mean()), "baseline_min": float(b.min()),
             "baseline_max": float(b.max()), "baseline_first": float(b[0]), "baseline_last": float(b[-1]),
         }
+        result["baseline"] = encode_array(b)  # reopening subtracts it again, without fitting
         new, cleared = drop_dependents(state, spectrum=sp, baseline=b, peaks=_no_peaks(state))
         return (new, _with_cleared(result, cleared),
                 f"subtracted a {method} baseline (mean {b.mean():.4g})" + cleared_text(cleared))
+
+    def restore(self, state, params, result, ctx):
+        recorded = result.get("baseline")
+        if not isinstance(recorded, dict):
+            return self.apply(state, params, ctx)[0]  # recorded without the baseline itself
+        b, ok = decode_array(recorded, where="subtract_baseline result.baseline")
+        sp = state.require_spectrum()
+        if not ok or b.shape != sp.y.shape or sp.y_kind == "transmittance" \
+                or not np.all(np.isfinite(b)):
+            raise RecordMismatch("the recorded baseline does not fit the spectrum")
+        new, _ = drop_dependents(state, spectrum=sp.replace(y=sp.y - b), baseline=b,
+                                 peaks=_no_peaks(state))
+        return new
 
 
 def _direction(sp) -> str:

@@ -112,7 +112,7 @@ class Session:
 
     def _add_source(self, record: dict, spectrum: Spectrum) -> None:
         record = dict(record)
-        record["data_sha256"] = spectrum.data_sha256()
+        record.pop("data_sha256", None)  # computed when asked for (see sources)
         self._sources.append(record)
         self._source_spectra[record["id"]] = spectrum
 
@@ -476,8 +476,15 @@ class Session:
 
     @property
     def sources(self) -> list[dict]:
-        """Where the data came from: id, path, sha256, size, format (copies)."""
-        return [{k: v for k, v in r.items()} for r in self._sources]
+        """Where the data came from: id, path, sha256 (of the file), size, format, y_kind,
+        meta, read_options and ``data_sha256`` (of the embedded x then y as little-endian
+        float64), as copies."""
+        out = []
+        for rec in self._sources:
+            if "data_sha256" not in rec:  # hashed once, when first asked for
+                rec["data_sha256"] = self._source_spectra[rec["id"]].data_sha256()
+            out.append(dict(rec))
+        return out
 
     def __repr__(self) -> str:
         sp = self._states[-1].spectrum
@@ -515,10 +522,6 @@ class Session:
         :attr:`history` and :meth:`view`.
         """
         mismatches = list(self._source_problems)
-        for rec in self._sources:
-            sp = self._source_spectra[rec["id"]]
-            if sp.data_sha256() != rec["data_sha256"]:  # pragma: no cover - spectra are immutable
-                mismatches.append(f"source {rec['id']}: data changed in memory")
         state = State()
         checked = 0
         for i, step in enumerate(self._steps):

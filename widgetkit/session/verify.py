@@ -65,6 +65,42 @@ def _close(a: float, b: float, rtol: float) -> bool:
     return abs(a - b) <= rtol * max(abs(a), abs(b)) or abs(a - b) <= 1e-300
 
 
+def _is_array(value) -> bool:
+    return isinstance(value, dict) and value.get("encoding") == "base64" and "sha256" in value
+
+
+def _compare_arrays(recorded: dict, replayed: dict, *, rtol: float, where: str,
+                    out: list[str]) -> None:
+    """Encoded arrays compare by value: within ``rtol`` of the larger array's largest
+    magnitude, element by element (their bytes may differ in the last bits)."""
+    import numpy as np
+
+    from ..errors import SessionFormatError
+    from .codec import decode_array
+
+    try:
+        a, ok = decode_array(recorded, where=where)
+        b, _ = decode_array(replayed, where=where)
+    except SessionFormatError as exc:
+        out.append(f"{where}: the recorded array cannot be read ({exc})")
+        return
+    if not ok:
+        out.append(f"{where}: the recorded array does not match its recorded sha256")
+    if a.shape != b.shape:
+        out.append(f"{where}: recorded shape {list(a.shape)}, replayed {list(b.shape)}")
+        return
+    if a.size == 0:
+        return
+    diff = np.abs(a - b)
+    scale = max(float(np.max(np.abs(a))), float(np.max(np.abs(b))))
+    bad = ~(diff <= max(rtol * scale, 1e-300))
+    if bad.any():
+        i = int(np.argmax(np.where(bad, diff, -1.0)))
+        out.append(f"{where}: {int(bad.sum())} of {a.size} values differ, the most at index {i}: "
+                   f"recorded {a.flat[i]!r}, replayed {b.flat[i]!r} (tolerance {rtol:g} of the "
+                   f"largest value)")
+
+
 def compare_results(recorded, replayed, *, rtol: float, where: str, out: list[str],
                     limit: int = 5) -> None:
     """Append to ``out`` a line for every difference between two JSON values.
@@ -86,6 +122,9 @@ def compare_results(recorded, replayed, *, rtol: float, where: str, out: list[st
             if not (a != a and b != b):
                 out.append(f"{where}: recorded {recorded!r}, replayed {replayed!r} "
                            f"(tolerance {rtol:g} relative)")
+        return
+    if _is_array(recorded) and _is_array(replayed):
+        _compare_arrays(recorded, replayed, rtol=rtol, where=where, out=out)
         return
     if isinstance(recorded, dict) and isinstance(replayed, dict):
         for k in recorded.keys() | replayed.keys():
