@@ -158,3 +158,36 @@ def test_unicode_digits_are_not_numbers(tmp_path, monkeypatch):
     # Python's float() takes Arabic-Indic digits; a spectrum file's numbers are ASCII
     line, reason = both(write(tmp_path, "x,absorbance\n1,2\n2,\u0663\n3,4\n"), monkeypatch)
     assert line == 3 and "not a number" in reason
+
+
+CSV_CORPUS = Path("/usr/share/nodejs/csv-spectrum/csvs")
+
+
+@pytest.mark.slow
+def test_a_public_corpus_of_awkward_csv_files_gives_only_format_errors(tmp_path, monkeypatch):
+    # csv-spectrum (BSD-2-Clause), a public test corpus of CSV edge cases: quoted commas and
+    # line breaks, escaped quotes, CR LF, UTF-8; Debian package node-csv-spectrum
+    if not CSV_CORPUS.is_dir():
+        pytest.skip("the public CSV corpus is not installed (apt-get install node-csv-spectrum)")
+    files = sorted(CSV_CORPUS.glob("*.csv"))
+    assert len(files) >= 10
+    for f in files:
+        outcome = both(f, monkeypatch, y_kind="intensity")  # both passes agree
+        assert isinstance(outcome, tuple), f.name  # none of them holds a spectrum
+        # three numeric rows appended make a spectrum only where the layout allows one
+        p = write(tmp_path, f.read_bytes() + b"\n10,20,30\n11,21,31\n12,22,32\n", f.name)
+        both(p, monkeypatch, y_kind="intensity")
+
+
+def test_a_row_of_units_under_the_names_is_merged_into_the_labels(tmp_path, monkeypatch):
+    p = write(tmp_path, "Wavelength,Transmittance\nnm,%\n2000,50\n2500,60\n3000,70\n")
+    s = both(p, monkeypatch)
+    assert s.meta["columns"] == ["Wavelength (nm)", "Transmittance (%)"]
+    assert s.meta["x_unit"] == "nm" and s.y.tolist() == [0.7, 0.6, 0.5]  # 70 %, 60 %, 50 %
+
+
+def test_spreadsheet_rows_with_empty_trailing_cells_are_read(tmp_path, monkeypatch):
+    p = write(tmp_path, "wavenumber (cm-1),absorbance,,\n1,0.5,,\n2,0.25,,\n3,0.125,,\n")
+    s = both(p, monkeypatch)
+    assert s.y.tolist() == [0.5, 0.25, 0.125] and s.meta["columns"] == [
+        "wavenumber (cm-1)", "absorbance"]

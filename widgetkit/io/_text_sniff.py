@@ -43,11 +43,13 @@ class Layout:
 
 
 def split_cells(line: str, delimiter: str | None, trailing: bool = False) -> list[str]:
-    """Cells of a line, blanks and enclosing double quotes removed; with ``trailing``, one
-    separator at the end (``1.0;2.0;``) makes no cell."""
+    """Cells of a line, blanks and enclosing double quotes removed; with ``trailing``,
+    separators at the end (``1.0;2.0;`` or ``1.0,2.0,,`` as spreadsheets write) make no
+    cells."""
     cells = line.split() if delimiter is None else line.split(delimiter)
-    if trailing and len(cells) > 1 and not cells[-1].strip():
-        cells.pop()
+    if trailing:
+        while len(cells) > 1 and not cells[-1].strip().strip('"').strip():
+            cells.pop()
     return [c.strip().strip('"').strip() for c in cells]
 
 
@@ -108,6 +110,21 @@ def _header_names(line: str, delim: str | None, ncols: int) -> list[str] | None:
     return None
 
 
+def _with_unit_row(above: str, names: list[str], delim, ncols: int) -> list[str]:
+    """Names and a row of units below them merged: ``["Wavenumber", "Absorbance"]`` over
+    ``["cm-1", "AU"]`` gives ``["Wavenumber (cm-1)", "Absorbance (AU)"]``; ``names`` as they
+    are when the last header row is not a row of units."""
+    first = _header_names(above, delim, ncols)
+    if first is None:
+        return names
+    from ._labels import parse_x_label
+
+    unit, quantity = parse_x_label(names[0])
+    if unit is None or quantity is not None or len(names[0]) > 12:
+        return names  # the last row does not start with a bare x unit
+    return [f"{a} ({b})" for a, b in zip(first, names, strict=True)]
+
+
 def _sniff_text(lines: list[str]) -> Layout | None:
     header: list[str] = []
     comments: list[str] = []
@@ -135,6 +152,8 @@ def _sniff_text(lines: list[str]) -> Layout | None:
             continue
         delim, dec, ncols, trailing = g
         names = _header_names(header[-1], delim, ncols) if header else None
+        if names is not None and len(header) > 1:
+            names = _with_unit_row(header[-2], names, delim, ncols)
         if names is None and comments and last_comment_at == i - 1:
             names = _header_names(comments[-1], delim, ncols)
         return Layout(delim, dec, ncols, i, names, trailing, header, comments[:20])
