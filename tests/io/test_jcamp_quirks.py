@@ -276,3 +276,20 @@ def test_an_absorption_coefficient_unit_is_written_back_and_percent_never_is(tmp
     assert np.array_equal(again.y, t.y)  # written as a fraction: not divided twice
     with pytest.raises(SpectrumFormatError, match="form must be"):
         wk.write_jcamp(s, tmp_path / "x.jdx", form="PACKED")
+
+
+def test_a_wrong_npoints_is_read_with_warn_only_when_the_line_x_values_place_the_data(
+        tmp_path):
+    x = np.linspace(1000.0, 1100.0, 401)
+    s = wk.Spectrum(x, np.exp(-((x - 1040.0) / 3.0) ** 2), y_kind="absorbance")
+    text = Path(wk.write_jcamp(s, tmp_path / "w.jdx")).read_text()
+    wrong = write(tmp_path, text.replace("##NPOINTS=401", "##NPOINTS=406"), "n.jdx")
+    with pytest.raises(SpectrumFormatError, match="NPOINTS=406"):
+        read_jcamp(wrong)
+    back = read_jcamp(wrong, checks="warn")  # every line X fits 401 points: self-consistency
+    assert np.array_equal(back.x, x) and "NPOINTS=406" in back.meta["warnings"][0]
+    lines = text.splitlines()
+    data_end = lines.index("##END=")
+    cut = "\n".join(lines[:data_end - 4] + lines[data_end:]) + "\n"  # the last lines lost
+    with pytest.raises(SpectrumFormatError, match="NPOINTS=401"):
+        read_jcamp(write(tmp_path, cut, "c.jdx"), checks="warn")

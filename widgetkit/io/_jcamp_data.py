@@ -87,16 +87,25 @@ def _xydata(blk, body: bytes, line: int, xf: float, yf: float, path: str, checks
     for at, before, after in d.ycheck_failures:
         checks.warnings.append(f"Y-check failed at line {at}: {after!r} starts the line, the "
                                f"line before ended with {before!r}; kept {after!r}")
-    if d.y.size != n:
-        raise SpectrumFormatError(
-            f"##NPOINTS={n} but ##XYDATA= (lines {line + 1}-{int(d.line_number[-1])}) holds "
-            f"{d.y.size} ordinates; the file is truncated or NPOINTS is wrong",
-            path=path, line=npts[1])
     first = number(labels["FIRSTX"], "FIRSTX", path)
     last = number(labels["LASTX"], "LASTX", path)
     if first == last:
         raise SpectrumFormatError("##FIRSTX= equals ##LASTX=; x cannot be spaced", path=path,
                                   line=labels["LASTX"][1])
+    if d.y.size != n:
+        what = (f"##NPOINTS={n} but ##XYDATA= (lines {line + 1}-{int(d.line_number[-1])}) "
+                f"holds {d.y.size} ordinates")
+        count = d.y.size
+        if checks.mode != "warn" or count < 2 or d.ycheck_failures or _line_x_off(
+                d, first, (last - first) / (count - 1), xf)[0].any():
+            raise SpectrumFormatError(
+                f"{what}; the file is truncated or NPOINTS is wrong (checks='warn' reads the "
+                "data only when every line X places them between FIRSTX and LASTX and every "
+                "Y-check holds)",
+                path=path, line=npts[1])
+        checks.note(f"{what}; x placed from FIRSTX, LASTX and the {count} ordinates, which "
+                    "every line X confirms")
+        n = count
     dx = (last - first) / (n - 1)
     off = _check_line_x(d, first, dx, xf, labels, path, checks)
     _check_deltax(labels, first, last, n, dx, path, checks, line_x_ok=not off)
@@ -106,12 +115,17 @@ def _xydata(blk, body: bytes, line: int, xf: float, yf: float, path: str, checks
     return np.linspace(first, last, n), y
 
 
+def _line_x_off(d, first, dx, xf):
+    """Which line X values disagree with FIRSTX + i dx; the expected x and the tolerance."""
+    expected = first + d.line_first * dx
+    tol = abs(dx) + d.line_x_step * abs(xf) + 1e-9 * max(abs(first), abs(expected[-1]))
+    return np.abs(d.line_x * xf - expected) > tol, expected, tol
+
+
 def _check_line_x(d, first, dx, xf, labels, path, checks) -> bool:
     """Every line's X (times XFACTOR) must be the x of its first ordinate, to within one
     spacing plus its written rounding. Returns True when a line was off."""
-    expected = first + d.line_first * dx
-    tol = abs(dx) + d.line_x_step * abs(xf) + 1e-9 * max(abs(first), abs(expected[-1]))
-    off = np.abs(d.line_x * xf - expected) > tol
+    off, expected, tol = _line_x_off(d, first, dx, xf)
     if not off.any():
         checks.results["line X"] = f"all {d.line_x.size} agree with FIRSTX, LASTX and NPOINTS"
         return False

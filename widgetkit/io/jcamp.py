@@ -136,8 +136,9 @@ def read_jcamp(path, *, x_unit: str | None = None, y_kind: str | None = None,
         ``meta["warnings"]``. The checks: FIRSTY, LASTY (and FIRSTX, LASTX of point lists)
         against the decoded data to their written digits; every line's X against FIRSTX,
         LASTX and NPOINTS; the Y-check (``"warn"`` keeps the value that starts the line);
-        ``##BLOCKS=``; a missing final ``##END=``. NPOINTS must always match the data (x
-        could not be placed otherwise). A nominal ``##DELTAX=`` is only a warning.
+        ``##BLOCKS=``; a missing final ``##END=``; NPOINTS against the number of ordinates
+        (``"warn"`` reads the data only when every line X places them between FIRSTX and
+        LASTX). A nominal ``##DELTAX=`` is only a warning.
     percent : bool, optional
         Transmittance only: True when the values are percent, False for a fraction. Default:
         from ``##YUNITS=`` ("%", "PERCENT"), else percent when max(y) > 2.
