@@ -26,7 +26,8 @@ _CURVES = ("x", "y", "model_y", "baseline_y", "components", "residual")
 #: most parameters given confidence intervals in one fit (each costs many refits)
 MAX_CONF_INTERVAL = 8
 #: most model values (lines × points) one fit may hold: its components alone are 8 bytes each
-MAX_FIT_CELLS = 200_000_000
+#: (800 MB at this bound), whether fitted or rebuilt from a record
+MAX_FIT_CELLS = 100_000_000
 #: the registered line shapes with their width parameters, and the baselines (a test keeps
 #: these equal to the registries of widgetkit.lines, which this module must not import)
 SHAPE_WIDTHS = {"gaussian": ("sigma",), "lorentzian": ("gamma",), "voigt": ("sigma", "gamma"),
@@ -156,6 +157,7 @@ class FitLines(StepKind):
             raise RecordMismatch("the line fit record lacks its settings or line ids")
         _check_fit_record(state, table, spec)
         sp = state.require_spectrum()
+        _check_fit_size(len(table), sp, spec.get("region"))
         curves: dict = {}
 
         def curve(name):
