@@ -21,20 +21,15 @@ from typing import Any
 
 import pandas as pd
 
-from ..errors import SessionFormatError, SessionStateError, WidgetkitError
+from ..errors import SessionFormatError, SessionStateError
 from ..spectrum import Spectrum
 from . import codec, persist
 from .params import ParamProblem, show
 from .steps import STEP_KINDS, Context, State, Step, software_versions, utc_now
-from .verify import VerifyReport, compare_results, cut, without_paths
+from .verify import VerifyReport, replay_and_compare
+from .views import ASSIGNMENT_COLUMNS, CONSTANT_COLUMNS, LINE_COLUMNS, StateViews
 
-__all__ = ["Session", "SessionEvent"]
-
-LINE_COLUMNS = ["line_id", "position", "position_err", "area", "area_err", "height", "fwhm",
-                "fwhm_err"]
-ASSIGNMENT_COLUMNS = ["line_id", "position", "isotopologue", "v_upper", "v_lower", "J_upper",
-                      "J_lower", "label", "calc", "obs_minus_calc", "outlier"]
-CONSTANT_COLUMNS = ["isotopologue", "name", "value", "stderr", "unit"]
+__all__ = ["Session", "SessionEvent", "LINE_COLUMNS", "ASSIGNMENT_COLUMNS", "CONSTANT_COLUMNS"]
 
 
 def checked_params(kind: str, params: dict) -> dict:
@@ -65,7 +60,7 @@ class SessionEvent:
     index: int
 
 
-class Session:
+class Session(StateViews):
     """A recorded, replayable analysis of one spectrum.
 
     Parameters
@@ -131,13 +126,23 @@ class Session:
 
     @classmethod
     def load(cls, path: str | os.PathLike) -> Session:
-        """Reopen a saved session and replay its steps.
+        """Reopen a saved session.
+
+        The file is checked before anything is computed (strict JSON, the schema, every
+        step's parameters), the embedded data are decoded and their sha256 checked, and
+        the state after each step is rebuilt from the recorded results
+        (:meth:`StepKind.restore`: no fit is run again). A step whose record does not fit
+        the state before it is computed instead, and :meth:`verify` lists it;
+        :meth:`verify` runs every step again.
 
         Raises
         ------
         SessionFormatError
-            When the file is not valid JSON, fails the schema, is of a newer
-            version than this code, or a step cannot be replayed.
+            When the file is not strict JSON, fails the schema, holds a malformed step
+            (naming it from 0 and the field), is of a newer version than this code, or a
+            step can be neither restored nor computed.
+        OSError
+            When the file cannot be read at all (missing, a folder, no permission).
         """
         doc = codec.read_document(path)
         persist.check_steps(doc["steps"], str(path))
@@ -410,82 +415,6 @@ class Session:
         if errors:
             raise errors[0]
 
-    # ------------------------------------------------------------------ views of the state
-    @property
-    def spectrum(self) -> Spectrum:
-        """The current processed spectrum."""
-        return self.state.require_spectrum()
-
-    @property
-    def source_spectrum(self) -> Spectrum:
-        """The raw spectrum as loaded."""
-        return self._source_spectra[self._sources[0]["id"]]
-
-    @property
-    def baseline(self):
-        """The last baseline subtracted (ndarray on ``spectrum.x``) or None."""
-        return self.state.baseline
-
-    @property
-    def peaks(self) -> pd.DataFrame:
-        """The peak table: ``peak_id, position, height, snr`` (+ ``prominence, origin``)."""
-        return self.state.peaks.copy()
-
-    @property
-    def line_fit(self):
-        """The last accepted :class:`widgetkit.lines.LineFit`, or None."""
-        return self.state.line_fit
-
-    @property
-    def lines(self) -> pd.DataFrame:
-        """The fitted lines (columns as :func:`widgetkit.lines.fit`), empty before a fit."""
-        fit = self.state.line_fit
-        return pd.DataFrame(columns=LINE_COLUMNS) if fit is None else fit.table.copy()
-
-    @property
-    def fit_result(self):
-        """The lmfit result of the last accepted fit, or None."""
-        fit = self.state.line_fit
-        return None if fit is None else fit.result
-
-    @property
-    def assignment(self):
-        """The last band assignment / progression result object, or None."""
-        return self.state.assignment
-
-    @property
-    def assignments(self) -> pd.DataFrame:
-        a = self.state.assignment
-        return pd.DataFrame(columns=ASSIGNMENT_COLUMNS) if a is None else a.assignments.copy()
-
-    @property
-    def constants(self) -> pd.DataFrame:
-        """Fitted and derived constants: ``isotopologue, name, value, stderr, unit``."""
-        a = self.state.assignment
-        return pd.DataFrame(columns=CONSTANT_COLUMNS) if a is None else a.constants.copy()
-
-    @property
-    def locks(self) -> dict:
-        """Manual assignments: line_id -> labels."""
-        return {k: dict(v) for k, v in self.state.locks.items()}
-
-    @property
-    def history(self) -> list[Step]:
-        """The steps, oldest first (a copy)."""
-        return list(self._steps)
-
-    @property
-    def sources(self) -> list[dict]:
-        """Where the data came from: id, path, sha256 (of the file), size, format, y_kind,
-        meta, read_options and ``data_sha256`` (of the embedded x then y as little-endian
-        float64), as copies."""
-        out = []
-        for rec in self._sources:
-            if "data_sha256" not in rec:  # hashed once, when first asked for
-                rec["data_sha256"] = self._source_spectra[rec["id"]].data_sha256()
-            out.append(dict(rec))
-        return out
-
     def __repr__(self) -> str:
         sp = self._states[-1].spectrum
         return f"<Session: {len(self._steps)} steps, {sp!r}>"
@@ -521,25 +450,4 @@ class Session:
         source hash is a mismatch too. Steps are numbered from 0 (the load step), as in
         :attr:`history` and :meth:`view`.
         """
-        mismatches = list(self._source_problems)
-        state = State()
-        checked = 0
-        for i, step in enumerate(self._steps):
-            kind = STEP_KINDS[step.kind]
-            where = f"step {i} ({step.kind})"
-            try:
-                state, result, summary = kind.apply(state, dict(step.params), self._ctx)
-            except Exception as exc:  # a damaged file may make any computation fail
-                what = str(exc) if isinstance(exc, WidgetkitError) else \
-                    f"{type(exc).__name__}: {cut(str(exc), 200)}"
-                mismatches.append(f"{where}: replay failed: {what}")
-                break
-            checked += 1
-            result = json.loads(json.dumps(result, allow_nan=False))
-            compare_results(without_paths(step.result, kind.volatile),
-                            without_paths(result, kind.volatile), rtol=kind.tolerance,
-                            where=f"{where} result", out=mismatches)
-            if summary != step.summary:
-                mismatches.append(f"{where} summary: recorded {cut(step.summary)}, "
-                                  f"replayed {cut(summary)}")
-        return VerifyReport(ok=not mismatches, mismatches=mismatches, steps_checked=checked)
+        return replay_and_compare(self._steps, self._ctx, self._source_problems)

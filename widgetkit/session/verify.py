@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-__all__ = ["VerifyReport", "compare_results", "cut", "without_paths"]
+__all__ = ["VerifyReport", "compare_results", "cut", "replay_and_compare", "without_paths"]
 
 
 @dataclass(frozen=True)
@@ -148,3 +148,36 @@ def compare_results(recorded, replayed, *, rtol: float, where: str, out: list[st
         return
     if recorded != replayed:
         out.append(f"{where}: recorded {cut(recorded)}, replayed {cut(replayed)}")
+
+
+def replay_and_compare(steps: list, ctx, problems: list[str]) -> VerifyReport:
+    """Run every step again from the sources (``apply``, never ``restore``) and compare its
+    result and summary with the record; ``problems`` (found while opening: hashes, records
+    that had to be computed) are mismatches too. Steps are numbered from 0."""
+    import json
+
+    from ..errors import WidgetkitError
+    from .steps import STEP_KINDS, State
+
+    mismatches = list(problems)
+    state = State()
+    checked = 0
+    for i, step in enumerate(steps):
+        kind = STEP_KINDS[step.kind]
+        where = f"step {i} ({step.kind})"
+        try:
+            state, result, summary = kind.apply(state, dict(step.params), ctx)
+        except Exception as exc:  # a damaged file may make any computation fail
+            what = str(exc) if isinstance(exc, WidgetkitError) else \
+                f"{type(exc).__name__}: {cut(str(exc), 200)}"
+            mismatches.append(f"{where}: replay failed: {what}")
+            break
+        checked += 1
+        result = json.loads(json.dumps(result, allow_nan=False))
+        compare_results(without_paths(step.result, kind.volatile),
+                        without_paths(result, kind.volatile), rtol=kind.tolerance,
+                        where=f"{where} result", out=mismatches)
+        if summary != step.summary:
+            mismatches.append(f"{where} summary: recorded {cut(step.summary)}, "
+                              f"replayed {cut(summary)}")
+    return VerifyReport(ok=not mismatches, mismatches=mismatches, steps_checked=checked)
