@@ -55,7 +55,8 @@ ABS, DIF, DUP = 0, 1, 2
 #: (float64 holds 17 significant digits and exponents to about ±308)
 MAX_DIGITS, MAX_EXPONENT = 60, 400
 
-_POW10 = 10 ** np.arange(19, dtype=np.int64)
+#: 10**k for k = 0..18 in int64
+POW10 = 10 ** np.arange(19, dtype=np.int64)
 _SIGNED_EXP = re.compile(rb"[0-9.][eE][+-][0-9]")
 _ASDF_LETTERS = re.compile(rb"[@A-DF-Za-df-z%]")
 _ANY_E = re.compile(rb"[eE]")
@@ -149,7 +150,7 @@ def tokenise_fast(a: np.ndarray, line0: int, path) -> Tokens | str | None:
         return "long"
     first_digit = np.cumsum(cnt) - cnt
     power = cnt[t] - 1 - (np.arange(db.size) - first_digit[t])
-    digits = np.abs(VAL[a[db]]).astype(np.int64) * _POW10[power]
+    digits = np.abs(VAL[a[db]]).astype(np.int64) * POW10[power]
     mantissa = np.add.reduceat(digits, first_digit)
     dots = np.flatnonzero(cls == _DOT)
     exponent = np.zeros(ntok, np.int64)

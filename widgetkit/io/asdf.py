@@ -43,6 +43,7 @@ from ._asdf_tokens import (
     DIF,
     DUP,
     MAX_DIGITS,
+    POW10,
     Tokens,
     ambiguous_exponents,
     fail,
@@ -241,14 +242,11 @@ def _exact_ordinates(yk, ym, ye, yl, line0, path):
         magnitude = np.abs(ym.astype(np.float64))
         bound = float(np.sum(magnitude if exact_ints else magnitude * 10.0 ** shift))
         if bound < 2.0 ** 61:  # every partial sum, and their differences, fit in int64
-            scaled = ym if exact_ints else ym * _POW10_I64[shift]
+            scaled = ym if exact_ints else ym * POW10[shift]
             return _running(yk, scaled), e_min
     scaled = np.array([int(m) * 10 ** int(s) for m, s in zip(ym.tolist(), shift.tolist(),
                                                               strict=True)], object)
     return _running(yk, scaled), e_min
-
-
-_POW10_I64 = 10 ** np.arange(19, dtype=np.int64)
 
 
 def _running(yk, scaled):
@@ -295,10 +293,9 @@ def _assemble(toks: Tokens, line0, path, limit, ycheck) -> XYDataLines:
             pairs = _floats(np.concatenate((exact[bad - 1], exact[bad])), e_common)
             before, after = pairs[:bad.size].tolist(), pairs[bad.size:].tolist()
             if ycheck != "warn":
-                k = 0
-                raise fail(f"Y-check failed: this line starts with ordinate {after[k]!r} but "
-                           f"the previous line ended with {before[k]!r}; the data are corrupt "
-                           "or a line is missing", path, line0 + yl[bad[k]])
+                raise fail(f"Y-check failed: this line starts with ordinate {after[0]!r} but "
+                           f"the previous line ended with {before[0]!r}; the data are corrupt "
+                           "or a line is missing", path, line0 + yl[bad[0]])
             failures = [(int(line0 + yl[b]), float(u), float(v))
                         for b, u, v in zip(bad.tolist(), before, after, strict=True)]
             # keep the line's own (absolute) value for the point both lines hold

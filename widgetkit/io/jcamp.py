@@ -48,11 +48,13 @@ from ._labels import resolution_cm1, sample_state, technique_of
 
 __all__ = ["read_jcamp", "write_jcamp", "normalise_label", "yfactor_for"]
 
-_X_UNITS = {"1/CM": "cm-1", "CM-1": "cm-1", "CM1": "cm-1", "NANOMETERS": "nm", "NM": "nm",
+#: ##XUNITS= values after normalise_label ("1/CM" -> "1CM", "CM-1" -> "CM1")
+_X_UNITS = {"1CM": "cm-1", "CM1": "cm-1", "NANOMETERS": "nm", "NM": "nm",
             "MICROMETERS": "um", "MICRONS": "um", "UM": "um"}
 #: a Raman block whose x all lie above this (cm⁻¹) holds absolute wavenumbers, not shifts
-#: (common practice: shifts of vibrational bands stay below about 4500 cm⁻¹, while excitation
-#: lines lie above 9000 cm⁻¹, the 1064 nm Nd:YAG line at 9398 cm⁻¹ being the lowest in use)
+#: (common practice, figures from memory: shifts of vibrational bands stay below about
+#: 4500 cm⁻¹, while excitation lines lie above 9000 cm⁻¹; the 1064 nm line of FT-Raman
+#: instruments, 9398 cm⁻¹, is the longest wavelength in common use)
 RAMAN_ABSOLUTE_ABOVE = 9000.0
 
 
