@@ -191,3 +191,22 @@ def test_spreadsheet_rows_with_empty_trailing_cells_are_read(tmp_path, monkeypat
     s = both(p, monkeypatch)
     assert s.y.tolist() == [0.5, 0.25, 0.125] and s.meta["columns"] == [
         "wavenumber (cm-1)", "absorbance"]
+
+
+def test_a_file_that_cannot_be_opened_is_a_format_error_naming_it(tmp_path, monkeypatch):
+    import builtins
+
+    p = write(tmp_path, "x,absorbance\n1,2\n2,3\n3,4\n")
+    real_open = builtins.open
+
+    def refusing(file, *args, **kwargs):
+        if str(file) == str(p.resolve()):
+            raise PermissionError(13, "Permission denied")
+        return real_open(file, *args, **kwargs)
+
+    monkeypatch.setattr(builtins, "open", refusing)
+    with pytest.raises(SpectrumFormatError, match="Permission denied") as info:
+        read_text(p)
+    assert info.value.path == str(p.resolve())
+    with pytest.raises(SpectrumFormatError, match="cannot read the file"):
+        read_text(tmp_path)  # a folder cannot be opened as a file either

@@ -189,7 +189,14 @@ def sniff_file(path: str) -> Layout:
     """The layout of a text file (see the module notes); raises
     :class:`SpectrumFormatError` for an empty or binary file or one without a data row."""
     size = HEAD_BYTES
-    with open(path, "rb") as f:
+    try:
+        f = open(path, "rb")  # noqa: SIM115 - closed by the with block below
+    except FileNotFoundError:
+        raise
+    except OSError as exc:
+        raise SpectrumFormatError(f"cannot read the file ({exc.strerror or exc}); give the "
+                                  "path of a readable spectrum file", path=path) from exc
+    with f:
         head = f.read(size + 1)
         if not head:
             raise SpectrumFormatError("the file is empty; expected columns of numbers",

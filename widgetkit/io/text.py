@@ -218,8 +218,6 @@ def read_text(path, *, x_unit: str | None = None, y_kind: str | None = None,
     options = {"x_unit": x_unit, "y_kind": y_kind,
                "y_column": int(y_column) if isinstance(y_column, np.integer) else y_column,
                "percent": percent}
-    if os.path.isdir(apath):
-        read_bytes(apath)  # raises the usual error for a folder
     layout = sniff_file(apath)
     ycol = _select_y(layout, y_column, apath)
     names = layout.names
