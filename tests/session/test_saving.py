@@ -135,3 +135,28 @@ def test_an_edit_of_a_number_in_the_metadata_is_a_mismatch(tmp_path):
     path.write_text(json.dumps(doc))
     report = wk.Session.load(path).verify()
     assert any("step 0 (load) result.source.meta.lab.T" in m for m in report.mismatches)
+
+
+def test_concurrent_saves_of_one_file_leave_one_whole_file_and_no_temporaries(session, tmp_path):
+    path = tmp_path / "s.json"
+    session.save(path)
+    code = ("import sys, widgetkit as wk\n"
+            "s = wk.Session.load(sys.argv[1])\n"
+            "for i in range(4):\n"
+            "    s.note(f'writer {sys.argv[2]} save {i}'); s.save(sys.argv[1])\n")
+    procs = [subprocess.Popen([sys.executable, "-c", code, str(path), str(k)])
+             for k in range(4)]
+    assert all(p.wait(timeout=300) == 0 for p in procs)
+    assert [p.name for p in tmp_path.iterdir()] == ["s.json"]
+    last = wk.Session.load(path)
+    assert last.verify().ok and last.history[-1].summary.startswith("note: writer")
+
+
+def test_metadata_is_recorded_as_plain_data_or_refused_naming_the_entry():
+    import numpy as np
+
+    x = np.linspace(1000.0, 1100.0, 40)
+    s = wk.Session(wk.Spectrum(x, np.sin(x), meta={"T": np.float64(296.0), "range": (1, 2)}))
+    assert s.sources[0]["meta"] == {"T": 296.0, "range": [1, 2]}
+    with pytest.raises(wk.SessionStateError, match="meta.lab.T must hold finite numbers, got nan"):
+        wk.Session(wk.Spectrum(x, np.sin(x), meta={"lab": {"T": float("nan")}}))

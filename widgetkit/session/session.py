@@ -24,7 +24,7 @@ import pandas as pd
 from ..errors import SessionFormatError, SessionStateError
 from ..spectrum import Spectrum
 from . import codec, persist
-from .params import ParamProblem, show
+from .params import ParamProblem, check_json, show
 from .steps import STEP_KINDS, Context, State, Step, software_versions, utc_now
 from .verify import VerifyReport, replay_and_compare
 from .views import ASSIGNMENT_COLUMNS, CONSTANT_COLUMNS, LINE_COLUMNS, StateViews
@@ -42,13 +42,15 @@ def checked_params(kind: str, params: dict) -> dict:
         raise k.argument_error(f"{kind}: argument {exc.field!r} {exc.problem}") from None
 
 
-def _json_params(kind: str, params: dict) -> dict:
+def _plain_meta(meta: dict) -> dict:
+    """The spectrum's metadata as plain JSON for the record (numpy values and tuples
+    converted); what JSON cannot hold is refused naming the entry."""
     try:
-        return json.loads(json.dumps(params, allow_nan=False))
-    except (TypeError, ValueError) as exc:
+        return check_json(dict(meta), "meta")
+    except ParamProblem as exc:
         raise SessionStateError(
-            f"{kind}: parameters must be plain data (numbers, strings, lists, dicts): {exc}"
-        ) from None
+            f"Session: the spectrum's metadata cannot be recorded: {exc.field} {exc.problem}; "
+            "drop or replace that entry (spectrum.replace(meta=...))") from None
 
 
 @dataclass(frozen=True)
@@ -86,7 +88,7 @@ class Session(StateViews):
         record = {
             "id": "src1", "path": src.get("path"), "sha256": src.get("sha256"),
             "size": src.get("size"), "format": src.get("format"), "y_kind": spectrum.y_kind,
-            "meta": _json_params("load", spectrum.meta), "read_options": dict(read_options or {}),
+            "meta": _plain_meta(spectrum.meta), "read_options": dict(read_options or {}),
         }
         self._init_empty()
         self._add_source(record, spectrum)
