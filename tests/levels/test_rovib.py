@@ -176,7 +176,7 @@ def test_locked_lines_keep_their_labels(hcl_band):
     df, _ = hcl_band
     k = df.index[(df["iso"] == "1H-35Cl") & (df["Jl"] == 2) & (df["Ju"] == 3)][0]
     lid = int(df.loc[k, "line_id"])
-    res = assign_rovibrational(df, HCL_MOL, locks={lid: {"label": "R(2)"}})
+    res = assign_rovibrational(df, HCL_MOL, locks={lid: {"label": "R(2)", "isotopologue": "1H-35Cl"}})
     a = res.assignments.set_index("line_id")
     assert a.loc[lid, "locked"] and a.loc[lid, "label"] == "R(2)"
     assert correct(res, df).all()
@@ -188,7 +188,8 @@ def test_two_locks_seed_the_band_when_the_origin_region_is_missing(hcl_band):
     d = df[~low]
     r2 = int(d.loc[(d["iso"] == "1H-35Cl") & (d["Jl"] == 2) & (d["Ju"] == 3), "line_id"].iloc[0])
     p2 = int(d.loc[(d["iso"] == "1H-35Cl") & (d["Jl"] == 2) & (d["Ju"] == 1), "line_id"].iloc[0])
-    res = assign_rovibrational(d, HCL_MOL, locks={r2: {"label": "R(2)"}, p2: {"label": "P(2)"}})
+    res = assign_rovibrational(d, HCL_MOL, locks={r2: {"label": "R(2)", "isotopologue": "1H-35Cl"},
+                                                     p2: {"label": "P(2)", "isotopologue": "1H-35Cl"}})
     assert correct(res, d).mean() > 0.95
 
 

@@ -45,8 +45,10 @@ def test_missing_columns_and_duplicate_ids(lines):
 
 def test_contradictory_locks(lines):
     a, b = (int(v) for v in lines["line_id"].iloc[:2])
+    h35 = "1H-35Cl"
     with pytest.raises(wk.AssignmentError, match="contradictory locks"):
-        assign_rovibrational(lines, MOL, locks={a: {"label": "R(0)"}, b: {"label": "R(0)"}})
+        assign_rovibrational(lines, MOL, locks={a: {"label": "R(0)", "isotopologue": h35},
+                                                b: {"label": "R(0)", "isotopologue": h35}})
     with pytest.raises(wk.AssignmentError, match="contradicts"):
         assign_rovibrational(lines, MOL, locks={a: {"label": "R(0)", "J_upper": 3}})
     with pytest.raises(wk.AssignmentError, match="no Q branch"):
@@ -56,7 +58,8 @@ def test_contradictory_locks(lines):
     with pytest.raises(wk.AssignmentError, match="not an isotopologue"):
         assign_rovibrational(lines, MOL, locks={a: {"isotopologue": "1H-79Br"}})
     with pytest.raises(wk.AssignmentError, match="band being assigned"):
-        assign_rovibrational(lines, MOL, locks={a: {"label": "R(0)", "v_upper": 2}})
+        assign_rovibrational(lines, MOL, locks={a: {"label": "R(0)", "v_upper": 2,
+                                                    "isotopologue": h35}})
 
 
 def test_ambiguous_isotopologue_split_asks_for_a_lock():

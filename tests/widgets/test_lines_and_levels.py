@@ -130,17 +130,41 @@ def test_locking_and_clearing_one_line_are_session_steps(fitted):
     panel.assign_button.click()
     a = fitted.assignments
     lid = int(a["line_id"].iloc[0])
-    label = str(a["label"].iloc[0])
-    # a click on the first point of the Fortrat plot selects its line
+    label, iso = str(a["label"].iloc[0]), str(a["isotopologue"].iloc[0])
+    # a click on the first point of the Fortrat plot selects its line, label and isotopologue
     panel._on_point_click(panel.fortrat_obs, {"event": "element_click", "data": {"index": 0}})
     assert panel.edit_line.value == lid and panel.edit_label.value == label
+    assert panel.edit_isotopologue.value == iso
+    # lock it one J higher than the automatic label: the band is renumbered around the lock
+    branch, j = label[0], int(label[2:-1])
+    other = f"{branch}({j + 1})"
+    panel.edit_label.value = other
     panel.lock_button.click()
     assert fitted.history[-1].kind == "set_assignment", panel.status.value
-    assert fitted.history[-1].params == {"line_id": lid, "labels": {"label": label}}
+    assert fitted.history[-1].params == {"line_id": lid,
+                                         "labels": {"label": other, "isotopologue": iso}}
     assert "<td>locked</td>" in panel.assignment_table.value
+    assert fitted.assignments.set_index("line_id").loc[lid, "label"] == other
+    # the constants moved by many standard errors: said in the status line, and why in the panel
+    assert "wk-status-warning" in panel.status.value and "WARNING" in panel.status.value
+    assert "Doubtful" in panel.verdict.value and "numbering follows the lock" in panel.verdict.value
+    panel.unlock_button.click()
+    assert fitted.history[-1].kind == "unlock_assignment", panel.status.value
+    assert fitted.locks == {} and panel.verdict.value == ""
+    assert fitted.assignments.set_index("line_id").loc[lid, "label"] == label
     panel.clear_button.click()
     assert fitted.history[-1].kind == "clear_assignment"
     assert fitted.locks[lid] == {}
+
+
+def test_choosing_a_line_fills_its_label_and_isotopologue(fitted):
+    panel = LevelsPanel(fitted)
+    panel.assign_button.click()
+    a = fitted.assignments.set_index("line_id")
+    lid = int(a.index[-1])
+    panel.edit_line.value = lid
+    assert panel.edit_label.value == a.loc[lid, "label"]
+    assert panel.edit_isotopologue.value == a.loc[lid, "isotopologue"]
 
 
 def test_a_lock_without_a_label_says_what_to_type(fitted):

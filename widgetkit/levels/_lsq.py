@@ -12,7 +12,11 @@ Covariance convention (stated once, used everywhere in ``widgetkit.levels``):
   trusted unless the scatter shows they are too small (Birge ratio > 1), then
   the covariance is inflated; it is never shrunk below the stated errors;
 * without errors (unit weights): C = (AᵀA)⁻¹ · χ²/ν, the usual estimate from
-  the scatter; with ν = 0 degrees of freedom the errors are unknown (NaN).
+  the scatter;
+* with ν = 0 degrees of freedom (as many data as parameters) the fit passes
+  through every point and nothing tests the model or the stated errors: the
+  covariance is unknown (NaN) in both cases; ``cov_unscaled`` is still there
+  for predictions.
 """
 
 from __future__ import annotations
@@ -109,10 +113,12 @@ def weighted_lstsq(A, y, sigma=None, *, rcond: float = 1e-11) -> LinearFit:
     resid = y - A @ beta
     chi2 = float(np.sum((resid / s) ** 2))
     dof = n - p
-    if absolute:
-        scale = max(1.0, chi2 / dof) if dof > 0 else 1.0
+    if dof <= 0:
+        scale = float("nan")
+    elif absolute:
+        scale = max(1.0, chi2 / dof)
     else:
-        scale = chi2 / dof if dof > 0 else float("nan")
+        scale = chi2 / dof
     return LinearFit(beta, cov_u * scale, cov_u, resid, chi2, dof, scale, absolute)
 
 

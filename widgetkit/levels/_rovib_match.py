@@ -122,12 +122,16 @@ def match(data: Lines, locks: dict, models: dict, frac: float, seed_iso: str,
     # only predictions within the J range seen so far can hide in another line
     seen = np.array([pjl[k] <= models[piso[k]].jmax - _GROW for k in range(len(pc))], dtype=bool)
     un = ~matched_pred & seen
-    _mark_blends(data, st, models, piso[un], pju[un], pjl[un], pc[un], pe[un], pw[un])
+    _mark_blends(data, st, models, fixed, piso[un], pju[un], pjl[un], pc[un], pe[un], pw[un])
     return st
 
 
-def _mark_blends(data, st, models, piso, pju, pjl, pc, pe, pw):
-    asg = np.nonzero(st.iso != None)[0]  # noqa: E711
+def _mark_blends(data, st, models, fixed, piso, pju, pjl, pc, pe, pw):
+    # lines of sub-bands being predicted; a line locked with a label is never a blend (when a
+    # prediction of another label agrees with it better, the lock disagrees with the band and
+    # the fit flags it an outlier)
+    asg = np.array([i for i in np.nonzero(st.iso != None)[0]  # noqa: E711
+                    if st.iso[i] in models and i not in fixed], dtype=int)
     if not len(asg) or not len(pc):
         return
     xa = data.x[asg]
@@ -210,12 +214,12 @@ def _fit_all(data, locks, st: State, opts):
     models, msgs = {}, []
     for iso_name, mdl in st.models.items():
         sel = np.nonzero((st.iso == iso_name) & ~st.blended)[0]
-        locked = np.array([i in locks for i in sel], dtype=bool)
         try:
             new, out, msg = fit_model(
                 st.Ju[sel], st.Jl[sel], data.x[sel], None if data.sigma is None else data.sigma[sel],
-                locked, centrifugal=opts["centrifugal"], outlier_sigma=opts["outlier_sigma"],
-                fixed=mdl, allow_offset=iso_name != st.seed_iso)
+                centrifugal=opts["centrifugal"], outlier_sigma=opts["outlier_sigma"],
+                fixed=mdl, allow_offset=iso_name != st.seed_iso,
+                start=_far_locks(data, locks, st, sel, mdl, opts["match_fraction"]))
         except AssignmentError:
             if iso_name == st.seed_iso:
                 raise
@@ -236,6 +240,19 @@ def _fit_all(data, locks, st: State, opts):
             st.calc[sel], st.calc_err[sel] = m.predict(st.Ju[sel], st.Jl[sel])
     st.models = models
     return msgs
+
+
+def _far_locks(data: Lines, locks: dict, st: State, sel: np.ndarray, mdl: Model,
+               frac: float) -> np.ndarray:
+    """Locked lines further from their predicted positions than any unlocked line may be matched
+    (``frac`` of the spacing): they start the fit left out, so that they cannot bend it (with few
+    lines a bent fit hides its own outlier); the fit admits them again if they agree."""
+    lk = np.array([i in locks and locks[i][1] is not None for i in sel], dtype=bool)
+    if not lk.any():
+        return lk
+    calc, _ = mdl.predict(st.Ju[sel], st.Jl[sel])
+    spacing = abs(mdl.values["B_upper"] + mdl.values["B_lower"])
+    return lk & (np.abs(data.x[sel] - calc) > frac * spacing)
 
 
 def _intensity_model(data: Lines, st: State, sel: np.ndarray, mdl: Model):

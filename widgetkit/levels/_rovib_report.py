@@ -8,9 +8,42 @@ import pandas as pd
 from ._rovib_core import Lines, State
 from .bandfit import combination_differences, equilibrium_constants, rotational_temperature
 from .candidates import C2, format_label, honl_london, rotational_partition
+from .plausibility import abundance_reason, expected_B, refuse_unresolved
 from .terms import rot_term
 
-__all__ = ["analyse"]
+__all__ = ["analyse", "refuse_unresolved_lines"]
+
+#: a rotational temperature this far (relative) and beyond 4σ from the given one is doubtful
+T_ROT_TOLERANCE = 0.3
+
+
+def refuse_unresolved_lines(data: Lines, st: State | None, opts: dict) -> None:
+    """Refuse lines as wide as the rotational spacing: before the assignment against the
+    handbook spacing (when the molecule is there), after it against the fitted B′ + B″."""
+    molecule, band = opts["molecule"], opts["band"]
+    if st is None:
+        lo, hi = expected_B(molecule.main, band[1]), expected_B(molecule.main, band[0])
+        if lo is None or hi is None:
+            spacing, source, sel = None, "", np.ones(data.n, dtype=bool)
+        else:
+            spacing = lo[0] + hi[0]
+            source = f"B′ + B″ from the handbook B_e of {lo[1]}, scaled by mass"
+            sel = np.ones(data.n, dtype=bool)
+    else:
+        mdl = st.models.get(st.seed_iso)
+        if mdl is None:
+            return
+        spacing = mdl.values["B_upper"] + mdl.values["B_lower"]
+        source = "B′ + B″ of the assigned lines"
+        sel = st.iso != None  # noqa: E711
+    fwhm = None
+    if data.fwhm is not None:
+        w = data.fwhm[sel]
+        w = w[np.isfinite(w) & (w > 0)]
+        fwhm = float(np.median(w)) if len(w) else None
+    if spacing is not None:
+        refuse_unresolved(spacing=spacing, resolution=opts.get("resolution"), fwhm=fwhm,
+                          molecule=molecule, source=source, temperature=opts.get("temperature"))
 
 
 def _fmt(v: float, e: float) -> str:
@@ -42,16 +75,22 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
     labels = [format_label(st.Ju[i], st.Jl[i]) if assigned[i] else None for i in range(n)]
     m_idx = pd.array(np.where(st.Ju > st.Jl, st.Jl + 1, -st.Jl), dtype="Int64")
     m_idx[~assigned] = pd.NA
+    z = np.full(n, np.nan)
+    for i in np.nonzero(assigned)[0]:
+        m = st.models.get(st.iso[i])
+        if m is not None:
+            z[i] = (data.x[i] - st.calc[i]) / ((sig[i] if sig is not None else 1.0) * m.scatter)
     table = pd.DataFrame({
         "line_id": data.ids, "position": data.x,
         "position_err": sig if sig is not None else np.full(n, np.nan),
         "isotopologue": pd.array(st.iso.tolist(), dtype=object),
         "v_upper": vu, "v_lower": vl, "J_upper": ju, "J_lower": jl, "label": labels, "m": m_idx,
         "calc": st.calc, "calc_err": st.calc_err, "obs_minus_calc": data.x - st.calc,
-        "outlier": st.outlier.copy(), "blended": st.blended.copy(),
+        "normalised_residual": z, "outlier": st.outlier.copy(), "blended": st.blended.copy(),
         "blend_with": pd.array(st.blend_with.tolist(), dtype=object), "locked": locked,
         "weight": weight,
     })
+    reasons = list(st.reasons)
     consts, covs, cd_rows, trot = [], {}, [], {}
     order = [i.name for i in molecule.isotopologues if i.name in st.models]
     for name in order:
@@ -77,12 +116,24 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
                 if nm.endswith("_cd_diff") and np.isfinite(e) and e > 0:
                     msgs.append(f"{name}: {nm[:-8]} from combination differences minus full fit = "
                                 f"{_fmt(v, e)} cm-1 ({abs(v) / e:.1f}σ)")
+            fit_dof = bf.fit.dof
         elif mdl.kind == "offset":
-            add("band_origin", mdl.values["band_origin"], float(np.sqrt(mdl.cov5[0, 0])))
+            # one line and one parameter: nothing tests the fit, the error is unknown
+            fit_dof = len(sel) - 1
+            add("band_origin", mdl.values["band_origin"],
+                float(np.sqrt(mdl.cov5[0, 0])) if fit_dof > 0 else np.nan)
             covs[name] = pd.DataFrame([[mdl.cov5[0, 0]]], index=["band_origin"], columns=["band_origin"])
             msgs.append(f"{name}: only the band origin was fitted ({len(sel)} "
                         f"{'line' if len(sel) == 1 else 'lines'}); B and D held "
                         f"at values scaled from {st.seed_iso}")
+        if mdl.kind in ("fit", "offset") and fit_dof <= 0:
+            reasons.append(f"{name}: as many lines ({len(sel)}) as fitted constants, so nothing "
+                           "tests the fit and the standard errors are unknown (NaN)")
+        if mdl.kind == "fit" and sig is not None and mdl.fit.fit.dof > 0 \
+                and np.sqrt(mdl.fit.fit.reduced_chi2) > 3.0:
+            reasons.append(f"{name}: the lines scatter {np.sqrt(mdl.fit.fit.reduced_chi2):.1f} times "
+                           "their stated position errors about the band fit (more than 3): some "
+                           "labels may be wrong, or the errors too small")
         if len(sel):
             r = data.x[sel] - st.calc[sel]
             add("n_lines", len(sel), np.nan, "1")
@@ -95,28 +146,26 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
         if t is not None:
             add("T_rot", t[0], t[1], "K")
             trot[name] = t[0]
-    _abundance(data, st, good, molecule, order, trot, opts, consts, msgs)
-    _report_flags(table, msgs)
+    _abundance(data, st, good, molecule, order, trot, opts, consts, msgs, reasons)
+    _temperature_reason(consts, order, opts, reasons)
+    _report_flags(table, msgs, opts["outlier_sigma"])
     cd = pd.DataFrame(cd_rows, columns=["isotopologue", "state", "J", "lines", "value", "stderr",
                                         "calc", "obs_minus_calc"])
     cdf = pd.DataFrame(consts, columns=["isotopologue", "name", "value", "stderr", "unit"])
     msgs.append(f"{int(good.sum())} of {n} {'line' if n == 1 else 'lines'} fitted after "
                 f"{st.rounds} {'round' if st.rounds == 1 else 'rounds'}")
-    seed = st.models.get(st.seed_iso)
-    birge = (float(np.sqrt(seed.fit.fit.reduced_chi2))
-             if seed is not None and seed.fit is not None and sig is not None
-             and seed.fit.fit.dof > 0 else np.nan)
-    if good.sum() < 0.6 * n or (np.isfinite(birge) and birge > 3.0):
-        msgs.append(
-            f"DOUBTFUL: only {int(good.sum())} of {n} lines fit"
-            + (f" and the strongest sub-band scatters {birge:.1f} times its stated errors"
-               if np.isfinite(birge) and birge > 3.0 else "")
-            + "; check the assignment, or lock two lines by hand with "
-            "s.set_assignment(line_id, label='R(0)') and s.set_assignment(line_id, label='P(1)')")
-    return cls(table, cdf, covs, cd, st.rounds, msgs, band)
+    if good.sum() < 0.6 * n:
+        reasons.append(
+            f"only {int(good.sum())} of {n} lines fit; check the assignment, or lock two lines by "
+            "hand with s.set_assignment(line_id, label='R(0)', isotopologue=...) and "
+            "s.set_assignment(line_id, label='P(1)', isotopologue=...)")
+    reasons = list(dict.fromkeys(reasons))
+    msgs += [f"DOUBTFUL: {r}" for r in reasons]
+    return cls(table, cdf, covs, cd, st.rounds, msgs, band, "doubtful" if reasons else "ok",
+               reasons, opts["outlier_sigma"])
 
 
-def _abundance(data, st, good, molecule, order, trot, opts, consts, msgs):
+def _abundance(data, st, good, molecule, order, trot, opts, consts, msgs, reasons):
     if len(order) < 2 or not np.any(np.isfinite(data.area) & (data.area > 0)):
         return
     main = order[0]
@@ -149,14 +198,33 @@ def _abundance(data, st, good, molecule, order, trot, opts, consts, msgs):
         nat = molecule.isotopologue(name).abundance / ab0
         msgs.append(f"{name}: area ratio to {main} (Boltzmann- and Hönl–London-corrected at "
                     f"{T:.0f} K) {_fmt(r, er)}; natural abundance ratio {nat:.4g} (periodictable)")
+        why = abundance_reason(name, main, r, er, nat)
+        if why:
+            reasons.append(why)
 
 
-def _report_flags(table: pd.DataFrame, msgs: list) -> None:
+def _temperature_reason(consts, order, opts, reasons) -> None:
+    """The rotational temperature of the main sub-band against the temperature given."""
+    T = opts["temperature"]
+    row = next((c for c in consts if order and c["isotopologue"] == order[0]
+                and c["name"] == "T_rot"), None)
+    if T is None or row is None:
+        return
+    t, e = row["value"], row["stderr"]
+    if abs(t - T) > T_ROT_TOLERANCE * T and not (np.isfinite(e) and abs(t - T) <= 4 * e):
+        reasons.append(f"{order[0]}: the rotational temperature from the areas, {_fmt(t, e)} K, "
+                       f"disagrees with the {T:g} K given: the J numbering or the areas may be "
+                       "wrong")
+
+
+def _report_flags(table: pd.DataFrame, msgs: list, outlier_sigma: float) -> None:
     for _, row in table[table["outlier"]].iterrows():
         z = row["obs_minus_calc"]
         msgs.append(f"line {row['line_id']} at {row['position']:.4f} cm-1 ({row['label']} of "
-                    f"{row['isotopologue']}) is {z:+.4f} cm-1 from the fit: flagged as an outlier "
-                    + ("(locked: kept in the fit)" if row["locked"] else "and left out of the fit"))
+                    f"{row['isotopologue']}) is {z:+.4f} cm-1 from the fit "
+                    f"({row['normalised_residual']:+.1f} times the expected scatter, beyond "
+                    f"{outlier_sigma:g}): flagged as an outlier and left out of the fit"
+                    + (" (locked: its label is kept)" if row["locked"] else ""))
     for _, row in table[table["blended"]].iterrows():
         msgs.append(f"line {row['line_id']} at {row['position']:.4f} cm-1 ({row['label']} of "
                     f"{row['isotopologue']}) is blended with {row['blend_with']}: left out of the fits")

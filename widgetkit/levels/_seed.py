@@ -27,7 +27,12 @@ import math
 
 import numpy as np
 
-__all__ = ["gap_hypotheses", "bootstrap", "m_to_J", "scaled_band_constants"]
+from ..errors import AssignmentError
+from ._lsq import robust_scale
+from .bandfit import fit_band
+
+__all__ = ["gap_hypotheses", "bootstrap", "m_to_J", "scaled_band_constants", "natural_seed",
+           "lock_seed", "shift_index"]
 
 
 def m_to_J(m) -> tuple[np.ndarray, np.ndarray]:
@@ -258,3 +263,97 @@ def scaled_band_constants(values: dict, v_upper: int, v_lower: int, rho: float) 
     }
     anh = out["band_origin"] - rho * nu0
     return out, float(anh)
+
+
+def natural_seed(xs, area, *, frac: float, forbidden: frozenset = frozenset(), partners=(),
+                 max_full: int = 40) -> dict[int, int] | None:
+    """The most plausible indexing {m: index into ascending ``xs``} of one sub-band found from a
+    band-origin gap alone (no locks), or None when no gap hypothesis holds.
+
+    Every gap hypothesis is bootstrapped briefly; the distinct starts that index most lines
+    (then the strongest) are bootstrapped in full and ranked by :func:`_seed_score`.
+    """
+    hyps = [h for h in gap_hypotheses(xs, area, frac=frac) if not (set(h.values()) & forbidden)]
+    short = [(bootstrap(xs, h, frac=frac, forbidden=forbidden, max_lines=10, area=area,
+                        partners=partners), h) for h in hyps]
+    top = max((len(g) for g, _ in short), default=0)
+    short = [t for t in short if len(t[0]) >= top - 1]
+    short.sort(key=lambda t: (-len(t[0]), -float(np.nansum(area[list(t[0].values())])),
+                              min(t[1].values())))
+    cands: dict = {}
+    seen: set = set()
+    for g0, h in short:
+        key0 = frozenset(g0.items())
+        if key0 in seen:
+            continue
+        seen.add(key0)
+        if len(seen) > max_full:
+            break
+        g = bootstrap(xs, h, frac=frac, forbidden=forbidden, area=area, partners=partners)
+        cands.setdefault(frozenset(g.items()), (g, min(h.values())))
+    if not cands:
+        return None
+    ranked = sorted(cands.values(), key=lambda t: (-len(t[0]), t[1]))
+    scored = [(_seed_score(g, xs, area), float(np.nansum(area[list(g.values())])), -i, g)
+              for g, i in ranked]
+    scored.sort(key=lambda t: t[:3], reverse=True)
+    return scored[0][3]
+
+
+def lock_seed(xs, locked: dict[str, dict[int, int]], order: list[str], *, frac: float,
+              forbidden: frozenset, area) -> tuple[str, dict[int, int]] | None:
+    """Index a sub-band outward from two or more lines locked with labels of one isotopologue.
+
+    ``locked``: isotopologue -> {m: index into ascending ``xs``}. The isotopologue with most
+    locks (then the first in ``order``) is used; None when none has two.
+    """
+    rich = sorted(locked.items(), key=lambda kv: (-len(kv[1]), order.index(kv[0])))
+    if not rich or len(rich[0][1]) < 2:
+        return None
+    iso, init = rich[0]
+    return iso, bootstrap(xs, init, frac=frac, forbidden=forbidden - set(init.values()), area=area)
+
+
+def shift_index(g: dict[int, int], k: int) -> dict[int, int]:
+    """The indexing renumbered by m -> m + k; the line that would get m = 0 (the band origin,
+    where no line is) is dropped."""
+    return {m + k: i for m, i in g.items() if m + k != 0}
+
+
+def _seed_score(g: dict, xs: np.ndarray, area: np.ndarray) -> float:
+    """Plausibility of one bootstrap: lines indexed, minus penalties.
+
+    A missing line can mimic the origin gap and re-index the whole band with
+    an equally good fit of the positions; the areas tell them apart (a true
+    labelling gives a straight Boltzmann plot). Without areas, branches of
+    very different length are mildly penalised.
+    """
+    ms = np.array(sorted(g))
+    if len(ms) < 4:
+        return -np.inf
+    Ju, Jl = m_to_J(ms)
+    y = xs[[g[m] for m in ms]]
+    try:
+        bf = fit_band(Ju, Jl, y, None, centrifugal="shared" if len(ms) >= 7 else "none")
+    except AssignmentError:
+        return -np.inf
+    v = bf.values
+    if not (v["B_lower"] > 0 and v["B_upper"] > 0):
+        return -np.inf
+    # lines predicted inside the indexed range but not seen (the origin m = 0 excepted)
+    holes = (ms.max() - ms.min()) - (len(ms) - 1)
+    score = float(len(ms)) - 1.0 * holes
+    a = area[[g[m] for m in ms]]
+    ok = np.isfinite(a) & (a > 0)
+    if ok.sum() >= 4:
+        E = v["B_lower"] * Jl * (Jl + 1.0) - v["D_lower"] * (Jl * (Jl + 1.0)) ** 2
+        L = np.where(Ju > Jl, Jl + 1.0, Jl * 1.0)
+        yy = np.log(a[ok] / (y[ok] * L[ok]))
+        A = np.column_stack([np.ones(ok.sum()), E[ok]])
+        coef, *_ = np.linalg.lstsq(A, yy, rcond=None)
+        sB = robust_scale(yy - A @ coef)
+        score -= 10.0 * min(sB, 1.0) + (5.0 if coef[1] >= 0 else 0.0)
+    else:
+        nR = int((ms > 0).sum())
+        score -= 2.0 * abs(2 * nR - len(ms)) / len(ms)
+    return score

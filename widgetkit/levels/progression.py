@@ -14,12 +14,24 @@ each band with its nearest predicted label. Each distinct labelling is refitted
 (two terms, and three when at least four bands are labelled) and scored by
 
     χ² + k ln n + 10 × (expected bands missing) + 25 × (outliers)
+       + 25 × (hot bands stronger than their Boltzmann factor allows at the given temperature)
+       + 1000 when ωe is far from the handbook value of a known molecule
 
 (for the ``max_labellings`` distinct labellings nearest to their hypotheses)
 where χ² uses the stated uncertainties (1 cm⁻¹ when none are given), k is the
 number of parameters, and a band v′-v″ "expects" the stronger band
 (v′−1)-(v″−1) (hot band) or (v′−1)-0 (overtone), the fundamental 1-0 being
-expected by all. The lowest score wins; ties go to lower quantum numbers.
+expected by all; the hot-band check needs the band areas
+(:func:`.plausibility.hot_band_reasons`). The lowest score wins; ties go to
+lower quantum numbers.
+
+Plausibility (:mod:`.plausibility`): a labelling whose ωe is outside a factor
+of 1.25 of the mass-scaled handbook ωe of a known molecule is refused; the
+result is ``status="doubtful"``, with
+``reasons``, when a hot band is stronger than its Boltzmann factor allows,
+when two bands look like the P and R branch maxima of one unresolved band,
+when the fit has no degrees of freedom (its standard errors are then NaN),
+or when another labelling scores almost as well.
 
 Derived constants:
 
@@ -38,6 +50,7 @@ Errors are propagated from the covariance by numerical gradients.
 
 from __future__ import annotations
 
+import dataclasses
 import re
 from dataclasses import dataclass, field
 
@@ -50,10 +63,11 @@ from ..oscillator.potentials import morse_parameters
 from ._lsq import SingularDesign, propagate, robust_scale, weighted_lstsq
 from .candidates import band_label
 from .molecule import Diatomic
+from .plausibility import branch_pair_reason, hot_band_reasons, vibrational_problem
 
 __all__ = ["Progression", "fit_progression", "assign_progression", "birge_sponer"]
 
-_P_MISS, _P_OUT = 10.0, 25.0
+_P_MISS, _P_OUT, _P_HOT, _P_HANDBOOK = 10.0, 25.0, 25.0, 1000.0
 
 
 @dataclass(frozen=True)
@@ -74,6 +88,9 @@ class Progression:
     alternatives : DataFrame
         The best other labellings: ``labels, n_params, score``.
     messages : list of str
+    status : {"ok", "doubtful"}
+    reasons : list of str
+        Why the result is doubtful (empty when ok).
     """
 
     assignments: pd.DataFrame
@@ -82,6 +99,8 @@ class Progression:
     score: float = 0.0
     alternatives: pd.DataFrame = field(default=None, repr=False)
     messages: list = field(default_factory=list)
+    status: str = "ok"
+    reasons: list = field(default_factory=list)
 
 
 def _labels(v_max: int, hot_max: int) -> np.ndarray:
@@ -124,14 +143,14 @@ def _fit_labelling(x, s, lab, k, outlier_sigma, absolute):
     return f, r, out
 
 
-def _criterion(f, r, out, s, lab, k) -> float:
+def _criterion(f, r, out, s, lab, k, hot: int = 0) -> float:
     use = ~out
     chi2 = float(np.sum((r[use] / s[use]) ** 2))
     n = int(use.sum())
     present = {tuple(map(int, t)) for t in lab}
     miss = len(_expected(present) - present)
     return chi2 + k * np.log(max(n, 2)) + _P_MISS * miss + _P_OUT * int(out.sum()) \
-        + 1e-3 * float(lab.sum())
+        + _P_HOT * hot + 1e-3 * float(lab.sum())
 
 
 def birge_sponer(omega_e: float, omega_e_x_e: float, omega_e_y_e: float = 0.0) -> float:
@@ -161,6 +180,9 @@ def fit_progression(
     n_terms: int | None = None,
     locks: dict | None = None,
     max_labellings: int = 24,
+    areas=None,
+    temperature: float | None = None,
+    widths=None,
 ) -> Progression:
     """Label band centres (fundamental, overtones, hot bands) and fit ωe, ωexe (, ωeye).
 
@@ -190,6 +212,14 @@ def fit_progression(
     locks : dict, optional
         band index (position in ``band_origins``) -> (v_upper, v_lower): those
         bands keep these labels in every labelling tried.
+    areas : array_like, shape (n,), optional
+        Integrated band areas, for the hot-band check against the Boltzmann
+        factor (labellings that fail it score worse).
+    temperature : float, optional
+        K, for the hot-band check (without it, hot bands that need more than
+        :data:`.plausibility.HOT_BAND_MAX_TEMPERATURE` are doubtful).
+    widths : array_like, shape (n,), optional
+        Band FWHMs (cm⁻¹), for the check against unresolved P and R branch maxima.
 
     Notes
     -----
@@ -217,6 +247,12 @@ def fit_progression(
     s = np.ones(n) if uncertainties is None else np.asarray(uncertainties, dtype=float).ravel()
     if s.shape != x.shape or not np.all(np.isfinite(s) & (s > 0)):
         raise AssignmentError("uncertainties must be one finite positive value per band centre")
+    iso = None
+    if molecule is not None:
+        iso = molecule.isotopologue(isotopologue) if isotopologue else molecule.main
+    ar = None if areas is None else np.asarray(areas, dtype=float).ravel()
+    if ar is not None and ar.shape != x.shape:
+        raise AssignmentError(f"areas must be one value per band centre ({n}), got {ar.shape}")
     if n_terms not in (None, 2, 3):
         raise AssignmentError(f"n_terms must be 2, 3 or None, got {n_terms}")
     L = _labels(v_max, hot_max)
@@ -280,7 +316,11 @@ def fit_progression(
                 f, r, out = _fit_labelling(x[valid], s[valid], lab, k, outlier_sigma, True)
             except SingularDesign:
                 continue
-            crit = _criterion(f, r, out, s[valid], lab, k) + _P_OUT * int((~valid).sum())
+            # only a given temperature ranks labellings (an implied one moves with ωe itself)
+            hot = 0 if not temperature else len(hot_band_reasons(
+                x[valid], lab, None if ar is None else ar[valid], f.beta, temperature))
+            crit = (_criterion(f, r, out, s[valid], lab, k, hot) + _P_OUT * int((~valid).sum())
+                    + (_P_HANDBOOK if vibrational_problem(f.beta[0], iso) else 0.0))
             cands.append((crit, k, tuple(u.tolist())))
     if not cands:
         raise AssignmentError("no labelling could be fitted; give more band centres")
@@ -290,13 +330,22 @@ def fit_progression(
     valid = u >= 0
     lab_v = L[u[valid]]
     f, r_v, out_v = _fit_labelling(x[valid], s[valid], lab_v, k, outlier_sigma, absolute)
+    problem = vibrational_problem(f.beta[0], iso)
+    if problem:
+        raise AssignmentError(
+            f"no labelling of these band centres gives a plausible ωe for {iso.name}: the best, "
+            f"{', '.join(band_label(*t) for t in lab_v)}, gives {problem}. Check the molecule, "
+            "and whether the bands are bands of it (two branch maxima of one unresolved band are "
+            "not two bands: fit the contour with s.fit_band_model(molecule, ...))")
     msgs = []
     lbl = lambda row: [band_label(*L[j]) if j >= 0 else "?" for j in row]  # noqa: E731
     alt = pd.DataFrame([{"labels": lbl(c[2]), "n_params": c[1], "score": c[0]}
                         for c in cands[1:6]], columns=["labels", "n_params", "score"])
+    reasons = []
     if len(cands) > 1 and cands[1][0] - score < 2.0 and cands[1][2] != tuple(u.tolist()):
-        msgs.append("another labelling scores almost as well: "
-                    + ", ".join(alt["labels"].iloc[0]) + f" (score {cands[1][0]:.2f} vs {score:.2f})")
+        reasons.append("another labelling scores almost as well: "
+                       + ", ".join(alt["labels"].iloc[0])
+                       + f" (score {cands[1][0]:.2f} vs {score:.2f}); lock one band by hand")
     lab = np.full((n, 2), -1)
     lab[valid] = lab_v
     calc = np.full(n, np.nan)
@@ -323,17 +372,21 @@ def fit_progression(
         else:
             msgs.append(f"band at {x[i]:.3f} cm-1 fits no free label (another band is nearer to "
                         "it): flagged as an outlier, unlabelled and left out")
-    if not absolute and f.dof == 0:
-        msgs.append("as many bands as parameters and no uncertainties: standard errors are unknown")
+    if f.dof <= 0:
+        reasons.append(f"as many bands ({int(valid.sum() - out_v.sum())}) as fitted constants ({k}): "
+                       "the fit passes through every band and nothing tests it, so the standard "
+                       "errors are unknown (NaN); add a band")
+    reasons += hot_band_reasons(x, lab, ar, f.beta, temperature)
+    pair = branch_pair_reason(x, ar, widths, molecule, temperature)
+    if pair:
+        reasons.append(pair)
+    msgs += [f"DOUBTFUL: {r}" for r in reasons]
     names = ["omega_e", "omega_e_x_e", "omega_e_y_e"][:k]
     cov = f.cov if np.all(np.isfinite(f.cov)) else np.full_like(f.cov, np.nan)
-    iso = None
-    if molecule is not None:
-        iso = molecule.isotopologue(isotopologue) if isotopologue else molecule.main
     consts = _derived(f.beta, cov, names, iso)
     cdf = pd.DataFrame(consts, columns=["isotopologue", "name", "value", "stderr", "unit"])
     return Progression(table, cdf, pd.DataFrame(cov, index=names, columns=names), float(score),
-                       alt, msgs)
+                       alt, msgs, "doubtful" if reasons else "ok", reasons)
 
 
 def _derived(beta, cov, names, iso) -> list:
@@ -369,7 +422,8 @@ def _derived(beta, cov, names, iso) -> list:
 
 def assign_progression(lines: pd.DataFrame, molecule: Diatomic | None = None, *,
                        locks: dict | None = None, **opts) -> Progression:
-    """:func:`fit_progression` on a lines table (``line_id, position``, optional ``position_err``).
+    """:func:`fit_progression` on a lines table (``line_id, position``, optional ``position_err``,
+    ``area`` and ``fwhm`` for the plausibility checks).
 
     ``locks``: line_id -> dict with ``v_upper`` and ``v_lower``, or ``label``
     like "2-0"; those lines keep their labels. The result's ``assignments``
@@ -405,8 +459,11 @@ def assign_progression(lines: pd.DataFrame, molecule: Diatomic | None = None, *,
             raise AssignmentError(f"contradictory locks: two lines are locked as band {vu}-{vl}; "
                                   "clear one with s.clear_assignment(line_id)")
         band_locks[where[lid]] = (vu, vl)
+    col = lambda c: lines[c].to_numpy(dtype=float) if c in lines.columns else None  # noqa: E731
+    opts.setdefault("areas", col("area"))
+    opts.setdefault("widths", col("fwhm"))
     p = fit_progression(lines["position"].to_numpy(dtype=float), uncertainties=err,
                         molecule=molecule, locks=band_locks, **opts)
     table = p.assignments.copy()
     table.insert(0, "line_id", lines["line_id"].to_numpy())
-    return Progression(table, p.constants, p.covariance, p.score, p.alternatives, p.messages)
+    return dataclasses.replace(p, assignments=table)

@@ -33,17 +33,22 @@ Pipeline (:func:`assign_rovibrational`):
    of isotopologues most consistent with mass scaling and abundances, and a
    tie (for example one sub-band of a molecule with two equally abundant
    isotopologues) is an error;
-3. report constants with standard errors, combination differences, B_e, α_e,
-   r_e, the rotational temperature and the abundance ratio.
+3. check plausibility (:mod:`.plausibility`) and report constants with
+   standard errors, combination differences, B_e, α_e, r_e, the rotational
+   temperature and the abundance ratio, with ``status`` "ok" or "doubtful"
+   and the reasons.
 
-Locked lines (``locks``) keep their labels, are never dropped as outliers and
-take part in every fit.
+Locks (``locks``) are observations that win (:mod:`._rovib_locks`): a locked
+line always keeps its label; the band is renumbered around a lock when its
+numbering can agree (the result is then doubtful, with the evidence against
+it), and otherwise the lock is shown as an outlier with its obs − calc and
+left out of the fit.
 
 Limits (found with simulated bands): the band-origin gap must be visible (at
 most one of R(0), P(1) missing); spectra without areas that also miss lines
 and hold a dense weak isotopologue (13CO in CO) can be mis-indexed. The
-messages then start with "DOUBTFUL" when few lines fit; two locked lines
-always settle the indexing.
+result is then doubtful when few lines fit; two locked lines always settle
+the indexing.
 """
 
 from __future__ import annotations
@@ -54,10 +59,11 @@ from dataclasses import dataclass, field
 import pandas as pd
 
 from ..errors import AssignmentError
-from ._rovib_core import parse_locks, prepare_lines, seed_band
-from ._rovib_match import refine, relabel
-from ._rovib_report import analyse
+from ._rovib_core import prepare_lines
+from ._rovib_locks import parse_locks, solve
+from ._rovib_report import analyse, refuse_unresolved_lines
 from .molecule import Diatomic
+from .plausibility import refuse_unsuitable_spectrum
 
 __all__ = ["BandAssignment", "assign_rovibrational"]
 
@@ -86,6 +92,15 @@ class BandAssignment:
         What was flagged, left out, degraded or cross-checked, and why.
     band : tuple of int
         (v_upper, v_lower).
+    status : {"ok", "doubtful"}
+        "doubtful" when a plausibility check failed in a way the data could
+        still explain (see :mod:`widgetkit.levels.plausibility`); ``reasons``
+        says which.
+    reasons : list of str
+        Why the result is doubtful (empty when ok).
+    outlier_sigma : float
+        The outlier threshold used: |obs − calc| > outlier_sigma × σ_eff, the
+        expected scatter (column ``normalised_residual`` = (obs − calc)/σ_eff).
     """
 
     assignments: pd.DataFrame
@@ -95,6 +110,9 @@ class BandAssignment:
     rounds: int = 0
     messages: list = field(default_factory=list)
     band: tuple = (1, 0)
+    status: str = "ok"
+    reasons: list = field(default_factory=list)
+    outlier_sigma: float = 4.0
 
     def constant(self, name: str, isotopologue: str | None = None) -> tuple[float, float]:
         """(value, stderr) of one constant (of the first isotopologue listed when not given)."""
@@ -120,6 +138,9 @@ def assign_rovibrational(
     match_fraction: float = 0.3,
     seed_fraction: float = 0.25,
     min_rounds: int = 1,
+    resolution: float | None = None,
+    technique: str | None = None,
+    sample_state: str | None = None,
 ) -> BandAssignment:
     """Assign the P and R lines of a v′ ← v″ band and fit the molecular constants.
 
@@ -139,9 +160,11 @@ def assign_rovibrational(
     locks : mapping, optional
         line_id -> dict with any of ``isotopologue, v_upper, v_lower, J_upper,
         J_lower, label`` ("R(3)", "P(2)"). A lock with a label or J values
-        fixes that line; a lock with only an isotopologue restricts it to that
-        sub-band. Locked lines always keep their labels. Unnamed isotopologue
-        means the most abundant one; unnamed v the ``band``.
+        fixes that line and must name its isotopologue when the molecule has
+        several; a lock with only an isotopologue restricts it to that
+        sub-band; an empty lock leaves the line unassigned. Locked lines
+        always keep their labels (see the module notes). Unnamed v means the
+        ``band``.
     outlier_sigma : float
         Lines with |obs − calc| > outlier_sigma × σ_eff are flagged and left out
         of the fit (default 4).
@@ -158,6 +181,12 @@ def assign_rovibrational(
         Matching window as a fraction of the local line spacing.
     seed_fraction : float
         Acceptance window of the bootstrap, as a fraction of the spacing.
+    resolution : float, optional
+        Instrument resolution (FWHM, cm⁻¹), e.g. from the file's ##RESOLUTION.
+    technique : {"infrared", "raman"}, optional
+        A Raman spectrum is refused (no P and R branches).
+    sample_state : {"gas", "liquid", "solid"}, optional
+        A liquid or solid sample is refused (no free rotation).
 
     Returns
     -------
@@ -167,10 +196,14 @@ def assign_rovibrational(
     ------
     AssignmentError
         Bad input (missing columns, duplicate ids, non-finite positions),
-        contradictory locks, no band-origin gap, too few lines for the
-        parameters, or an ambiguous isotopologue split; the message says what
-        to do (usually: lock two lines by hand with
-        ``s.set_assignment(line_id, label='R(0)')``).
+        contradictory or ambiguous locks (a lock with a label must name its
+        isotopologue when the molecule has several), no band-origin gap, too
+        few lines for the parameters, an ambiguous isotopologue split, a Raman
+        or condensed-phase spectrum, lines as wide as the rotational spacing,
+        or impossible constants (B ≤ 0, B outside a factor of two of the
+        handbook value); the message says what to do (usually: lock two lines
+        by hand with ``s.set_assignment(line_id, label='R(0)',
+        isotopologue=...)``).
 
     Notes
     -----
@@ -187,24 +220,16 @@ def assign_rovibrational(
     band = (int(band[0]), int(band[1]))
     if not outlier_sigma > 0:
         raise AssignmentError(f"outlier_sigma must be > 0, got {outlier_sigma}")
+    refuse_unsuitable_spectrum(technique=technique, sample_state=sample_state, molecule=molecule)
     data = prepare_lines(lines)
     lk = parse_locks(locks, data, molecule, band)
-    isos = [i.name for i in molecule.isotopologues]
     opts = dict(outlier_sigma=float(outlier_sigma), match_fraction=float(match_fraction),
                 centrifugal=centrifugal, band=band, molecule=molecule,
-                temperature=None if temperature is None else float(temperature))
-    seed, seed_iso = seed_band(data, lk, molecule, band, frac=seed_fraction, centrifugal=centrifugal)
-    hyps = [seed_iso] if seed_iso is not None else isos
-    trials = []
-    for k_iso in hyps:
-        st = refine(data, lk, {k_iso: seed}, k_iso, opts, max_rounds=min(2, max_rounds),
-                    min_rounds=1)
-        trials.append((st.score, isos.index(k_iso), k_iso, st))
-    trials.sort(key=lambda t: (-t[0], t[1]))
-    k_iso = trials[0][2]
-    final = refine(data, lk, {k_iso: seed}, k_iso, opts, max_rounds=max_rounds, min_rounds=min_rounds)
-    if final.ambiguous:
-        raise AssignmentError(final.ambiguous[0])
-    final = relabel(data, final, molecule, band, lk)
+                temperature=None if temperature is None else float(temperature),
+                resolution=None if resolution is None else float(resolution))
+    refuse_unresolved_lines(data, None, opts)
+    final = solve(data, lk, opts, seed_fraction=seed_fraction, max_rounds=max_rounds,
+                  min_rounds=min_rounds)
+    refuse_unresolved_lines(data, final, opts)
     return analyse(data, lk, final, opts, BandAssignment)
 

@@ -7,6 +7,8 @@ fit and the assignment from the record (``restore``) instead of fitting again.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from ..errors import AssignmentError, FitError, SessionStateError
@@ -14,7 +16,11 @@ from .params import Param, ParamProblem, show
 from .records import RESULT_TYPES, Restored, decode, encode_fields, table_from_json, table_kinds
 from .steps import RecordMismatch, State, StepKind, cleared_text, register_step, table_to_json
 
-__all__ = ["FitLines", "AssignBand", "SetAssignment", "ClearAssignment", "molecule_from_param"]
+__all__ = ["FitLines", "AssignBand", "SetAssignment", "ClearAssignment", "UnlockAssignment",
+           "molecule_from_param", "constant_shifts"]
+
+#: a constant that moves more than this many of its previous standard errors is warned about
+SHIFT_WARNING_SIGMA = 3.0
 
 #: LineFit fields not recorded: the table and statistics are recorded beside the record,
 #: the arrays are rebuilt from the spectrum (:func:`widgetkit.lines.record.model_curves`),
@@ -220,6 +226,7 @@ def molecule_from_param(value):
 
 def _assign(state: State, spec: dict, locks: dict):
     from .. import levels
+    from ..levels.plausibility import spectrum_context
 
     fit = state.line_fit
     if fit is None:
@@ -227,10 +234,12 @@ def _assign(state: State, spec: dict, locks: dict):
     opts = dict(spec)
     molecule = molecule_from_param(opts.pop("molecule"))
     kind = opts.pop("kind", "rovibrational")
+    # what the file says about the measurement (resolution, Raman, sample state); options given
+    # to assign_band win
+    context = spectrum_context(state.require_spectrum().meta)
     if kind == "rovibrational":
-        out = levels.assign_rovibrational(fit.table, molecule, locks=locks, **opts)
+        out = levels.assign_rovibrational(fit.table, molecule, locks=locks, **{**context, **opts})
     elif kind == "progression":
-        opts.pop("temperature", None)
         out = levels.assign_progression(fit.table, molecule, locks=locks, **opts)
     else:
         raise AssignmentError(f"kind must be 'rovibrational' or 'progression', got {kind!r}")
@@ -259,9 +268,48 @@ def _check_molecule(value) -> None:
 
 def _assignment_result(out) -> dict:
     return {"assignments": table_to_json(out.assignments), "constants": table_to_json(out.constants),
+            "status": getattr(out, "status", "ok"), "reasons": list(getattr(out, "reasons", [])),
             "record": encode_fields(out, skip=("assignments", "constants"))
             | {"table_kinds": {"assignments": table_kinds(out.assignments),
                                "constants": table_kinds(out.constants)}}}
+
+
+def constant_shifts(before, after) -> list[dict]:
+    """How each constant moved between two assignment results, in its previous standard errors.
+
+    Returns one dict per constant present in both with a finite, positive previous standard
+    error: ``isotopologue, name, before, after, stderr`` (the previous one) and
+    ``shift_sigma`` = (after − before)/stderr; largest |shift_sigma| first.
+    """
+    if before is None or after is None:
+        return []
+    key = lambda r: (str(r["isotopologue"]), str(r["name"]))  # noqa: E731
+    old = {key(r): r for r in before.constants.to_dict("records")}
+    out = []
+    for r in after.constants.to_dict("records"):
+        o = old.get(key(r))
+        if o is None:
+            continue
+        e, v0, v1 = float(o["stderr"]), float(o["value"]), float(r["value"])
+        if not (math.isfinite(e) and e > 0 and math.isfinite(v0) and math.isfinite(v1)):
+            continue
+        out.append({"isotopologue": key(r)[0], "name": key(r)[1], "before": v0, "after": v1,
+                    "stderr": e, "shift_sigma": (v1 - v0) / e})
+    out.sort(key=lambda d: -abs(d["shift_sigma"]))
+    return out
+
+
+def _shift_text(shifts: list[dict]) -> str:
+    if not shifts:
+        return "no constants to compare"
+    top = shifts[0]
+    big = [d for d in shifts if abs(d["shift_sigma"]) > SHIFT_WARNING_SIGMA]
+    name = f"{top['name']} of {top['isotopologue']}" if top["isotopologue"] else top["name"]
+    text = f"constants moved by at most {abs(top['shift_sigma']):.1f}σ ({name})"
+    if big:
+        text = (f"WARNING: {len(big)} constant{'s' if len(big) > 1 else ''} moved more than "
+                f"{SHIFT_WARNING_SIGMA:g}σ, {name} by {top['shift_sigma']:+.3g}σ")
+    return text
 
 
 def _restored_assignment(state: State, result: dict, where: str):
@@ -340,7 +388,8 @@ class AssignBand(StepKind):
     def apply(self, state, params, ctx):
         out = _assign(state, params, dict(state.locks))
         summary = (f"assigned {_n_assigned(out)} of {len(out.assignments)} lines "
-                   f"({params.get('kind', 'rovibrational')})")
+                   f"({params.get('kind', 'rovibrational')})"
+                   + ("; DOUBTFUL" if getattr(out, "status", "ok") != "ok" else ""))
         return (state.evolve(assignment=out, assign_spec=dict(params)), _assignment_result(out),
                 summary)
 
@@ -356,27 +405,56 @@ def _line_ids(state: State) -> set[int]:
     return set() if fit is None else {int(i) for i in fit.table["line_id"]}
 
 
-def _new_locks(state: State, changes: dict[int, dict], what: str) -> tuple[State, dict]:
+def _new_locks(state: State, changes: dict[int, dict | None], what: str) -> tuple[State, dict]:
     """The state with lock changes applied (line_id -> labels; empty labels = locked as
-    unassigned), and the result entry listing them."""
+    unassigned; None = no lock any more), and the result entry listing them (a label without
+    its isotopologue names the one isotopologue of the current assignment, when it holds one)."""
     known_ids = _line_ids(state)
     for line_id in changes:
         if line_id not in known_ids:
             known = ", ".join(str(i) for i in sorted(known_ids)[:30]) or "none (fit lines first)"
             raise SessionStateError(f"{what}: no line with line_id {line_id}; line ids are {known}")
+    changes = {int(k): _name_isotopologue(state, v) for k, v in changes.items()}
     locks = {int(k): dict(v) for k, v in state.locks.items()}
-    locks.update({int(k): dict(v) for k, v in changes.items()})
-    return state.evolve(locks=locks), {"locks": {str(k): locks[k] for k in sorted(changes)}}
+    for k, v in changes.items():
+        if v is None:
+            locks.pop(k, None)
+        else:
+            locks[k] = dict(v)
+    return state.evolve(locks=locks), {"locks": {str(k): locks.get(k) for k in sorted(changes)}}
 
 
-def _relock(state: State, changes: dict[int, dict], what: str):
+def _name_isotopologue(state: State, labels: dict | None) -> dict | None:
+    """A lock with a label but no isotopologue names the one isotopologue of the current
+    assignment, when it holds exactly one (otherwise the assignment refuses the ambiguous lock)."""
+    if not labels or labels.get("isotopologue") is not None:
+        return labels
+    if not any(labels.get(k) is not None for k in ("label", "J_upper", "J_lower")):
+        return labels
+    a = state.assignment
+    table = None if a is None else a.assignments
+    if table is None or "isotopologue" not in table.columns:
+        return labels
+    isos = {str(v) for v in table["isotopologue"].dropna()}
+    return {**labels, "isotopologue": isos.pop()} if len(isos) == 1 else labels
+
+
+def _relock(state: State, changes: dict[int, dict | None], what: str):
     """Apply lock changes and re-run the last assignment with them; nothing changes when
-    that fails."""
+    that fails.
+
+    Returns the new state, the result (the locks as applied, the assignment tables, status,
+    reasons and ``constant_shifts``, see :func:`constant_shifts`) and a text saying how the
+    constants moved (a WARNING above :data:`SHIFT_WARNING_SIGMA`)."""
     new, result = _new_locks(state, changes, what)
     if state.assign_spec is None:
-        return new, result
+        return new, result, ""
     out = _assign(state, state.assign_spec, dict(new.locks))
-    return new.evolve(assignment=out), {**result, **_assignment_result(out)}
+    shifts = constant_shifts(state.assignment, out)
+    text = _shift_text(shifts) + ("; the assignment is DOUBTFUL"
+                                  if getattr(out, "status", "ok") != "ok" else "")
+    return (new.evolve(assignment=out),
+            {**result, **_assignment_result(out), "constant_shifts": shifts}, text)
 
 
 def _restore_relock(kind: StepKind, state: State, params: dict, result: dict, ctx,
@@ -448,11 +526,10 @@ class SetAssignment(StepKind):
         return out
 
     def apply(self, state, params, ctx):
-        changes = _lock_changes(params)
-        new, result = _relock(state, changes, "set_assignment")
+        new, result, moved = _relock(state, _lock_changes(params), "set_assignment")
         text = "; ".join(f"line {k}: " + ", ".join(f"{a}={b}" for a, b in v.items())
-                         for k, v in changes.items())
-        return new, result, f"locked {text}"
+                         for k, v in result["locks"].items())
+        return new, result, f"locked {text}" + (f"; {moved}" if moved else "")
 
     def restore(self, state, params, result, ctx):
         return _restore_relock(self, state, params, result, ctx, _lock_changes(params),
@@ -468,9 +545,34 @@ class ClearAssignment(StepKind):
 
     def apply(self, state, params, ctx):
         lid = int(params["line_id"])
-        new, result = _relock(state, {lid: {}}, "clear_assignment")
-        return new, result, f"line {lid} left unassigned (locked)"
+        new, result, moved = _relock(state, {lid: {}}, "clear_assignment")
+        return new, result, f"line {lid} left unassigned (locked)" + (f"; {moved}" if moved else "")
 
     def restore(self, state, params, result, ctx):
         return _restore_relock(self, state, params, result, ctx, {int(params["line_id"]): {}},
                                "clear_assignment")
+
+
+@register_step
+class UnlockAssignment(StepKind):
+    kind = "unlock_assignment"
+    tolerance = 1e-6
+
+    @staticmethod
+    def _changes(state, params) -> dict:
+        lid = int(params["line_id"])
+        if lid not in state.locks:
+            locked = ", ".join(str(k) for k in sorted(state.locks)[:30]) or "none"
+            raise SessionStateError(f"unlock_assignment: line {lid} is not locked; locked lines: "
+                                    f"{locked}")
+        return {lid: None}
+
+    def apply(self, state, params, ctx):
+        lid = int(params["line_id"])
+        new, result, moved = _relock(state, self._changes(state, params), "unlock_assignment")
+        return (new, result, f"line {lid} unlocked (assigned automatically again)"
+                + (f"; {moved}" if moved else ""))
+
+    def restore(self, state, params, result, ctx):
+        return _restore_relock(self, state, params, result, ctx, self._changes(state, params),
+                               "unlock_assignment")

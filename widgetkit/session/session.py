@@ -278,7 +278,12 @@ class Session(StateViews):
     def set_assignment(self, line_id: int, **labels) -> None:
         """Lock the assignment of one line (``label="R(3)"``, ``isotopologue=``, ``v_upper=``, ...).
 
-        Locked assignments always win; the last ``assign_band`` is re-run with the locks.
+        A lock is an observation that wins: the last ``assign_band`` is re-run with the locks,
+        the band renumbered around the lock where it can agree, otherwise the locked line is
+        kept with its label and flagged as an outlier. A lock with a label must name the
+        isotopologue when the assignment holds several (it is filled in when it holds one).
+        The step's summary and result say how the constants moved, in units of their previous
+        standard errors, with a warning above 3σ.
         """
         self._run("set_assignment", {"line_id": line_id, "labels": labels})
 
@@ -294,6 +299,10 @@ class Session(StateViews):
     def clear_assignment(self, line_id: int) -> None:
         """Leave one line unassigned (locked so; e.g. a blend or an impurity line)."""
         self._run("clear_assignment", {"line_id": line_id})
+
+    def unlock_assignment(self, line_id: int) -> None:
+        """Remove the lock of one line (set or cleared): the automatic assignment labels it again."""
+        self._run("unlock_assignment", {"line_id": int(line_id)})
 
     def note(self, text: str) -> None:
         """Add a note to the record."""

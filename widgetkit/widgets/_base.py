@@ -53,11 +53,13 @@ _STATUS_STYLE = {
     "error": "color:#b03a2e;font-weight:bold",
     "info": "color:#555",
     "busy": "color:#1f4e79;font-style:italic",
+    "warning": "color:#8a5300;font-weight:bold",
 }
 
 
 def status_html(kind: str, text: str) -> str:
-    """The status line's HTML: ``kind`` in ok, error, info, busy (with a turning mark)."""
+    """The status line's HTML: ``kind`` in ok, error, info, busy (with a turning mark),
+    warning."""
     mark = (BUSY_CSS + '<span class="wk-spinner" aria-hidden="true">◐</span>'
             if kind == "busy" else "")
     return (f'<div class="wk-status wk-status-{kind}" style="{_STATUS_STYLE[kind]}">'

@@ -15,12 +15,13 @@ from ._base import Panel, row
 from ._plot import COLORS
 from ._tables import html_table
 
-__all__ = ["LevelsPanel", "fortrat_m"]
+__all__ = ["LevelsPanel", "fortrat_m", "verdict_html"]
 
 KIND_CHOICES = [("rovibrational band (P/R lines)", "rovibrational"),
                 ("vibrational progression (band centres)", "progression")]
 ASSIGNMENT_COLUMNS = ["line_id", "position", "isotopologue", "label", "v_upper", "v_lower",
-                      "J_upper", "J_lower", "calc", "obs_minus_calc", "outlier"]
+                      "J_upper", "J_lower", "calc", "obs_minus_calc", "normalised_residual",
+                      "outlier"]
 CONSTANT_COLUMNS = ["isotopologue", "name", "value", "stderr", "unit"]
 #: one colour per isotopologue, none near the model's orange or the outliers' red
 ISO_COLORS = ["#1f4e79", "#009e73", "#cc79a7", "#56b4e9", "#7f8c8d", "#8e44ad"]
@@ -30,7 +31,7 @@ CONVERTERS = {"isotopologue": display_isotopologue, "unit": unicode_units}
 HEADINGS = {c: column_label(c, unit=False) for c in ("line_id", "v_upper", "v_lower", "J_upper",
                                                      "J_lower", "obs_minus_calc")}
 HEADINGS.update({"position": "position / cm⁻¹", "calc": "calc / cm⁻¹",
-                 "obs_minus_calc": "obs − calc / cm⁻¹"})
+                 "obs_minus_calc": "obs − calc / cm⁻¹", "normalised_residual": "(obs − calc)/σ"})
 
 
 def fortrat_m(J_upper, J_lower) -> np.ndarray:
@@ -53,13 +54,27 @@ def _small_figure(title: str, x_label: str, y_label: str):
     return fig, xs, ys
 
 
+def verdict_html(assignment) -> str:
+    """The assignment's status: nothing when ok, else "doubtful" and its reasons."""
+    if assignment is None or getattr(assignment, "status", "ok") == "ok":
+        return ""
+    items = "".join(f"<li>{html.escape(str(r))}</li>" for r in getattr(assignment, "reasons", []))
+    return ('<div class="wk-doubtful" style="color:#8a5300"><b>Doubtful result</b>: check before '
+            f"using these constants<ul>{items}</ul></div>")
+
+
 class LevelsPanel(Panel):
     """Assign the fitted lines of a molecule, edit single assignments, see the constants.
 
     "Lock" fixes the assignment of the selected line (``Session.set_assignment``),
-    "Clear" leaves it unassigned and out of the fit (``Session.clear_assignment``);
-    both re-run the last assignment with the locks. A click on a point of
-    either plot selects its line.
+    "Clear" leaves it unassigned and out of the fit (``Session.clear_assignment``),
+    "Unlock" hands it back to the automatic assignment
+    (``Session.unlock_assignment``); each re-runs the last assignment with the
+    locks, and the status line says how the constants moved (in standard
+    errors, with a warning above 3σ). A click on a point of either plot, or
+    choosing a line, fills in its label and isotopologue. A doubtful result
+    is shown with its reasons above the plots; outliers are red in the
+    table and in both plots.
     """
 
     title = "Levels"
@@ -96,6 +111,12 @@ class LevelsPanel(Panel):
         self.clear_button = ipw.Button(description="Clear", icon="ban",
                                        tooltip="leave this line unassigned (kept so by a lock)")
         self.clear_button.on_click(self._on_clear_click)
+        self.unlock_button = ipw.Button(description="Unlock", icon="unlock",
+                                        tooltip="remove the lock: the automatic assignment decides")
+        self.unlock_button.on_click(self._on_unlock_click)
+        self.edit_line.observe(self._on_edit_line_change, names="value")
+        self.verdict = ipw.HTML()
+        self.verdict.add_class("wk-verdict")
 
         self.fortrat_fig, fx, fy = _small_figure("Fortrat plot", "m", "position / cm⁻¹")
         self.fortrat_obs = bq.Scatter(x=np.zeros(0), y=np.zeros(0), scales={"x": fx, "y": fy},
@@ -116,16 +137,17 @@ class LevelsPanel(Panel):
         self.plot_legend = ipw.HTML()
         self.assignment_table = ipw.HTML()
         self.constants_table = ipw.HTML()
-        self._actions(self.assign_button, self.lock_button, self.clear_button)
+        self._actions(self.assign_button, self.lock_button, self.clear_button, self.unlock_button)
         self.children = [
             row(self.molecule, self.kind, self.temperature, self.assign_button),
             self.status,
+            self.verdict,
             ipw.HBox([self.fortrat_fig, self.residual_fig]),  # two half-width plots share a line
             self.plot_legend,
             ipw.HTML("<b>Constants</b>"),
             self.constants_table,
             row(self.edit_line, self.edit_label, self.edit_isotopologue, self.lock_button,
-                self.clear_button),
+                self.clear_button, self.unlock_button),
             ipw.HTML("<b>Assignments</b> (outliers in red)"),
             self.assignment_table,
         ]
@@ -135,7 +157,7 @@ class LevelsPanel(Panel):
         s = self.session
         if s is None:
             self.edit_line.options = []
-            self.assignment_table.value = self.constants_table.value = ""
+            self.assignment_table.value = self.constants_table.value = self.verdict.value = ""
             self._shown_key = None
             return
         state = s.state
@@ -156,9 +178,11 @@ class LevelsPanel(Panel):
         locks = s.locks
         if "line_id" in a:
             a = a.assign(lock=["locked" if int(i) in locks else "" for i in a["line_id"]])
+        self.verdict.value = verdict_html(s.assignment)
         self.assignment_table.value = html_table(
             a, name="assignments", columns=[*ASSIGNMENT_COLUMNS, "lock"],
-            headers=HEADINGS, formats={"obs_minus_calc": ".5f"}, converters=CONVERTERS,
+            headers=HEADINGS, formats={"obs_minus_calc": ".5f", "normalised_residual": ".2f"},
+            converters=CONVERTERS,
             row_class=lambda r: "wk-outlier" if bool(r.get("outlier", False)) else "",
             empty="no assignment yet: fit lines, then press Assign")
         self.constants_table.value = html_table(s.constants, name="constants",
@@ -193,16 +217,16 @@ class LevelsPanel(Panel):
                               errors="coerce").to_numpy(float)
             self.fortrat_fig.title, self.fortrat_fig.axes[0].label = "progression", "v′"
         order = np.argsort(np.where(np.isfinite(m), m, np.inf), kind="stable")
+        flagged = [OUTLIER_COLOR if bool(o) else c for o, c in zip(a["outlier"].tolist(), colors)]
         with self.fortrat_obs.hold_sync():
             self.fortrat_obs.x, self.fortrat_obs.y = m, pos
-            self.fortrat_obs.colors = colors
+            self.fortrat_obs.colors = flagged
         ok = np.isfinite(m[order]) & np.isfinite(calc[order])
         with self.fortrat_calc.hold_sync():
             self.fortrat_calc.x, self.fortrat_calc.y = m[order][ok], calc[order][ok]
         with self.residual_points.hold_sync():
             self.residual_points.x, self.residual_points.y = pos, np.nan_to_num(omc)
-            self.residual_points.colors = [
-                OUTLIER_COLOR if bool(o) else c for o, c in zip(a["outlier"].tolist(), colors)]
+            self.residual_points.colors = flagged
         keys = sorted(set(isos))
         items = [f'<span style="color:{ISO_COLORS[i % len(ISO_COLORS)]}">●</span> '
                  f"{html.escape(display_isotopologue(k))}" for i, k in enumerate(keys) if k]
@@ -223,7 +247,16 @@ class LevelsPanel(Panel):
         self._call("assign", "assign_band", molecule, **opts, busy="assigning lines to levels…")
         if self.last_error is None:
             n = int(self.session.assignments["label"].notna().sum())
-            self.show_status("ok", f"assigned {n} of {len(self.session.assignments)} lines")
+            doubtful = getattr(self.session.assignment, "status", "ok") != "ok"
+            self.show_status("warning" if doubtful else "ok",
+                             f"assigned {n} of {len(self.session.assignments)} lines"
+                             + ("; the result is DOUBTFUL (reasons below)" if doubtful else ""))
+
+    def _show_step_summary(self) -> None:
+        """After a lock, clear or unlock: the step's summary (how the constants moved)."""
+        if self.last_error is None:
+            text = self.session.history[-1].summary
+            self.show_status("warning" if "WARNING" in text or "DOUBTFUL" in text else "ok", text)
 
     def _on_lock_click(self, _button) -> None:
         lid = self.edit_line.value
@@ -236,16 +269,38 @@ class LevelsPanel(Panel):
         if not labels["label"]:
             self.show_status("error", "lock: type a label, e.g. R(3), P(1) or 2-0")
             return
-        self._call("lock", "set_assignment", int(lid), **labels,
-                   ok=f"line {lid} locked as {labels['label']}")
+        self._call("lock", "set_assignment", int(lid), **labels, busy="assigning again with the lock…")
+        self._show_step_summary()
 
     def _on_clear_click(self, _button) -> None:
         lid = self.edit_line.value
         if lid is None:
             self.show_status("error", "clear: choose a line first")
             return
-        self._call("clear", "clear_assignment", int(lid),
-                   ok=f"line {lid} left unassigned")
+        self._call("clear", "clear_assignment", int(lid), busy="assigning again without the line…")
+        self._show_step_summary()
+
+    def _on_unlock_click(self, _button) -> None:
+        lid = self.edit_line.value
+        if lid is None:
+            self.show_status("error", "unlock: choose a line first")
+            return
+        self._call("unlock", "unlock_assignment", int(lid), busy="assigning again…")
+        self._show_step_summary()
+
+    def _fill_edit_fields(self, lid: int) -> None:
+        """Label and isotopologue of line ``lid`` from the current assignment (or its lock)."""
+        a = self.session.assignments if self.session is not None else None
+        if a is None or "line_id" not in a or lid not in set(a["line_id"].tolist()):
+            return
+        row = a.set_index("line_id").loc[lid]
+        self.edit_label.value = str(row["label"]) if pd.notna(row["label"]) else ""
+        iso = row.get("isotopologue") if "isotopologue" in row else None
+        self.edit_isotopologue.value = str(iso) if iso is not None and pd.notna(iso) else ""
+
+    def _on_edit_line_change(self, change) -> None:
+        if change["new"] is not None:
+            self._fill_edit_fields(int(change["new"]))
 
     def _on_point_click(self, _mark, content: dict) -> None:
         i = (content.get("data") or {}).get("index")
@@ -254,5 +309,5 @@ class LevelsPanel(Panel):
         lid = self._plot_ids[int(i)]
         if lid in [o[1] for o in self.edit_line.options]:
             self.edit_line.value = lid
-            row = self.session.assignments.set_index("line_id").loc[lid]
-            self.edit_label.value = str(row["label"]) if pd.notna(row["label"]) else ""
+            # the clicked point names its isotopologue: a lock then names it too
+            self._fill_edit_fields(lid)
