@@ -76,3 +76,34 @@ def correct(result, truth: pd.DataFrame) -> pd.Series:
     a = result.assignments.merge(truth[["line_id", "iso", "Ju", "Jl"]], on="line_id")
     return ((a["isotopologue"] == a["iso"]) & (a["J_upper"] == a["Ju"])
             & (a["J_lower"] == a["Jl"])).fillna(False).astype(bool)
+
+
+def every_other_line_band(*, B_lower: float, B_upper: float, band_origin: float,
+                          temperature: float = 296.0, J_max: int = 60, parity: int = 0,
+                          sigma: float = 0.002, seed: int = 1, min_area: float = 2e-3,
+                          hot: dict | None = None) -> pd.DataFrame:
+    """P and R lines from lower levels of one J parity only, as in a parallel band of a linear
+    molecule with identical spin-0 end nuclei (CO2-like: lines 4B apart, one set missing by
+    spin statistics). ``hot`` (band_origin, B_lower, B_upper, scale) adds a weaker band of the
+    other parity. Areas ∝ ν L(J″) exp(−c₂E″/T). Columns as :func:`line_list` (no truth columns)."""
+    rng = np.random.default_rng(seed)
+    rows = []
+    bands = [(band_origin, B_lower, B_upper, 1.0, parity)]
+    if hot:
+        bands.append((hot["band_origin"], hot["B_lower"], hot["B_upper"], hot["scale"], 1 - parity))
+    for nu0, bl, bu, scale, par in bands:
+        for Jl in range(par, J_max + 1, 2):
+            for Ju in (Jl + 1, Jl - 1):
+                L = Jl + 1 if Ju > Jl else Jl
+                if Ju < 0 or L == 0:
+                    continue
+                nu = nu0 + bu * Ju * (Ju + 1) - bl * Jl * (Jl + 1)
+                rows.append((nu, scale * nu * L * np.exp(-C2 * bl * Jl * (Jl + 1) / temperature)))
+    df = pd.DataFrame(rows, columns=["position", "area"])
+    df["area"] /= df["area"].max()
+    df = df[df["area"] > min_area].copy()
+    df["position"] += rng.normal(0.0, sigma, len(df))
+    df["position_err"] = sigma
+    df = df.sort_values("position").reset_index(drop=True)
+    df.insert(0, "line_id", np.arange(1, len(df) + 1))
+    return df

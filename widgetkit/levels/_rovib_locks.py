@@ -15,8 +15,9 @@ follow by mass scaling). The candidates are
   asks for;
 
 and the chosen one is, in this order: plausible (every fitted B > 0 and, for a
-handbook molecule, within a factor of two of the mass-scaled handbook value,
-:func:`.plausibility.rotational_problems`), honouring most locks (a locked line
+handbook molecule, within a factor of 1.5 of the mass-scaled handbook value,
+:func:`.plausibility.rotational_problems`), with both branches (two well-fitted
+P and R lines at least), honouring most locks (a locked line
 is honoured when it is not an outlier of its sub-band), best score (lines
 fitted, agreement with mass scaling and abundances); a numbering that fits
 fewer than 3/4 of the lines the best one fits is ranked after the others
@@ -182,6 +183,14 @@ def _n_good(st: State) -> int:
     return int(np.sum((st.iso != None) & ~st.outlier & ~st.blended))  # noqa: E711
 
 
+def _two_branches(st: State) -> bool:
+    """At least two well-fitted P and two R lines in the first sub-band: a ¹Σ–¹Σ band has both
+    branches, about equally strong near the origin (a renumbering that turns one branch into the
+    other cannot agree with the band)."""
+    good = (st.iso == st.seed_iso) & ~st.outlier & ~st.blended
+    return int(np.sum(good & (st.Ju > st.Jl))) >= 2 and int(np.sum(good & (st.Ju < st.Jl))) >= 2
+
+
 def _honoured(locks: dict, st: State) -> int:
     return sum(1 for i, v in locks.items()
                if v[1] is not None and not st.outlier[i] and np.isfinite(st.calc[i]))
@@ -237,6 +246,7 @@ def solve(data: Lines, locks: dict, opts: dict, *, seed_fraction: float, max_rou
     # the band, whatever locks it honours
     most = max(_n_good(st) for _, st in tried)
     ranked = sorted(tried, key=lambda t: (not _problems(t[1], molecule, band),
+                                          _two_branches(t[1]),
                                           _n_good(t[1]) >= MIN_GOOD_FRACTION * most,
                                           _honoured(locks, t[1]), t[1].score,
                                           t[0] == "automatic"), reverse=True)

@@ -17,6 +17,8 @@ __all__ = ["match", "refine", "locate_isotopologue", "relabel"]
 
 #: predictions reach this many J beyond the highest J assigned so far (the band grows by rounds)
 _GROW = 3
+#: most a sub-band's departure from natural abundance costs a hypothesis, in lines
+_ABUNDANCE_CAP = 8.0
 
 
 def _predictions(models: dict, lo: float, hi: float, frac: float):
@@ -302,7 +304,9 @@ def _score(data: Lines, st: State, molecule, band) -> float:
         if len(common) >= 2:
             r = sum(d[k] for k in common) / sum(ref[k] for k in common)
             z = np.log(r / (ab[iso_name] / ab[st.seed_iso])) / 0.35
-            score -= min(float(z**2), 50.0)
+            # capped below the worth of a few lines: an enriched sample must not lose a sub-band
+            # to a hypothesis that leaves its lines unassigned (the plausibility check reports it)
+            score -= min(float(z**2), _ABUNDANCE_CAP)
     return score
 
 
