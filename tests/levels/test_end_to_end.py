@@ -67,3 +67,41 @@ def test_a_manual_assignment_is_locked_and_wins(session):
     b = s.assignments.set_index("line_id")
     assert b.loc[lid, "locked"] and b.loc[lid, "label"] == "R(3)"
     assert np.isfinite(b["calc"]).sum() >= len(b) - 2
+
+
+def _co_band(resolution: float, *, seed: int = 3) -> wk.Spectrum:
+    """CO 1-0 at 296 K (HANDBOOK constants, from memory) at a coarse resolution; the file's
+    resolution is in meta["resolution"] as a reader puts it."""
+    co = wk.Diatomic("C", "O")
+    c = {k: v for k, v in wk.simulate.HANDBOOK["12C-16O"].items() if k != "r_e"}
+    sp = wk.simulate.rovibrational(co, c, x_range=(1950, 2350), step=0.5, resolution=resolution,
+                                   noise=0.002, temperature=296.0, seed=seed, lorentz_hwhm=0.05)
+    return wk.Spectrum(sp.x, sp.y, y_kind=sp.y_kind, meta={**sp.meta, "resolution": resolution})
+
+
+def test_an_unresolved_co_band_is_not_a_confident_progression():
+    # only the P and R branch maxima are left at 7 cm-1: read as two bands they gave ωe ≈ 2240
+    # with a small error; now the result is doubtful, its errors unknown, and it says why
+    s = wk.Session(_co_band(7.0))
+    s.find_peaks(min_snr=10)
+    s.fit_lines(shape="gaussian")
+    assert len(s.lines) == 2
+    s.assign_band("CO", kind="progression", temperature=296.0)
+    a = s.assignment
+    assert a.status == "doubtful"
+    assert s.constants.set_index("name").loc["omega_e", "stderr"] != s.constants.set_index(
+        "name").loc["omega_e", "stderr"]  # NaN
+    text = " ".join(a.reasons)
+    assert "nothing tests it" in text and "P–R branch separation" in text
+    assert "hot band 2-1" in text and "Boltzmann factor at 296 K" in text
+    assert s.history[-1].result["status"] == "doubtful"
+
+
+def test_an_unresolved_co_band_is_refused_line_by_line_with_the_contour_pointer():
+    s = wk.Session(_co_band(4.0))
+    s.find_peaks(min_snr=10)  # P-branch lines partly resolved; the file says 4 cm-1 resolution
+    s.fit_lines(shape="gaussian", region=(2080, 2130))
+    n = len(s.history)
+    with pytest.raises(wk.AssignmentError, match="instrument resolution, 4 cm-1") as err:
+        s.assign_band("CO", temperature=296.0)
+    assert "s.fit_band_model" in str(err.value) and len(s.history) == n

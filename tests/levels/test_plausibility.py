@@ -239,12 +239,3 @@ def test_as_many_data_as_parameters_give_no_uncertainties():
     assert c["stderr"].isna().all()
     assert res.status == "doubtful"
     assert any("nothing tests it" in r for r in res.reasons)
-
-
-def test_a_sub_band_of_one_line_has_no_uncertainty():
-    df = line_list(HCL_MOL, HCL, J_max=9, sigma=0.003, seed=8)
-    keep = (df["iso"] == "1H-35Cl") | ((df["Ju"] == 5) & (df["Jl"] == 4))  # one 37Cl line left
-    res = assign_rovibrational(df[keep], HCL_MOL)
-    if "1H-37Cl" in set(res.constants["isotopologue"]):
-        v, e = res.constant("band_origin", "1H-37Cl")
-        assert np.isnan(e) and res.status == "doubtful"
