@@ -13,24 +13,10 @@ import widgetkit as wk
 H35, H37 = "1H-35Cl", "1H-37Cl"
 
 
-@pytest.fixture(scope="module")
-def saved(tmp_path_factory):
-    hcl = wk.Diatomic("H", "Cl")
-    sp = wk.simulate.rovibrational(hcl, wk.simulate.HANDBOOK["1H-35Cl"], x_range=(2740, 3040),
-                                   step=0.02, seed=5, noise=0.002, lorentz_hwhm=0.05,
-                                   resolution=0.1, temperature=296.0)
-    s = wk.Session(sp)
-    s.find_peaks(min_snr=10)
-    s.fit_lines(shape="voigt")
-    s.assign_band(hcl, temperature=296.0)
-    path = tmp_path_factory.mktemp("locks") / "hcl.json"
-    s.save(path)
-    return path
-
-
 @pytest.fixture
-def s(saved):
-    return wk.Session.load(saved)
+def s(hcl):
+    """A fresh copy of the saved H-Cl session of conftest (both isotopologues assigned)."""
+    return hcl
 
 
 def _line(s, label, iso):

@@ -8,8 +8,8 @@ Every number is rounded by its uncertainty:
 * ``obs_minus_calc`` is rounded to the decimal place of its row's position (or
   value) as shown, which that one's uncertainty decides, and ``calc`` likewise
   when it has no error of its own;
-* ``weight`` (1/σ², σ a standard error itself known to about one digit) is shown
-  with 2 significant digits;
+* ``weight`` (1/σ², σ a standard error itself known to about one digit) and
+  ``normalised_residual`` ((obs − calc)/σ_eff) are shown with 2 significant digits;
 * a parameter that ended on a bound is shown as its value with 3 significant
   digits and "(at bound)", never as a value(uncertainty) pair;
 * other floats without an uncertainty get 6 significant digits (statistics such
@@ -153,7 +153,7 @@ def cell_text(row: pd.Series, col: Column, *, at_bound: frozenset = frozenset())
         text = _rounded_like_reference(row, float(v))
         if text is not None:
             return text
-    if col.name == "weight" and isinstance(v, (float, np.floating)):
+    if col.name in ("weight", "normalised_residual") and isinstance(v, (float, np.floating)):
         return _sig(float(v), 2)
     if col.name == "value" and str(row.get("name")) in _STATISTICS:
         return _plain(col.name, v, _STATISTICS[str(row.get("name"))])
