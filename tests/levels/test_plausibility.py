@@ -239,3 +239,10 @@ def test_as_many_data_as_parameters_give_no_uncertainties():
     assert c["stderr"].isna().all()
     assert res.status == "doubtful"
     assert any("nothing tests it" in r for r in res.reasons)
+
+
+def test_rotational_lines_read_as_band_centres_are_doubtful(hcl_lines):
+    # forty P and R lines are not a progression: most cannot be labelled (self-consistency)
+    res = wk.levels.assign_progression(hcl_lines, HCL_MOL)
+    assert res.status == "doubtful"
+    assert any("band centres fit one progression" in r for r in res.reasons)

@@ -31,7 +31,8 @@ result is ``status="doubtful"``, with
 ``reasons``, when a hot band is stronger than its Boltzmann factor allows,
 when two bands look like the P and R branch maxima of one unresolved band,
 when the fit has no degrees of freedom (its standard errors are then NaN),
-or when another labelling scores almost as well.
+when fewer than half the bands fit, or when another labelling scores almost
+as well.
 
 Derived constants:
 
@@ -266,6 +267,11 @@ def fit_progression(
         reasons.append(f"as many bands ({int(valid.sum() - out_v.sum())}) as fitted constants ({k}): "
                        "the fit passes through every band and nothing tests it, so the standard "
                        "errors are unknown (NaN); add a band")
+    n_fit = int(valid.sum() - out_v.sum())
+    if n_fit < 0.5 * n:
+        reasons.append(f"only {n_fit} of {n} band centres fit one progression, the others are "
+                       "flagged: they may not be band centres at all (the rotational lines of one "
+                       "band? assign those with kind='rovibrational')")
     reasons += hot_band_reasons(x, lab, ar, f.beta, temperature)
     pair = branch_pair_reason(x, ar, widths, molecule, temperature)
     if pair:

@@ -238,12 +238,29 @@ def _assign(state: State, spec: dict, locks: dict):
     # to assign_band win
     context = spectrum_context(state.require_spectrum().meta)
     if kind == "rovibrational":
+        _only(opts, _ROVIB_OPTIONS, kind)
         out = levels.assign_rovibrational(fit.table, molecule, locks=locks, **{**context, **opts})
     elif kind == "progression":
+        _only({k: v for k, v in opts.items() if k not in context}, _PROGRESSION_OPTIONS, kind)
+        opts = {k: v for k, v in opts.items() if k not in context}  # no rotation needed
         out = levels.assign_progression(fit.table, molecule, locks=locks, **opts)
     else:
         raise AssignmentError(f"kind must be 'rovibrational' or 'progression', got {kind!r}")
     return out
+
+
+_ROVIB_OPTIONS = frozenset({"temperature", "outlier_sigma", "max_rounds", "min_rounds", "band",
+                            "centrifugal", "match_fraction", "seed_fraction", "resolution",
+                            "technique", "sample_state"})
+_PROGRESSION_OPTIONS = frozenset({"temperature", "outlier_sigma", "isotopologue", "v_max",
+                                  "hot_max", "max_anharmonicity", "n_terms", "max_labellings"})
+
+
+def _only(opts: dict, allowed: frozenset, kind: str) -> None:
+    extra = sorted(k for k, v in opts.items() if k not in allowed and v is not None)
+    if extra:
+        raise AssignmentError(f"assign_band(kind={kind!r}) does not take {', '.join(extra)}; "
+                              f"its options are {', '.join(sorted(allowed))}")
 
 
 #: the assignment kinds (dispatched in ``_assign``)
@@ -362,6 +379,13 @@ class AssignBand(StepKind):
               doc="centrifugal distortion fitted"),
         Param("match_fraction", "number", 0.3, above=0, below=1, doc="matching tolerance"),
         Param("seed_fraction", "number", 0.25, above=0, below=1, doc="seeding tolerance"),
+        # what the spectrum's metadata say unless given (widgetkit.levels.plausibility)
+        Param("resolution", "number", None, above=0, maximum=1e4, nullable=True, unit="cm-1",
+              doc="instrument resolution (default: the file's)"),
+        Param("technique", "choice", None, choices=("infrared", "raman"), nullable=True,
+              doc="infrared or raman (default: the file's)"),
+        Param("sample_state", "choice", None, choices=("gas", "liquid", "solid"), nullable=True,
+              doc="gas, liquid or solid (default: the file's)"),
         # progression options (widgetkit.levels.fit_progression)
         Param("isotopologue", "string", None, nullable=True, doc="the isotopologue assigned"),
         Param("v_max", "integer", 6, minimum=1, maximum=50, doc="highest upper level"),
@@ -557,6 +581,8 @@ class ClearAssignment(StepKind):
 class UnlockAssignment(StepKind):
     kind = "unlock_assignment"
     tolerance = 1e-6
+    parameters = (Param("line_id", "integer", minimum=1, doc="the line unlocked"),)
+    argument_error = AssignmentError
 
     @staticmethod
     def _changes(state, params) -> dict:
