@@ -100,18 +100,20 @@ class LevelsPanel(Panel):
         self.assign_button.on_click(self._on_assign_click)
 
         self.edit_line = ipw.Dropdown(options=[], description="line",
-                                      layout=ipw.Layout(width="260px"))
+                                      layout=ipw.Layout(width="240px"))
         self.edit_label = ipw.Text(description="label", placeholder="R(3), P(1) or 2-0",
-                                   layout=ipw.Layout(width="210px"))
-        self.edit_isotopologue = ipw.Text(description="isotopologue", placeholder="optional",
+                                   layout=ipw.Layout(width="190px"))
+        self.edit_isotopologue = ipw.Text(description="isotopologue",
+                                          placeholder="e.g. 1H-35Cl",
                                           style={"description_width": "initial"},
-                                          layout=ipw.Layout(width="230px"))
-        self.lock_button = ipw.Button(description="Lock", icon="lock")
+                                          layout=ipw.Layout(width="210px"))
+        small = dict(layout=ipw.Layout(width="auto"))
+        self.lock_button = ipw.Button(description="Lock", icon="lock", **small)
         self.lock_button.on_click(self._on_lock_click)
-        self.clear_button = ipw.Button(description="Clear", icon="ban",
+        self.clear_button = ipw.Button(description="Clear", icon="ban", **small,
                                        tooltip="leave this line unassigned (kept so by a lock)")
         self.clear_button.on_click(self._on_clear_click)
-        self.unlock_button = ipw.Button(description="Unlock", icon="unlock",
+        self.unlock_button = ipw.Button(description="Unlock", icon="unlock", **small,
                                         tooltip="remove the lock: the automatic assignment decides")
         self.unlock_button.on_click(self._on_unlock_click)
         self.edit_line.observe(self._on_edit_line_change, names="value")
@@ -191,6 +193,8 @@ class LevelsPanel(Panel):
         if s.assignment is not self._shown_assignment:
             self._shown_assignment = s.assignment
             self._render_plots(a)
+            if self.edit_line.value is not None:  # the selected line's labels as now assigned
+                self._fill_edit_fields(int(self.edit_line.value))
 
     def _render_plots(self, a: pd.DataFrame) -> None:
         if len(a) == 0:
