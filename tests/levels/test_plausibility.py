@@ -166,9 +166,11 @@ def test_an_isotopologue_far_from_natural_abundance_is_doubtful(hcl_lines):
 
 
 def test_a_rotational_temperature_far_from_the_one_given_is_doubtful(hcl_lines):
-    # the lines were simulated at 296 K; the analyst says 600 K
-    res = assign_rovibrational(hcl_lines, HCL_MOL, temperature=600.0)
-    assert any("rotational temperature" in r and "600 K" in r for r in res.reasons)
+    # the lines were simulated at 296 K; the analyst says 900 K (more than twice as hot)
+    res = assign_rovibrational(hcl_lines, HCL_MOL, temperature=900.0)
+    assert any("rotational temperature" in r and "900 K" in r for r in res.reasons)
+    # a first guess somewhat off (450 K) is no reason for doubt: the areas measure T
+    assert assign_rovibrational(hcl_lines, HCL_MOL, temperature=450.0).status == "ok"
 
 
 def test_lines_that_scatter_far_beyond_their_stated_errors_are_doubtful():

@@ -13,8 +13,9 @@ from .terms import rot_term
 
 __all__ = ["analyse", "refuse_unresolved_lines"]
 
-#: a rotational temperature this far (relative) and beyond 4σ from the given one is doubtful
-T_ROT_TOLERANCE = 0.3
+#: the temperature given is a first guess (the band may be measured hotter or colder, as in a
+#: series): only a rotational temperature more than this factor off it, and beyond 4σ, is doubtful
+T_ROT_FACTOR = 2.0
 
 
 def refuse_unresolved_lines(data: Lines, st: State | None, opts: dict) -> None:
@@ -211,7 +212,7 @@ def _temperature_reason(consts, order, opts, reasons) -> None:
     if T is None or row is None:
         return
     t, e = row["value"], row["stderr"]
-    if abs(t - T) > T_ROT_TOLERANCE * T and not (np.isfinite(e) and abs(t - T) <= 4 * e):
+    if abs(np.log(t / T)) > np.log(T_ROT_FACTOR) and not (np.isfinite(e) and abs(t - T) <= 4 * e):
         reasons.append(f"{order[0]}: the rotational temperature from the areas, {_fmt(t, e)} K, "
                        f"disagrees with the {T:g} K given: the J numbering or the areas may be "
                        "wrong")
