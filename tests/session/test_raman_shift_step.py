@@ -37,3 +37,12 @@ def test_a_refused_shift_changes_nothing():
     with pytest.raises(wk.ProcessingError, match="medium"):
         s.to_raman_shift(532.0)
     assert len(s.history) == before and s.spectrum.meta.get("x_axis") is None
+
+
+def test_peak_ids_are_not_reused_after_the_shift():
+    s = wk.Session(_scattered())
+    s.find_peaks(min_snr=20)
+    old = set(s.peaks["peak_id"])
+    s.to_raman_shift(18796.99, unit="cm-1")
+    s.find_peaks(min_snr=20)
+    assert not old & set(s.peaks["peak_id"])  # ids are never given out twice in a session
