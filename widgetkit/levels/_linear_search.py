@@ -1,0 +1,532 @@
+"""Finding and refining one band of a linear molecule among observed lines (private).
+
+1. **Search.** The band's lines (selection rules and spin statistics of the molecule:
+   for ¹⁶O¹²C¹⁶O every other J is missing, so its lines are 4B apart) are predicted
+   with B′ = B″ = B for low J, where B′ ≠ B″ hardly matters. B runs over a grid
+   around (observed spacing of the strongest lines) / (the band's spacing in units of
+   B); for each B the band origin ν₀ comes from the offsets between strong observed
+   lines and the predicted lines nearest the intensity maximum. A hypothesis scores
+   the predicted lines that have an observed line within a quarter of the spacing,
+   less half those that have none.
+2. **Refine.** From each of the best hypotheses: predict (lines up to a J a little
+   beyond those assigned so far), match (optimal assignment on ((obs − calc)/σ)²
+   within a fraction of the local spacing; once a Boltzmann envelope is known, a line
+   more than 10× stronger or weaker than expected cannot take a place), fit (weighted
+   linear least squares with outlier rejection), grow; until nothing changes. Lines
+   an unmatched prediction also explains are blends, kept but left out of the fit;
+   e and f lines closer than a line width are one composite line.
+3. **Choose.** The refined hypothesis with most well-fitted lines, penalised for
+   outliers and for areas that do not follow a Boltzmann envelope, wins.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import functools
+
+import numpy as np
+from scipy.optimize import linear_sum_assignment
+
+from ..errors import AssignmentError
+from ._linear_model import BandSpec, ConstantsFit, Template, design, fit_constants, template
+from ._lsq import robust_scale
+
+__all__ = ["Obs", "BandState", "search", "refine", "strength_factor", "label_list", "lower_energy"]
+
+_GROW = 4
+_BIG = 1e12
+
+
+@dataclass(frozen=True)
+class Obs:
+    """Observed lines (input order): positions, errors (None: unknown), areas, widths."""
+
+    ids: np.ndarray
+    x: np.ndarray
+    sigma: np.ndarray | None
+    area: np.ndarray
+    fwhm: np.ndarray | None
+
+    @property
+    def n(self) -> int:
+        return len(self.x)
+
+
+@dataclass
+class BandState:
+    """One band's assignment: per observed line the template index (−1: none)."""
+
+    spec: BandSpec
+    jmax: int
+    fit: ConstantsFit | None
+    start: dict
+    t: Template | None = None
+    idx: np.ndarray | None = None  # obs -> template index or −1
+    outlier: np.ndarray | None = None
+    blended: np.ndarray | None = None
+    blend_with: list = field(default_factory=list)
+    calc: np.ndarray | None = None
+    calc_err: np.ndarray | None = None
+    intensity: tuple | None = None  # (a, b, s) of ln(area/strength) = a + b E″
+    rounds: int = 0
+    score: float = -np.inf
+    scatter: float = 1.0
+    reps: np.ndarray | None = None  # template index of each composite line
+    rows: np.ndarray | None = None  # design row of each composite line
+    count: np.ndarray | None = None  # template lines in each composite line
+    holes: int = 0  # expected lines not seen
+
+    @property
+    def values(self) -> dict:
+        return self.fit.values if self.fit is not None else dict(self.start)
+
+    def assigned(self) -> np.ndarray:
+        return self.idx >= 0 if self.idx is not None else np.zeros(0, dtype=bool)
+
+    def good(self) -> np.ndarray:
+        return self.assigned() & ~self.outlier & ~self.blended
+
+
+@functools.lru_cache(maxsize=256)
+def _cached(spec: BandSpec, iso, J_max: int, anti_stokes: bool) -> tuple[Template, np.ndarray]:
+    """The template of ``spec`` to ``J_max`` and its full design (both independent of constants)."""
+    t = template(spec, iso, J_max, anti_stokes=anti_stokes)
+    return t, design(spec, t, spec.names)
+
+
+def _main_lines(t: Template) -> np.ndarray:
+    """Lines of the strong branches: factor at least a quarter of the largest at the same J″
+    (the weak Q lines of a Π–Π band are left to the refinement)."""
+    top = {}
+    for j, f in zip(t.J_lower.tolist(), t.factor.tolist()):
+        top[j] = max(top.get(j, 0.0), f)
+    return t.factor >= 0.25 * np.array([top[j] for j in t.J_lower.tolist()])
+
+
+def _full(spec: BandSpec, values: dict) -> np.ndarray:
+    return np.array([values.get(n, 0.0) for n in spec.names])
+
+
+def predict(spec: BandSpec, A_full: np.ndarray, values: dict, fit: ConstantsFit | None):
+    """Positions (and errors, zero without a fit) of design rows."""
+    if fit is not None:
+        return fit.predict(spec, A_full)
+    return A_full @ _full(spec, values), np.zeros(len(A_full))
+
+
+def lower_energy(spec: BandSpec, t: Template, values: dict) -> np.ndarray:
+    """E″ (rotational part, cm⁻¹) of each template line's lower level."""
+    J = t.J_lower.astype(float)
+    l = 0 if spec.rotational else spec.lower.l
+    x = J * (J + 1) - l * l
+    B = values.get("B", values.get("B_lower", 1.0))
+    D = values.get("D", values.get("D_lower", 0.0))
+    return B * x - D * x * x
+
+
+def strength_factor(spec: BandSpec, t: Template, position: np.ndarray) -> np.ndarray:
+    """Everything in a line's intensity but the Boltzmann factor: spin weight × Hönl–London × ν
+    (absorption) or spin weight × (2J″+1) × Placzek–Teller (+ isotropic part) for Raman."""
+    f = t.weight * t.factor
+    if spec.process == "raman":
+        return f * (2 * t.J_lower + 1)
+    return f * np.abs(position)
+
+
+def strong_lines(obs: Obs, free: np.ndarray) -> np.ndarray:
+    """``free`` lines with area at least 6 % of the 95th percentile (all when areas are few):
+    weak lines (hot bands, isotopologues, impurities) could fill the gaps of a wrong pattern."""
+    a = obs.area
+    ok = free & np.isfinite(a) & (a > 0)
+    if ok.sum() < 12:
+        return free.copy()
+    return free & (~np.isfinite(a) | (a >= 0.06 * np.quantile(a[ok], 0.95)))
+
+
+def _spacing_unit(spec: BandSpec, iso) -> float:
+    """Median spacing of the band's non-Q lines at B = 1 (2 for Σ–Σ, 4 with half the J missing)."""
+    t = template(spec, iso, 24)
+    pos = design(spec, t, spec.names) @ _full(spec, {"B_upper": 1.0, "B_lower": 1.0, "B": 1.0})
+    keep = t.branch != "Q"
+    out = []
+    for b in set(t.branch[keep].tolist()):
+        p = np.sort(pos[t.branch == b])
+        if len(p) > 1:
+            out.append(np.diff(p))
+    return float(np.median(np.concatenate(out))) if out else 2.0
+
+
+def _low_j(spec: BandSpec, unit: float) -> int:
+    """Highest J for the search: where |B′ − B″| up to 1 % of B moves lines by < ¼ spacing."""
+    if spec.rotational:
+        return 30
+    return int(max(5, np.floor(np.sqrt(0.25 * unit / 0.01 / 2))))
+
+
+def search(obs: Obs, spec: BandSpec, iso, free: np.ndarray, *, B_range=None,
+           origin_range=None, n_best: int = 20) -> list[tuple[float, float, float]]:
+    """Best (score, ν₀, B) hypotheses for ``spec`` among the lines ``free`` (module docstring)."""
+    sel = strong_lines(obs, free)
+    xs_all, a_all = obs.x[sel], obs.area[sel]
+    order = np.argsort(xs_all)
+    xs, a = xs_all[order], a_all[order]
+    if len(xs) < 4:
+        return []
+    unit = _spacing_unit(spec, iso)
+    ok = np.isfinite(a)
+    strong = np.sort(xs[a >= np.quantile(a[ok], 0.6)]) if ok.sum() >= 10 else xs
+    if B_range is None:
+        d = np.diff(strong)
+        d = d[d > 0]
+        s = float(np.median(d)) if len(d) else float(np.median(np.diff(xs)))
+        B_range = (0.55 * s / unit, 1.6 * s / unit)
+    lo, hi = (float(v) for v in B_range)
+    Bs = np.exp(np.arange(np.log(lo), np.log(hi), 0.012))
+    jl = _low_j(spec, unit)
+    t, base = _cached(spec, iso, jl, spec.rotational)
+    main = _main_lines(t)
+    t = Template(*(getattr(t, f)[main] for f in Template.__dataclass_fields__))
+    base = base[main]
+    stg = strength_factor(spec, t, np.ones(len(t)))
+    top = np.argsort(-stg)[: min(8, len(t))]
+    anchors = xs
+    out = []
+    span_lo, span_hi = xs[0], xs[-1]
+    for B in Bs:
+        p = base @ _full(spec, {"B_upper": B, "B_lower": B, "B": B})
+        tol = 0.22 * unit * B
+        offs = (anchors[:, None] - p[top][None, :]).ravel()
+        if spec.rotational:
+            offs = offs[np.abs(offs) < 3 * unit * B]
+        if origin_range is not None:
+            offs = offs[(offs >= origin_range[0]) & (offs <= origin_range[1])]
+        if not len(offs):
+            continue
+        pred = offs[:, None] + p[None, :]
+        k = np.clip(np.searchsorted(xs, pred), 1, len(xs) - 1)
+        near = np.minimum(np.abs(xs[k] - pred), np.abs(xs[k - 1] - pred))
+        inside = (pred >= span_lo - tol) & (pred <= span_hi + tol)
+        hit = (near <= tol) & inside
+        score = hit.sum(axis=1) - 0.25 * (inside & ~hit).sum(axis=1)
+        # strong lines inside the predicted pattern that it does not explain (in its gaps)
+        lo_p, hi_p = pred.min(axis=1), pred.max(axis=1)
+        n_in = np.searchsorted(xs, hi_p + tol) - np.searchsorted(xs, lo_p - tol)
+        score = score - np.maximum(n_in - hit.sum(axis=1), 0)
+        taken: list = []
+        for j in np.argsort(-score, kind="stable"):
+            if score[j] < score.max() - 0.5 or len(taken) >= 12:
+                break
+            if all(abs(offs[j] - o) > tol for o in taken):
+                taken.append(offs[j])
+                out.append((float(score[j]), float(offs[j]), float(B)))
+    out.sort(key=lambda r: -r[0])
+    if not out:
+        return []
+    # ties among short patterns are broken by growing each promising one a few rounds
+    grown = []
+    seen: list = []
+    for sc, nu0, B in out:
+        if len(grown) >= 600 or sc < out[0][0] - 4:
+            break
+        if any(abs(B - b) < 0.004 * B and abs(nu0 - n) < 0.1 * unit * B for n, b in seen):
+            continue
+        seen.append((nu0, B))
+        n_hit, nu0g, Bg = _quick_grow(spec, iso, xs, nu0, B, unit, jl)
+        grown.append((n_hit + 0.01 * sc, nu0g, Bg, nu0, B))
+    grown.sort(key=lambda r: -r[0])
+    # a band's positions alone fit any J numbering (a parabola in m stays one when m is
+    # shifted); the numbering comes from the missing lines at the origin and the intensities,
+    # so the neighbouring numberings of the best hypotheses are refined as well
+    for sc, nu0g, Bg, _, _ in list(grown[:3]):
+        for k in (-3, -2, -1, 1, 2, 3):
+            grown.append((sc - 0.5 * abs(k), nu0g + k * unit * Bg, Bg, nu0g + k * unit * Bg, Bg))
+    best: list = []
+    for sc, nu0g, Bg, nu0, B in grown:
+        if any(abs(Bg - b) < 0.01 * Bg and abs(nu0g - n) < 0.5 * unit * Bg for _, n, b in best):
+            continue
+        best.append((sc, nu0g, Bg))
+        if len(best) >= n_best:
+            break
+    return best
+
+
+def _quick_grow(spec: BandSpec, iso, xs: np.ndarray, nu0: float, B: float, unit: float, j0: int,
+                rounds: int = 5) -> tuple[int, float, float]:
+    """Lines a hypothesis explains after a few cheap rounds of nearest-line matching and an
+    unweighted fit of ν₀, B′, B″ (and one D) with the J range growing; (count, ν₀, B″)."""
+    vals = _start(spec, nu0, B)
+    names = ("zero_offset", "B") if spec.rotational else ("band_origin", "B_upper", "B_lower")
+    jcur, n_hit = j0, 0
+    for _ in range(rounds):
+        t, A = _cached(spec, iso, jcur, spec.rotational)
+        main = _main_lines(t)
+        t = Template(*(getattr(t, f)[main] for f in Template.__dataclass_fields__))
+        A = A[main]
+        pred = A @ _full(spec, vals)
+        k = np.clip(np.searchsorted(xs, pred), 1, len(xs) - 1)
+        pick = np.where(np.abs(xs[k] - pred) < np.abs(xs[k - 1] - pred), k, k - 1)
+        hit = np.abs(xs[pick] - pred) <= 0.22 * unit * abs(vals.get("B", vals.get("B_lower", B)))
+        n_hit = int(len(np.unique(pick[hit])))
+        if hit.sum() < len(names) + 2:
+            break
+        cols = [spec.names.index(n) for n in names]
+        coef, *_ = np.linalg.lstsq(A[hit][:, cols], xs[pick[hit]], rcond=None)
+        vals = dict(vals, **dict(zip(names, coef.tolist())))
+        jcur = int(t.J_lower[hit].max()) + 6
+    Bv = vals.get("B", vals.get("B_lower", B))
+    return n_hit, float(vals.get("zero_offset", vals.get("band_origin", nu0))), float(Bv)
+
+
+def _composites(spec: BandSpec, t: Template, calc: np.ndarray, merge_tol: float) -> np.ndarray:
+    """Group id per template line: e/f partners of one J and branch closer than ``merge_tol``
+    share a group (they are one observed line)."""
+    gid = np.arange(len(t))
+    if spec.lower.l >= 1 or spec.upper.l >= 1:
+        key = {}
+        for i in range(len(t)):
+            k = (t.branch[i], int(t.J_lower[i]), float(t.sign[i]))
+            if k in key and abs(calc[key[k]] - calc[i]) <= merge_tol:
+                gid[i] = gid[key[k]]
+            else:
+                key[k] = i
+    return gid
+
+
+def _start(spec: BandSpec, nu0: float, B: float) -> dict:
+    if spec.rotational:
+        return {"zero_offset": nu0, "B": B, "D": 0.0}
+    return {"band_origin": nu0, "B_upper": B, "B_lower": B}
+
+
+def _groups(spec, t, A, calc, merge_tol):
+    """Composite lines: representative template index, member lists, mean rows and positions."""
+    gid = _composites(spec, t, calc, merge_tol)
+    reps, inv = np.unique(gid, return_inverse=True)
+    rows = np.zeros((len(reps), A.shape[1]))
+    np.add.at(rows, inv, A)
+    count = np.bincount(inv, minlength=len(reps)).astype(float)
+    return reps, inv, rows / count[:, None], count
+
+
+def _windows(t: Template, reps: np.ndarray, c: np.ndarray, frac: float, floor: float) -> np.ndarray:
+    """frac × the local spacing of predictions of the same branch and side (at least ``floor``)."""
+    w = np.full(len(reps), np.inf)
+    key = np.array([f"{t.branch[r]}{t.sign[r]:+.0f}" for r in reps])
+    for k in set(key.tolist()):
+        m = np.nonzero(key == k)[0]
+        o = m[np.argsort(c[m])]
+        d = np.diff(c[o])
+        sp = np.minimum(np.r_[np.inf, d], np.r_[d, np.inf])
+        w[o] = sp
+    w = np.where(np.isfinite(w), w, floor / frac)
+    return frac * np.maximum(w, floor / frac)
+
+
+def _intensity_model(spec, t, reps, rows_t, obs, use, values):
+    """ln(area/strength) = a + b E″ from the lines ``use`` (obs index -> group), or None."""
+    oi = np.nonzero(use)[0]
+    a = obs.area[oi]
+    ok = np.isfinite(a) & (a > 0)
+    if ok.sum() < 5:
+        return None
+    oi = oi[ok]
+    tg = reps[rows_t[oi]]
+    sub = Template(*(getattr(t, f)[tg] for f in Template.__dataclass_fields__))
+    E = lower_energy(spec, sub, values)
+    y = np.log(obs.area[oi] / strength_factor(spec, sub, obs.x[oi]))
+    A = np.column_stack([np.ones(len(E)), E])
+    keep = np.ones(len(y), dtype=bool)
+    for _ in range(4):  # a few mismatched lines must not tilt the envelope
+        coef, *_ = np.linalg.lstsq(A[keep], y[keep], rcond=None)
+        r = y - A @ coef
+        sc = robust_scale(r[keep])
+        new = np.abs(r) <= max(3 * sc, 0.2)
+        if np.array_equal(new, keep) or new.sum() < 5:
+            break
+        keep = new
+    if not coef[1] < 0:
+        return None
+    return float(coef[0]), float(coef[1]), max(0.3, 1.5 * robust_scale(r[keep]))
+
+
+def _fit_with_outliers(spec, A, y, sig, locked, *, centrifugal, outlier_sigma):
+    out = np.zeros(len(y), dtype=bool)
+    fit, scale = None, 1.0
+    for _ in range(12):
+        use = ~out
+        fit = fit_constants(spec, A[use], y[use], None if sig is None else sig[use],
+                            centrifugal=centrifugal)
+        r = y - fit.predict(spec, A)[0]
+        dof = int(use.sum()) - len(fit.names)
+        if dof < 2:
+            break
+        if sig is not None:
+            scale = max(1.0, robust_scale((r / sig)[use]))
+            z = np.abs(r / sig) / scale
+        else:
+            scale = robust_scale(r[use]) or float(np.sqrt(np.mean(r[use] ** 2))) or 1e-12
+            z = np.abs(r) / scale
+        new = (z > outlier_sigma) & ~locked
+        if np.array_equal(new, out):
+            break
+        out = new
+    return fit, out, scale
+
+
+def refine(obs: Obs, spec: BandSpec, iso, free: np.ndarray, nu0: float, B: float, *,
+           locks: dict, opts: dict, max_rounds: int = 30) -> BandState:
+    """Predict -> match -> fit rounds from a hypothesis (module docstring): first among the
+    strong lines, then among all ``free`` lines with the intensity envelope of the first.
+
+    ``free`` marks the observed lines this band may take; ``locks`` maps an observed line
+    to a template label of this band (it is matched there whatever the cost).
+    """
+    unit = _spacing_unit(spec, iso)
+    st = BandState(spec, _low_j(spec, unit), None, _start(spec, nu0, B))
+    strong = strong_lines(obs, free)
+    _rounds(obs, spec, iso, strong, st, locks, opts, max_rounds, unit, B)
+    if not np.array_equal(strong, free):
+        st.jmax = max(st.jmax, _low_j(spec, unit))
+        _rounds(obs, spec, iso, free, st, locks, opts, max_rounds, unit, B)
+    st.calc, st.calc_err = np.full(obs.n, np.nan), np.full(obs.n, np.nan)
+    a = st.idx >= 0
+    c, e = st.fit.predict(spec, st.rows[st.idx[a]])
+    st.calc[a], st.calc_err[a] = c, e
+    st.holes = _holes(obs, st, iso)
+    st.score = _score(obs, st)
+    return st
+
+
+def _rounds(obs, spec, iso, free, st: BandState, locks, opts, max_rounds, unit, B) -> None:
+    sig_med = float(np.median(obs.sigma)) if obs.sigma is not None else 0.0
+    fw = float(np.nanmedian(obs.fwhm)) if obs.fwhm is not None and np.isfinite(obs.fwhm).any() else 0.0
+    lo, hi = float(obs.x.min()) - 1.0, float(obs.x.max()) + 1.0
+    prev = None
+    for r in range(1, max_rounds + 1):
+        vals = st.values
+        Bnow = abs(vals.get("B", vals.get("B_lower", B)))
+        t, A = _cached(spec, iso, st.jmax + _GROW, spec.rotational)
+        calc, cerr = predict(spec, A, vals, st.fit)
+        merge = max(0.5 * fw, 3 * sig_med, 1e-4 * Bnow)
+        reps, inv, rows, count = _groups(spec, t, A, calc, merge)
+        cg, eg = predict(spec, rows, vals, st.fit)
+        inside = (cg >= lo) & (cg <= hi)
+        win = _windows(t, reps, cg, opts["match_fraction"], 0.5 * opts["match_fraction"] * unit * Bnow)
+        idx = np.full(obs.n, -1)
+        labels = np.array(label_list(spec, t), dtype=object)[reps]
+        taken = set()
+        for i, lab in locks.items():
+            hit = np.nonzero(labels == lab)[0]
+            if len(hit):
+                idx[i] = int(hit[0])
+                taken.add(int(hit[0]))
+        rows_obs = np.array([i for i in np.nonzero(free)[0] if i not in locks], dtype=int)
+        cols = np.array([k for k in np.nonzero(inside)[0] if k not in taken], dtype=int)
+        if len(rows_obs) and len(cols):
+            so = (obs.sigma[rows_obs] if obs.sigma is not None else np.full(len(rows_obs), 1.0))
+            so = so * st.scatter
+            diff = obs.x[rows_obs][:, None] - cg[cols][None, :]
+            var = so[:, None] ** 2 + eg[cols][None, :] ** 2 + 1e-300
+            cost = diff**2 / var + np.log(var)
+            allowed = np.abs(diff) <= win[cols][None, :]
+            if st.intensity is not None:
+                sub = Template(*(getattr(t, f)[reps[cols]] for f in Template.__dataclass_fields__))
+                la = (st.intensity[0] + st.intensity[1] * lower_energy(spec, sub, vals)
+                      + np.log(strength_factor(spec, sub, cg[cols]) * count[cols]))
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    dla = np.log(obs.area[rows_obs])[:, None] - la[None, :]
+                have = np.isfinite(dla)
+                allowed &= ~have | (np.abs(dla) <= np.log(10.0))
+                cost = cost + np.where(have, (dla / st.intensity[2]) ** 2, 0.0)
+            cost = np.where(allowed, np.minimum(cost, 1e9), _BIG)
+            ri, ci = linear_sum_assignment(cost)
+            ok = cost[ri, ci] < _BIG
+            idx[rows_obs[ri[ok]]] = cols[ci[ok]]
+        # blends: a prediction left without a line, in the J range seen, that a matched line explains
+        matched_g = set(idx[idx >= 0].tolist())
+        blended = np.zeros(obs.n, dtype=bool)
+        blend_with = [None] * obs.n
+        asg = np.nonzero(idx >= 0)[0]
+        if len(asg):
+            xa = obs.x[asg]
+            sub = Template(*(getattr(t, f)[reps] for f in Template.__dataclass_fields__))
+            expect = strength_factor(spec, sub, cg) * count
+            if st.intensity is not None:
+                expect = expect * np.exp(st.intensity[1] * lower_energy(spec, sub, vals))
+            for k in np.nonzero(inside)[0]:
+                if k in matched_g or t.J_lower[reps[k]] > st.jmax:
+                    continue
+                j = int(np.argmin(np.abs(xa - cg[k])))
+                oi = asg[j]
+                if expect[k] < 0.2 * expect[idx[oi]]:
+                    continue  # too weak to matter beside the line it would blend with
+                thr = min(max(4 * float(np.hypot(so_i(obs, oi) * st.scatter, eg[k])), 0.5 * fw), win[k])
+                if abs(xa[j] - cg[k]) <= thr:
+                    blended[oi] = True
+                    prior = blend_with[oi]
+                    blend_with[oi] = labels[k] if prior is None else f"{prior}; {labels[k]}"
+        use = (idx >= 0) & ~blended
+        locked = np.array([i in locks for i in np.nonzero(use)[0]], dtype=bool)
+        ui = np.nonzero(use)[0]
+        if len(ui) < len(spec.names[:3]) + 1:
+            raise AssignmentError(f"only {len(ui)} lines of the {spec.name} band could be matched")
+        fit, out_sub, scale = _fit_with_outliers(
+            spec, rows[idx[ui]], obs.x[ui], None if obs.sigma is None else obs.sigma[ui], locked,
+            centrifugal=opts["centrifugal"], outlier_sigma=opts["outlier_sigma"])
+        outlier = np.zeros(obs.n, dtype=bool)
+        outlier[ui[out_sub]] = True
+        st.fit, st.scatter = fit, (scale if obs.sigma is not None else 1.0)
+        if obs.sigma is None:
+            st.scatter = scale
+        st.t, st.idx, st.outlier, st.blended, st.blend_with = t, idx, outlier, blended, blend_with
+        st.reps, st.rows, st.count = reps, rows, count
+        good = use & ~outlier
+        st.intensity = _intensity_model(spec, t, reps, idx, obs, good, fit.values)
+        jm = int(max(t.J_lower[reps[idx[good]]].max(initial=0), 0))
+        st.jmax = max(jm, _low_j(spec, unit) if r == 1 else 0, st.jmax if r == 1 else 0)
+        st.rounds += 1
+        sig = (tuple(idx.tolist()), tuple(outlier.tolist()), tuple(blended.tolist()), st.jmax)
+        if sig == prev:
+            break
+        prev = sig
+
+
+def label_list(spec: BandSpec, t: Template) -> list[str]:
+    """Template labels; anti-Stokes lines of a rotational band get the suffix ``" aS"``."""
+    return [lab + ("" if sg > 0 else " aS") for lab, sg in zip(t.labels(spec), t.sign.tolist())]
+
+
+def so_i(obs: Obs, i: int) -> float:
+    return float(obs.sigma[i]) if obs.sigma is not None else 0.0
+
+
+def _holes(obs: Obs, st: BandState, iso) -> int:
+    """Predicted lines, inside the observed range and the J range assigned, that the intensity
+    envelope expects at least 1.5 times as strong as the weakest assigned line, yet are not
+    seen (neither matched nor hidden in a blend)."""
+    good = st.good() & np.isfinite(obs.area) & (obs.area > 0)
+    if st.intensity is None or good.sum() < 5:
+        return 0
+    t, A = _cached(st.spec, iso, st.jmax, st.spec.rotational)
+    calc, _ = st.fit.predict(st.spec, A)
+    inside = (calc >= obs.x.min()) & (calc <= obs.x.max())
+    a, b, _ = st.intensity
+    expect = np.exp(a + b * lower_energy(st.spec, t, st.values)) * strength_factor(st.spec, t, calc)
+    xs = np.sort(obs.x)
+    k = np.clip(np.searchsorted(xs, calc), 1, len(xs) - 1)
+    near = np.minimum(np.abs(xs[k] - calc), np.abs(xs[k - 1] - calc))
+    unit = _spacing_unit(st.spec, iso) * abs(st.values.get("B", st.values.get("B_lower", 1.0)))
+    seen = near <= 0.3 * unit
+    floor = 1.5 * float(np.min(obs.area[good]))
+    return int(np.sum(inside & ~seen & (expect >= floor)))
+
+
+def _score(obs: Obs, st: BandState) -> float:
+    good = st.good()
+    score = float(good.sum()) - 0.5 * float(st.outlier.sum()) - 2.0 * st.holes
+    if st.intensity is None and np.isfinite(obs.area[good]).sum() >= 5:
+        score -= 5.0  # areas that rise with E″ or do not fit any envelope
+    elif st.intensity is not None:
+        score -= 10.0 * min(st.intensity[2] / 1.5, 1.0)
+    return score
