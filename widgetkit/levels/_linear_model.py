@@ -126,7 +126,7 @@ def _columns(spec: BandSpec, A_full: np.ndarray, names: tuple[str, ...]) -> np.n
     full = list(spec.names)
     cols = []
     for n in names:
-        if n == "D":
+        if n == "D" and "D" not in full:
             cols.append(A_full[:, full.index("D_upper")] + A_full[:, full.index("D_lower")])
         else:
             cols.append(A_full[:, full.index(n)])
@@ -142,19 +142,20 @@ class ConstantsFit:
     fit: LinearFit
     fixed: tuple = ()
     centrifugal: str = "separate"
+    shared_d: bool = False  # "D" stands for D′ = D″ (not the D of a rotational band)
 
     @property
     def values(self) -> dict[str, float]:
         out = dict.fromkeys(self.fixed, 0.0)
         for n, v in zip(self.names, self.fit.beta):
-            if n == "D":
+            if n == "D" and self.shared_d:
                 out["D_upper"] = out["D_lower"] = float(v)
             else:
                 out[n] = float(v)
         return out
 
     def stderr(self, name: str) -> float:
-        key = "D" if name in ("D_upper", "D_lower") and "D" in self.names else name
+        key = "D" if name in ("D_upper", "D_lower") and self.shared_d else name
         if key in self.names:
             return float(self.fit.stderr[self.names.index(key)])
         return float("nan")
@@ -204,8 +205,10 @@ def fit_constants(spec: BandSpec, A_full: np.ndarray, y: np.ndarray, sigma: np.n
             f = weighted_lstsq(_columns(spec, A_full, names), y, sigma)
         except SingularDesign:
             continue
-        used = set(names) | ({"D_upper", "D_lower"} if "D" in names else set())
-        return ConstantsFit(tuple(names), f, tuple(n for n in spec.names if n not in used), mode)
+        shared = "D" in names and "D" not in spec.names
+        used = set(names) | ({"D_upper", "D_lower"} if shared else set())
+        return ConstantsFit(tuple(names), f, tuple(n for n in spec.names if n not in used), mode,
+                            shared)
     raise AssignmentError(
         f"{len(y)} assigned lines do not determine the constants of the {spec.name} band "
         f"({', '.join(spec.names[:3])}); lines of more than one branch are needed: assign more "

@@ -32,7 +32,7 @@ from ..errors import AssignmentError
 from ._linear_model import BandSpec, ConstantsFit, Template, design, fit_constants, template
 from ._lsq import robust_scale
 
-__all__ = ["Obs", "BandState", "search", "refine", "strength_factor", "label_list", "lower_energy"]
+__all__ = ["Obs", "BandState", "search", "centres", "refine", "branch_counts", "strength_factor", "label_list", "lower_energy"]
 
 _GROW = 4
 _BIG = 1e12
@@ -68,7 +68,7 @@ class BandState:
     blend_with: list = field(default_factory=list)
     calc: np.ndarray | None = None
     calc_err: np.ndarray | None = None
-    intensity: tuple | None = None  # (a, b, s) of ln(area/strength) = a + b E″
+    intensity: tuple | None = None  # (a, b, s, rms) of ln(area/strength) = a + b E″
     rounds: int = 0
     score: float = -np.inf
     scatter: float = 1.0
@@ -134,16 +134,19 @@ def strength_factor(spec: BandSpec, t: Template, position: np.ndarray) -> np.nda
     return f * np.abs(position)
 
 
-def strong_lines(obs: Obs, free: np.ndarray) -> np.ndarray:
-    """``free`` lines with area at least 6 % of the 95th percentile (all when areas are few):
-    weak lines (hot bands, isotopologues, impurities) could fill the gaps of a wrong pattern."""
+def strong_lines(obs: Obs, free: np.ndarray, spec: BandSpec | None = None) -> np.ndarray:
+    """``free`` lines with area at least 15 % of the 95th percentile (all when areas are few):
+    weak lines (hot bands, isotopologues, impurities) could fill the gaps of a wrong pattern.
+    A vibrational Raman band keeps every line: its O and S lines are far weaker than the Q
+    branch, yet they carry the rotational structure."""
     a = obs.area
     ok = free & np.isfinite(a) & (a > 0)
-    if ok.sum() < 12:
+    if ok.sum() < 12 or (spec is not None and spec.process == "raman" and not spec.rotational):
         return free.copy()
-    return free & (~np.isfinite(a) | (a >= 0.06 * np.quantile(a[ok], 0.95)))
+    return free & (~np.isfinite(a) | (a >= 0.15 * np.quantile(a[ok], 0.95)))
 
 
+@functools.lru_cache(maxsize=64)
 def _spacing_unit(spec: BandSpec, iso) -> float:
     """Median spacing of the band's non-Q lines at B = 1 (2 for Σ–Σ, 4 with half the J missing)."""
     t = template(spec, iso, 24)
@@ -151,7 +154,7 @@ def _spacing_unit(spec: BandSpec, iso) -> float:
     keep = t.branch != "Q"
     out = []
     for b in set(t.branch[keep].tolist()):
-        p = np.sort(pos[t.branch == b])
+        p = np.unique(np.round(pos[t.branch == b], 9))  # e and f lines of one J coincide here
         if len(p) > 1:
             out.append(np.diff(p))
     return float(np.median(np.concatenate(out))) if out else 2.0
@@ -165,9 +168,9 @@ def _low_j(spec: BandSpec, unit: float) -> int:
 
 
 def search(obs: Obs, spec: BandSpec, iso, free: np.ndarray, *, B_range=None,
-           origin_range=None, n_best: int = 20) -> list[tuple[float, float, float]]:
+           origin_range=None, n_best: int = 6) -> list[tuple[float, float, float]]:
     """Best (score, ν₀, B) hypotheses for ``spec`` among the lines ``free`` (module docstring)."""
-    sel = strong_lines(obs, free)
+    sel = strong_lines(obs, free, spec)
     xs_all, a_all = obs.x[sel], obs.area[sel]
     order = np.argsort(xs_all)
     xs, a = xs_all[order], a_all[order]
@@ -177,10 +180,11 @@ def search(obs: Obs, spec: BandSpec, iso, free: np.ndarray, *, B_range=None,
     ok = np.isfinite(a)
     strong = np.sort(xs[a >= np.quantile(a[ok], 0.6)]) if ok.sum() >= 10 else xs
     if B_range is None:
+        # the upper half of the neighbour spacings: dense Q branches and blends give small ones
         d = np.diff(strong)
-        d = d[d > 0]
-        s = float(np.median(d)) if len(d) else float(np.median(np.diff(xs)))
-        B_range = (0.55 * s / unit, 1.6 * s / unit)
+        d = np.sort(d[d > 0]) if len(d) > 1 else np.diff(xs)
+        s = float(np.median(d[len(d) // 2:]))
+        B_range = (0.5 * s / unit, 1.6 * s / unit)
     lo, hi = (float(v) for v in B_range)
     Bs = np.exp(np.arange(np.log(lo), np.log(hi), 0.012))
     jl = _low_j(spec, unit)
@@ -214,8 +218,9 @@ def search(obs: Obs, spec: BandSpec, iso, free: np.ndarray, *, B_range=None,
         n_in = np.searchsorted(xs, hi_p + tol) - np.searchsorted(xs, lo_p - tol)
         score = score - np.maximum(n_in - hit.sum(axis=1), 0)
         taken: list = []
+        per_b = max(2, 240 // len(Bs))
         for j in np.argsort(-score, kind="stable"):
-            if score[j] < score.max() - 0.5 or len(taken) >= 12:
+            if len(taken) >= per_b:
                 break
             if all(abs(offs[j] - o) > tol for o in taken):
                 taken.append(offs[j])
@@ -227,7 +232,7 @@ def search(obs: Obs, spec: BandSpec, iso, free: np.ndarray, *, B_range=None,
     grown = []
     seen: list = []
     for sc, nu0, B in out:
-        if len(grown) >= 600 or sc < out[0][0] - 4:
+        if len(grown) >= 240:
             break
         if any(abs(B - b) < 0.004 * B and abs(nu0 - n) < 0.1 * unit * B for n, b in seen):
             continue
@@ -238,7 +243,7 @@ def search(obs: Obs, spec: BandSpec, iso, free: np.ndarray, *, B_range=None,
     # a band's positions alone fit any J numbering (a parabola in m stays one when m is
     # shifted); the numbering comes from the missing lines at the origin and the intensities,
     # so the neighbouring numberings of the best hypotheses are refined as well
-    for sc, nu0g, Bg, _, _ in list(grown[:3]):
+    for sc, nu0g, Bg, _, _ in list(grown[:1]):
         for k in (-3, -2, -1, 1, 2, 3):
             grown.append((sc - 0.5 * abs(k), nu0g + k * unit * Bg, Bg, nu0g + k * unit * Bg, Bg))
     best: list = []
@@ -249,6 +254,62 @@ def search(obs: Obs, spec: BandSpec, iso, free: np.ndarray, *, B_range=None,
         if len(best) >= n_best:
             break
     return best
+
+
+def centres(obs: Obs, spec: BandSpec, iso, free: np.ndarray, *, B_range=None,
+            origin_range=None) -> list[tuple[float, float]]:
+    """Structured starting points (ν₀, B): B from the spacing of the strong lines; ν₀ at the
+    widest gaps between strong lines (the missing lines at the origin of a band without a Q
+    branch), at the densest strong cluster (a Q branch), at the area-weighted centre, at zero
+    shift (pure rotational Raman), each with the neighbouring J numberings."""
+    sel = strong_lines(obs, free, spec)
+    order = np.argsort(obs.x[sel])
+    xs, a = obs.x[sel][order], obs.area[sel][order]
+    if len(xs) < 4:
+        return []
+    unit = _spacing_unit(spec, iso)
+    d = np.diff(xs)
+    dd = np.sort(d[d > 0])
+    B0 = _mode_spacing(dd) / unit if B_range is None else float(np.sqrt(B_range[0] * B_range[1]))
+    step = unit * B0
+    cs = []
+    if spec.rotational:
+        cs.append(0.0)
+    w = np.where(np.isfinite(a) & (a > 0), a, 1.0)
+    cs.append(float(np.sum(w * xs) / np.sum(w)))
+    if len(d) >= 5:
+        loc = np.array([np.median(d[max(0, i - 3): i + 4]) for i in range(len(d))])
+        ratio = d / np.maximum(loc, 1e-12)
+        for i in np.argsort(-ratio)[:3]:
+            if ratio[i] > 1.25:
+                cs.append(0.5 * (xs[i] + xs[i + 1]))
+    dens = np.array([np.sum(w[np.abs(xs - x) <= 0.5 * step]) for x in xs])
+    cs.append(float(xs[int(np.argmax(dens))]))
+    out = []
+    for c in cs:
+        # B from the spacing of the lines next to this centre (the widest, a gap, left out)
+        near = np.sort(np.abs(xs - c).argsort()[:8])
+        dl = np.sort(np.diff(xs[near]))[:-1]
+        dl = dl[dl > 0.3 * step]
+        Bs = {B0} if B_range is not None or not len(dl) else {B0, float(np.median(dl)) / unit}
+        for Bc in Bs:
+            for k in (-2, -1, -0.5, 0, 0.5, 1, 2):
+                nu0 = c + k * unit * Bc
+                if origin_range is not None and not origin_range[0] <= nu0 <= origin_range[1]:
+                    continue
+                if all(abs(nu0 - n) > 0.2 * unit * Bc or abs(Bc - b) > 0.02 * Bc for n, b in out):
+                    out.append((nu0, Bc))
+    return out
+
+
+def _mode_spacing(d: np.ndarray) -> float:
+    """The most common neighbour spacing (a smoothed histogram of log spacing), among spacings
+    above a fifth of the 90th percentile (dense Q branches and blends give small ones)."""
+    d = d[d >= 0.2 * np.quantile(d, 0.9)]
+    ld = np.log(d)
+    grid = np.linspace(ld.min(), ld.max(), 200)
+    dens = np.exp(-0.5 * ((grid[:, None] - ld[None, :]) / 0.02) ** 2).sum(axis=1)
+    return float(np.exp(grid[int(np.argmax(dens))]))
 
 
 def _quick_grow(spec: BandSpec, iso, xs: np.ndarray, nu0: float, B: float, unit: float, j0: int,
@@ -271,8 +332,16 @@ def _quick_grow(spec: BandSpec, iso, xs: np.ndarray, nu0: float, B: float, unit:
         if hit.sum() < len(names) + 2:
             break
         cols = [spec.names.index(n) for n in names]
-        coef, *_ = np.linalg.lstsq(A[hit][:, cols], xs[pick[hit]], rcond=None)
-        vals = dict(vals, **dict(zip(names, coef.tolist())))
+        M = A[hit][:, cols]
+        if hit.sum() >= len(names) + 6:  # one centrifugal constant D′ = D″ once lines allow
+            dcol = A[hit][:, spec.names.index("D")] if spec.rotational else \
+                A[hit][:, spec.names.index("D_upper")] + A[hit][:, spec.names.index("D_lower")]
+            M = np.column_stack([M, dcol])
+        coef, *_ = np.linalg.lstsq(M, xs[pick[hit]], rcond=None)
+        vals = dict(vals, **dict(zip(names, coef[: len(names)].tolist())))
+        if len(coef) > len(names):
+            d = float(coef[-1])
+            vals.update({"D": d} if spec.rotational else {"D_upper": d, "D_lower": d})
         jcur = int(t.J_lower[hit].max()) + 6
     Bv = vals.get("B", vals.get("B_lower", B))
     return n_hit, float(vals.get("zero_offset", vals.get("band_origin", nu0))), float(Bv)
@@ -347,7 +416,8 @@ def _intensity_model(spec, t, reps, rows_t, obs, use, values):
         keep = new
     if not coef[1] < 0:
         return None
-    return float(coef[0]), float(coef[1]), max(0.3, 1.5 * robust_scale(r[keep]))
+    return float(coef[0]), float(coef[1]), max(0.3, 1.5 * robust_scale(r[keep])), \
+        float(np.sqrt(np.mean(r[keep] ** 2)))
 
 
 def _fit_with_outliers(spec, A, y, sig, locked, *, centrifugal, outlier_sigma):
@@ -383,8 +453,9 @@ def refine(obs: Obs, spec: BandSpec, iso, free: np.ndarray, nu0: float, B: float
     to a template label of this band (it is matched there whatever the cost).
     """
     unit = _spacing_unit(spec, iso)
-    st = BandState(spec, _low_j(spec, unit), None, _start(spec, nu0, B))
-    strong = strong_lines(obs, free)
+    # the first round reaches only low J, where a starting B a few per cent off still matches
+    st = BandState(spec, max(3, _low_j(spec, unit) // 2), None, _start(spec, nu0, B))
+    strong = strong_lines(obs, free, spec)
     _rounds(obs, spec, iso, strong, st, locks, opts, max_rounds, unit, B)
     if not np.array_equal(strong, free):
         st.jmax = max(st.jmax, _low_j(spec, unit))
@@ -394,7 +465,7 @@ def refine(obs: Obs, spec: BandSpec, iso, free: np.ndarray, nu0: float, B: float
     c, e = st.fit.predict(spec, st.rows[st.idx[a]])
     st.calc[a], st.calc_err[a] = c, e
     st.holes = _holes(obs, st, iso)
-    st.score = _score(obs, st)
+    st.score = _score(obs, st, opts.get("temperature"))
     return st
 
 
@@ -511,7 +582,7 @@ def _holes(obs: Obs, st: BandState, iso) -> int:
     t, A = _cached(st.spec, iso, st.jmax, st.spec.rotational)
     calc, _ = st.fit.predict(st.spec, A)
     inside = (calc >= obs.x.min()) & (calc <= obs.x.max())
-    a, b, _ = st.intensity
+    a, b = st.intensity[:2]
     expect = np.exp(a + b * lower_energy(st.spec, t, st.values)) * strength_factor(st.spec, t, calc)
     xs = np.sort(obs.x)
     k = np.clip(np.searchsorted(xs, calc), 1, len(xs) - 1)
@@ -522,11 +593,45 @@ def _holes(obs: Obs, st: BandState, iso) -> int:
     return int(np.sum(inside & ~seen & (expect >= floor)))
 
 
-def _score(obs: Obs, st: BandState) -> float:
+def branch_counts(st: BandState) -> dict[str, int]:
+    """Well-fitted lines per branch (and side)."""
+    good = st.good()
+    reps = st.reps[st.idx[good]]
+    keys = [f"{b}{'' if sg > 0 else ' aS'}" for b, sg in zip(st.t.branch[reps].tolist(),
+                                                             st.t.sign[reps].tolist())]
+    out: dict[str, int] = {}
+    for k in keys:
+        out[k] = out.get(k, 0) + 1
+    return out
+
+
+def _balance(st: BandState) -> float:
+    """min/max of the line counts of the two outer branches (P/R, O/S); 1 for a rotational band.
+    A wrong J numbering can fit every line as one branch of a band whose other branch lies
+    outside the spectrum: the positions alone cannot tell, the balance of the branches can."""
+    if st.spec.rotational:
+        return 1.0
+    n = branch_counts(st)
+    a, b = (n.get("P", 0), n.get("R", 0)) if st.spec.process == "ir" else (n.get("O", 0), n.get("S", 0))
+    return min(a, b) / max(a, b, 1)
+
+
+def _score(obs: Obs, st: BandState, temperature: float | None = None) -> float:
     good = st.good()
     score = float(good.sum()) - 0.5 * float(st.outlier.sum()) - 2.0 * st.holes
+    score += 0.2 * float(good.sum()) * min(_balance(st), 0.5)
+    if st.spec.rotational:
+        off = abs(st.values.get("zero_offset", 0.0)) / max(abs(st.values.get("B", 1.0)), 1e-9)
+        score -= 2.0 * max(off - 1.0, 0.0)  # zero shift should be near 0 (within about B)
+    if temperature is not None and st.intensity is not None and st.intensity[1] < 0:
+        from .candidates import C2
+
+        t_rot = -C2 / st.intensity[1]
+        score -= min(((t_rot - temperature) / (0.25 * temperature)) ** 2, 20.0)
     if st.intensity is None and np.isfinite(obs.area[good]).sum() >= 5:
         score -= 5.0  # areas that rise with E″ or do not fit any envelope
     elif st.intensity is not None:
-        score -= 10.0 * min(st.intensity[2] / 1.5, 1.0)
+        # the envelope's scatter: its floored form, and its raw rms as a tie-breaker between J
+        # numberings that fit the positions equally well
+        score -= 10.0 * min(st.intensity[2] / 1.5, 1.0) + 2.0 * min(st.intensity[3], 1.0)
     return score

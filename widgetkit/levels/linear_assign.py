@@ -33,7 +33,7 @@ import pandas as pd
 
 from ..errors import AssignmentError
 from ._linear_model import BandSpec
-from ._linear_search import BandState, Obs, refine, search
+from ._linear_search import BandState, Obs, centres, refine, search
 from ._rovib_core import prepare_lines
 from .linear import Linear, as_linear
 from .linear_report import tables
@@ -147,9 +147,9 @@ def _lock_map(locks: Mapping | None, obs: Obs, band: str, kind: str) -> dict[int
 
 
 def _best(obs: Obs, spec: BandSpec, iso, free: np.ndarray, locks: dict, opts: dict, **kw) -> BandState:
-    hyps = search(obs, spec, iso, free, **kw)
+    hyps = centres(obs, spec, iso, free, **kw) + [(n, b) for _, n, b in search(obs, spec, iso, free, **kw)]
     best = None
-    for _, nu0, B in hyps:
+    for nu0, B in hyps:
         try:
             st = refine(obs, spec, iso, free, nu0, B, locks=locks, opts=opts)
         except AssignmentError:
@@ -212,7 +212,7 @@ def assign_linear(lines: pd.DataFrame, molecule, *, kind: str = "parallel",
     obs = _obs(data)
     iso = mol.main
     opts = {"outlier_sigma": float(outlier_sigma), "match_fraction": float(match_fraction),
-            "centrifugal": centrifugal}
+            "centrifugal": centrifugal, "temperature": None if temperature is None else float(temperature)}
     free = np.ones(obs.n, dtype=bool)
     if kind == "raman_vibrational":
         free &= obs.x > 0
