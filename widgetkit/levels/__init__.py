@@ -19,6 +19,8 @@ from .candidates import (
     rotational_partition,
 )
 from .linear import Linear, LinearIsotopologue, as_linear, moment_of_inertia, rotational_constant
+from .linear_assign import KINDS as LINEAR_KINDS
+from .linear_assign import LinearAssignment, assign_linear
 from .linear_terms import (
     VibLevel,
     allowed_lines,
@@ -28,12 +30,15 @@ from .linear_terms import (
 )
 from .molecule import Diatomic, Isotope, Isotopologue, isotope, scale_constants
 from .progression import Progression, assign_progression, birge_sponer, fit_progression
+from .raman import RamanTemperature, stokes_anti_stokes_temperature
 from .rovib import BandAssignment, assign_rovibrational
 from .spin import NUCLEAR_SPINS, SpinStatistics, nuclear_spin, spin_statistics
 from .terms import line_position, rot_constant, rot_term, vib_term
 
 __all__ = [
     "Diatomic", "Isotope", "Isotopologue", "isotope", "scale_constants",
+    "LinearAssignment", "assign_linear", "LINEAR_KINDS", "RamanTemperature",
+    "stokes_anti_stokes_temperature",
     "Linear", "LinearIsotopologue", "as_linear", "moment_of_inertia", "rotational_constant",
     "VibLevel", "term_value", "allowed_lines", "honl_london_linear", "placzek_teller",
     "NUCLEAR_SPINS", "SpinStatistics", "nuclear_spin", "spin_statistics",

@@ -21,7 +21,22 @@ from ..errors import AssignmentError
 from ._lsq import LinearFit, SingularDesign, weighted_lstsq
 from .linear_terms import VibLevel, allowed_lines
 
-__all__ = ["BandSpec", "Template", "template", "design", "fit_constants", "ConstantsFit"]
+__all__ = ["Obs", "BandSpec", "Template", "template", "design", "fit_constants", "ConstantsFit"]
+
+
+@dataclass(frozen=True)
+class Obs:
+    """Observed lines (input order): positions, errors (None: unknown), areas, widths."""
+
+    ids: np.ndarray
+    x: np.ndarray
+    sigma: np.ndarray | None
+    area: np.ndarray
+    fwhm: np.ndarray | None
+
+    @property
+    def n(self) -> int:
+        return len(self.x)
 
 
 @dataclass(frozen=True)

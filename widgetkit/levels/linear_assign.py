@@ -32,8 +32,9 @@ import numpy as np
 import pandas as pd
 
 from ..errors import AssignmentError
-from ._linear_model import BandSpec
-from ._linear_search import BandState, Obs, centres, refine, search
+from ._linear_model import BandSpec, Obs
+from ._linear_search import BandState, refine
+from ._linear_seed import centres, search
 from ._rovib_core import prepare_lines
 from .linear import Linear, as_linear
 from .linear_report import tables

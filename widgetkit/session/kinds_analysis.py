@@ -211,17 +211,55 @@ def _check_fit_record(state: State, table, spec: dict) -> None:
         raise RecordMismatch("the recorded line table lacks finite values of its parameters")
 
 
-def molecule_from_param(value):
-    """A Diatomic from a step parameter: ``{"atoms": [a, b], ...}`` or a formula string."""
-    from ..levels import Diatomic
+def molecule_from_param(value, kind: str = "rovibrational"):
+    """A molecule from a step parameter: a molecule's ``to_dict()`` (``{"atoms": [...], ...}``;
+    ``"kind": "linear"`` for a :class:`~widgetkit.Linear`) or a formula string (a Diatomic for
+    the diatomic kinds, a Linear, atoms along the axis, for the linear and Raman kinds)."""
+    from ..levels import Diatomic, Linear
 
+    linear_kind = kind in LINEAR_KINDS
     if isinstance(value, str):
-        return Diatomic.parse(value)
+        return Linear(value) if linear_kind else Diatomic.parse(value)
     if isinstance(value, dict) and "atoms" in value:
+        if value.get("kind") == "linear" or (linear_kind and len(value["atoms"]) != 2):
+            return Linear.from_dict(value)
         return Diatomic.from_dict(value)
     raise AssignmentError(
-        f"molecule must be a Diatomic, a formula such as 'HCl', or {{'atoms': ['H', 'Cl']}}; "
-        f"got {value!r}")
+        f"molecule must be a Diatomic, a Linear, a formula such as 'HCl' or 'OCO', or "
+        f"{{'atoms': ['H', 'Cl']}}; got {value!r}")
+
+
+#: kinds assigned by :func:`widgetkit.levels.assign_linear`, and the options they take
+LINEAR_KINDS = ("parallel", "perpendicular", "raman_rotational", "raman_vibrational")
+_LINEAR_OPTIONS = ("temperature", "outlier_sigma", "match_fraction", "centrifugal", "hot_bands",
+                   "detector", "band_labels", "excitation_wavenumber", "resolution", "technique",
+                   "sample_state")
+
+
+def _assign_linear(state: State, fit, opts: dict, molecule, kind: str, locks: dict, context: dict):
+    from ..levels.linear_assign import assign_linear
+    from ..levels.plausibility import refuse_unsuitable_spectrum
+
+    _only(opts, frozenset(_LINEAR_OPTIONS), kind)
+    technique = opts.pop("technique", None) or context["technique"]
+    sample_state = opts.pop("sample_state", None) or context["sample_state"]
+    opts.pop("resolution", None)
+    if kind.startswith("raman"):
+        if technique == "infrared":
+            raise AssignmentError(
+                f"assign_band(kind={kind!r}) labels Raman lines (O, Q, S branches), but the "
+                "spectrum's metadata say it is an infrared spectrum; use kind='parallel', "
+                "'perpendicular' or 'rovibrational'")
+        refuse_unsuitable_spectrum(technique=None, sample_state=sample_state, kind=kind)
+    else:
+        refuse_unsuitable_spectrum(technique=technique, sample_state=sample_state, kind=kind,
+                                   molecule=molecule if molecule.diatomic else None)
+    kw = {k: v for k, v in opts.items() if v is not None or k == "temperature"}
+    if kw.get("excitation_wavenumber") is None:
+        kw["excitation_wavenumber"] = state.require_spectrum().meta.get("excitation_wavenumber")
+    if kw.get("band_labels") is not None:
+        kw["band_labels"] = tuple(kw["band_labels"])
+    return assign_linear(fit.table, molecule, kind=kind, locks=locks, **kw)
 
 
 def _assign(state: State, spec: dict, locks: dict):
@@ -232,11 +270,13 @@ def _assign(state: State, spec: dict, locks: dict):
     if fit is None:
         raise SessionStateError("assign_band: there are no fitted lines; run fit_lines() first")
     opts = dict(spec)
-    molecule = molecule_from_param(opts.pop("molecule"))
     kind = opts.pop("kind", "rovibrational")
+    molecule = molecule_from_param(opts.pop("molecule"), kind)
     # what the file says about the measurement (resolution, Raman, sample state); options given
     # to assign_band win
     context = spectrum_context(state.require_spectrum().meta)
+    if kind in LINEAR_KINDS:
+        return _assign_linear(state, fit, opts, molecule, kind, locks, context)
     if kind == "rovibrational":
         _only(opts, _ROVIB_OPTIONS, kind)
         out = levels.assign_rovibrational(fit.table, molecule, locks=locks, **{**context, **opts})
@@ -245,7 +285,7 @@ def _assign(state: State, spec: dict, locks: dict):
         opts = {k: v for k, v in opts.items() if k not in context}  # no rotation needed
         out = levels.assign_progression(fit.table, molecule, locks=locks, **opts)
     else:
-        raise AssignmentError(f"kind must be 'rovibrational' or 'progression', got {kind!r}")
+        raise AssignmentError(f"kind must be one of {', '.join(ASSIGNMENT_KINDS)}, got {kind!r}")
     return out
 
 
@@ -396,6 +436,13 @@ class AssignBand(StepKind):
               doc="terms of G(v)"),
         Param("max_labellings", "integer", 24, minimum=1, maximum=10_000,
               doc="labellings compared"),
+        # linear-molecule and Raman options (widgetkit.levels.assign_linear)
+        Param("hot_bands", "boolean", True, doc="look for a hot band beside a parallel band"),
+        Param("detector", "choice", None, choices=("energy", "photon_counting"), nullable=True,
+              doc="Raman detector: frequency factor nu^4 (energy) or nu^3 (photon counting)"),
+        Param("band_labels", "json", None, nullable=True, doc="(upper, lower) level names"),
+        Param("excitation_wavenumber", "number", None, above=0, nullable=True, unit="cm-1",
+              doc="laser line (vacuum); default from the spectrum"),
     )
     argument_error = AssignmentError
 

@@ -45,6 +45,7 @@ RESULT_TYPES: dict[str, str] = {
     "LineFit": "widgetkit.lines.fitting:LineFit",
     "BandAssignment": "widgetkit.levels.rovib:BandAssignment",
     "Progression": "widgetkit.levels.progression:Progression",
+    "LinearAssignment": "widgetkit.levels.linear_assign:LinearAssignment",
 }
 
 

@@ -265,8 +265,15 @@ class Session(StateViews):
                     **options) -> pd.DataFrame:
         """Assign the fitted lines to transitions of ``molecule`` and fit its constants.
 
-        ``molecule`` is a :class:`widgetkit.Diatomic` or a formula (``"HCl"``); ``kind`` is
-        ``"rovibrational"`` (P/R branches, isotopologues) or ``"progression"`` (band centres).
+        ``molecule`` is a :class:`widgetkit.Diatomic`, a :class:`widgetkit.Linear` or a formula
+        (``"HCl"``; atoms along the axis, ``"OCO"``, for the linear kinds); ``kind`` is
+        ``"rovibrational"`` (P/R branches of a diatomic, isotopologues), ``"progression"`` (band
+        centres), ``"parallel"`` or ``"perpendicular"`` (bands of a linear molecule, with spin
+        statistics, Q branches and hot bands), ``"raman_rotational"`` or
+        ``"raman_vibrational"`` (Raman-shift spectra; ``detector="energy"`` or
+        ``"photon_counting"`` for the Stokes/anti-Stokes temperature). See
+        :func:`widgetkit.levels.assign_rovibrational` and
+        :func:`widgetkit.levels.assign_linear` for the options.
         Returns :attr:`assignments`; constants are in :attr:`constants`.
         """
         if hasattr(molecule, "to_dict"):
