@@ -200,11 +200,27 @@ def refine(obs: Obs, spec: BandSpec, iso, free: np.ndarray, nu0: float, B: float
     """
     unit = spacing_unit(spec, iso)
     # the first round reaches only low J, where a starting B a few per cent off still matches
-    st = BandState(spec, max(3, low_j(spec, unit) // 2), None, start_values(spec, nu0, B))
+    j0 = max(3, low_j(spec, unit) // 2)
+    while j0 < 40 and int(np.sum(cached(spec, iso, j0, spec.rotational)[0].branch != "Q")) < 8:
+        j0 += 1  # at least 8 lines outside a Q branch to start from
+    st = BandState(spec, j0, None, start_values(spec, nu0, B))
     strong = strong_lines(obs, free, spec)
-    _rounds(obs, spec, iso, strong, st, locks, opts, max_rounds, unit, B)
+    # a perpendicular band's Q lines (to the f levels) wait until P and R (to the e levels) have
+    # fixed ν₀, B′ and B″: their positions then depend on q′ alone, found by a scan
+    perp = spec.process == "ir" and spec.upper.l >= 1 and spec.lower.l == 0
+    pipi = spec.process == "ir" and spec.upper.l >= 1 and spec.lower.l >= 1
+    # a dense Q branch (perpendicular band, vibrational Raman band) waits too: its unresolved
+    # lines would pull the numbering of the outer branches
+    dense_q = perp or (spec.process == "raman" and not spec.rotational)
+    _rounds(obs, spec, iso, strong, st, locks, opts, max_rounds, unit, B, skip_q=dense_q)
     if not np.array_equal(strong, free):
         st.jmax = max(st.jmax, low_j(spec, unit))
+        _rounds(obs, spec, iso, free, st, locks, opts, max_rounds, unit, B, skip_q=dense_q)
+    if perp or pipi:
+        _scan_q(obs, st, iso, free)
+    if dense_q or pipi:
+        _rounds(obs, spec, iso, free, st, locks, opts, max_rounds, unit, B)
+    if perp and _renumber_q(obs, st, locks, opts):
         _rounds(obs, spec, iso, free, st, locks, opts, max_rounds, unit, B)
     st.calc, st.calc_err = np.full(obs.n, np.nan), np.full(obs.n, np.nan)
     a = st.idx >= 0
@@ -215,7 +231,131 @@ def refine(obs: Obs, spec: BandSpec, iso, free: np.ndarray, nu0: float, B: float
     return st
 
 
-def _rounds(obs, spec, iso, free, st: BandState, locks, opts, max_rounds, unit, B) -> None:
+def _renumber_q(obs: Obs, st: BandState, locks: dict, opts: dict) -> bool:
+    """Shift the J numbering of a perpendicular band's Q lines by k = −3..3 where that explains
+    them better: q′ can absorb such a shift in the positions, so the areas decide (against the
+    Boltzmann envelope of the P and R lines). Returns True when the numbering changed."""
+    spec, t = st.spec, st.t
+    good = st.good()
+    br = np.full(obs.n, "", dtype=object)
+    br[st.idx >= 0] = t.branch[st.reps[st.idx[st.idx >= 0]]]
+    q_obs = np.nonzero(good & (br == "Q"))[0]
+    pr = good & (br != "Q")
+    if len(q_obs) < 3 or any(i in locks for i in q_obs):
+        return False
+    env = _intensity_model(spec, t, st.reps, st.idx, obs, pr, st.values)
+    key = {(int(t.J_lower[r]), t.branch[r]): g for g, r in enumerate(st.reps)}
+    Jq = t.J_lower[st.reps[st.idx[q_obs]]]
+    sig = obs.sigma if obs.sigma is not None else np.full(obs.n, max(st.scatter, 1e-6))
+    best, best_k = None, 0
+    for k in range(-3, 4):
+        groups = [key.get((int(j) + k, "Q")) for j in Jq]
+        if any(g is None for g in groups):
+            continue
+        idx = st.idx.copy()
+        idx[q_obs] = groups
+        use = np.nonzero(pr | np.isin(np.arange(obs.n), q_obs))[0]
+        try:
+            fit = fit_constants(spec, st.rows[idx[use]], obs.x[use], sig[use],
+                                centrifugal=opts["centrifugal"])
+        except AssignmentError:
+            continue
+        r = (obs.x[use] - fit.predict(spec, st.rows[idx[use]])[0]) / sig[use]
+        cost = float(np.sum(r**2)) / max(st.scatter, 1.0) ** 2
+        if env is not None:
+            sub = Template(*(getattr(t, f)[st.reps[idx[q_obs]]] for f in Template.__dataclass_fields__))
+            la = env[0] + env[1] * lower_energy(spec, sub, fit.values) + np.log(
+                strength_factor(spec, sub, obs.x[q_obs]))
+            with np.errstate(divide="ignore", invalid="ignore"):
+                d = np.log(obs.area[q_obs]) - la
+            cost += float(np.nansum((d / max(env[3], 0.05)) ** 2))
+        if best is None or cost < best - 1e-9:
+            best, best_k = cost, k
+    if best_k == 0:
+        return False
+    groups = [key[(int(j) + best_k, "Q")] for j in Jq]
+    st.idx[q_obs] = groups
+    use = (st.idx >= 0) & ~st.outlier & ~st.blended
+    st.fit = fit_constants(spec, st.rows[st.idx[use]], obs.x[use], sig[use],
+                           centrifugal=opts["centrifugal"])
+    return True
+
+
+def _both_components(t: Template) -> bool:
+    """Every lower J that has lines has them from both its e and its f component."""
+    comps: dict = {}
+    for j, c in zip(t.J_lower.tolist(), t.comp_lower.tolist()):
+        comps.setdefault(j, set()).add(c)
+    return all(len(v) == 2 for v in comps.values())
+
+
+def _scan_q(obs: Obs, st: BandState, iso, free: np.ndarray) -> None:
+    """Set the ℓ-type doubling to the value whose predicted lines meet most free lines; the next
+    rounds start from it. Perpendicular band: q′ from the Q lines (to the f levels) with
+    B′ = B′_e − q′/2 kept; Π–Π band: q′ = q″ = q from the e/f splitting of its P and R lines."""
+    vals = dict(st.values)
+    spec = st.spec
+    t, A = cached(spec, iso, st.jmax + _GROW, False)
+    names = list(spec.names)
+    dq = np.zeros(len(names))
+    if spec.lower.l == 0:
+        rows = t.branch == "Q"
+        Be = vals["B_upper"] + 0.5 * vals.get("q_upper", 0.0)
+        v0 = full_vector(spec, dict(vals, q_upper=0.0, B_upper=Be))
+        dq[names.index("q_upper")], dq[names.index("B_upper")] = 1.0, -0.5
+    else:
+        rows = t.branch != "Q"
+        Be = vals["B_upper"]
+        v0 = full_vector(spec, dict(vals, q_upper=0.0, q_lower=0.0))
+        dq[names.index("q_upper")] = dq[names.index("q_lower")] = 1.0
+    if not rows.any():
+        return
+    fw = float(np.nanmedian(obs.fwhm)) if obs.fwhm is not None and np.isfinite(obs.fwhm).any() else 0.0
+    sig = float(np.median(obs.sigma)) * st.scatter if obs.sigma is not None else 0.0
+    tol = max(3 * sig, 0.5 * fw, 1e-4 * abs(Be))
+    J = t.J_lower[rows].astype(float)
+    span = 0.03 * abs(Be)
+    # when both components of every J exist (no spin statistics tells e from f), P and R lines
+    # cannot tell the sign of q: e is taken above f (q > 0), and the result says so
+    lo_q = 0.0 if spec.lower.l and _both_components(t) else -span
+    qs = np.arange(lo_q, span, max(tol / max(J.max() * (J.max() + 1), 1.0), 1e-9))
+    if len(qs) > 20000:
+        qs = np.linspace(lo_q, span, 20000)
+    base = A[rows]
+    pred = (base @ v0)[None, :] + qs[:, None] * (base @ dq)[None, :]
+    take = free & ((st.idx < 0) | (rows[st.reps[np.maximum(st.idx, 0)]] if spec.lower.l else False)) \
+        if st.idx is not None else free
+    order = np.argsort(obs.x[take])
+    xs, area = obs.x[take][order], obs.area[take][order]
+    if len(xs) < 2:
+        return
+    k = np.clip(np.searchsorted(xs, pred), 1, len(xs) - 1)
+    near = np.where(np.abs(xs[k] - pred) < np.abs(xs[k - 1] - pred), k, k - 1)
+    hit = np.abs(xs[near] - pred) <= tol
+    count = np.array([len(np.unique(near[i][hit[i]])) for i in range(len(qs))], dtype=float)
+    if st.intensity is not None:
+        # the areas tell the Q numbering apart where the positions hardly do (an unresolved
+        # head hides the lowest Q lines): each hit costs up to 1 for an area off the envelope
+        sub = Template(*(getattr(t, f)[rows] for f in Template.__dataclass_fields__))
+        la = (st.intensity[0] + st.intensity[1] * lower_energy(spec, sub, vals)
+              + np.log(strength_factor(spec, sub, base @ v0)))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            dla = np.log(area[near]) - la[None, :]
+        z = np.where(hit & np.isfinite(dla), np.minimum((dla / st.intensity[2]) ** 2, 4.0) / 4, 0.0)
+        count = count - z.sum(axis=1)
+    best = int(np.argmax(count))
+    if count[best] <= 0:
+        return
+    q = float(qs[best])
+    if spec.lower.l == 0:
+        st.start = dict(vals, q_upper=q, B_upper=Be - 0.5 * q)
+    else:
+        st.start = dict(vals, q_upper=q, q_lower=q)
+    st.fit = None
+
+
+def _rounds(obs, spec, iso, free, st: BandState, locks, opts, max_rounds, unit, B,
+            skip_q: bool = False) -> None:
     sig_med = float(np.median(obs.sigma)) if obs.sigma is not None else 0.0
     fw = float(np.nanmedian(obs.fwhm)) if obs.fwhm is not None and np.isfinite(obs.fwhm).any() else 0.0
     lo, hi = float(obs.x.min()) - 1.0, float(obs.x.max()) + 1.0
@@ -223,12 +363,16 @@ def _rounds(obs, spec, iso, free, st: BandState, locks, opts, max_rounds, unit, 
     for r in range(1, max_rounds + 1):
         vals = st.values
         Bnow = abs(vals.get("B", vals.get("B_lower", B)))
-        t, A = cached(spec, iso, st.jmax + _GROW, spec.rotational)
+        # from a bare hypothesis the first round stays at low J (its B may be a few % off)
+        grow = 0 if st.fit is None and r == 1 else _GROW
+        t, A = cached(spec, iso, st.jmax + grow, spec.rotational)
         calc, cerr = predict(spec, A, vals, st.fit)
         merge = max(0.5 * fw, 3 * sig_med, 1e-4 * Bnow)
         reps, inv, rows, count = _groups(spec, t, A, calc, merge)
         cg, eg = predict(spec, rows, vals, st.fit)
         inside = (cg >= lo) & (cg <= hi)
+        if skip_q:
+            inside &= t.branch[reps] != "Q"
         win = _windows(t, reps, cg, opts["match_fraction"], 0.5 * opts["match_fraction"] * unit * Bnow)
         idx = np.full(obs.n, -1)
         labels = np.array(label_list(spec, t), dtype=object)[reps]
@@ -290,7 +434,9 @@ def _rounds(obs, spec, iso, free, st: BandState, locks, opts, max_rounds, unit, 
             raise AssignmentError(f"only {len(ui)} lines of the {spec.name} band could be matched")
         fit, out_sub, scale = _fit_with_outliers(
             spec, rows[idx[ui]], obs.x[ui], None if obs.sigma is None else obs.sigma[ui], locked,
-            centrifugal=opts["centrifugal"], outlier_sigma=opts["outlier_sigma"])
+            # few lines (the first rounds): no centrifugal terms, they would absorb wrong matches
+            centrifugal=opts["centrifugal"] if len(ui) >= 15 else "none",
+            outlier_sigma=opts["outlier_sigma"])
         outlier = np.zeros(obs.n, dtype=bool)
         outlier[ui[out_sub]] = True
         st.fit, st.scatter = fit, (scale if obs.sigma is not None else 1.0)

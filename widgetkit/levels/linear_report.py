@@ -142,6 +142,9 @@ def _constants(data, mol, kind, states, msgs):
             msgs.append(f"{name} band: {', '.join(fit.fixed)} not determined by the assigned lines; "
                         "held at 0" + ("; B_upper is then the e-level value B′ + q′/2"
                                        if "q_upper" in fit.fixed and st.spec.upper.l else ""))
+        if st.spec.lower.l >= 1 and "q_lower" in fit.names and mol.main.statistics.ratio == 1.0:
+            msgs.append(f"{name} band: P and R lines do not tell the e from the f component of a "
+                        "level; the e component is taken as the upper one (q > 0)")
         covs[name] = pd.DataFrame(fit.fit.cov, index=list(fit.names), columns=list(fit.names))
         good = st.good()
         add("n_lines", int(good.sum()), np.nan, "1")

@@ -18,7 +18,16 @@ from ._tables import html_table
 __all__ = ["LevelsPanel", "fortrat_m", "verdict_html"]
 
 KIND_CHOICES = [("rovibrational band (P/R lines)", "rovibrational"),
-                ("vibrational progression (band centres)", "progression")]
+                ("vibrational progression (band centres)", "progression"),
+                ("linear molecule: parallel band (P/R, hot band)", "parallel"),
+                ("linear molecule: perpendicular band (P/Q/R)", "perpendicular"),
+                ("Raman: pure rotational (S lines)", "raman_rotational"),
+                ("Raman: vibrational band (O/Q/S)", "raman_vibrational")]
+#: Raman detector kinds: the frequency factor of the Stokes/anti-Stokes temperature
+DETECTOR_CHOICES = [("detector: not stated", None), ("photon counting (ν³)", "photon_counting"),
+                    ("energy measuring (ν⁴)", "energy")]
+#: one colour per branch in the Fortrat plot of a linear-molecule or Raman band
+BRANCH_COLORS = {"P": "#1f4e79", "Q": "#009e73", "R": "#cc79a7", "O": "#56b4e9", "S": "#8e44ad"}
 ASSIGNMENT_COLUMNS = ["line_id", "position", "isotopologue", "label", "v_upper", "v_lower",
                       "J_upper", "J_lower", "calc", "obs_minus_calc", "normalised_residual",
                       "outlier"]
@@ -91,6 +100,10 @@ class LevelsPanel(Panel):
                                  layout=ipw.Layout(width="230px"))
         self.kind = ipw.Dropdown(options=KIND_CHOICES, value="rovibrational", description="band",
                                  layout=ipw.Layout(width="380px"))
+        self.detector = ipw.Dropdown(options=DETECTOR_CHOICES, value=None,
+                                     tooltip="Raman: how the detector responds (for the "
+                                             "Stokes/anti-Stokes temperature)",
+                                     layout=ipw.Layout(width="200px"))
         self.temperature = ipw.BoundedFloatText(value=0.0, min=0.0, max=1e5,
                                                 description="T / K",
                                                 tooltip="0 = not given",
@@ -141,7 +154,7 @@ class LevelsPanel(Panel):
         self.constants_table = ipw.HTML()
         self._actions(self.assign_button, self.lock_button, self.clear_button, self.unlock_button)
         self.children = [
-            row(self.molecule, self.kind, self.temperature, self.assign_button),
+            row(self.molecule, self.kind, self.temperature, self.detector, self.assign_button),
             self.status,
             self.verdict,
             ipw.HBox([self.fortrat_fig, self.residual_fig]),  # two half-width plots share a line
@@ -181,14 +194,19 @@ class LevelsPanel(Panel):
         if "line_id" in a:
             a = a.assign(lock=["locked" if int(i) in locks else "" for i in a["line_id"]])
         self.verdict.value = verdict_html(s.assignment)
+        extra = [c for c in ("band", "side") if c in a.columns and a[c].notna().any()]
+        cols = ASSIGNMENT_COLUMNS[:3] + extra + ASSIGNMENT_COLUMNS[3:]
         self.assignment_table.value = html_table(
-            a, name="assignments", columns=[*ASSIGNMENT_COLUMNS, "lock"],
+            a, name="assignments", columns=[*cols, "lock"],
             headers=HEADINGS, formats={"obs_minus_calc": ".5f", "normalised_residual": ".2f"},
             converters=CONVERTERS,
             row_class=lambda r: "wk-outlier" if bool(r.get("outlier", False)) else "",
             empty="no assignment yet: fit lines, then press Assign")
-        self.constants_table.value = html_table(s.constants, name="constants",
-                                                columns=CONSTANT_COLUMNS, converters=CONVERTERS,
+        consts = s.constants
+        cols = [c for c in CONSTANT_COLUMNS[:1] + ["band"] + CONSTANT_COLUMNS[1:]
+                if c in consts.columns or c in CONSTANT_COLUMNS]
+        self.constants_table.value = html_table(consts, name="constants",
+                                                columns=cols, converters=CONVERTERS,
                                                 empty="no constants yet")
         if s.assignment is not self._shown_assignment:
             self._shown_assignment = s.assignment
@@ -213,7 +231,14 @@ class LevelsPanel(Panel):
         colors = [ISO_COLORS[sorted(set(isos)).index(i) % len(ISO_COLORS)] for i in isos]
         rotational = ("J_lower" in a and "J_upper" in a
                       and pd.to_numeric(a["J_lower"], errors="coerce").notna().any())
-        if rotational:
+        by_branch = "branch" in a and "m" in a and a["branch"].notna().any()
+        if by_branch:  # a linear-molecule or Raman band: its own running number, one colour a branch
+            m = pd.to_numeric(a["m"], errors="coerce").to_numpy(float)
+            isos = [f"{b} ({band})" if a["band"].nunique() > 1 else str(b)
+                    for b, band in zip(a["branch"], a["band"])]
+            colors = [BRANCH_COLORS.get(str(b), ISO_COLORS[0]) for b in a["branch"]]
+            self.fortrat_fig.title, self.fortrat_fig.axes[0].label = "Fortrat plot", "m"
+        elif rotational:
             m = fortrat_m(a["J_upper"], a["J_lower"])
             self.fortrat_fig.title, self.fortrat_fig.axes[0].label = "Fortrat plot", "m"
         else:  # band centres of a progression: position against the upper level
@@ -231,9 +256,13 @@ class LevelsPanel(Panel):
         with self.residual_points.hold_sync():
             self.residual_points.x, self.residual_points.y = pos, np.nan_to_num(omc)
             self.residual_points.colors = flagged
-        keys = sorted(set(isos))
-        items = [f'<span style="color:{ISO_COLORS[i % len(ISO_COLORS)]}">●</span> '
-                 f"{html.escape(display_isotopologue(k))}" for i, k in enumerate(keys) if k]
+        if by_branch:
+            keys = sorted(set(zip(isos, colors)))
+            items = [f'<span style="color:{c}">●</span> {html.escape(k)} branch' for k, c in keys]
+        else:
+            keys = sorted(set(isos))
+            items = [f'<span style="color:{ISO_COLORS[i % len(ISO_COLORS)]}">●</span> '
+                     f"{html.escape(display_isotopologue(k))}" for i, k in enumerate(keys) if k]
         items.append(f'<span style="color:{COLORS["model"]}">━</span> calculated')
         items.append(f'<span style="color:{OUTLIER_COLOR}">●</span> outlier (obs − calc)')
         self.plot_legend.value = '<div class="wk-legend">' + " &nbsp; ".join(items) + "</div>"
@@ -242,8 +271,11 @@ class LevelsPanel(Panel):
     def assign_options(self) -> dict:
         """The arguments "Assign" passes to ``Session.assign_band``."""
         t = float(self.temperature.value)
-        return {"molecule": self.molecule.value.strip(), "kind": self.kind.value,
-                "temperature": t if t > 0 else None}
+        out = {"molecule": self.molecule.value.strip(), "kind": self.kind.value,
+               "temperature": t if t > 0 else None}
+        if self.kind.value.startswith("raman") and self.detector.value is not None:
+            out["detector"] = self.detector.value
+        return out
 
     def _on_assign_click(self, _button) -> None:
         opts = self.assign_options()
