@@ -256,6 +256,8 @@ def tables(data, mol, kind, states, msgs, *, temperature, excitation_wavenumber,
                 f"{'s' if len(states) > 1 else ''})")
     if reasons:
         msgs.append("DOUBTFUL: " + "; ".join(reasons))
-    return cls(table, consts, covs, kind, describe_model(mol, kind, states), msgs,
+    model = describe_model(mol, kind, states)
+    msgs.insert(0, f"model: {model}")
+    return cls(table, consts, covs, kind, model, msgs,
                "doubtful" if reasons else "ok", reasons, tuple(s.spec.name for s in states),
                max(s.rounds for s in states))
