@@ -16,9 +16,7 @@ Text is plain Unicode (cm⁻¹, σ, ν₀); the renderers escape it for their fo
 from __future__ import annotations
 
 import inspect
-import math
 import os
-import re
 
 import numpy as np
 import pandas as pd
@@ -26,43 +24,20 @@ import pandas as pd
 from ..formatting import (
     article,
     display_isotopologue,
-    format_value,
     plural,
     summary_text,
     tidy_text,
 )
+from .fit_methods import line_fit_paragraph
 from .flags import known
+from .phrases import join_and as _and
+from .phrases import latest_step as _latest
+from .phrases import number_text as _num
 
 __all__ = ["describe_methods", "describe_step", "free_constants", "latest_constants"]
 
-_SHAPE_NAMES = {"gaussian": "Gaussian", "lorentzian": "Lorentzian", "voigt": "Voigt",
-                "pseudo_voigt": "pseudo-Voigt"}
-_WIDTH_NAMES = {"sigma": "Gaussian σ", "gamma": "Lorentzian γ (HWHM)"}
-_BASELINE_NAMES = {None: "no baseline", "none": "no baseline", "constant": "a constant baseline",
-                   "linear": "a linear baseline", "poly2": "a quadratic baseline",
-                   "exponential": "an exponential baseline b₀·exp(−b₁x)"}
 _CONSTANT_NAMES = {"band_origin": "ν₀", "B_upper": "B′", "B_lower": "B″", "D_upper": "D′",
                    "D_lower": "D″", "omega_e": "ωe", "omega_e_x_e": "ωexe", "omega_e_y_e": "ωeye"}
-
-
-_SUP = str.maketrans("0123456789-+", "⁰¹²³⁴⁵⁶⁷⁸⁹⁻ ")
-
-
-def _num(v, sig: int = 4) -> str:
-    """A number for a sentence: ``sig`` significant digits, powers of ten as 1.5×10⁻⁶."""
-    s = format_value(v, sig)
-    m = re.fullmatch(r"(-?[\d.]+)e([-+]\d+)", s)
-    if m is None:
-        return s
-    power = "10" + str(int(m[2])).translate(_SUP).strip()
-    return power if m[1] == "1" else f"{m[1]}×{power}"
-
-
-def _and(items: list[str]) -> str:
-    """``"a"``, ``"a and b"``, ``"a, b and c"``."""
-    items = [i for i in items if i]
-    return items[0] if len(items) == 1 else ", ".join(items[:-1]) + " and " + items[-1] \
-        if items else ""
 
 
 def _source_sentence(session) -> str:
@@ -132,122 +107,6 @@ def describe_step(index: int, step) -> str:
     if k == "clear_assignment":
         return f"Step {index} left line {p.get('line_id')} unassigned by hand (locked so)."
     return f"Step {index} ({k}): {summary_text(step.summary)}."
-
-
-def _last(history, kinds) -> int | None:
-    for i in range(len(history) - 1, -1, -1):
-        if history[i].kind in kinds:
-            return i
-    return None
-
-
-def _constraint_roles(constraints) -> tuple[list[str], list[str]]:
-    """(fixed, tied) descriptions of a line fit's ``constraints`` as recorded in its settings:
-    a number fixes a parameter, a string ties it by an expression, a mapping may do either
-    (``vary``/``value``, ``expr``); ``"doppler"`` fixes Gaussian widths to Doppler widths."""
-    from .flags import parameter_label, parameter_text
-
-    fixed, tied = [], []
-    for name, c in (constraints or {}).items():
-        if name == "doppler" and isinstance(c, dict):
-            which = f" of lines {c['lines']}" if c.get("lines") else ""
-            fixed.append(f"the Gaussian σ{which} at the Doppler width of {_num(c.get('mass'))} u "
-                         f"at {_num(c.get('temperature'))} K")
-        elif isinstance(c, bool):
-            continue
-        elif isinstance(c, (int, float)):
-            fixed.append(f"{parameter_label(name)} at {_num(c, 6)}")
-        elif isinstance(c, str):
-            tied.append(f"{parameter_label(name)} = {parameter_text(c)}")
-        elif isinstance(c, dict):
-            if c.get("expr"):
-                tied.append(f"{parameter_label(name)} = {parameter_text(c['expr'])}")
-            elif c.get("vary") is False:
-                fixed.append(f"{parameter_label(name)} at "
-                             + (_num(c["value"], 6) if "value" in c else "its starting value"))
-            if c.get("min") is not None or c.get("max") is not None:
-                tied.append(f"{parameter_label(name)} bounded to [{c.get('min', '−∞')}, "
-                            f"{c.get('max', '∞')}]")
-    return fixed, tied
-
-
-def _degrees_of_freedom(fit) -> int | None:
-    """ν = χ²/(χ²/ν) from the two recorded statistics (a restored fit holds no lmfit result)."""
-    chisqr, redchi = known(fit, "chisqr"), known(fit, "redchi")
-    try:
-        nu = float(chisqr) / float(redchi)
-    except (TypeError, ValueError, ZeroDivisionError):
-        return None
-    return int(round(nu)) if math.isfinite(nu) and nu > 0 else None
-
-
-def _latest(session, result, kind: str):
-    """(step index, its parameters) of the last ``kind`` step when the state holds its
-    ``result``; None when it does not (never run, or cleared by a later step)."""
-    i = _last(session.history, (kind,))
-    if result is None or i is None:
-        return None
-    return i, session.history[i].params
-
-
-def _line_fit_paragraph(session, state) -> str | None:
-    fit = state.line_fit
-    found = _latest(session, fit, "fit_lines")
-    if found is None:
-        return None
-    i, p = found
-    spec = known(fit, "spec") if isinstance(known(fit, "spec"), dict) else {}
-    shape = spec.get("shape", p.get("shape", "voigt"))
-    widths = {"gaussian": ["sigma"], "lorentzian": ["gamma"]}.get(shape, ["sigma", "gamma"])
-    n = len(known(fit, "table", []))
-    shared = spec.get("shared_width", p.get("shared_width"))
-    width_text = _and([_WIDTH_NAMES[w] for w in widths])
-    if shared is True:
-        per_line = f"area and position free for each line, one {width_text} shared by all"
-    elif shared:
-        per_line = f"area and position free for each line, widths shared as given ({shared})"
-    else:
-        per_line = _and(["area", "position", *[_WIDTH_NAMES[w] for w in widths]]) + \
-            " free for each line"
-    x = known(fit, "x")
-    where = ""
-    if x is not None and len(x):
-        where = f" over {_num(x[0], 6)}–{_num(x[-1], 6)} cm⁻¹ ({plural(len(x), 'point')})"
-    base = spec.get("baseline", p.get("baseline", "linear"))
-    out = [f"Line fit (step {i}). {plural(n, 'line')} fitted together with "
-           f"{_SHAPE_NAMES.get(shape, shape)} profiles ({per_line}) on "
-           f"{_BASELINE_NAMES.get(base, article(str(base) + ' baseline'))}{where}, by non-linear "
-           "least squares (Levenberg–Marquardt on the analytic Jacobian, finished with lmfit's "
-           "trust-region solver)."]
-    if p.get("weights") is not None:
-        out.append("The residuals were weighted by the weights given with the step, "
-                   "wᵢ = 1/σᵢ per point.")
-    else:
-        out.append("The residuals were not weighted (every point has weight 1).")
-    fixed, tied = _constraint_roles(spec.get("constraints"))
-    redchi = known(fit, "redchi")
-    nu = _degrees_of_freedom(fit)
-    x = known(fit, "x")
-    err = ("Standard errors are the square roots of the diagonal of the covariance matrix "
-           "(JᵀJ)⁻¹ of the free parameters scaled by the reduced chi-square χ²/ν")
-    if redchi is not None and math.isfinite(float(redchi)):
-        err += f" = {_num(redchi, 3)}"
-    if nu is not None:
-        err += f" (ν = {nu} degrees of freedom"
-        err += (f", {plural(len(x) - nu, 'free parameter')})" if x is not None and len(x) > nu
-                else ")")
-    out.append(err + ", so the noise level is taken from the scatter of the residuals; height and "
-               "FWHM and their errors follow from the fitted parameters by linear propagation "
-               "with the full covariance.")
-    out.append("Fixed: " + ("; ".join(fixed) if fixed else "none") + ". Tied or bounded by hand: "
-               + ("; ".join(tied) if tied else "none") + ".")
-    out.append("Widths are bounded below by a tenth of the sampling step; a parameter that ends "
-               "on a bound is listed under Flags and its standard error is not meaningful.")
-    conv = known(fit, "converged")
-    if conv is not None:
-        out.append("The fit converged (the remaining Gauss–Newton step lowers χ² by less than "
-                   "10⁻⁴ of χ²/ν)." if conv else "The fit did NOT converge (see Flags).")
-    return " ".join(out)
 
 
 def free_constants(assignment) -> dict[str, list[str]]:
@@ -409,7 +268,7 @@ def describe_methods(session) -> list[str]:
     first = _source_sentence(session)
     steps = [describe_step(i, s) for i, s in enumerate(history) if i > 0]
     out = [" ".join([first, *steps])]
-    for make in (_line_fit_paragraph, _assignment_paragraph, _band_model_paragraph):
+    for make in (line_fit_paragraph, _assignment_paragraph, _band_model_paragraph):
         text = make(session, state)
         if text:
             out.append(text)
