@@ -176,3 +176,22 @@ def test_the_flags_section_says_none_when_there_is_nothing_to_flag(session):
     d = collect(session)
     empty = type(d)(**{**d.__dict__, "flags": []})
     assert "None: no parameter on a bound" in md_section(render_markdown(empty), "Flags")
+
+
+def test_a_progression_is_described_with_its_own_model_and_free_constants():
+    # demo data from our simulator: band centres of the 1-0, 2-0 and 3-0 bands of H-35Cl
+    hcl = wk.Diatomic("1H", "35Cl")
+    sp = wk.simulate.vibrational(hcl, wk.simulate.HANDBOOK["1H-35Cl"], rotational=False, seed=1,
+                                 noise=1e-5, lorentz_hwhm=2.0, resolution=2.0,
+                                 x_range=(2500, 8700), step=0.5)
+    s = wk.Session(sp)
+    s.find_peaks(min_snr=10.0)
+    s.fit_lines(shape="lorentzian")
+    s.assign_band(hcl, kind="progression")
+    text = describe_methods(s)[-1]
+    assert text.startswith("Assignment (step 3). The band centres were assigned")
+    free = list(s.assignment.covariance.columns)
+    assert "omega_e" in free
+    for name in free:
+        assert f"({name})" in text
+    assert "Lines more than" not in text           # no outlier rule is claimed for this kind

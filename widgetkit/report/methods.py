@@ -182,9 +182,12 @@ def _assignment_paragraph(session, state) -> str | None:
                    "out).")
     else:
         out.append("No position errors were available: all weights are equal.")
-    out.append("The covariance matrix is (AᵀWA)⁻¹ multiplied by max(1, χ²/ν): the stated errors "
-               "are trusted unless the scatter shows them too small"
-               + (", and without stated errors it is scaled by χ²/ν" if not has_err else "") + ".")
+    if has_err:
+        out.append("The covariance matrix is (AᵀWA)⁻¹ multiplied by max(1, χ²/ν): the stated "
+                   "errors are trusted unless the scatter shows them too small.")
+    else:
+        out.append("The covariance matrix is (AᵀA)⁻¹ multiplied by χ²/ν: the scatter of the "
+                   "residuals sets the standard errors.")
     for iso, names_ in free.items():
         chi = _chi2_text(a, iso, len(names_))
         label = display_isotopologue(iso) if iso else "all lines"
@@ -192,8 +195,10 @@ def _assignment_paragraph(session, state) -> str | None:
                            for c in names_)
         out.append(f"Free for {label}: {consts}" + (f" ({chi})" if chi else "") + ".")
     held = [m for m in (known(asg, "messages") or []) if "held at" in str(m)]
+    if not free:  # a result that does not say which constants it fitted
+        out.append("Free: the constants given with a standard error in the table of constants.")
     out.append("Fixed: " + ("; ".join(tidy_text(m) for m in held) if held
-                            else "none") + ".")
+                            else "none stated" if not free else "none") + ".")
     if rule is not None:
         rule = p.get("outlier_sigma", rule)
         out.append(f"Lines more than {_num(rule)} σ from the fit are flagged as outliers and left "
