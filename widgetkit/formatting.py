@@ -15,7 +15,7 @@ from decimal import ROUND_HALF_UP, Decimal
 
 __all__ = ["format_uncertainty", "format_value", "display_isotopologue", "plural", "article",
            "COLUMN_LABELS", "column_label", "unicode_units", "tidy_text", "summary_text",
-           "fit_verdict"]
+           "fit_verdict", "plain_message"]
 
 #: values at least this large, or smaller (non-zero) than SMALL, are written as mantissa(u)e±p
 LARGE = 1e9
@@ -238,6 +238,13 @@ def summary_text(summary) -> str:
 
 
 _LIBRARY_PART = re.compile(r";\s*lmfit:.*$", re.S)
+_LIBRARY_CLAUSE = re.compile(r";\s*lmfit:[^)]*")
+
+
+def plain_message(text) -> str:
+    """A message for people with the solver library's own words taken out (the clauses
+    widgetkit quotes from it after "lmfit:"), e.g. in the error of a fit that failed."""
+    return _LIBRARY_CLAUSE.sub("", str(text))
 
 
 def fit_verdict(converged, message="") -> str:

@@ -242,6 +242,22 @@ def test_a_failed_fit_is_told_in_our_words():
     assert fit_verdict(True, ours) == "converged"
 
 
+def test_a_fit_error_is_shown_without_the_solver_librarys_words(session, monkeypatch):
+    session.find_peaks(min_snr=10.0)
+    panel = LinesPanel(session)
+
+    def failing(**kwargs):
+        raise wk.FitError("the line fit did not converge (not converged: a further step would "
+                          "lower chi-square by 3; lmfit: Some `xtol` internals); the previous "
+                          "lines are kept")
+
+    monkeypatch.setattr(session, "fit_lines", failing)
+    panel.fit_button.click()
+    text = panel.status.value
+    assert "wk-status-error" in text and "did not converge" in text and "previous lines" in text
+    assert "lmfit" not in text and "xtol" not in text
+
+
 def test_isotopologues_are_written_as_the_trade_writes_them():
     # mass numbers as left superscripts, hydrogen isotopes as H, D, T (common practice)
     assert display_isotopologue("1H-35Cl") == "H³⁵Cl"

@@ -32,7 +32,7 @@ from typing import Any
 import ipywidgets as ipw
 
 from ..errors import SessionStateError, WidgetkitError
-from ..formatting import plural, summary_text
+from ..formatting import plain_message, plural, summary_text
 
 __all__ = ["Panel", "PlotPanel", "reverse_by_default", "status_html", "row", "BUSY_CSS"]
 
@@ -254,7 +254,7 @@ class Panel(ipw.VBox):
                 result = fn(*args, **kwargs)
         except catch as exc:
             self.last_error = exc
-            self.show_status("error", f"{what}: {exc}")
+            self.show_status("error", f"{what}: {plain_message(exc)}")
             return None
         except Exception as exc:  # a bug, not bad input: say so, and let it propagate
             self.last_error = exc
