@@ -207,6 +207,23 @@ def test_latex_is_ascii_with_booktabs_tables_and_escaped_text(data):
     assert body.count("{") == body.count("}") and body.count("$") % 2 == 0
 
 
+@pytest.mark.slow
+def test_latex_compiles_without_errors_or_overfull_lines(session, tmp_path):
+    # pdflatex (TeX Live) when installed; the check is skipped on machines without it
+    import shutil
+    import subprocess
+
+    if shutil.which("pdflatex") is None:
+        pytest.skip("pdflatex is not installed (Debian: apt-get install texlive-latex-recommended)")
+    write_report(session, tmp_path / "r.tex")
+    for _ in range(2):  # longtable settles its column widths on the second run
+        r = subprocess.run(["pdflatex", "-interaction=nonstopmode", "-halt-on-error", "r.tex"],
+                           cwd=tmp_path, capture_output=True, text=True, timeout=300)
+    assert r.returncode == 0, r.stdout[-3000:]
+    assert (tmp_path / "r.pdf").read_bytes()[:5] == b"%PDF-"
+    assert "Overfull \\hbox" not in r.stdout and "Font Warning" not in r.stdout
+
+
 def test_latex_shows_the_markdown_values_in_math_mode(data):
     tex = render_latex(data)
     for row in md_tables(render_markdown(data))["Constants"]:

@@ -20,6 +20,9 @@ from .data import ReportData
 
 __all__ = ["spectrum_figure", "residual_figure", "report_figures", "to_svg", "to_png"]
 
+#: the fitted model in orange, as in the panels (red marks outliers there; common practice of the
+#: Okabe–Ito palette for colour-blind readers)
+MODEL_COLOUR = "#e69f00"
 _Y_LABEL = {"absorbance": "absorbance", "transmittance": "transmittance", "intensity": "intensity"}
 _RC = {"svg.hashsalt": "widgetkit-report", "svg.fonttype": "none", "font.size": 9.0}
 
@@ -44,7 +47,7 @@ def spectrum_figure(data: ReportData, *, max_labels: int = 60) -> Figure | None:
         ax = fig.add_subplot()
         ax.plot(x, y, lw=0.6, color="0.2", label="spectrum (processed)")
         if data.model_x is not None and data.model_y is not None:
-            ax.plot(data.model_x, data.model_y, lw=0.6, color="tab:red", label="fitted model")
+            ax.plot(data.model_x, data.model_y, lw=0.6, color=MODEL_COLOUR, label="fitted model")
         lines = data.lines
         if len(lines) and "position" in lines:
             pos = lines["position"].to_numpy(dtype=float)

@@ -70,29 +70,57 @@ def tex_escape(text: str) -> str:
     return "".join(out)
 
 
+def _breakable(text: str, every: int = 12) -> str:
+    """Escaped text that may break inside long unspaced runs (hashes, times, paths)."""
+    pieces = []
+    for word in text.split(" "):
+        iso_time = re.match(r"^(\d{4}-\d\d-\d\dT)([^+Z]*)(.*)$", word)
+        if iso_time:  # a date, a time, a zone: may break between them
+            pieces.append(r"\allowbreak{}".join(tex_escape(p) for p in iso_time.groups() if p))
+            continue
+        if len(word) > 2 * every:
+            word = r"\allowbreak{}".join(tex_escape(word[i:i + every])
+                                         for i in range(0, len(word), every))
+        else:
+            word = tex_escape(word)
+        pieces.append(word)
+    return " ".join(pieces)
+
+
 def _tex_cell(text: str) -> str:
     if _NUMBER.match(text):
         t = text.replace("−", "-")
         mant, _, exp = t.partition("e")
         return f"${mant}\\times10^{{{int(exp)}}}$" if exp else f"${mant}$"
-    return tex_escape(text)
+    return _breakable(text)
 
 
 def _code_cell(text: str) -> str:
-    return r"\texttt{\small " + tex_escape(text) + "}"
+    return r"\texttt{\small " + _breakable(text) + "}"
 
 
-def _tex_table(head: list[str], rows: list[list[str]], code: tuple = ()) -> str:
+#: tables with this many columns or more are set smaller and tighter to fit the page:
+#: (columns, font size, column separation)
+WIDE = ((13, "scriptsize", "1.5pt"), (7, "footnotesize", "3pt"))
+
+
+def _tex_table(head: list[str], rows: list[list[str]], code: tuple = (),
+               widths: dict | None = None) -> str:
+    widths = widths or {}
     numeric = [bool(rows) and all(_NUMBER.match(r[i]) or r[i] == "–" for r in rows)
                for i in range(len(head))]
-    spec = "".join("r" if n else ("p{4.5cm}" if i in code else "l")
-                   for i, n in enumerate(numeric))
+    spec = "".join(f"p{{{widths[i]}cm}}" if i in widths else "r" if n
+                   else ("p{4.5cm}" if i in code else "l") for i, n in enumerate(numeric))
     out = [f"\\begin{{longtable}}{{{spec}}}", "\\toprule",
            " & ".join(tex_escape(h) for h in head) + r" \\", "\\midrule", "\\endhead",
            "\\bottomrule", "\\endfoot"]
     out += [" & ".join(_code_cell(c) if i in code else _tex_cell(c) for i, c in enumerate(r))
             + r" \\" for r in rows]
     out.append("\\end{longtable}")
+    for n, size, sep in WIDE:
+        if len(head) >= n:
+            out = [f"{{\\{size}\\setlength{{\\tabcolsep}}{{{sep}}}", *out, "}"]
+            break
     return "\n".join(out)
 
 
@@ -106,7 +134,8 @@ def render_latex(data: ReportData, *, figures: Mapping[str, str] | None = None,
     """
     out = []
     if standalone:
-        out += [r"\documentclass[10pt]{article}", r"\usepackage[margin=2cm]{geometry}",
+        out += [r"\documentclass[10pt]{article}", r"\usepackage[T1]{fontenc}",
+                r"\usepackage[margin=2cm]{geometry}",
                 r"\usepackage{booktabs}", r"\usepackage{longtable}", r"\usepackage{graphicx}",
                 r"\begin{document}"]
     for b in report_blocks(data, figures=figures):
@@ -115,13 +144,13 @@ def render_latex(data: ReportData, *, figures: Mapping[str, str] | None = None,
         elif b.kind == "heading":
             out += ["", f"\\subsection*{{{tex_escape(b.text)}}}"]
         elif b.kind == "para":
-            text = tex_escape(b.text)
+            text = _breakable(b.text, every=20)
             out += ["", f"\\textbf{{{text}}}" if b.tone in ("bad", "warn") else text]
         elif b.kind == "bullets":
-            out += ["", r"\begin{itemize}"] + [r"\item " + tex_escape(i) for i in b.items]
+            out += ["", r"\begin{itemize}"] + [r"\item " + _breakable(i, every=20) for i in b.items]
             out.append(r"\end{itemize}")
         elif b.kind == "table":
-            out += ["", _tex_table(b.head, b.items, b.code)]
+            out += ["", _tex_table(b.head, b.items, b.code, b.widths)]
         elif b.kind == "figures":
             for name, path in b.items:
                 out += ["", r"\begin{figure}[h]\centering",

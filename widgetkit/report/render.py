@@ -48,7 +48,8 @@ class Block:
     ``kind`` is ``"title"``, ``"heading"``, ``"para"``, ``"bullets"``, ``"table"``,
     ``"figures"``; ``text`` the heading or paragraph; ``items`` the bullets or the
     table rows; ``head`` the table heading; ``code`` the columns shown as code
-    (hashes, parameters); ``tone`` of a paragraph: ``"ok"``, ``"bad"``, ``"warn"``.
+    (hashes, parameters); ``tone`` of a paragraph: ``"ok"``, ``"bad"``, ``"warn"``;
+    ``widths`` of a table: column -> width hint in cm for a paged format (LaTeX).
     """
 
     kind: str
@@ -57,6 +58,7 @@ class Block:
     head: list = field(default_factory=list)
     code: tuple = ()
     tone: str = ""
+    widths: dict = field(default_factory=dict)
 
 
 def _title(name: str) -> str:
@@ -107,11 +109,12 @@ def report_blocks(data: ReportData, *, figures: Mapping | None = None) -> list[B
     out.append(Block("bullets", items=list(data.flags)) if data.flags else
                Block("para", "None: no parameter on a bound, no doubtful result, no outlier."))
     out += [Block("heading", "Source data"),
-            Block("table", head=_SOURCE_HEAD, items=_source_rows(data), code=(4, 5)),
+            Block("table", head=_SOURCE_HEAD, items=_source_rows(data), code=(4, 5),
+                  widths={1: 3.6, 4: 3.4, 5: 3.4}),
             Block("heading", "Processing record"),
             Block("para", "Step 0 is the load; step i is the i-th change after it. Parameters "
                           "are shown exactly as recorded."),
-            Block("table", head=_STEP_HEAD, code=(2,),
+            Block("table", head=_STEP_HEAD, code=(2,), widths={2: 4.6, 3: 4.4, 4: 2.3},
                   items=[[str(s.number), s.kind, s.params_text, summary_text(s.summary), s.at]
                          for s in data.steps])]
     if figures:
