@@ -45,7 +45,8 @@ def _source_sentence(session) -> str:
     src = session.sources[0] if session.sources else {}
     name = os.path.basename(str(src.get("path") or "")) or "a spectrum given in memory"
     fmt = f" ({src['format']})" if src.get("format") else ""
-    text = (f"The data are {name}{fmt}: {plural(int(sp.x.size), 'point')} from "
+    axis = "Raman shifts" if (sp.meta or {}).get("x_axis") == "raman_shift" else "wavenumbers"
+    text = (f"The data are {name}{fmt}: {plural(int(sp.x.size), 'point')} at {axis} from "
             f"{_num(sp.x[0], 6)} to {_num(sp.x[-1], 6)} cm⁻¹, read as {sp.y_kind} (step 0).")
     meta = sp.meta or {}
     extra = []
