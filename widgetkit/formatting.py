@@ -185,6 +185,7 @@ COLUMN_LABELS = {
     "gamma": "Lorentzian γ (HWHM)", "snr": "SNR", "isotopologue": "isotopologue",
     "v_upper": "v′", "v_lower": "v″", "J_upper": "J′", "J_lower": "J″", "calc": "calc",
     "calc_err": "σ(calc)", "obs_minus_calc": "obs − calc", "stderr": "σ", "band_origin": "ν₀",
+    "normalised_residual": "(obs − calc)/σ",
 }
 #: the units of columns whose values are wavenumbers
 WAVENUMBER_COLUMNS = frozenset({"position", "fwhm", "sigma", "gamma", "calc", "obs_minus_calc",

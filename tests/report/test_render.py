@@ -101,7 +101,10 @@ def test_markdown_lines_and_assignments_equal_the_session_tables(session, data):
     a = session.assignments
     for row, (_, r) in zip(tables["Assignments"], a.iterrows(), strict=True):
         assert parse_cell(row["label"]) == (r["label"] if isinstance(r["label"], str) else None)
-        assert parse_cell(row["outlier"]) == bool(r["outlier"])
+        if "outlier" in row:                   # left out when no line is one
+            assert parse_cell(row["outlier"]) == bool(r["outlier"])
+        else:
+            assert not a["outlier"].any()
         if pd.notna(r["obs_minus_calc"]):
             # obs − calc rounded to the decimal place of the position as shown
             shown = row["obs − calc (cm⁻¹)"]
@@ -112,6 +115,18 @@ def test_markdown_lines_and_assignments_equal_the_session_tables(session, data):
         w = row["weight (cm²)"]
         assert float(w) == pytest.approx(float(f"{r['weight']:.2g}"), rel=1e-12)
         assert len(re.sub(r"e.*|^0\.0*|\.", "", w).rstrip("0") or "0") <= 2, w
+
+
+def test_columns_without_any_entry_are_left_out_and_said_so(session, data):
+    text = render_markdown(data)
+    a = session.assignments
+    empty = [c for c in a.columns if a[c].isna().all() or (a[c].dtype == bool and not a[c].any())]
+    assert empty                                    # e.g. no blended line in the demo band
+    heads = list(md_tables(text)["Assignments"][0])
+    for c in empty:
+        assert c not in heads and wk.formatting.column_label(c) not in heads
+    assert "Columns without any entry, left out here: " + ", ".join(empty) + "." in text
+    assert set(empty) <= set(read_report_csv(render_csv(data))["assignments"].columns)  # CSV: all
 
 
 def test_no_number_shows_more_digits_than_its_uncertainty_supports(data):

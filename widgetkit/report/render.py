@@ -89,10 +89,24 @@ def _source_rows(data: ReportData) -> list[list[str]]:
             for s in data.sources]
 
 
-def _table_block(df: pd.DataFrame, data: ReportData) -> Block:
-    cols = table_columns(df)
+def _empty_column(values: pd.Series) -> bool:
+    """No entry at all: every value missing, or a yes/no column that is "no" everywhere."""
+    if values.isna().all():
+        return True
+    return values.dtype == bool and not values.any()
+
+
+def _table_blocks(df: pd.DataFrame, data: ReportData) -> list[Block]:
+    """A result table, leaving out the columns without any entry (said below it; the CSV
+    tables keep every column)."""
+    left_out = [str(c) for c in df.columns if _empty_column(df[c])]
+    cols = [c for c in table_columns(df.drop(columns=left_out)) if c.name not in left_out]
     rows = [[cell_text(row, c, at_bound=data.at_bound) for c in cols] for _, row in df.iterrows()]
-    return Block("table", head=[c.heading for c in cols], items=rows)
+    out = [Block("table", head=[c.heading for c in cols], items=rows)]
+    if left_out:
+        out.append(Block("para", "Columns without any entry, left out here: "
+                                 + ", ".join(left_out) + "."))
+    return out
 
 
 def report_blocks(data: ReportData, *, figures: Mapping | None = None) -> list[Block]:
@@ -124,7 +138,7 @@ def report_blocks(data: ReportData, *, figures: Mapping | None = None) -> list[B
                 Block("bullets", items=[tidy_text(m) for m in data.messages])]
     for name, df in data.tables().items():
         out.append(Block("heading", _title(name)))
-        out.append(_table_block(df, data) if len(df) else Block("para", "(none)"))
+        out += _table_blocks(df, data) if len(df) else [Block("para", "(none)")]
     out += [Block("heading", "Software"),
             Block("table", head=["package", "version"],
                   items=[[k, v] for k, v in data.software.items()])]
