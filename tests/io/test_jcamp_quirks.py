@@ -293,3 +293,15 @@ def test_a_wrong_npoints_is_read_with_warn_only_when_the_line_x_values_place_the
     cut = "\n".join(lines[:data_end - 4] + lines[data_end:]) + "\n"  # the last lines lost
     with pytest.raises(SpectrumFormatError, match="NPOINTS=401"):
         read_jcamp(write(tmp_path, cut, "c.jdx"), checks="warn")
+
+
+def test_a_micrometre_survey_with_a_continued_owner_label_is_read():
+    # hand-made file: ##OWNER= continues over two more lines, x in micrometres times XFACTOR
+    s = read_spectrum(DATA / "lr26_micrometre_survey.jdx")
+    assert s.meta["jcamp"]["owner"].splitlines()[2] == "free to use."
+    # 1e4 / lambda[um] for 2.509 um (LASTX) and 2.500 um (FIRSTX), ascending wavenumber
+    assert s.x[0] == pytest.approx(1e4 / 2.509, rel=1e-12)
+    assert s.x[-1] == pytest.approx(1e4 / 2.5, rel=1e-12)
+    assert s.y[-1] == pytest.approx(0.9) and s.y[0] == pytest.approx(0.55)  # 9000, 5500 x 1e-4
+    assert s.meta["sample_state"] == "gas" and "resolution" not in s.meta  # "4" in um: unsaid
+    assert s.meta["transmittance_percent"] is False

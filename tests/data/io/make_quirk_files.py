@@ -18,6 +18,9 @@ readers meet in practice:
 * lr19: a thin-film transmittance (fraction) that peaks at 1.505 from interference fringes.
 * lr20: a delimited Raman export with quoted column names and header fields.
 * lr21: a CSV whose quoted x column name holds a line break.
+
+lr26_micrometre_survey.jdx is written by hand (a continued ##OWNER= label, x in micrometres
+times XFACTOR, AFFN ordinates).
 """
 
 from __future__ import annotations
