@@ -305,3 +305,11 @@ def test_a_micrometre_survey_with_a_continued_owner_label_is_read():
     assert s.y[-1] == pytest.approx(0.9) and s.y[0] == pytest.approx(0.55)  # 9000, 5500 x 1e-4
     assert s.meta["sample_state"] == "gas" and "resolution" not in s.meta  # "4" in um: unsaid
     assert s.meta["transmittance_percent"] is False
+
+
+def test_a_huge_npoints_with_a_matching_dup_count_fails_at_once(tmp_path):
+    # a corrupt pair: NPOINTS 3e7 and one DUP count of 3e7 would fill gigabytes of memory
+    text = _xydata_file(["1 A" + "S" + "29999999"], 30_000_000)
+    with pytest.raises(SpectrumFormatError, match="not a spectrum size") as info:
+        read_jcamp(write(tmp_path, text))
+    assert info.value.line == 6

@@ -60,8 +60,10 @@ from .asdf_encode import (
 __all__ = ["XYDataLines", "decode_xydata", "encode_sqz", "encode_dif", "encode_dup",
            "encode_difdup_lines", "encode_affn_lines"]
 
-#: no DUP expansion beyond this many values, whatever NPOINTS says
-MAX_VALUES = 200_000_000
+#: no block of more ordinates than this (and no DUP expansion beyond it, whatever NPOINTS
+#: says): decoding takes a few hundred bytes of memory per ordinate, so 2e7 ordinates stay
+#: within a few GB; a corrupt count fails at once instead of filling memory
+MAX_VALUES = 20_000_000
 _COMMENT = re.compile(rb"\$\$[^\n]*")
 
 
