@@ -134,3 +134,13 @@ def test_two_consistent_locks_outweigh_one_that_disagrees(band):
     r6 = _id(df, H35, 7, 6)  # the true R(6) line: its label is the lock's, it is left unassigned
     assert pd.isna(a.loc[r6, "label"])
     assert correct(res, df[~df["line_id"].isin([r5, r6])]).all()
+
+
+def test_a_lock_may_name_its_isotopologue_as_the_trade_writes_it(band):
+    df, _ = band
+    lid = _id(df, H37, 2, 3)
+    res = assign_rovibrational(df, MOL, locks={lid: {"label": "P(3)", "isotopologue": "H³⁷Cl"}})
+    a = res.assignments.set_index("line_id")
+    assert a.loc[lid, "isotopologue"] == H37 and a.loc[lid, "locked"]
+    with pytest.raises(wk.AssignmentError, match="not an isotopologue"):
+        assign_rovibrational(df, MOL, locks={lid: {"label": "P(3)", "isotopologue": "HCl"}})

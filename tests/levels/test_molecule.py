@@ -73,3 +73,14 @@ def test_unknown_atoms_raise_assignment_error_with_a_hint():
         isotope("Cl", 99)
     with pytest.raises(ValueError):  # AssignmentError is also a ValueError
         Diatomic.parse("H2O")
+
+
+def test_an_isotopologue_is_found_by_the_trades_spellings():
+    # isotopologue names as written in spectroscopy texts (common practice): H35Cl, H³⁵Cl, D35Cl
+    hcl = Diatomic("H", "Cl")
+    assert hcl.isotopologue("H³⁵Cl").name == "1H-35Cl"
+    assert hcl.isotopologue("35Cl-1H").name == "1H-35Cl"
+    assert hcl.isotopologue("H37Cl").name == "1H-37Cl"
+    assert Diatomic("2H", "Cl").isotopologue("D35Cl").name == "2H-35Cl"
+    with pytest.raises(wk.AssignmentError, match="single isotopologue"):
+        hcl.isotopologue("HCl")  # both chlorine isotopes fit

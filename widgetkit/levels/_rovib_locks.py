@@ -77,8 +77,11 @@ def parse_locks(locks: Mapping | None, data: Lines, molecule: Diatomic, band) ->
                                   "isotopologue, v_upper, v_lower, J_upper, J_lower, label")
         iso = lab.get("isotopologue")
         if iso is not None and iso not in names:
-            raise AssignmentError(f"lock of line {lid!r}: {iso!r} is not an isotopologue of {molecule}; "
-                                  f"known: {', '.join(names)}")
+            try:  # as the trade writes it, "H35Cl" or "H³⁵Cl"
+                iso = molecule.isotopologue(iso).name
+            except AssignmentError:
+                raise AssignmentError(f"lock of line {lid!r}: {iso!r} is not an isotopologue of "
+                                      f"{molecule}; known: {', '.join(names)}") from None
         for key, want in (("v_upper", band[0]), ("v_lower", band[1])):
             if key in lab and lab[key] is not None and int(lab[key]) != want:
                 raise AssignmentError(

@@ -177,12 +177,18 @@ class Diatomic:
         return self.isotopologues[0]
 
     def isotopologue(self, name: str) -> Isotopologue:
+        """The isotopologue called ``name``: its key (``"1H-35Cl"``) or as the trade writes it
+        (``"H35Cl"``, ``"H³⁵Cl"``, ``"D35Cl"``, ``"35Cl-1H"``; an atom without mass number
+        matches any isotope of it when that leaves one isotopologue)."""
         for i in self.isotopologues:
             if i.name == name:
                 return i
+        found = [i for i in self.isotopologues if _spelt_as(str(name), i)]
+        if len(found) == 1:
+            return found[0]
         raise AssignmentError(
-            f"{name!r} is not an isotopologue of {self}; known: "
-            + ", ".join(i.name for i in self.isotopologues)
+            f"{name!r} is not {'one' if not found else 'a single'} isotopologue of {self}; "
+            "known: " + ", ".join(i.name for i in self.isotopologues)
         )
 
     def to_dict(self) -> dict:
@@ -201,6 +207,27 @@ class Diatomic:
 
     def __repr__(self) -> str:
         return f"Diatomic({self.atoms[0]!r}, {self.atoms[1]!r})"
+
+
+_SUPERSCRIPTS = str.maketrans("⁰¹²³⁴⁵⁶⁷⁸⁹", "0123456789")
+_ATOM_RE = re.compile(r"(\d*)([A-Z][a-z]?)")
+
+
+def _spelt_as(text: str, iso: Isotopologue) -> bool:
+    """Whether ``text`` (e.g. "H35Cl", "H³⁵Cl", "D-35Cl") names the two atoms of ``iso``."""
+    t = text.translate(_SUPERSCRIPTS).replace("-", "").replace(" ", "")
+    atoms = _ATOM_RE.findall(t)
+    if "".join(a + b for a, b in atoms) != t or len(atoms) != 2:
+        return False
+    want = [(a.mass_number, a.element) for a in iso.atoms]
+    got = [(int(n) if n else {"D": 2, "T": 3}.get(e), "H" if e in ("D", "T") else e)
+           for n, e in atoms]
+
+    def same(g, w) -> bool:
+        return g[1] == w[1] and (g[0] is None or g[0] == w[0])
+
+    return (same(got[0], want[0]) and same(got[1], want[1])) or \
+        (same(got[0], want[1]) and same(got[1], want[0]))
 
 
 def scale_constants(constants: Mapping[str, float], rho: float) -> dict[str, float]:
