@@ -57,7 +57,7 @@ def test_a_lock_one_j_higher_renumbers_the_band_and_warns_of_the_moved_constants
     assert wk.Session.load(tmp_path / "locked.json").verify().ok
 
 
-def test_unlock_gives_the_automatic_assignment_back(s):
+def test_unlock_gives_the_automatic_assignment_back(s, tmp_path):
     auto = s.assignments.set_index("line_id")
     c0 = s.constants
     lid = _line(s, "P(3)", H37)
@@ -72,6 +72,10 @@ def test_unlock_gives_the_automatic_assignment_back(s):
     pd.testing.assert_frame_equal(s.constants, c0)
     with pytest.raises(wk.SessionStateError, match="not locked"):
         s.unlock_assignment(lid)
+    s.save(tmp_path / "unlocked.json")
+    again = wk.Session.load(tmp_path / "unlocked.json")  # rebuilt from the record
+    assert again.locks == {} and again.verify().ok
+    pd.testing.assert_frame_equal(again.constants, c0)
 
 
 def test_a_lock_then_a_clear_never_leaves_a_large_unflagged_residual(s):
