@@ -607,45 +607,47 @@ class SetAssignment(StepKind):
                                "set_assignment")
 
 
-@register_step
-class ClearAssignment(StepKind):
-    kind = "clear_assignment"
+class _OneLine(StepKind):
+    """A lock change of one line (``line_id``) followed by the assignment run again."""
+
     tolerance = 1e-6
-    parameters = (Param("line_id", "integer", minimum=1, doc="the line left unassigned"),)
     argument_error = AssignmentError
+    #: the summary, with ``{lid}`` for the line
+    done = ""
+
+    def _changes(self, state, params) -> dict:
+        raise NotImplementedError
 
     def apply(self, state, params, ctx):
-        lid = int(params["line_id"])
-        new, result, moved = _relock(state, {lid: {}}, "clear_assignment")
-        return new, result, f"line {lid} left unassigned (locked)" + (f"; {moved}" if moved else "")
+        new, result, moved = _relock(state, self._changes(state, params), self.kind)
+        text = self.done.format(lid=int(params["line_id"]))
+        return new, result, text + (f"; {moved}" if moved else "")
 
     def restore(self, state, params, result, ctx):
-        return _restore_relock(self, state, params, result, ctx, {int(params["line_id"]): {}},
-                               "clear_assignment")
+        return _restore_relock(self, state, params, result, ctx, self._changes(state, params),
+                               self.kind)
 
 
 @register_step
-class UnlockAssignment(StepKind):
-    kind = "unlock_assignment"
-    tolerance = 1e-6
-    parameters = (Param("line_id", "integer", minimum=1, doc="the line unlocked"),)
-    argument_error = AssignmentError
+class ClearAssignment(_OneLine):
+    kind = "clear_assignment"
+    parameters = (Param("line_id", "integer", minimum=1, doc="the line left unassigned"),)
+    done = "line {lid} left unassigned (locked)"
 
-    @staticmethod
-    def _changes(state, params) -> dict:
+    def _changes(self, state, params) -> dict:
+        return {int(params["line_id"]): {}}
+
+
+@register_step
+class UnlockAssignment(_OneLine):
+    kind = "unlock_assignment"
+    parameters = (Param("line_id", "integer", minimum=1, doc="the line unlocked"),)
+    done = "line {lid} unlocked (assigned automatically again)"
+
+    def _changes(self, state, params) -> dict:
         lid = int(params["line_id"])
         if lid not in state.locks:
             locked = ", ".join(str(k) for k in sorted(state.locks)[:30]) or "none"
             raise SessionStateError(f"unlock_assignment: line {lid} is not locked; locked lines: "
                                     f"{locked}")
         return {lid: None}
-
-    def apply(self, state, params, ctx):
-        lid = int(params["line_id"])
-        new, result, moved = _relock(state, self._changes(state, params), "unlock_assignment")
-        return (new, result, f"line {lid} unlocked (assigned automatically again)"
-                + (f"; {moved}" if moved else ""))
-
-    def restore(self, state, params, result, ctx):
-        return _restore_relock(self, state, params, result, ctx, self._changes(state, params),
-                               "unlock_assignment")

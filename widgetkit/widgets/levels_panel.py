@@ -305,23 +305,22 @@ class LevelsPanel(Panel):
         if not labels["label"]:
             self.show_status("error", "lock: type a label, e.g. R(3), P(1) or 2-0")
             return
-        self._call("lock", "set_assignment", int(lid), **labels, busy="assigning again with the lock…")
+        self._call("lock", "set_assignment", int(lid), **labels,
+                   busy="assigning again with the lock…")
         self._show_step_summary()
 
     def _on_clear_click(self, _button) -> None:
-        lid = self.edit_line.value
-        if lid is None:
-            self.show_status("error", "clear: choose a line first")
-            return
-        self._call("clear", "clear_assignment", int(lid), busy="assigning again without the line…")
-        self._show_step_summary()
+        self._edit_line("clear", "clear_assignment", "assigning again without the line…")
 
     def _on_unlock_click(self, _button) -> None:
+        self._edit_line("unlock", "unlock_assignment", "assigning again…")
+
+    def _edit_line(self, what: str, method: str, busy: str) -> None:
         lid = self.edit_line.value
         if lid is None:
-            self.show_status("error", "unlock: choose a line first")
+            self.show_status("error", f"{what}: choose a line first")
             return
-        self._call("unlock", "unlock_assignment", int(lid), busy="assigning again…")
+        self._call(what, method, int(lid), busy=busy)
         self._show_step_summary()
 
     def _fill_edit_fields(self, lid: int) -> None:
