@@ -50,7 +50,9 @@ NO_GAP = ("no band-origin gap found: no pair of neighbouring lines looks like P(
           "P(2), R(1) beyond; lock two lines by hand with s.set_assignment(line_id, "
           "label='R(0)', isotopologue=...) and s.set_assignment(line_id, label='P(1)', "
           "isotopologue=...); if the rotational lines are not resolved (as wide as their "
-          "spacing), fit the band contour with s.fit_band_model(molecule) instead")
+          "spacing), fit the band contour with s.fit_band_model(molecule) instead; a band of a "
+          "linear polyatomic (CO2-like, every other line missing) is assigned with "
+          "kind='parallel' and a wk.Linear molecule")
 
 
 def parse_locks(locks: Mapping | None, data: Lines, molecule: Diatomic, band) -> dict:
@@ -258,8 +260,9 @@ def solve(data: Lines, locks: dict, opts: dict, *, seed_fraction: float, max_rou
     if problems:
         raise AssignmentError(
             "the assignment gives impossible constants: " + "; ".join(problems) + ". Check the "
-            "molecule (a polyatomic band, or lines of another molecule?) and the band numbering, "
-            "or lock lines by hand with s.set_assignment(line_id, label='R(0)', isotopologue=...)")
+            "molecule (lines of another molecule? a linear polyatomic band is assigned with "
+            "kind='parallel' and a wk.Linear molecule) and the band numbering, or lock lines by "
+            "hand with s.set_assignment(line_id, label='R(0)', isotopologue=...)")
     st.reasons = _lock_reasons(data, locks, st, tag, base, molecule)
     return st
 
