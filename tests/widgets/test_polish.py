@@ -268,6 +268,17 @@ def test_isotopologues_are_written_as_the_trade_writes_them():
     assert display_isotopologue("HCl") == "HCl" and display_isotopologue(None) == "–"
 
 
+def test_the_raman_detector_choice_shows_only_for_raman_kinds_and_never_empty(session):
+    panel = LevelsPanel(session)
+    assert panel.detector.layout.display == "none" and panel.detector.index == 0
+    assert panel.detector.label.startswith("detector")          # not an empty box
+    raman = next(v for _, v in panel.kind.options if str(v).startswith("raman"))
+    panel.kind.value = raman
+    assert panel.detector.layout.display == ""
+    panel.kind.value = "rovibrational"
+    assert panel.detector.layout.display == "none"
+
+
 def _lab(hex_colour: str) -> np.ndarray:
     """CIE L*a*b* (D65) of an sRGB colour: sRGB transfer function and matrix of IEC 61966-2-1,
     Lab of CIE 15:2004 (formulas from those standards)."""

@@ -100,10 +100,13 @@ class LevelsPanel(Panel):
                                  layout=ipw.Layout(width="230px"))
         self.kind = ipw.Dropdown(options=KIND_CHOICES, value="rovibrational", description="band",
                                  layout=ipw.Layout(width="380px"))
-        self.detector = ipw.Dropdown(options=DETECTOR_CHOICES, value=None,
+        # index 0 (not value None, which a dropdown shows as an empty box): "not stated";
+        # shown only for the Raman kinds, the only ones it applies to
+        self.detector = ipw.Dropdown(options=DETECTOR_CHOICES, index=0,
                                      tooltip="Raman: how the detector responds (for the "
                                              "Stokes/anti-Stokes temperature)",
-                                     layout=ipw.Layout(width="200px"))
+                                     layout=ipw.Layout(width="200px", display="none"))
+        self.kind.observe(self._on_kind_change, names=["value"])
         self.temperature = ipw.BoundedFloatText(value=0.0, min=0.0, max=1e5,
                                                 description="T / K",
                                                 tooltip="0 = not given",
@@ -266,6 +269,9 @@ class LevelsPanel(Panel):
         items.append(f'<span style="color:{COLORS["model"]}">━</span> calculated')
         items.append(f'<span style="color:{OUTLIER_COLOR}">●</span> outlier (obs − calc)')
         self.plot_legend.value = '<div class="wk-legend">' + " &nbsp; ".join(items) + "</div>"
+
+    def _on_kind_change(self, change) -> None:
+        self.detector.layout.display = "" if str(change["new"]).startswith("raman") else "none"
 
     # ------------------------------------------------------------------ actions
     def assign_options(self) -> dict:
