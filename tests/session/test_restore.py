@@ -193,3 +193,32 @@ def test_a_record_of_a_fit_too_large_to_hold_is_refused_on_reopening(hcl_saved, 
                        match=r"step 2 \(fit_lines\) cannot be reopened: .*more than one fit can "
                              "hold"):
         wk.Session.load(hcl_saved)
+
+
+def test_restored_results_pickle_and_copy_as_the_real_ones(hcl):
+    import copy
+    import pickle
+
+    again = pickle.loads(pickle.dumps(hcl.assignment))
+    assert not isinstance(again, records.Restored)
+    pd.testing.assert_frame_equal(again.constants, hcl.constants)
+    fit = copy.deepcopy(hcl.line_fit)
+    pd.testing.assert_frame_equal(fit.table, hcl.lines)
+
+
+def test_opening_a_file_is_bounded_in_recomputation_and_in_memory(hcl_saved, tmp_path,
+                                                                  monkeypatch):
+    from widgetkit.session import persist
+
+    doc = json.loads(hcl_saved.read_text())
+    doc["steps"][2]["result"]["record"] = 5  # one damaged record: computed instead
+    path = tmp_path / "damaged.json"
+    path.write_text(json.dumps(doc))
+    monkeypatch.setattr(persist, "MAX_RECOMPUTED", 0)
+    with pytest.raises(wk.SessionFormatError, match="records of more than 0 steps do not fit"):
+        wk.Session.load(path)
+    monkeypatch.setattr(persist, "MAX_RECOMPUTED", 20)
+    assert wk.Session.load(path).line_fit is not None
+    monkeypatch.setattr(persist, "MAX_STATE_POINTS", 1000)  # the spectrum alone holds 7001
+    with pytest.raises(wk.SessionFormatError, match=r"step 0 \(load\): .*more than 1,000 points"):
+        wk.Session.load(hcl_saved)

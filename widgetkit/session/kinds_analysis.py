@@ -155,7 +155,7 @@ class FitLines(StepKind):
     def restore(self, state, params, result, ctx):
         rec = result.get("record")
         if not isinstance(rec, dict) or rec.get("type") != "LineFit":
-            return self.apply(state, params, ctx)[0]  # recorded without a record: fit again
+            raise RecordMismatch("the line fit was recorded without its record")
         fields = decode(rec.get("fields"), where="fit_lines result.record")
         table = table_from_json(result.get("lines", {}), where="fit_lines result.lines")
         spec = fields.get("spec")
@@ -370,12 +370,10 @@ def _shift_text(shifts: list[dict]) -> str:
 
 
 def _restored_assignment(state: State, result: dict, where: str):
-    """The assignment rebuilt from a recorded result, checked against the state's line fit;
-    None when the result holds no record (the caller computes it then)."""
+    """The assignment rebuilt from a recorded result, checked against the state's line fit
+    (:class:`RecordMismatch` when it lacks its record or does not fit)."""
     rec = result.get("record")
-    if not isinstance(rec, dict):
-        return None
-    if rec.get("type") not in RESULT_TYPES:
+    if not isinstance(rec, dict) or rec.get("type") not in RESULT_TYPES:
         raise RecordMismatch(f"the record names result type {rec.get('type')!r}")
     kinds = rec.get("table_kinds") or {}
     fields = decode(rec.get("fields"), where=f"{where} result.record")
@@ -466,8 +464,6 @@ class AssignBand(StepKind):
 
     def restore(self, state, params, result, ctx):
         restored = _restored_assignment(state, result, self.kind)
-        if restored is None:
-            return self.apply(state, params, ctx)[0]
         return state.evolve(assignment=restored, assign_spec=dict(params))
 
 
@@ -528,15 +524,12 @@ def _relock(state: State, changes: dict[int, dict | None], what: str):
             {**result, **_assignment_result(out), "constant_shifts": shifts}, text)
 
 
-def _restore_relock(kind: StepKind, state: State, params: dict, result: dict, ctx,
-                    changes: dict[int, dict], what: str) -> State:
+def _restore_relock(state: State, result: dict, changes: dict[int, dict], what: str) -> State:
+    """The state after a lock change, its assignment rebuilt from the record."""
     new, _ = _new_locks(state, changes, what)
     if state.assign_spec is None:
         return new
-    restored = _restored_assignment(state, result, what)
-    if restored is None:
-        return kind.apply(state, params, ctx)[0]
-    return new.evolve(assignment=restored)
+    return new.evolve(assignment=_restored_assignment(state, result, what))
 
 
 _LABEL_KEYS = {"label": "string", "isotopologue": "string", "v_upper": "integer",
@@ -603,8 +596,7 @@ class SetAssignment(StepKind):
         return new, result, f"locked {text}" + (f"; {moved}" if moved else "")
 
     def restore(self, state, params, result, ctx):
-        return _restore_relock(self, state, params, result, ctx, _lock_changes(params),
-                               "set_assignment")
+        return _restore_relock(state, result, _lock_changes(params), "set_assignment")
 
 
 class _OneLine(StepKind):
@@ -624,8 +616,7 @@ class _OneLine(StepKind):
         return new, result, text + (f"; {moved}" if moved else "")
 
     def restore(self, state, params, result, ctx):
-        return _restore_relock(self, state, params, result, ctx, self._changes(state, params),
-                               self.kind)
+        return _restore_relock(state, result, self._changes(state, params), self.kind)
 
 
 @register_step

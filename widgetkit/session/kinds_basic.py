@@ -162,7 +162,7 @@ class SubtractBaseline(StepKind):
     def restore(self, state, params, result, ctx):
         recorded = result.get("baseline")
         if not isinstance(recorded, dict):
-            return self.apply(state, params, ctx)[0]  # recorded without the baseline itself
+            raise RecordMismatch("the baseline was recorded without its values")
         b, ok = decode_array(recorded, where="subtract_baseline result.baseline")
         sp = state.require_spectrum()
         if not ok or b.shape != sp.y.shape or sp.y_kind == "transmittance" \
@@ -355,8 +355,8 @@ class AddPeak(StepKind):
         pid = result.get("peak_id")
         if pid != state.next_peak_id or not isinstance(result.get("position"), float):
             raise RecordMismatch("recorded peak id or position does not fit the session")
-        if "prominence" not in result:  # recorded without it: compute the row again
-            return self.apply(state, params, ctx)[0]
+        if "prominence" not in result:
+            raise RecordMismatch("the peak was recorded without its prominence")
         row = {"peak_id": pid, "origin": "manual",
                **{k: result.get(k) for k in ("position", "height", "snr", "prominence", "fwhm",
                                              "baseline") if k in result}}

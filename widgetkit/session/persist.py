@@ -90,6 +90,13 @@ def check_steps(steps: list[dict], path: str) -> None:
                                      f"{exc.problem}", path=path) from None
 
 
+#: most steps whose record does not fit and that are computed instead while opening a file
+MAX_RECOMPUTED = 20
+#: most spectrum points the restored states may hold together (every state keeps its own copy
+#: of a spectrum it changed: 16 bytes a point)
+MAX_STATE_POINTS = 50_000_000
+
+
 def restore_states(steps: list[Step], ctx: Context, path: str) -> tuple[list[State], list[int]]:
     """The state after each step, rebuilt from the recorded results (fast reopen).
 
@@ -97,11 +104,15 @@ def restore_states(steps: list[Step], ctx: Context, path: str) -> tuple[list[Sta
     that the record does not fit the state (``RecordMismatch``, or a record too damaged to
     read) the step is computed instead (``apply``). Returns the states and the numbers of
     the steps computed for that reason. A step that can be neither restored nor computed
-    is a :class:`SessionFormatError` naming it (steps are numbered from 0, the load step).
+    is a :class:`SessionFormatError` naming it (steps are numbered from 0, the load step),
+    and so is a file whose opening would cost more than a session can: more than
+    :data:`MAX_RECOMPUTED` damaged records, or states holding more than
+    :data:`MAX_STATE_POINTS` spectrum points together.
     """
     states: list[State] = []
     recomputed: list[int] = []
     state = State()
+    points = 0
     for i, step in enumerate(steps):
         kind = STEP_KINDS[step.kind]
         try:
@@ -109,12 +120,26 @@ def restore_states(steps: list[Step], ctx: Context, path: str) -> tuple[list[Sta
                 new = kind.restore(state, dict(step.params), step.result, ctx)
             except Exception:  # RecordMismatch, or a record too damaged to read
                 recomputed.append(i)
+                if len(recomputed) > MAX_RECOMPUTED:
+                    raise SessionFormatError(
+                        f"the records of more than {MAX_RECOMPUTED} steps do not fit the "
+                        "states before them; the file is too damaged to open (steps "
+                        f"{', '.join(map(str, recomputed[:5]))}, ...)") from None
                 new = kind.apply(state, dict(step.params), ctx)[0]
+        except SessionFormatError as exc:
+            raise SessionFormatError(f"step {i} ({step.kind}): {exc}", path=path) from None
         except Exception as exc:
             what = str(exc) if isinstance(exc, WidgetkitError) else \
                 f"{type(exc).__name__}: {cut(str(exc), 200)}"
             raise SessionFormatError(f"step {i} ({step.kind}) cannot be reopened: {what}",
                                      path=path) from exc
+        if new.spectrum is not None and new.spectrum is not state.spectrum:
+            points += len(new.spectrum)
+            if points > MAX_STATE_POINTS:
+                raise SessionFormatError(
+                    f"step {i} ({step.kind}): the steps change the spectrum so often that their "
+                    f"states would hold more than {MAX_STATE_POINTS:,} points together; this is "
+                    "not a session widgetkit writes", path=path)
         state = new
         states.append(state)
     return states, recomputed

@@ -234,6 +234,10 @@ def decode(value: Any, *, where: str = "record") -> Any:
     return {k: decode(v, where=where) for k, v in value.items()}
 
 
+def _same(value):
+    return value
+
+
 def _hashable(k):
     return tuple(k) if isinstance(k, list) else k
 
@@ -317,6 +321,10 @@ class Restored:
 
     def __setattr__(self, name, value):
         raise AttributeError(f"a restored {self._type} is read-only")
+
+    def __reduce__(self):
+        # pickled (or deep-copied) as the real result: the closures cannot travel
+        return (_same, (self.real(),))
 
     def __dir__(self):
         return sorted(set(self._fields) | set(self._lazy) | {"restored", "real", "type_name"})
