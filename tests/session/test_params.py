@@ -95,7 +95,7 @@ def test_the_declared_baseline_options_are_those_processing_accepts():
 
 def test_the_declared_shapes_and_baselines_are_the_registered_ones():
     from widgetkit.lines import BASELINES, SHAPES
-    from widgetkit.session import kinds_analysis
+    from widgetkit.session import kinds_lines
 
-    assert {k: v.widths for k, v in SHAPES.items()} == kinds_analysis.SHAPE_WIDTHS
-    assert set(kinds_analysis.BASELINE_NAMES) == {k for k in BASELINES if k is not None}
+    assert {k: v.widths for k, v in SHAPES.items()} == kinds_lines.SHAPE_WIDTHS
+    assert set(kinds_lines.BASELINE_NAMES) == {k for k in BASELINES if k is not None}

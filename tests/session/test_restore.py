@@ -184,11 +184,11 @@ def test_reopening_in_a_fresh_process_imports_no_fitting_validation_or_assignmen
 
 
 def test_a_record_of_a_fit_too_large_to_hold_is_refused_on_reopening(hcl_saved, monkeypatch):
-    from widgetkit.session import kinds_analysis
+    from widgetkit.session import kinds_lines
 
     s = wk.Session.load(hcl_saved)
     cells = len(s.lines) * len(s.spectrum.x)
-    monkeypatch.setattr(kinds_analysis, "MAX_FIT_CELLS", cells - 1)  # as if the file held more
+    monkeypatch.setattr(kinds_lines, "MAX_FIT_CELLS", cells - 1)  # as if the file held more
     with pytest.raises(wk.SessionFormatError,
                        match=r"step 2 \(fit_lines\) cannot be reopened: .*more than one fit can "
                              "hold"):

@@ -1,8 +1,8 @@
-"""Step kinds for line fitting and level assignment.
+"""Step kinds for level assignment (the line fit is in :mod:`.kinds_lines`).
 
 Their results hold a full record of the result object (``result["record"]``,
-see :mod:`widgetkit.session.records`), so reopening a session rebuilds the line
-fit and the assignment from the record (``restore``) instead of fitting again.
+see :mod:`widgetkit.session.records`), so reopening a session rebuilds the
+assignment from the record (``restore``) instead of assigning again.
 """
 
 from __future__ import annotations
@@ -11,205 +11,16 @@ import math
 
 import numpy as np
 
-from ..errors import AssignmentError, FitError, SessionStateError
+from ..errors import AssignmentError, SessionStateError
 from .params import Param, ParamProblem, show
 from .records import RESULT_TYPES, Restored, decode, encode_fields, table_from_json, table_kinds
-from .steps import RecordMismatch, State, StepKind, cleared_text, register_step, table_to_json
+from .steps import RecordMismatch, State, StepKind, register_step, table_to_json
 
-__all__ = ["FitLines", "AssignBand", "SetAssignment", "ClearAssignment", "UnlockAssignment",
+__all__ = ["AssignBand", "SetAssignment", "ClearAssignment", "UnlockAssignment",
            "molecule_from_param", "constant_shifts"]
 
 #: a constant that moves more than this many of its previous standard errors is warned about
 SHIFT_WARNING_SIGMA = 3.0
-
-#: LineFit fields not recorded: the table and statistics are recorded beside the record,
-#: the arrays are rebuilt from the spectrum (:func:`widgetkit.lines.record.model_curves`),
-#: the lmfit objects and evaluation counts come from running the fit again when asked for
-_LINEFIT_NOT_RECORDED = ("table", "chisqr", "redchi", "converged", "result", "params", "nfev",
-                         "njev", "x", "y", "model_y", "baseline_y", "components", "residual")
-_CURVES = ("x", "y", "model_y", "baseline_y", "components", "residual")
-
-#: most parameters given confidence intervals in one fit (each costs many refits)
-MAX_CONF_INTERVAL = 8
-#: most model values (lines × points) one fit may hold: its components alone are 8 bytes each
-#: (800 MB at this bound), whether fitted or rebuilt from a record
-MAX_FIT_CELLS = 100_000_000
-#: the registered line shapes with their width parameters, and the baselines (a test keeps
-#: these equal to the registries of widgetkit.lines, which this module must not import)
-SHAPE_WIDTHS = {"gaussian": ("sigma",), "lorentzian": ("gamma",), "voigt": ("sigma", "gamma"),
-                "pseudo_voigt": ("sigma", "gamma")}
-SHAPE_NAMES = tuple(SHAPE_WIDTHS)
-BASELINE_NAMES = ("none", "constant", "linear", "poly2", "exponential")
-_CONSTRAINT_KEYS = ("value", "min", "max", "vary", "expr")
-
-
-def _check_constraints(constraints: dict | None) -> None:
-    """Constraint entries well formed, every expression readable and evaluable in its
-    parts made of numbers (names are checked against the fit's parameters when it runs)."""
-    from ..lines.expressions import check_grammar
-
-    for name, spec in (constraints or {}).items():
-        field = f"constraints.{name}"
-        try:
-            if name == "doppler":
-                if not isinstance(spec, dict) or not {"temperature", "mass"} <= set(spec):
-                    raise ParamProblem(field, "must be {'temperature': K, 'mass': u} (and "
-                                              f"optionally 'lines'), got {show(spec)}")
-                for key in ("temperature", "mass"):
-                    Param(key, "number", above=0).check(spec[key], f"{field}.{key}")
-            elif isinstance(spec, str):
-                check_grammar(spec, name)
-            elif isinstance(spec, dict):
-                extra = sorted(set(spec) - set(_CONSTRAINT_KEYS))
-                if extra:
-                    raise ParamProblem(field, f"has unknown keys {extra}; use "
-                                              f"{', '.join(_CONSTRAINT_KEYS)}")
-                if isinstance(spec.get("expr"), str) and spec["expr"]:
-                    check_grammar(spec["expr"], name)
-            elif isinstance(spec, bool) or not isinstance(spec, (int, float)):
-                raise ParamProblem(field, "must be an expression, a number or a dict of "
-                                          f"{', '.join(_CONSTRAINT_KEYS)}, got {show(spec)}")
-        except FitError as exc:
-            raise ParamProblem(field, str(exc)) from None
-
-
-@register_step
-class FitLines(StepKind):
-    kind = "fit_lines"
-    # an iterative solver: identical on one machine, tiny differences across BLAS builds
-    tolerance = 1e-6
-    parameters = (
-        Param("shape", "choice", "voigt", choices=SHAPE_NAMES, doc="line shape"),
-        Param("shared_width", ("boolean", "choice", "mapping"), False, choices=("sigma", "gamma"),
-              doc="one width for all lines, one width kind, or groups of line ids"),
-        Param("baseline", "choice", "linear", choices=BASELINE_NAMES, nullable=True,
-              doc="baseline fitted with the lines"),
-        Param("region", "range", None, nullable=True, unit="cm-1", doc="fit only lo <= x <= hi"),
-        Param("window", "number", 100.0, above=1, nullable=True,
-              doc="evaluation window, in half widths"),
-        Param("heights", "numbers", None, nullable=True, null_items=True,
-              doc="starting heights (null: estimate)"),
-        Param("widths", "numbers", None, nullable=True, null_items=True, unit="cm-1",
-              doc="starting FWHM (null: estimate)"),
-        Param("noise", "number", None, above=0, nullable=True, doc="noise sigma of y"),
-        Param("constraints", "mapping", None, nullable=True,
-              doc="ties, fixed values, bounds, 'doppler' (see widgetkit.lines.params)"),
-        Param("weights", "numbers", None, nullable=True, max_items=100_000_000,
-              doc="residual weights, 1/sigma per point"),
-        Param("conf_interval", "strings", None, nullable=True, max_items=MAX_CONF_INTERVAL,
-              doc="parameters given confidence intervals"),
-        Param("max_passes", "integer", 4, minimum=1, maximum=50, doc="solver restarts"),
-        Param("strict", "boolean", False,
-              doc="refuse a fit that has not converged instead of keeping it"),
-    )
-    argument_error = FitError
-
-    def check_params(self, params):
-        out = super().check_params(params)
-        _check_constraints(out.get("constraints"))
-        return out
-
-    def apply(self, state: State, params: dict, ctx):
-        from .. import lines
-
-        sp = state.require_spectrum()
-        peaks = state.peaks
-        opts = dict(params)
-        region = opts.get("region")
-        if region is not None:
-            lo, hi = sorted(float(v) for v in region)
-            peaks = peaks[(peaks["position"] >= lo) & (peaks["position"] <= hi)]
-        if len(peaks) == 0:
-            where = "" if region is None else f" inside the region {region}"
-            raise SessionStateError(
-                f"fit_lines: there are no peaks{where} to fit; run find_peaks() or add_peak() first")
-        _check_fit_size(len(peaks), sp, region)
-        strict = bool(opts.pop("strict", False))
-        fit = lines.fit(sp.x, sp.y, peaks["position"].to_numpy(dtype=float),
-                        line_ids=[int(i) for i in peaks["peak_id"]], **opts)
-        usable = np.all(np.isfinite(fit.table["position"])) and np.isfinite(fit.chisqr)
-        if not fit.converged and (strict or not usable):
-            why = "strict=True asks for a converged fit" if usable else "the result holds " \
-                "values that are not finite"
-            err = FitError(f"the line fit did not converge ({fit.message}) and {why}; the "
-                           "previous lines are kept. Try fewer lines, a region, or different "
-                           "starting peaks")
-            err.fit = fit
-            raise err
-        result = {"lines": table_to_json(fit.table), "chisqr": float(fit.chisqr),
-                  "redchi": float(fit.redchi), "converged": bool(fit.converged),
-                  "record": encode_fields(fit, skip=_LINEFIT_NOT_RECORDED)}
-        cleared = {} if state.assignment is None else {"assignment": _n_assigned(state.assignment)}
-        if cleared:
-            result["cleared"] = cleared
-        summary = (f"fitted {len(fit.table)} {opts.get('shape', 'voigt')} lines, "
-                   f"reduced chi-square {fit.redchi:.3g}")
-        if not fit.converged:
-            summary += f"; NOT converged ({fit.message})"
-        summary += cleared_text(cleared)
-        return state.evolve(line_fit=fit, assignment=None), result, summary
-
-    #: diagnostics that legitimately differ between machines (the solver's last step size)
-    volatile = ("record.fields.message",)
-
-    def restore(self, state, params, result, ctx):
-        rec = result.get("record")
-        if not isinstance(rec, dict) or rec.get("type") != "LineFit":
-            raise RecordMismatch("the line fit was recorded without its record")
-        fields = decode(rec.get("fields"), where="fit_lines result.record")
-        table = table_from_json(result.get("lines", {}), where="fit_lines result.lines")
-        spec = fields.get("spec")
-        if not isinstance(spec, dict) or "line_id" not in table:
-            raise RecordMismatch("the line fit record lacks its settings or line ids")
-        _check_fit_record(state, table, spec)
-        sp = state.require_spectrum()
-        _check_fit_size(len(table), sp, spec.get("region"))
-        curves: dict = {}
-
-        def curve(name):
-            def compute():
-                if not curves:
-                    from ..lines.record import model_curves
-
-                    bp = fields.get("baseline_params")
-                    curves.update(model_curves(
-                        sp.x, sp.y, table, shape=spec["shape"], baseline=spec["baseline"],
-                        baseline_values=[] if bp is None else bp["value"].tolist(),
-                        window=spec.get("window"), region=spec.get("region")))
-                return curves[name]
-            return compute
-
-        fields.update(table=table, chisqr=result.get("chisqr"), redchi=result.get("redchi"),
-                      converged=bool(result.get("converged")), nfev=None, njev=None)
-        restored = Restored("LineFit", fields, lazy={n: curve(n) for n in _CURVES},
-                            real=lambda: self.apply(state, params, ctx)[0].line_fit)
-        return state.evolve(line_fit=restored, assignment=None)
-
-
-def _check_fit_size(n_lines: int, sp, region) -> None:
-    n = sp.x.size if region is None else int(np.count_nonzero(
-        (sp.x >= min(region)) & (sp.x <= max(region))))
-    if n_lines * n > MAX_FIT_CELLS:
-        raise FitError(f"fit_lines: {n_lines:,} lines on {n:,} points is more than one fit can "
-                       f"hold ({MAX_FIT_CELLS:,} model values); fit a region at a time "
-                       "(region=(lo, hi)) or remove peaks")
-
-
-def _check_fit_record(state: State, table, spec: dict) -> None:
-    """The recorded fit must be of the peaks this state holds (ids and positions)."""
-    peaks = state.peaks
-    ids = [int(i) for i in spec.get("line_ids") or []]
-    by_id = dict(zip(peaks["peak_id"].tolist(), peaks["position"].tolist()))
-    positions = spec.get("positions") or []
-    if len(ids) != len(positions) or any(by_id.get(i) != p for i, p in zip(ids, positions)):
-        raise RecordMismatch("the recorded fit was made from peaks this state does not hold")
-    if not set(table["line_id"].tolist()) <= set(ids):
-        raise RecordMismatch("the recorded lines are not among the fitted peaks")
-    needed = ["area", "position", *SHAPE_WIDTHS.get(spec.get("shape"), ("?",))]
-    if not set(needed + ["height", "fwhm"]) <= set(table.columns) or not np.all(
-            np.isfinite(table[needed].to_numpy(dtype=float))):
-        raise RecordMismatch("the recorded line table lacks finite values of its parameters")
-
 
 def molecule_from_param(value, kind: str = "rovibrational"):
     """A molecule from a step parameter: a molecule's ``to_dict()`` (``{"atoms": [...], ...}``;

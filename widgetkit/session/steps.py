@@ -48,7 +48,8 @@ from .params import Param, check_params
 from .records import table_to_json
 
 __all__ = ["Step", "State", "StepKind", "STEP_KINDS", "register_step", "software_versions",
-           "Context", "table_to_json", "utc_now", "drop_dependents", "cleared_text", "RecordMismatch"]
+           "Context", "table_to_json", "utc_now", "drop_dependents", "cleared_text",
+           "RecordMismatch", "assigned_count"]
 
 PEAK_COLUMNS = ["peak_id", "position", "height", "snr"]
 
@@ -292,8 +293,7 @@ def drop_dependents(state: State, *, spectrum: Spectrum | None = None,
     if state.line_fit is not None:
         cleared["lines"] = int(len(state.line_fit.table))
     if state.assignment is not None:
-        labels = state.assignment.assignments.get("label")
-        cleared["assignment"] = 0 if labels is None else int(labels.notna().sum())
+        cleared["assignment"] = assigned_count(state.assignment)
     keep = set(new_peaks["peak_id"].tolist())
     gone = sorted(int(k) for k in state.locks if int(k) not in keep)
     if gone:
@@ -301,6 +301,12 @@ def drop_dependents(state: State, *, spectrum: Spectrum | None = None,
     locks = {k: v for k, v in state.locks.items() if int(k) in keep}
     new = state.evolve(line_fit=None, assignment=None, assign_spec=None, locks=locks, **changes)
     return new, cleared
+
+
+def assigned_count(assignment) -> int:
+    """How many lines an assignment result labels."""
+    labels = assignment.assignments.get("label")
+    return 0 if labels is None else int(labels.notna().sum())
 
 
 def cleared_text(cleared: dict) -> str:
