@@ -19,34 +19,35 @@ import widgetkit as wk
 N = 1_000_000
 
 
-def _spectrum() -> wk.Spectrum:
-    # invented benchmark data: Gaussian lines on a slope with seeded noise
+def spectrum(n: int = N) -> wk.Spectrum:
+    """Invented benchmark data: 25 Gaussian lines on a slope with seeded noise."""
     rng = np.random.default_rng(0)
-    x = np.linspace(2000.0, 3200.0, N)
+    x = np.linspace(2000.0, 3200.0, n)
     y = 0.05 + 2e-5 * (x - 2000.0)
     for c in np.linspace(2100, 3100, 25):
         y += 0.8 * np.exp(-0.5 * ((x - c) / 0.4) ** 2)
-    y += rng.normal(0, 0.002, N)
+    y += rng.normal(0, 0.002, n)
     return wk.Spectrum(x, y, meta={"title": "benchmark band"})
 
 
-def _session(sp: wk.Spectrum) -> wk.Session:
-    s = wk.Session(sp)                              # 1 load
-    s.crop(2050, 3150)                              # 2
-    s.subtract_baseline("poly", degree=1)           # 3
-    s.find_peaks(min_snr=20, min_separation=5)      # 4
-    s.add_peak(2500.0, snap=False)                  # 5
-    s.add_peak(2600.0, snap=False)                  # 6
-    s.remove_peak(int(s.peaks["peak_id"].iloc[0]))  # 7
-    s.note("benchmark")                             # 8
-    s.add_peak(2700.0, snap=False)                  # 9
-    s.note("ten steps")                             # 10
+def ten_steps(sp: wk.Spectrum) -> wk.Session:
+    """The benchmark's 10 steps (numbered from 0, the load); peaks added between the lines."""
+    s = wk.Session(sp)                              # 0 load
+    s.crop(2050, 3150)                              # 1
+    s.subtract_baseline("poly", degree=1)           # 2
+    s.find_peaks(min_snr=20, min_separation=5)      # 3
+    s.add_peak(2537.5, snap=False)                  # 4
+    s.add_peak(2637.5, snap=False)                  # 5
+    s.remove_peak(int(s.peaks["peak_id"].iloc[0]))  # 6
+    s.note("benchmark")                             # 7
+    s.add_peak(2737.5, snap=False)                  # 8
+    s.note("ten steps")                             # 9
     return s
 
 
 def main() -> None:
-    sp = _spectrum()
-    s = _session(sp)
+    sp = spectrum()
+    s = ten_steps(sp)
     assert len(s.history) == 10
     with tempfile.TemporaryDirectory() as tmp:
         path = os.path.join(tmp, "s.json")
