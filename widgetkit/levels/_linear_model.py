@@ -213,7 +213,12 @@ def fit_constants(spec: BandSpec, A_full: np.ndarray, y: np.ndarray, sigma: np.n
     AssignmentError
         When not even ν₀, B′, B″ (or B of a rotational band) can be determined.
     """
-    for mode, names in _modes(spec, centrifugal):
+    modes = _modes(spec, centrifugal)
+    if spec.rotational and len(A_full) and (np.all(A_full[:, 1] > 0) or np.all(A_full[:, 1] < 0)):
+        # lines on one side of the laser line only: the zero of the shift axis is taken as exact
+        # (with Stokes lines alone it is nearly degenerate with B)
+        modes = [(m, tuple(n for n in names if n != "zero_offset")) for m, names in modes]
+    for mode, names in modes:
         if len(y) < len(names) + 1:
             continue
         try:

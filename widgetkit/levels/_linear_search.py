@@ -222,6 +222,14 @@ def refine(obs: Obs, spec: BandSpec, iso, free: np.ndarray, nu0: float, B: float
         _rounds(obs, spec, iso, free, st, locks, opts, max_rounds, unit, B)
     if perp and _renumber_q(obs, st, locks, opts):
         _rounds(obs, spec, iso, free, st, locks, opts, max_rounds, unit, B)
+    # the final fit with the full centrifugal model (the first rounds may have used none)
+    use = st.good()
+    try:
+        st.fit = fit_constants(spec, st.rows[st.idx[use]], obs.x[use],
+                               None if obs.sigma is None else obs.sigma[use],
+                               centrifugal=opts["centrifugal"])
+    except AssignmentError:
+        pass
     st.calc, st.calc_err = np.full(obs.n, np.nan), np.full(obs.n, np.nan)
     a = st.idx >= 0
     c, e = st.fit.predict(spec, st.rows[st.idx[a]])

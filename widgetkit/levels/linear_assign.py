@@ -147,7 +147,9 @@ def _lock_map(locks: Mapping | None, obs: Obs, band: str, kind: str) -> dict[int
     return out
 
 
-def _best(obs: Obs, spec: BandSpec, iso, free: np.ndarray, locks: dict, opts: dict, **kw) -> BandState:
+def _best(obs: Obs, spec: BandSpec, iso, free: np.ndarray, locks: dict, opts: dict, *,
+          prior=None, **kw) -> BandState:
+    """The best refined hypothesis; ``prior(state)`` is a penalty subtracted from its score."""
     hyps = centres(obs, spec, iso, free, **kw) + [(n, b) for _, n, b in search(obs, spec, iso, free, **kw)]
     best = None
     for nu0, B in hyps:
@@ -157,6 +159,8 @@ def _best(obs: Obs, spec: BandSpec, iso, free: np.ndarray, locks: dict, opts: di
             continue
         if locks and any(st.idx[i] < 0 for i in locks):
             st.score -= 100.0
+        if prior is not None:
+            st.score -= prior(st)
         if best is None or st.score > best.score:
             best = st
     return best
@@ -248,12 +252,23 @@ def _hot_band(obs: Obs, mol: Linear, main: BandState, free: np.ndarray, locks, o
     nu0 = main.values["band_origin"]
     span = float(np.ptp(obs.x))
     lk = _lock_map(locks, obs, "hot", kind)
-    hot = _best(obs, spec, mol.main, left, lk, opts, B_range=(0.97 * Bl, 1.03 * Bl),
-                origin_range=(nu0 - 0.25 * span, nu0 + 0.25 * span))
+    dB = main.values["B_upper"] - Bl
+
+    def prior(st):
+        # a bending level's B is within a few 0.1 % of the ground state's (α₂ is small; for CO2,
+        # N2O, HCN and C2H2 |B(v2=1)/B0 − 1| < 0.3 %, Herzberg 1945), and the hot band's B′ − B″
+        # is close to the fundamental's: a J numbering shifted by one or two moves both further
+        v = st.values
+        dev = (v["B_lower"] / Bl - 1) / 0.004
+        ddb = (v["B_upper"] - v["B_lower"] - dB) / (0.2 * abs(dB) + 2e-4 * Bl)
+        return float(min(dev**2, 50.0) + min(ddb**2, 50.0))
+
+    hot = _best(obs, spec, mol.main, left, lk, opts, prior=prior,
+                B_range=(0.985 * Bl, 1.015 * Bl), origin_range=(nu0 - 0.25 * span, nu0 + 0.25 * span))
     if hot is None:
         return None
     good = int(hot.good().sum())
     vals = hot.values
-    plausible = (abs(vals["B_lower"] / Bl - 1) < 0.03 and abs(vals["B_upper"] / Bl - 1) < 0.05
+    plausible = (abs(vals["B_lower"] / Bl - 1) < 0.015 and abs(vals["B_upper"] / Bl - 1) < 0.03
                  and good >= max(8, 0.1 * main.good().sum()))
     return hot if plausible else None

@@ -138,7 +138,10 @@ def _constants(data, mol, kind, states, msgs):
             if nm in fit.fixed:
                 continue
             add(nm, vals[nm], fit.stderr(nm))
-        if fit.fixed:
+        if "zero_offset" in fit.fixed:
+            msgs.append(f"{name} band: lines on one side of the laser line only, so the zero of "
+                        "the Raman-shift axis is taken as exact (not fitted)")
+        elif fit.fixed:
             msgs.append(f"{name} band: {', '.join(fit.fixed)} not determined by the assigned lines; "
                         "held at 0" + ("; B_upper is then the e-level value B′ + q′/2"
                                        if "q_upper" in fit.fixed and st.spec.upper.l else ""))
