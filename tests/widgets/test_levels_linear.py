@@ -51,3 +51,11 @@ def test_the_detector_is_not_sent_for_infrared_kinds(raman_session):
     panel.kind.value = "parallel"
     panel.detector.value = "energy"
     assert "detector" not in panel.assign_options()
+
+
+def test_a_new_panel_shows_what_the_last_assignment_was_made_with(raman_session):
+    s = raman_session
+    s.assign_band(wk.Linear("NN"), kind="raman_rotational", detector="energy")
+    panel = LevelsPanel(s)
+    assert (panel.molecule.value, panel.kind.value, panel.detector.value) == (
+        "NN", "raman_rotational", "energy")

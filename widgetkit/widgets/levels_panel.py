@@ -213,9 +213,24 @@ class LevelsPanel(Panel):
                                                 empty="no constants yet")
         if s.assignment is not self._shown_assignment:
             self._shown_assignment = s.assignment
+            self._show_spec(state.assign_spec)
             self._render_plots(a)
             if self.edit_line.value is not None:  # the selected line's labels as now assigned
                 self._fill_edit_fields(int(self.edit_line.value))
+
+    def _show_spec(self, spec: dict | None) -> None:
+        """The controls show what the last assignment was made with (molecule, kind, detector)."""
+        if not spec:
+            return
+        mol = spec.get("molecule")
+        if isinstance(mol, dict) and isinstance(mol.get("atoms"), list):
+            mol = "".join(str(a) for a in mol["atoms"])
+        if isinstance(mol, str):
+            self.molecule.value = mol
+        if spec.get("kind") in [v for _, v in KIND_CHOICES]:
+            self.kind.value = spec["kind"]
+        if spec.get("detector") in [v for _, v in DETECTOR_CHOICES]:
+            self.detector.value = spec.get("detector")
 
     def _render_plots(self, a: pd.DataFrame) -> None:
         if len(a) == 0:
@@ -234,7 +249,8 @@ class LevelsPanel(Panel):
         colors = [ISO_COLORS[sorted(set(isos)).index(i) % len(ISO_COLORS)] for i in isos]
         rotational = ("J_lower" in a and "J_upper" in a
                       and pd.to_numeric(a["J_lower"], errors="coerce").notna().any())
-        by_branch = "branch" in a and "m" in a and a["branch"].notna().any()
+        # a linear-molecule or Raman assignment (its table has the e/f components and sides)
+        by_branch = "comp_lower" in a and "m" in a and a["branch"].notna().any()
         if by_branch:  # a linear-molecule or Raman band: its own running number, one colour a branch
             m = pd.to_numeric(a["m"], errors="coerce").to_numpy(float)
             isos = [f"{b} ({band})" if a["band"].nunique() > 1 else str(b)
