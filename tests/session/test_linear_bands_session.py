@@ -5,7 +5,13 @@ constants, and the refusals that keep the kinds apart."""
 import pytest
 
 import widgetkit as wk
-from widgetkit.simulate import HANDBOOK, LINEAR_HANDBOOK, levels_from_equilibrium, linear_spectrum, raman_spectrum
+from widgetkit.simulate import (
+    HANDBOOK,
+    LINEAR_HANDBOOK,
+    levels_from_equilibrium,
+    linear_spectrum,
+    raman_spectrum,
+)
 
 CO2 = LINEAR_HANDBOOK["16O-12C-16O"]  # handbook values, from memory
 HCN = LINEAR_HANDBOOK["1H-12C-14N"]  # handbook values, from memory

@@ -86,13 +86,14 @@ class LinearAssignment:
 
     def constant(self, name: str, band: str | None = None) -> tuple[float, float]:
         """(value, stderr) of one constant (of the first band listed when ``band`` is None)."""
-        c = self.constants
-        sel = c[c["name"] == name]
-        if band is not None:
-            sel = sel[sel["band"] == band]
-        if sel.empty:
-            raise KeyError(f"no constant {name!r}" + (f" of the {band} band" if band else ""))
-        return float(sel["value"].iloc[0]), float(sel["stderr"].iloc[0])
+        band = self.bands[0] if band is None and self.bands else band
+        rows = self.constants.set_index(["band", "name"])
+        if (band, name) not in rows.index:
+            raise KeyError(f"no constant {name!r} of the {band} band; known: "
+                           + ", ".join(sorted(set(self.constants["name"]))))
+        row = rows.loc[(band, name)]
+        row = row.iloc[0] if row.ndim > 1 else row
+        return float(row["value"]), float(row["stderr"])
 
 
 def _specs(molecule: Linear, kind: str) -> list[BandSpec]:

@@ -247,11 +247,11 @@ def tables(data, mol, kind, states, msgs, *, temperature, excitation_wavenumber,
         if abs(v - temperature) > max(3 * e, 0.25 * temperature):
             reasons.append(f"the line areas give T_rot = {v:.0f} ± {e:.0f} K, not the "
                            f"{temperature:g} K given")
-    unassigned = table[table["label"].isna()]
-    if len(unassigned):
-        ids = ", ".join(str(v) for v in unassigned["line_id"].tolist()[:20])
-        msgs.append(f"{len(unassigned)} lines unassigned (other bands, isotopologues or impurities: "
-                    f"line_id {ids}{', ...' if len(unassigned) > 20 else ''})")
+    left = table.loc[table["label"].isna(), "line_id"].tolist()
+    if left:
+        shown = ", ".join(map(str, left[:20])) + (", ..." if len(left) > 20 else "")
+        msgs.append(f"{len(left)} {'line' if len(left) == 1 else 'lines'} left unassigned (other "
+                    f"bands, isotopologues or impurities): line_id {shown}")
     for _, r in table[table["outlier"]].iterrows():
         msgs.append(f"line {r['line_id']} at {r['position']:.4f} cm-1 ({r['label']}, {r['band']}) is "
                     f"{r['obs_minus_calc']:+.4f} cm-1 from the fit: flagged as an outlier")

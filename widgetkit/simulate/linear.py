@@ -37,7 +37,7 @@ from ..levels.spin import parity
 from ..levels.terms import rot_constant, vib_term
 from ..oscillator import C2
 from ..spectrum import Spectrum
-from .lines import check_temperature
+from .lines import check_temperature, normalise_intensities
 from .spectra import check_render_params, doppler_sigma, render_spectrum
 
 __all__ = ["linear_levels", "levels_from_equilibrium", "transitions", "linear_line_list",
@@ -203,12 +203,7 @@ def transitions(molecule: Linear, levels: dict, bands, temperature: float, *, J_
 
 
 def _normalise(table: pd.DataFrame, min_relative: float) -> pd.DataFrame:
-    top = float(table["intensity"].max()) if len(table) else 0.0
-    if not top > 0:
-        raise SimulationError("no line has a positive intensity; check bands, strengths and temperature")
-    table = table.assign(intensity=table["intensity"] / top)
-    table = table[table["intensity"] >= min_relative]
-    return table.sort_values("position", kind="stable").reset_index(drop=True)
+    return normalise_intensities(table, min_relative, "bands, strengths and temperature")
 
 
 def linear_line_list(molecule, levels: Mapping, *, bands: Sequence, temperature: float = 296.0,

@@ -43,7 +43,7 @@ from ..oscillator import (
 )
 
 __all__ = ["SimulationError", "CONSTANT_NAMES", "line_list", "check_constants", "partition_sum",
-           "rotational_populations"]
+           "rotational_populations", "normalise_intensities"]
 
 #: names understood in a constants mapping (cm⁻¹; r_e in Å)
 CONSTANT_NAMES = ("omega_e", "omega_e_x_e", "omega_e_y_e", "B_e", "alpha_e", "gamma_e",
@@ -288,9 +288,15 @@ def line_list(molecule: Diatomic, constants: Mapping[str, float], *,
                 }))
     table = pd.concat(frames, ignore_index=True)
     table = table[(table["intensity"] > 0) & (table["position"] > 0)]
+    return normalise_intensities(table, min_relative, "bands, dipole and temperature")
+
+
+def normalise_intensities(table: pd.DataFrame, min_relative: float, check: str) -> pd.DataFrame:
+    """Intensities divided by the strongest line's, lines weaker than ``min_relative`` dropped,
+    sorted by position; ``check`` says what to check when no line has a positive intensity."""
     top = float(table["intensity"].max()) if len(table) else 0.0
     if not top > 0:
-        raise SimulationError("no line has a positive intensity; check bands, dipole and temperature")
+        raise SimulationError(f"no line has a positive intensity; check {check}")
     table = table.assign(intensity=table["intensity"] / top)
     table = table[table["intensity"] >= min_relative]
     return table.sort_values("position", kind="stable").reset_index(drop=True)
