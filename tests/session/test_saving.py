@@ -160,3 +160,47 @@ def test_metadata_is_recorded_as_plain_data_or_refused_naming_the_entry():
     assert s.sources[0]["meta"] == {"T": 296.0, "range": [1, 2]}
     with pytest.raises(wk.SessionStateError, match="meta.lab.T must hold finite numbers, got nan"):
         wk.Session(wk.Spectrum(x, np.sin(x), meta={"lab": {"T": float("nan")}}))
+
+
+@pytest.mark.parametrize("edit, words", [
+    (lambda d: d["steps"][1]["params"].update(hi=d["steps"][1]["params"]["hi"] * (1 + 1e-9)),
+     "step 1 (crop): its content no longer matches the seal"),  # changes no result
+    (lambda d: d["steps"][2].update(at="2020-01-01T00:00:00.000+00:00"),
+     "step 2 (note): its content no longer matches the seal"),
+    (lambda d: d["steps"][0]["software"].update(numpy="0.0"),
+     "step 0 (load): its content no longer matches the seal"),
+    (lambda d: d["steps"][1].pop("sha256"), "step 1 (crop): saved without the seal"),
+])
+def test_every_value_of_a_step_is_sealed_so_any_edit_is_a_mismatch(session, tmp_path, edit,
+                                                                     words):
+    session.crop(2750, 3050)
+    session.note("sealed")
+    path = tmp_path / "s.json"
+    session.save(path)
+    assert wk.Session.load(path).verify().ok
+    doc = json.loads(path.read_text())
+    edit(doc)
+    path.write_text(json.dumps(doc))
+    report = wk.Session.load(path).verify()
+    assert not report.ok and any(words in m for m in report.mismatches), report.mismatches
+
+
+def test_steps_added_after_reopening_need_no_seal_until_saved(session, tmp_path):
+    session.save(tmp_path / "s.json")
+    again = wk.Session.load(tmp_path / "s.json")
+    again.note("added after reopening")
+    assert again.verify().ok
+
+
+@pytest.mark.parametrize("edit", [
+    lambda d: d.update(created="2020-01-01T00:00:00.000+00:00"),
+    lambda d: d["software"].update(scipy="0.1"),
+])
+def test_the_header_is_sealed_too(session, tmp_path, edit):
+    path = tmp_path / "s.json"
+    session.save(path)
+    doc = json.loads(path.read_text())
+    edit(doc)
+    path.write_text(json.dumps(doc))
+    report = wk.Session.load(path).verify()
+    assert any("the file's header" in m for m in report.mismatches), report.mismatches

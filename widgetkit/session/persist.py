@@ -8,10 +8,11 @@ from ..errors import SessionFormatError, SessionStateError, WidgetkitError
 from ..spectrum import Spectrum
 from . import codec
 from .params import ParamProblem
-from .steps import STEP_KINDS, Context, State, Step, software_versions, utc_now
+from .steps import STEP_KINDS, Context, State, Step, seal_json, software_versions, utc_now
 from .verify import cut
 
-__all__ = ["check_steps", "decode_source", "restore_states", "session_document"]
+__all__ = ["check_header", "check_steps", "decode_source", "header_seal", "restore_states",
+           "session_document"]
 
 
 def _source_of(rec: dict) -> dict | None:
@@ -159,6 +160,28 @@ def session_document(sources: list[dict], spectra: dict[str, Spectrum], steps: l
     if not embed and not all(r["path"] for r in out_sources):
         raise SessionStateError("save(embed=False) needs a source file path; this session "
                                 "was made from an in-memory spectrum, so save it embedded")
-    return {"format": codec.FORMAT, "version": codec.VERSION, "created": created,
-            "modified": utc_now(), "software": software_versions(), "sources": out_sources,
-            "steps": [s.to_json() for s in steps]}
+    doc = {"format": codec.FORMAT, "version": codec.VERSION, "created": created,
+           "modified": utc_now(), "software": software_versions(), "sources": out_sources,
+           "steps": [s.to_json() for s in steps]}
+    doc["sha256"] = header_seal(doc)
+    return doc
+
+
+def header_seal(doc: dict) -> str:
+    """sha256 of the document without its steps (each step carries its own seal) and with
+    every embedded array replaced by its recorded sha256: times, software versions and every
+    field of the sources. :meth:`Session.verify` compares it with the one saved."""
+    head = {k: v for k, v in doc.items() if k not in ("steps", "sha256")}
+    head["sources"] = [
+        {**src, "data": None if src.get("data") is None else
+         {name: arr.get("sha256") for name, arr in src["data"].items()}}
+        for src in doc.get("sources", [])]
+    return seal_json(head)
+
+
+def check_header(doc: dict, problems: list[str]) -> None:
+    """Append to ``problems`` when the document's header no longer matches its seal."""
+    if "sha256" in doc and doc["sha256"] != header_seal(doc):
+        problems.append("the file's header (created, modified, software versions or a source "
+                        "field) no longer matches the seal it was saved with (it was edited "
+                        "after saving)")

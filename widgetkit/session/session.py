@@ -155,6 +155,7 @@ class Session(StateViews):
         ids = [rec["id"] for rec in doc["sources"]]
         if len(set(ids)) != len(ids):
             raise SessionFormatError("field sources: two sources have the same id", path=path)
+        persist.check_header(doc, self._source_problems)
         for rec in doc["sources"]:
             self._add_source(rec, persist.decode_source(rec, str(path), self._source_problems))
         self._steps = [Step(**s) for s in doc["steps"]]

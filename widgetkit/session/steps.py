@@ -49,7 +49,7 @@ from .records import table_to_json
 
 __all__ = ["Step", "State", "StepKind", "STEP_KINDS", "register_step", "software_versions",
            "Context", "table_to_json", "utc_now", "drop_dependents", "cleared_text",
-           "RecordMismatch", "assigned_count"]
+           "RecordMismatch", "assigned_count", "seal_json"]
 
 PEAK_COLUMNS = ["peak_id", "position", "height", "snr"]
 
@@ -103,10 +103,31 @@ class Step:
     summary: str
     result: dict = field(default_factory=dict)
     software: dict = field(default_factory=dict)
+    #: the seal read from a file (:meth:`seal` of the step as it was written), or None
+    sha256: str | None = field(default=None, compare=False)
 
     def to_json(self) -> dict:
-        return {"kind": self.kind, "params": self.params, "at": self.at, "summary": self.summary,
-                "result": self.result, "software": self.software}
+        """The step as written to a file, sealed (``sha256``, see :meth:`seal`)."""
+        out = {"kind": self.kind, "params": self.params, "at": self.at, "summary": self.summary,
+               "result": self.result, "software": self.software}
+        out["sha256"] = seal_json(out)
+        return out
+
+    def seal(self) -> str:
+        """sha256 of the step's canonical JSON (sorted keys, no spaces, ASCII): any edit of
+        any value of the step (a parameter, the time, a digit of a result) changes it, so
+        :meth:`Session.verify` reports a step whose content no longer matches its seal."""
+        return seal_json({"kind": self.kind, "params": self.params, "at": self.at,
+                      "summary": self.summary, "result": self.result, "software": self.software})
+
+
+def seal_json(content: dict) -> str:
+    """sha256 (hex) of ``content`` as canonical JSON: sorted keys, no spaces, ASCII only."""
+    import hashlib
+    import json
+
+    text = json.dumps(content, sort_keys=True, separators=(",", ":"), allow_nan=False)
+    return hashlib.sha256(text.encode("ascii")).hexdigest()
 
 
 def _empty_peaks() -> pd.DataFrame:

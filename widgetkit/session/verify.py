@@ -162,6 +162,14 @@ def replay_and_compare(steps: list, ctx, problems: list[str]) -> VerifyReport:
     mismatches = list(problems)
     state = State()
     checked = 0
+    last_sealed = max((i for i, s in enumerate(steps) if s.sha256 is not None), default=-1)
+    for i, step in enumerate(steps):
+        if step.sha256 is not None and step.sha256 != step.seal():
+            mismatches.append(f"step {i} ({step.kind}): its content no longer matches the seal "
+                              "it was saved with (the step was edited after saving)")
+        elif step.sha256 is None and i < last_sealed:  # steps added since opening have none
+            mismatches.append(f"step {i} ({step.kind}): saved without the seal the later steps "
+                              "have (it was removed)")
     for i, step in enumerate(steps):
         kind = STEP_KINDS[step.kind]
         where = f"step {i} ({step.kind})"
