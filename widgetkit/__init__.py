@@ -12,7 +12,7 @@ The headless API (no widget is imported by ``import widgetkit``)::
     s.constants
 
 Sub-packages ``wk.lines``, ``wk.levels``, ``wk.oscillator``, ``wk.simulate``,
-``wk.processing``, ``wk.io`` and ``wk.demo`` (the shipped demo data:
+``wk.bandmodel``, ``wk.processing``, ``wk.io`` and ``wk.demo`` (the shipped demo data:
 ``wk.demo.data_path("hcl_cell_296K.jdx")``) load on first use; the widgets live
 in ``widgetkit.widgets`` and load only when that is imported.
 """
@@ -72,10 +72,11 @@ __all__ = [
     "simulate",
     "demo",
     "series",
+    "bandmodel",
 ]
 
-_SUBMODULES = {"io", "processing", "lines", "levels", "oscillator", "simulate", "widgets",
-               "session", "report", "cli", "demo", "series"}
+_SUBMODULES = {"io", "processing", "lines", "levels", "oscillator", "simulate", "bandmodel",
+               "widgets", "session", "report", "cli", "demo", "series"}
 _LAZY_NAMES = {
     "read_spectrum": ("io", "read_spectrum"),
     "write_csv": ("io", "write_csv"),

@@ -41,6 +41,7 @@ from ..oscillator import (
     solve,
     transition_moments,
 )
+from .linesystem import DUNHAM_NAMES, DunhamMap, diatomic_system, j_limit, line_weights, partition_levels
 
 __all__ = ["SimulationError", "CONSTANT_NAMES", "line_list", "check_constants", "partition_sum",
            "rotational_populations", "normalise_intensities"]
@@ -121,31 +122,16 @@ def _terms(c: Mapping[str, float]):
 
 def _j_limit(c: Mapping[str, float], v: int, temperature: float, rel: float) -> int:
     """Highest J worth keeping in v: population below rel × its maximum, or where F stops rising."""
-    _, f = _terms(c)
-    J = np.arange(_J_CAP + 1)
-    F = f(v, J)
-    rising = np.flatnonzero(np.diff(F) <= 0)
-    top = int(rising[0]) if rising.size else _J_CAP
-    w = (2 * J[: top + 1] + 1) * np.exp(-C2 * (F[: top + 1] - F[0]) / temperature)
-    big = np.flatnonzero(w >= rel * w.max())
-    return int(big[-1]) + 1 if big.size and big[-1] < top else top
+    return j_limit(c, v, temperature, rel, cap=_J_CAP)
 
 
 def partition_sum(c: Mapping[str, float], temperature: float) -> float:
-    """Q(T) = Σ_v Σ_J (2J+1) exp(−c₂ (G(v) − G(0) + F_v(J)) / T), summed to 1e-16."""
+    """Q(T) = Σ_v Σ_J (2J+1) exp(−c₂ (G(v) − G(0) + F_v(J)) / T), summed to 1e-16
+    over the levels of :func:`widgetkit.simulate.linesystem.partition_levels`."""
+    v, J = partition_levels(c, temperature)
     g, f = _terms(c)
-    q = 0.0
-    v = 0
-    vmax = (c["omega_e"] / (2 * c["omega_e_x_e"]) - 0.5) if c["omega_e_x_e"] > 0 else 1e9
-    while v < vmax:
-        ev = g(v) - g(0)
-        if v > 0 and math.exp(-C2 * ev / temperature) < 1e-16:
-            break
-        jm = _j_limit(c, v, temperature, 1e-16)
-        J = np.arange(jm + 1)
-        q += float(np.sum((2 * J + 1) * np.exp(-C2 * (ev + f(v, J)) / temperature)))
-        v += 1
-    return q
+    e = g(v) - g(0) + f(v, J)
+    return float(np.sum((2 * J + 1) * np.exp(-C2 * e / temperature)))
 
 
 def rotational_populations(constants: Mapping[str, float], temperature: float, *, v: int = 0,
@@ -190,6 +176,45 @@ def _band_factors(c: Mapping[str, float], reduced_mass: float, bands, dipole) ->
         )
     m = transition_moments(lv, dipole)
     return {(a, b): float(m[a, b]) ** 2 for a, b in bands} | {(1, 0): float(m[1, 0]) ** 2}
+
+
+def build_system(molecule: Diatomic, constants: Mapping[str, float], bands, temperature: float, *,
+                 J_max: int | None = None, min_relative: float = 1e-4, q_branch: bool = False,
+                 dipole: Sequence[float] | None = None, term_map=None):
+    """The :class:`~widgetkit.simulate.linesystem.LineSystem` of :func:`line_list` and its
+    constant vector ``c`` (ordered as :data:`~widgetkit.simulate.linesystem.DUNHAM_NAMES`).
+
+    ``constants`` are checked ones (:func:`check_constants`) of the main isotopologue.
+    J″ runs to ``J_max`` or to where the rotational population of the lower level falls
+    below 1e-3 × ``min_relative`` of its maximum at ``temperature``; partition sums cover
+    the levels of :func:`~widgetkit.simulate.linesystem.partition_levels`. With ``dipole``
+    the band factors |M_v′v″|²/|M_10|² come from the numerical oscillator (normalised by
+    the main isotopologue's |M_10|²); without, they are 1. ``term_map`` defaults to the
+    equilibrium (Dunham-type) map of the molecule's isotopologues.
+    """
+    main = molecule.isotopologues[0]
+    rhos = [math.sqrt(main.reduced_mass / iso.reduced_mass) for iso in molecule.isotopologues]
+    tm = DunhamMap(rhos) if term_map is None else term_map
+    j_max, factors, partition = {}, {}, {}
+    ref_m10 = None
+    for ii, (iso, rho) in enumerate(zip(molecule.isotopologues, rhos, strict=True)):
+        ci = check_constants(scale_constants({k: v for k, v in constants.items() if k != "r_e"},
+                                             rho))
+        ci["r_e"] = constants["r_e"]
+        if dipole is not None:
+            bf = _band_factors(ci, iso.reduced_mass, bands, dipole)
+            if ref_m10 is None:
+                ref_m10 = bf[(1, 0)]
+            for band in bands:
+                factors[(ii, band)] = bf[band] / ref_m10
+        for vu, vl in bands:
+            j_max[(ii, (vu, vl))] = (int(J_max) if J_max is not None else
+                                     _j_limit(ci, vl, temperature, 1e-3 * max(min_relative, 1e-12)))
+        partition[ii] = partition_levels(ci, temperature)
+    system = diatomic_system(molecule, tm, bands, j_max, band_factors=factors or None,
+                             q_branch=q_branch, partition=partition)
+    c = np.array([constants[n] for n in DUNHAM_NAMES])
+    return system, c
 
 
 def line_list(molecule: Diatomic, constants: Mapping[str, float], *,
@@ -248,45 +273,17 @@ def line_list(molecule: Diatomic, constants: Mapping[str, float], *,
         raise SimulationError(f"min_relative must be in [0, 1), got {min_relative!r}")
     use_osc = dipole is not None or any(b != (1, 0) for b in bands)
     dip = (0.0, 1.0) if dipole is None else dipole
-    main = molecule.isotopologues[0]
-    ref_m10 = None
-    frames = []
-    for iso in molecule.isotopologues:
-        rho = math.sqrt(main.reduced_mass / iso.reduced_mass)
-        c = check_constants(scale_constants({k: v for k, v in c0.items() if k != "r_e"}, rho))
-        c["r_e"] = c0["r_e"]
-        g, f = _terms(c)
-        if use_osc:
-            bf = _band_factors(c, iso.reduced_mass, bands, dip)
-            if ref_m10 is None:
-                ref_m10 = bf[(1, 0)]
-            bf = {k: v / ref_m10 for k, v in bf.items()}
-        q = partition_sum(c, t)
-        for vu, vl in bands:
-            jm = int(J_max) if J_max is not None else _j_limit(c, vl, t, 1e-3 * max(min_relative, 1e-12))
-            Jl = np.arange(0, jm + 1)
-            parts = [("R", Jl, Jl + 1)]
-            parts.append(("P", Jl[Jl >= 1], Jl[Jl >= 1] - 1))
-            if q_branch:
-                parts.append(("Q", Jl[Jl >= 1], Jl[Jl >= 1]))
-            for branch, jl, ju in parts:
-                if q_branch:
-                    hl = {"R": (jl + 2) / 2, "Q": (2 * jl + 1) / 2, "P": (jl - 1) / 2}[branch]
-                else:
-                    hl = {"R": jl + 1.0, "P": jl * 1.0}[branch]
-                m = {"R": jl + 1.0, "P": -jl * 1.0, "Q": 0.0 * jl}[branch]
-                pos = g(vu) - g(vl) + f(vu, ju) - f(vl, jl)
-                e_low = g(vl) - g(0) + f(vl, jl)
-                inten = (iso.abundance * pos * hl * (1 + herman_wallis * m) ** 2
-                         * (bf[(vu, vl)] if use_osc else 1.0)
-                         * np.exp(-C2 * e_low / t) * -np.expm1(-C2 * pos / t) / q)
-                frames.append(pd.DataFrame({
-                    "isotopologue": iso.name, "v_upper": vu, "v_lower": vl,
-                    "J_upper": ju.astype(int), "J_lower": jl.astype(int), "branch": branch,
-                    "label": [f"{branch}({j})" for j in jl], "band": f"{vu}-{vl}",
-                    "position": pos, "intensity": inten, "E_lower": e_low, "mass": iso.mass,
-                }))
-    table = pd.concat(frames, ignore_index=True)
+    system, c = build_system(molecule, c0, bands, t, J_max=J_max, min_relative=min_relative,
+                             q_branch=q_branch, dipole=dip if use_osc else None)
+    pos, e_low, inten = line_weights(system, c, t, herman_wallis=herman_wallis)
+    table = pd.DataFrame({
+        "isotopologue": np.asarray(system.isotopologues, dtype=object)[system.iso],
+        "v_upper": system.v_upper, "v_lower": system.v_lower, "J_upper": system.J_upper,
+        "J_lower": system.J_lower, "branch": system.branch, "label": system.labels(),
+        "band": [f"{a}-{b}" for a, b in zip(system.v_upper.tolist(), system.v_lower.tolist(),
+                                             strict=True)],
+        "position": pos, "intensity": inten, "E_lower": e_low, "mass": system.mass,
+    })
     table = table[(table["intensity"] > 0) & (table["position"] > 0)]
     return normalise_intensities(table, min_relative, "bands, dipole and temperature")
 

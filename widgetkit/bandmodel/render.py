@@ -1,0 +1,290 @@
+"""Rendering a line list into an observed spectrum, with its derivatives (private).
+
+Every line k is a Voigt profile of area I_k at ν_k, with Gaussian part σ_k and a
+Lorentzian HWHM γ common to all lines, seen through the instrument (ILS, see
+:mod:`.instrument`). The computation is exact up to sampling and uses one FFT
+per column:
+
+1. **Deposit.** On a uniform working grid u (spacing h, covering the data with a
+   margin) each line is deposited as a sampled Gaussian of width s_k ≥ 1.5 h,
+   evaluated exactly, D(u) = Σ_k I_k g(u − ν_k; s_k).
+2. **Convolve in Fourier space.** The remaining factors are applied as their exact
+   transforms at path differences t: Lorentz exp(−2πγ|t|), the instrument A(t), and
+   for band-limited instruments (boxcar, triangular) the deconvolution
+   exp(+2π²τ²t²) of a common auxiliary width τ put into every deposit
+   (s_k² = σ_k² + τ², τ ≤ 0.3/L, so the factor never exceeds e^{1.8} where A(t) ≠ 0).
+   With a Gaussian instrument its σ goes into the deposit instead.
+3. **Sample** at the data points: the grid is aligned with a uniform data grid
+   (h = Δx/k), otherwise a cubic spline interpolates.
+
+Two convolution domains:
+
+* ``"absorbance"`` (the absorbance approximation): A_obs = ILS ⊛ A_mono, linear in the
+  intensities; exact for weak lines and for lines wider than the instrument;
+* ``"transmittance"``: A_obs = −log₁₀(ILS ⊛ 10^(−A_mono)), the physics of a
+  spectrometer; the monochromatic A_mono is resolved on the grid (h ≤ σ/3).
+
+Derivatives: for every parameter p, the deposit of
+Σ_k (∂I_k/∂p g_k + I_k ∂ν_k/∂p ∂g_k/∂ν + I_k ∂s_k/∂p ∂g_k/∂s) goes through the same
+transforms; γ and the resolution act on the kernel (∂K/∂γ = −2π|t| K, ∂A/∂Δ).
+The circular convolution is padded by at least half the grid so wrapped wings are
+negligible.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import fft as sfft
+from scipy.interpolate import CubicSpline
+
+from ..errors import FitError
+from .instrument import SIGMA_PER_FWHM, transfer, transfer_derivative
+
+__all__ = ["Grid", "make_grid", "render", "MAX_GRID"]
+
+LN10 = math.log(10.0)
+#: largest working grid (points) before the fit refuses and asks for a narrower range
+MAX_GRID = 4_000_000
+_SQRT2PI = math.sqrt(2.0 * math.pi)
+_WINDOW = 7.0  # deposit half-window in units of s_k
+
+
+@dataclass(frozen=True)
+class Grid:
+    """The working grid: u_j = u0 + j h, j < M; the FFT length ``n_fft`` ≥ M + padding;
+    ``index`` the grid index of every data point when aligned, else None (spline)."""
+
+    u0: float
+    h: float
+    M: int
+    n_fft: int
+    index: np.ndarray | None
+    x: np.ndarray
+
+    @property
+    def u(self) -> np.ndarray:
+        return self.u0 + self.h * np.arange(self.M)
+
+    @property
+    def t(self) -> np.ndarray:
+        """Path differences (cm) of the rfft bins."""
+        return np.arange(self.n_fft // 2 + 1) / (self.n_fft * self.h)
+
+
+def uniform_step(x: np.ndarray) -> float | None:
+    """The step of ``x`` when it is uniform to 1e-3 of a step, else None."""
+    if x.size < 2:
+        return None
+    dx = (x[-1] - x[0]) / (x.size - 1)
+    err = np.max(np.abs(x - (x[0] + dx * np.arange(x.size))))
+    return float(dx) if err <= 1e-3 * dx else None
+
+
+def make_grid(x: np.ndarray, h_max: float, margin: float, *, wrap: float = 0.0) -> Grid:
+    """A working grid with spacing ≤ ``h_max`` covering x ± ``margin`` (cm⁻¹).
+
+    ``wrap`` is the extra zero padding (cm⁻¹) needed against circular wrap-around,
+    at least half the grid's span.
+    """
+    if not h_max > 0:
+        raise FitError(f"the line widths imply a grid spacing of {h_max!r} cm-1; check the "
+                       "temperature, widths and resolution")
+    dx = uniform_step(x)
+    if dx is not None:
+        k = max(1, int(math.ceil(dx / h_max - 1e-9)))
+        h = dx / k
+        n_margin = int(math.ceil(margin / h))
+        M = (x.size - 1) * k + 1 + 2 * n_margin
+        u0 = float(x[0]) - n_margin * h
+        index = n_margin + k * np.arange(x.size)
+    else:
+        h = min(h_max, float(np.min(np.diff(x))))
+        u0 = float(x[0]) - margin
+        M = int(math.ceil((float(x[-1]) + margin - u0) / h)) + 1
+        index = None
+    if M > MAX_GRID:
+        raise FitError(
+            f"the band model would need {M} grid points (spacing {h:.3g} cm-1 over "
+            f"{x[-1] - x[0]:.4g} cm-1 plus margins) to resolve the narrowest lines; crop the "
+            "spectrum to the band, or give the resolution and line widths (fix=...)")
+    pad = max(M // 2, int(math.ceil(wrap / h)), 64)
+    n_fft = sfft.next_fast_len(M + pad, real=True)
+    return Grid(u0=u0, h=h, M=M, n_fft=n_fft, index=index, x=x)
+
+
+def _deposit(grid: Grid, pos, s, weights: list[np.ndarray]) -> np.ndarray:
+    """Columns Σ_k a_k g(u − ν_k; s_k) + b_k ∂g/∂ν + c_k ∂g/∂s on the grid.
+
+    ``weights`` is a list of (a, b, c) triples of arrays (L,) or None; returns (n_cols, M).
+    """
+    h = grid.h
+    w = int(math.ceil(_WINDOW * float(np.max(s)) / h)) if s.size else 0
+    offs = np.arange(-w, w + 1)
+    centre = np.rint((pos - grid.u0) / h).astype(np.int64)
+    idx = centre[:, None] + offs[None, :]
+    valid = (idx >= 0) & (idx < grid.M)
+    idx = np.clip(idx, 0, grid.M - 1)
+    d = grid.u0 + h * idx - pos[:, None]
+    s2 = s[:, None]
+    z = d / s2
+    g = np.exp(-0.5 * z * z) / (s2 * _SQRT2PI)
+    g = np.where(valid, g, 0.0)
+    g_nu = g * z / s2  # ∂g/∂ν
+    g_s = g * (z * z - 1.0) / s2  # ∂g/∂s
+    flat = idx.ravel()
+    out = np.empty((len(weights), grid.M))
+    for j, (a, b, c) in enumerate(weights):
+        v = g * a[:, None]
+        if b is not None:
+            v = v + g_nu * b[:, None]
+        if c is not None:
+            v = v + g_s * c[:, None]
+        out[j] = np.bincount(flat, weights=v.ravel(), minlength=grid.M)
+    return out
+
+
+@dataclass(frozen=True)
+class Kernel:
+    """What acts in Fourier space: Lorentz HWHM, instrument kind and resolution, τ, domain."""
+
+    gamma: float
+    instrument: str
+    resolution: float
+    tau: float
+    domain: str  # "absorbance" or "transmittance"
+
+
+def deposit_extra(kernel: Kernel) -> float:
+    """The Gaussian width every deposit carries besides the line's own σ (in quadrature)."""
+    if kernel.domain != "absorbance":
+        return 0.0
+    if kernel.instrument == "gaussian":
+        return kernel.resolution * SIGMA_PER_FWHM
+    return kernel.tau
+
+
+def auxiliary_tau(instrument: str, resolution: float) -> float:
+    """τ of a band-limited instrument: 0.3 L⁻¹ = 0.3 Δ (keeps exp(2π²τ²t²) ≤ e^{1.8})."""
+    return 0.3 * resolution if instrument != "gaussian" and resolution > 0 else 0.0
+
+
+def _sample(grid: Grid, rows: np.ndarray) -> np.ndarray:
+    """Rows on the grid -> rows at the data points (shape (n, N))."""
+    if grid.index is not None:
+        return rows[:, grid.index]
+    return CubicSpline(grid.u, rows, axis=1)(grid.x)
+
+
+class _Spectra:
+    """Rows on the grid in Fourier space: the value in float64, derivatives in float32
+    (their precision, 1e-7, is ample for a Jacobian and halves the transform time)."""
+
+    def __init__(self, grid: Grid, rows: np.ndarray):
+        self.grid = grid
+        self.v = sfft.rfft(rows[0], n=grid.n_fft, workers=1)
+        self.d = (sfft.rfft(rows[1:].astype(np.float32), n=grid.n_fft, axis=-1, workers=1)
+                  if rows.shape[0] > 1 else None)
+
+    def times(self, k: np.ndarray) -> _Spectra:
+        out = object.__new__(_Spectra)
+        out.grid = self.grid
+        out.v = self.v * k
+        out.d = None if self.d is None else self.d * k.astype(np.complex64)[None, :]
+        return out
+
+    def add(self, row: int, term: np.ndarray) -> None:
+        """Add ``term`` (a full-precision spectrum) to derivative row ``row``."""
+        self.d[row] += term.astype(np.complex64)
+
+    def back(self) -> np.ndarray:
+        """Rows on the grid, shape (1 + n_d, M), float64."""
+        n, M = self.grid.n_fft, self.grid.M
+        v = sfft.irfft(self.v, n=n, workers=1)[:M]
+        if self.d is None:
+            return v[None, :]
+        d = sfft.irfft(self.d, n=n, axis=-1, workers=1)[:, :M]
+        return np.vstack([v[None, :], d.astype(np.float64)])
+
+
+def render(grid: Grid, pos: np.ndarray, area: np.ndarray, sigma: np.ndarray, kernel: Kernel, *,
+           d_area: np.ndarray | None = None, d_pos: np.ndarray | None = None,
+           d_sigma: np.ndarray | None = None, d_gamma: int | None = None,
+           d_resolution: int | None = None) -> tuple[np.ndarray, np.ndarray | None]:
+    """Observed band absorbance at the data points and its derivatives.
+
+    Parameters
+    ----------
+    grid : Grid
+    pos, area, sigma : ndarray (L,)
+        Line positions (cm⁻¹), areas (decadic absorbance × cm⁻¹) and Gaussian σ (cm⁻¹)
+        of the monochromatic lines (Doppler, or a free Gaussian width).
+    kernel : Kernel
+    d_area, d_pos, d_sigma : ndarray (L, P), optional
+        ∂area/∂p, ∂ν/∂p, ∂σ/∂p of the P parameters whose columns are wanted.
+    d_gamma, d_resolution : int, optional
+        The column that is ∂/∂γ, ∂/∂Δ (their kernel terms are added to it).
+
+    Returns
+    -------
+    y : ndarray (N,)
+        At the data points, without baseline: the band absorbance A_obs in the
+        ``"absorbance"`` domain, the band transmittance ILS ⊛ 10^(−A_mono) in the
+        ``"transmittance"`` domain (it may leave [0, 1] slightly where an unapodised
+        instrument rings next to saturated lines, as real spectra do).
+    jac : ndarray (N, P) or None
+        Derivatives of ``y``.
+    """
+    extra = deposit_extra(kernel)
+    s = np.sqrt(sigma * sigma + extra * extra)
+    n_par = 0 if d_area is None else d_area.shape[1]
+    weights = [(area, None, None)]
+    if n_par:
+        ds = d_sigma * (sigma / s)[:, None]  # ∂s/∂p = (σ/s) ∂σ/∂p
+        ds_extra = None
+        if kernel.domain == "absorbance" and kernel.instrument == "gaussian" and d_resolution is not None:
+            ds_extra = (extra / s) * SIGMA_PER_FWHM  # ∂s/∂Δ through the instrument's σ
+        for p in range(n_par):
+            c = area * ds[:, p]
+            if ds_extra is not None and p == d_resolution:
+                c = c + area * ds_extra
+            weights.append((d_area[:, p], area * d_pos[:, p], c))
+    dep = _deposit(grid, pos, s, weights)
+    t = grid.t
+    F = _Spectra(grid, dep)
+    lor = np.exp(-2.0 * math.pi * kernel.gamma * t)
+    dt = 1.0 / (grid.n_fft * grid.h)
+    if kernel.domain == "absorbance":
+        k = lor * transfer(kernel.instrument, kernel.resolution, t, dt=dt) \
+            if kernel.instrument != "gaussian" else lor
+        if kernel.tau > 0 and kernel.instrument != "gaussian":
+            k = k * np.exp(2.0 * math.pi**2 * kernel.tau**2 * t * t)
+        R = F.times(k)
+        if d_gamma is not None:
+            R.add(d_gamma, F.v * (-2.0 * math.pi * t) * k)
+        if d_resolution is not None and kernel.instrument != "gaussian":
+            dk = lor * transfer_derivative(kernel.instrument, kernel.resolution, t, dt=dt) * \
+                np.exp(2.0 * math.pi**2 * kernel.tau**2 * t * t)
+            R.add(d_resolution, F.v * dk)
+        res = _sample(grid, R.back())
+        return res[0], (res[1:].T if n_par else None)
+    # transmittance domain: resolve A_mono, exponentiate, then the instrument
+    R = F.times(lor)
+    if d_gamma is not None:
+        R.add(d_gamma, F.v * (-2.0 * math.pi * t) * lor)
+    amono = R.back()
+    tmono = np.exp(-LN10 * amono[0])
+    rows = np.empty_like(amono)
+    rows[0] = tmono - 1.0
+    rows[1:] = -LN10 * tmono[None, :] * amono[1:]
+    G = _Spectra(grid, rows)
+    a_t = transfer(kernel.instrument, kernel.resolution, t, dt=dt)
+    R2 = G.times(a_t)
+    if d_resolution is not None:
+        R2.add(d_resolution, G.v * transfer_derivative(kernel.instrument, kernel.resolution, t,
+                                                         dt=dt))
+    res = _sample(grid, R2.back())
+    res[0] += 1.0
+    return res[0], (res[1:].T if n_par else None)

@@ -1,0 +1,174 @@
+"""Start values of a band-model fit from the spectrum alone (private).
+
+1. Baseline: a straight line through the medians of the outer 5 % at each end.
+2. P and R maxima and the line spacing (:func:`.quick.pr_separation`).
+3. Resolved lines (a regular comb was found): the strongest peaks are indexed from the
+   band-origin gap (R(0)–P(1) is twice the neighbouring spacings) with the running
+   number m, and ν(m) = ν₀ + (B′+B″) m + (B′−B″) m² − 2(D′+D″) m³ is fitted
+   (Herzberg 1950, ch. III) for ν₀, B′, B″ and D; T from a Boltzmann plot of the peak
+   heights, ln(h/|m|) against B″J″(J″+1) (slope −c₂/T).
+4. Unresolved contour: ν₀ at the dip between the maxima, B from the P–R separation
+   at the start temperature (given, else 296 K), B′ = B″ (1 − 0.01), D from the Kratzer
+   relation.
+5. Band area: the integrated absorbance above the baseline.
+
+Every number says where it came from (``sources``), so the result can report it.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy.integrate import trapezoid
+from scipy.ndimage import gaussian_filter1d
+
+from ..errors import FitError
+from ..oscillator import C2
+from .build import kratzer_d
+from .quick import PRSeparation, _absorbance_like, _detrend, _uniform, pr_separation, strong_peaks
+
+__all__ = ["estimate_starts", "index_comb"]
+
+DEFAULT_TEMPERATURE = 296.0  # K, room temperature (common practice)
+DEFAULT_LORENTZ = 0.05  # cm-1 HWHM, a small molecule near 1 atm (common practice, order of magnitude)
+
+
+def _baseline(x: np.ndarray, a: np.ndarray) -> tuple[float, float]:
+    """(b0, b1) of a straight baseline in t = (x − centre)/half-range."""
+    n = max(3, x.size // 20)
+    y0, y1 = float(np.median(a[:n])), float(np.median(a[-n:]))
+    return 0.5 * (y0 + y1), 0.5 * (y1 - y0)
+
+
+def index_comb(xu: np.ndarray, au: np.ndarray, spacing: float, centre: float):
+    """Index the strongest peaks of a resolved band by their running number m.
+
+    Returns (positions, heights, m) of the indexed peaks, or None when no band-origin
+    gap is found near ``centre``.
+    """
+    top = float(au.max())
+    pk = strong_peaks(xu, au, spacing, floor=0.05 * top)
+    if pk.size < 5:
+        return None
+    p, h = xu[pk], au[pk]
+    sp = np.diff(p)
+    best, best_d = None, math.inf
+    for i in range(sp.size):
+        nb = [sp[j] for j in (i - 2, i - 1, i + 1, i + 2) if 0 <= j < sp.size]
+        local = float(np.median(nb)) if nb else spacing
+        if 1.5 * local < sp[i] < 2.6 * local:
+            mid = 0.5 * (p[i] + p[i + 1])
+            if abs(mid - centre) < best_d:
+                best, best_d = i, abs(mid - centre)
+    if best is None or best_d > 3.0 * spacing:
+        return None
+    m = np.zeros(p.size, dtype=int)
+    m[best + 1] = 1
+    for k in range(best + 2, p.size):  # R branch: m = 1, 2, ...
+        d_prev = p[k - 1] - p[k - 2] if k - 2 > best else spacing
+        m[k] = m[k - 1] + max(1, int(round((p[k] - p[k - 1]) / d_prev)))
+    m[best] = -1
+    for k in range(best - 1, -1, -1):  # P branch: m = -1, -2, ...
+        d_prev = p[k + 2] - p[k + 1] if k + 2 <= best else spacing
+        m[k] = m[k + 1] - max(1, int(round((p[k + 1] - p[k]) / d_prev)))
+    return p, h, m
+
+
+def _from_comb(p, h, m, temperature: float | None):
+    """ν₀, B′, B″, D (and T) from indexed peaks; None when the fit is poor."""
+    sel = np.abs(m) <= 25
+    p, h, m = p[sel], h[sel], m[sel].astype(float)
+    if p.size < 5:
+        return None
+    deg = 3 if p.size >= 8 else 2
+    A = np.column_stack([m**k for k in range(deg + 1)])
+    coef, *_ = np.linalg.lstsq(A, p, rcond=None)
+    rms = float(np.sqrt(np.mean((A @ coef - p) ** 2)))
+    nu0, b_sum, b_diff = coef[0], coef[1], coef[2]
+    Bl, Bu = 0.5 * (b_sum - b_diff), 0.5 * (b_sum + b_diff)
+    if not (Bl > 0 and Bu > 0) or rms > 0.15 * b_sum:
+        return None
+    D = -coef[3] / 4.0 if deg == 3 and coef[3] < 0 else kratzer_d(Bl, nu0)
+    out = {"band_origin": float(nu0), "B_lower": float(Bl), "B_upper": float(Bu), "D": float(D)}
+    if temperature is None:
+        J = np.where(m > 0, m - 1, -m)
+        y = np.log(np.maximum(h, 1e-12) / np.abs(m))
+        E = Bl * J * (J + 1)
+        if np.ptp(E) > 0 and h.size >= 4:
+            slope = np.polyfit(E, y, 1)[0]
+            if slope < 0:
+                out["temperature"] = float(np.clip(-C2 / slope, 20.0, 5000.0))
+    return out
+
+
+def _observed_fwhm(xu: np.ndarray, au: np.ndarray, i: int) -> float | None:
+    """FWHM of the peak at index i (linear interpolation of the half-height crossings)."""
+    half = 0.5 * au[i]
+    lo = i
+    while lo > 0 and au[lo] > half:
+        lo -= 1
+    hi = i
+    while hi < au.size - 1 and au[hi] > half:
+        hi += 1
+    if lo == 0 or hi == au.size - 1:
+        return None
+    xl = np.interp(half, [au[lo], au[lo + 1]], [xu[lo], xu[lo + 1]])
+    xh = np.interp(half, [au[hi], au[hi - 1]], [xu[hi], xu[hi - 1]])
+    return float(xh - xl)
+
+
+def estimate_starts(x, y, *, y_kind: str, band, temperature: float | None,
+                    resolution: float | None) -> tuple[dict, dict, PRSeparation | None]:
+    """Start values and their sources, and the P–R separation (None when not found).
+
+    Returns ``(starts, sources, pr)``; starts has ``band_origin, B_upper, B_lower, D,
+    temperature, band_area, baseline, lorentz_hwhm`` and, when lines are resolved,
+    ``observed_fwhm``.
+    """
+    x = np.asarray(x, dtype=float)
+    a = _absorbance_like(np.asarray(y, dtype=float), y_kind)
+    b0, b1 = _baseline(x, a)
+    xu, au, step = _uniform(x, _detrend(x, a))
+    src: dict[str, str] = {}
+    try:
+        pr = pr_separation(x, y, y_kind=y_kind, resolution=resolution)
+    except FitError:
+        pr = None
+    T0 = float(temperature) if temperature is not None else DEFAULT_TEMPERATURE
+    st: dict = {"baseline": [b0, b1], "temperature": T0, "lorentz_hwhm": DEFAULT_LORENTZ}
+    src["temperature"] = "given" if temperature is not None else "default (296 K)"
+    src["lorentz_hwhm"] = "default (0.05 cm-1)"
+    comb = None
+    if pr is not None and pr.line_spacing is not None:
+        light = gaussian_filter1d(au, 1.0, mode="nearest")
+        idx = index_comb(xu, light, pr.line_spacing, pr.centre)
+        if idx is not None:
+            comb = _from_comb(*idx, temperature)
+            if comb is not None:
+                i_top = int(np.argmin(np.abs(xu - idx[0][np.argmax(idx[1])])))
+                fw = _observed_fwhm(xu, light, i_top)
+                if fw is not None:
+                    st["observed_fwhm"] = fw
+    if comb is not None:
+        st.update(comb)
+        for k in ("band_origin", "B_upper", "B_lower", "D"):
+            src[k] = "indexed line positions"
+        if "temperature" in comb:
+            src["temperature"] = "Boltzmann plot of peak heights"
+    elif pr is not None:
+        B = pr.rotational_constant(T0)
+        st.update(band_origin=pr.centre, B_lower=B, B_upper=B * 0.99,
+                  D=kratzer_d(B, pr.centre))
+        for k in ("band_origin", "B_upper", "B_lower"):
+            src[k] = f"P-R separation {pr.separation:.4g} cm-1 at {T0:g} K"
+        src["D"] = "Kratzer relation"
+    else:
+        raise FitError(
+            "cannot find the band in the spectrum: neither resolved rotational lines nor P and R "
+            "branch maxima; crop the spectrum to one band, or give start values, e.g. "
+            "start={'band_origin': 2143.0, 'B_lower': 1.92}")
+    st["band_area"] = float(max(trapezoid(np.clip(au, 0, None), xu), 1e-12))
+    src["band_area"] = "integrated absorbance"
+    src["baseline"] = "spectrum ends"
+    return st, src, pr
