@@ -87,6 +87,8 @@ class BandModel:
         self.iso_names = [f"abundance_ratio({n})" for n in system.isotopologues[1:]]
         self.nfev = 0
         self.njev = 0
+        #: σ (cm⁻¹) of an extra Gaussian smoothing of the model (coarse fitting stages)
+        self.smoothing = 0.0
         self._setup(np.asarray(theta0, dtype=float))
 
     # ------------------------------------------------------------------ set-up
@@ -96,8 +98,9 @@ class BandModel:
 
     def kernel(self, theta) -> Kernel:
         res = self._get(theta, "resolution")
+        tau = auxiliary_tau(self.instrument, res) if self.domain == "absorbance" else self.tau_l
         return Kernel(gamma=max(self._get(theta, "lorentz_hwhm"), 0.0), instrument=self.instrument,
-                      resolution=res, tau=auxiliary_tau(self.instrument, res), domain=self.domain)
+                      resolution=res, tau=tau, domain=self.domain, smooth=self.smoothing)
 
     def _sigma(self, theta, pos) -> np.ndarray:
         if self.shape == "voigt":
@@ -112,12 +115,15 @@ class BandModel:
         k = self.kernel(theta)
         extra = deposit_extra(k)
         s = np.sqrt(sig**2 + extra**2)
-        h = (float(np.min(s)) / 1.5) if self.domain == "absorbance" else float(np.min(sig)) / 3.0
+        h = float(np.min(s)) / (1.5 if self.domain == "absorbance" else 3.0)
         width = max(fwhm_factor(self.instrument) * k.resolution,
                     2.3548 * float(np.max(sig)) + 2.0 * k.gamma)
         return h, float(np.max(s)), width
 
     def _setup(self, theta) -> None:
+        # the transmittance domain borrows τ from the Lorentzian (see .render)
+        self.tau_l = max(self._get(theta, "lorentz_hwhm"), 0.0) / 6.0 if self.domain != "absorbance" \
+            else 0.0
         h, smax, width = self._h_needed(theta)
         ringing = 60.0 if self.instrument == "boxcar" else 25.0
         self.margin_lines = max(2.0, ringing * width)
@@ -152,7 +158,7 @@ class BandModel:
         hw = 1.0 + C_hw * self.m
         lnw = (np.log(np.maximum(sysm.factor * ratios[iso], 1e-300)) + np.log(np.abs(pos))
                + 2.0 * np.log(np.abs(hw) + 1e-300) - C2 * e_low / T + np.log(-np.expm1(-x))
-               - np.log(qsum)[iso])
+               - np.log(np.maximum(qsum, 1e-300))[iso])
         lnw -= lnw.max()
         w = np.exp(lnw)
         W = w.sum()
@@ -209,7 +215,9 @@ class BandModel:
         theta = np.asarray(theta, dtype=float)
         free = list(range(self.P)) if free is None else list(free)
         h, _, _ = self._h_needed(theta)
-        if h < 0.8 * self.grid.h:
+        if self.domain != "absorbance" and self._get(theta, "lorentz_hwhm") < 5.5 * self.tau_l:
+            self._setup(theta)
+        elif h < 0.8 * self.grid.h:
             self.grid = make_grid(self.x, 0.8 * h, self._grid_margin)
         base_idx = [self.index[n] for n in self.base_names]
         lin = [k for k in free if k not in base_idx] if jac else []

@@ -126,15 +126,17 @@ def _detrend(x: np.ndarray, a: np.ndarray) -> np.ndarray:
     return a - (y0 + (y1 - y0) * (x - x0) / (x1 - x0))
 
 
-def strong_peaks(x: np.ndarray, a: np.ndarray, spacing: float, *, floor: float = 0.0) -> np.ndarray:
+def strong_peaks(x: np.ndarray, a: np.ndarray, spacing: float, *, floor: float = 0.0,
+                 radius: float = 0.3) -> np.ndarray:
     """Indices of the local maxima of ``a`` (uniform ``x``) that are the strongest within
-    ±0.3 ``spacing`` and above ``floor`` (isotopologue satellites and noise drop out)."""
+    ±``radius`` × ``spacing`` and above ``floor`` (isotopologue satellites, instrument
+    side lobes and noise drop out)."""
     pk = np.flatnonzero((a[1:-1] > a[:-2]) & (a[1:-1] >= a[2:])) + 1
     pk = pk[a[pk] > floor]
     order = pk[np.argsort(-a[pk])]
     taken: list[int] = []
     for i in order:
-        if all(abs(x[i] - x[j]) > 0.3 * spacing for j in taken):
+        if all(abs(x[i] - x[j]) > radius * spacing for j in taken):
             taken.append(int(i))
     return np.array(sorted(taken), dtype=int)
 

@@ -22,7 +22,9 @@ Two convolution domains:
 * ``"absorbance"`` (the absorbance approximation): A_obs = ILS ⊛ A_mono, linear in the
   intensities; exact for weak lines and for lines wider than the instrument;
 * ``"transmittance"``: A_obs = −log₁₀(ILS ⊛ 10^(−A_mono)), the physics of a
-  spectrometer; the monochromatic A_mono is resolved on the grid (h ≤ σ/3).
+  spectrometer; the monochromatic A_mono is resolved on the grid (h ≤ s/3). Here τ is
+  borrowed from the Lorentzian instead (τ ≤ γ/6, so that exp(−2πγt + 2π²τ²t²) ≤ 1 up to
+  the grid's Nyquist frequency): pressure-broadened lines need no grid finer than γ/18.
 
 Derivatives: for every parameter p, the deposit of
 Σ_k (∂I_k/∂p g_k + I_k ∂ν_k/∂p ∂g_k/∂ν + I_k ∂s_k/∂p ∂g_k/∂s) goes through the same
@@ -155,15 +157,16 @@ class Kernel:
     resolution: float
     tau: float
     domain: str  # "absorbance" or "transmittance"
+    smooth: float = 0.0  # σ of an extra Gaussian smoothing (coarse stages of a fit)
 
 
 def deposit_extra(kernel: Kernel) -> float:
     """The Gaussian width every deposit carries besides the line's own σ (in quadrature)."""
     if kernel.domain != "absorbance":
-        return 0.0
+        return kernel.tau
     if kernel.instrument == "gaussian":
-        return kernel.resolution * SIGMA_PER_FWHM
-    return kernel.tau
+        return math.hypot(kernel.resolution * SIGMA_PER_FWHM, kernel.smooth)
+    return math.hypot(kernel.tau, kernel.smooth)
 
 
 def auxiliary_tau(instrument: str, resolution: float) -> float:
@@ -245,7 +248,8 @@ def render(grid: Grid, pos: np.ndarray, area: np.ndarray, sigma: np.ndarray, ker
         ds = d_sigma * (sigma / s)[:, None]  # ∂s/∂p = (σ/s) ∂σ/∂p
         ds_extra = None
         if kernel.domain == "absorbance" and kernel.instrument == "gaussian" and d_resolution is not None:
-            ds_extra = (extra / s) * SIGMA_PER_FWHM  # ∂s/∂Δ through the instrument's σ
+            # ∂s/∂Δ through the instrument's σ
+            ds_extra = (kernel.resolution * SIGMA_PER_FWHM / s) * SIGMA_PER_FWHM
         for p in range(n_par):
             c = area * ds[:, p]
             if ds_extra is not None and p == d_resolution:
@@ -271,9 +275,10 @@ def render(grid: Grid, pos: np.ndarray, area: np.ndarray, sigma: np.ndarray, ker
         res = _sample(grid, R.back())
         return res[0], (res[1:].T if n_par else None)
     # transmittance domain: resolve A_mono, exponentiate, then the instrument
-    R = F.times(lor)
+    kl = lor * np.exp(2.0 * math.pi**2 * kernel.tau**2 * t * t) if kernel.tau > 0 else lor
+    R = F.times(kl)
     if d_gamma is not None:
-        R.add(d_gamma, F.v * (-2.0 * math.pi * t) * lor)
+        R.add(d_gamma, F.v * (-2.0 * math.pi * t) * kl)
     amono = R.back()
     tmono = np.exp(-LN10 * amono[0])
     rows = np.empty_like(amono)

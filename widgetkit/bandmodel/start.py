@@ -48,7 +48,7 @@ def index_comb(xu: np.ndarray, au: np.ndarray, spacing: float, centre: float):
     gap is found near ``centre``.
     """
     top = float(au.max())
-    pk = strong_peaks(xu, au, spacing, floor=0.05 * top)
+    pk = strong_peaks(xu, au, spacing, floor=0.05 * top, radius=0.45)
     if pk.size < 5:
         return None
     p, h = xu[pk], au[pk]
@@ -102,6 +102,19 @@ def _from_comb(p, h, m, temperature: float | None):
     return out
 
 
+def _central_spacing(xu: np.ndarray, au: np.ndarray, pr: PRSeparation) -> float:
+    """Median spacing of the strong peaks between the P and R maxima (≈ B′ + B″), or the
+    periodogram's spacing when there are too few."""
+    d = pr.line_spacing
+    light = gaussian_filter1d(au, 1.0, mode="nearest")
+    pk = strong_peaks(xu, light, d, floor=0.05 * float(light.max()), radius=0.45)
+    p = xu[pk]
+    sp = np.diff(p)
+    mid = 0.5 * (p[1:] + p[:-1])
+    inner = (mid > pr.p_max - d) & (mid < pr.r_max + d) & (sp > 0.6 * d) & (sp < 1.4 * d)
+    return float(np.median(sp[inner])) if inner.sum() >= 4 else d
+
+
 def _observed_fwhm(xu: np.ndarray, au: np.ndarray, i: int) -> float | None:
     """FWHM of the peak at index i (linear interpolation of the half-height crossings)."""
     half = 0.5 * au[i]
@@ -150,12 +163,24 @@ def estimate_starts(x, y, *, y_kind: str, band, temperature: float | None,
                 fw = _observed_fwhm(xu, light, i_top)
                 if fw is not None:
                     st["observed_fwhm"] = fw
+    st["spacing"] = pr.line_spacing if pr is not None else None
+    st["indexed"] = comb is not None
     if comb is not None:
         st.update(comb)
         for k in ("band_origin", "B_upper", "B_lower", "D"):
             src[k] = "indexed line positions"
         if "temperature" in comb:
             src["temperature"] = "Boltzmann plot of peak heights"
+    elif pr is not None and pr.line_spacing is not None:
+        # resolved lines that could not be indexed: B from the spacing, T from the envelope
+        B = 0.5 * _central_spacing(xu, au, pr)
+        st.update(band_origin=pr.centre, B_lower=B, B_upper=B * 0.99, D=kratzer_d(B, pr.centre))
+        for k in ("band_origin", "B_upper", "B_lower"):
+            src[k] = f"line spacing {pr.line_spacing:.4g} cm-1 and the P-R maxima"
+        src["D"] = "Kratzer relation"
+        if temperature is None:
+            st["temperature"] = float(np.clip(pr.temperature(B), 20.0, 5000.0))
+            src["temperature"] = f"P-R separation {pr.separation:.4g} cm-1 with B from the spacing"
     elif pr is not None:
         B = pr.rotational_constant(T0)
         st.update(band_origin=pr.centre, B_lower=B, B_upper=B * 0.99,
