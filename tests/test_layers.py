@@ -6,7 +6,8 @@ import sys
 BELOW_THE_FACES = [
     "widgetkit", "widgetkit.spectrum", "widgetkit.errors", "widgetkit.units", "widgetkit.io",
     "widgetkit.processing", "widgetkit.lines", "widgetkit.levels", "widgetkit.oscillator",
-    "widgetkit.simulate", "widgetkit.session", "widgetkit.cli", "widgetkit.formatting",
+    "widgetkit.simulate", "widgetkit.bandmodel", "widgetkit.session", "widgetkit.cli",
+    "widgetkit.formatting",
     "widgetkit.report",
 ]
 

@@ -22,7 +22,7 @@ bands, Q branches, spin statistics) plugs in by building its own line system and
 map; :class:`~.model.BandModel` and the fit take it unchanged.
 """
 
-from .fitting import fit, fit_spectrum
+from .fitting import fit, fit_spectrum, restore_fit
 from .instrument import INSTRUMENTS, profile
 from .quick import (
     PR_COEFFICIENT,
@@ -34,6 +34,6 @@ from .quick import (
 )
 from .result import BandFit
 
-__all__ = ["fit", "fit_spectrum", "BandFit", "INSTRUMENTS", "profile", "PR_COEFFICIENT",
+__all__ = ["fit", "fit_spectrum", "restore_fit", "BandFit", "INSTRUMENTS", "profile", "PR_COEFFICIENT",
            "PR_COEFFICIENT_PRINTED", "PRSeparation", "pr_separation",
            "rotational_constant_from_separation", "temperature_from_separation"]

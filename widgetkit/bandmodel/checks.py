@@ -134,7 +134,8 @@ def check_number(name: str, value, *, positive: bool = False, allow_none: bool =
     return v
 
 
-def check_mapping(name: str, value, known: list[str]) -> dict:
+def check_mapping(name: str, value, known: list[str] | None) -> dict:
+    """Check a dict of parameter names to values (names against ``known`` unless None)."""
     if value is None:
         return {}
     if isinstance(value, (list, tuple, set)) and name == "free":
@@ -143,13 +144,17 @@ def check_mapping(name: str, value, known: list[str]) -> dict:
         raise FitError(f"{name} must be a dict of parameter names to values, got {value!r}")
     out = {}
     for k, v in value.items():
-        if k not in known:
+        if known is not None and k not in known:
             raise FitError(f"{name}: unknown parameter {k!r}; this model has "
                            + ", ".join(known))
         if name != "free":
-            v = check_number(f"{name}[{k!r}]", v, allow_none=False) if k.startswith(
-                ("temperature", "band_area", "lorentz", "resolution", "gauss", "B_", "abundance")) \
-                else _finite(f"{name}[{k!r}]", v)
+            where = f"{name}[{k!r}]"
+            if k.startswith(("temperature", "B_", "gauss")):
+                v = check_number(where, v, positive=True, allow_none=False)
+            elif k.startswith(("band_area", "lorentz", "resolution", "abundance")):
+                v = check_number(where, v, allow_none=False)
+            else:
+                v = _finite(where, v)
         out[k] = v
     return out
 

@@ -29,6 +29,7 @@ import numpy as np
 import pandas as pd
 import scipy.constants as sc
 
+from ..errors import FitError
 from ..oscillator import C2
 from ..simulate.linesystem import LineSystem
 from .instrument import SIGMA_PER_FWHM, fwhm_factor
@@ -132,6 +133,21 @@ class BandModel:
         self._grid_margin = self.margin_lines + 8.0 * smax + 2.0
         self.grid = make_grid(self.x, 0.8 * h, self._grid_margin)
 
+    def _regrid(self, theta) -> None:
+        """A finer grid when the lines at θ became narrower than this one resolves (or, in
+        the transmittance domain, γ smaller than the borrowed τ allows). A grid that would be
+        too large is not made: the old one stays for this θ (a trial step of the solver,
+        which its χ² then rejects)."""
+        h, _, _ = self._h_needed(theta)
+        old = (self.grid, self.tau_l, self.keep, self.margin_lines, self._grid_margin)
+        try:
+            if self.domain != "absorbance" and self._get(theta, "lorentz_hwhm") < 5.5 * self.tau_l:
+                self._setup(theta)
+            elif h < 0.8 * self.grid.h:
+                self.grid = make_grid(self.x, 0.8 * h, self._grid_margin)
+        except FitError:
+            self.grid, self.tau_l, self.keep, self.margin_lines, self._grid_margin = old
+
     # ------------------------------------------------------------------ lines
     def lines(self, theta, want: list[int] | None = None):
         """Positions, areas, Gaussian σ of all lines and their derivatives for ``want``.
@@ -208,17 +224,22 @@ class BandModel:
     def evaluate(self, theta, free: list[int] | None = None, *, jac: bool = True):
         """y_model at the data points and ∂y/∂θ for the ``free`` parameters (N, len(free)).
 
+        A solver's trial θ may be absurd (T near 0, say): floating-point overflow is then
+        allowed, the result is non-finite and the solver rejects the step.
+        """
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore", under="ignore"):
+            return self._evaluate(theta, free, jac=jac)
+
+    def _evaluate(self, theta, free: list[int] | None = None, *, jac: bool = True):
+        """y_model at the data points and ∂y/∂θ for the ``free`` parameters (N, len(free)).
+
         Columns of baseline coefficients are the basis functions; all others go through
         the line list and the renderer. Re-grids when the lines became narrower than the
         working grid resolves.
         """
         theta = np.asarray(theta, dtype=float)
         free = list(range(self.P)) if free is None else list(free)
-        h, _, _ = self._h_needed(theta)
-        if self.domain != "absorbance" and self._get(theta, "lorentz_hwhm") < 5.5 * self.tau_l:
-            self._setup(theta)
-        elif h < 0.8 * self.grid.h:
-            self.grid = make_grid(self.x, 0.8 * h, self._grid_margin)
+        self._regrid(theta)
         base_idx = [self.index[n] for n in self.base_names]
         lin = [k for k in free if k not in base_idx] if jac else []
         pos, area, sig, d_pos, d_area, d_sig, _ = self.lines(theta, lin)

@@ -118,12 +118,36 @@ def _absorbance_like(y: np.ndarray, y_kind: str) -> np.ndarray:
     return np.asarray(y, dtype=float)
 
 
+def baseline_line(x: np.ndarray, a: np.ndarray) -> tuple[float, float]:
+    """(value at the centre, slope per half-range) of a straight baseline under a band.
+
+    The median of each of 16 bins, then a straight line through the lower half of those
+    points (refitted twice): between resolved lines the absorbance returns to the baseline
+    (so a bin's median sits near it, even with the negative side lobes of an unapodised
+    instrument), and an unresolved contour leaves its outer bins low."""
+    n_bins = 16
+    edges = np.linspace(0, x.size, n_bins + 1).astype(int)
+    bx = np.array([x[i:j].mean() for i, j in zip(edges[:-1], edges[1:], strict=True) if j > i])
+    by = np.array([np.median(a[i:j]) for i, j in zip(edges[:-1], edges[1:], strict=True)
+                   if j > i])
+    mid, half = 0.5 * (x[0] + x[-1]), 0.5 * (x[-1] - x[0])
+    t = (bx - mid) / half
+    keep = np.ones(t.size, dtype=bool)
+    for _ in range(3):
+        c1, c0 = np.polyfit(t[keep], by[keep], 1)
+        r = by - (c0 + c1 * t)
+        keep = r <= np.median(r)
+        keep[np.argmin(r)] = True
+        if keep.sum() < 3:
+            break
+    return float(c0), float(c1)
+
+
 def _detrend(x: np.ndarray, a: np.ndarray) -> np.ndarray:
-    """Remove a straight line through the medians of the outer 5 % at each end."""
-    n = max(3, x.size // 20)
-    x0, x1 = np.median(x[:n]), np.median(x[-n:])
-    y0, y1 = np.median(a[:n]), np.median(a[-n:])
-    return a - (y0 + (y1 - y0) * (x - x0) / (x1 - x0))
+    """``a`` minus its :func:`baseline_line`."""
+    c0, c1 = baseline_line(x, a)
+    mid, half = 0.5 * (x[0] + x[-1]), 0.5 * (x[-1] - x[0])
+    return a - (c0 + c1 * (x - mid) / half)
 
 
 def strong_peaks(x: np.ndarray, a: np.ndarray, spacing: float, *, floor: float = 0.0,
@@ -215,12 +239,24 @@ def pr_separation(x, y, *, y_kind: str = "absorbance", smoothing: float | None =
     if smoothing is None:
         smoothing = (1.2 * spacing if spacing is not None
                      else max(3.0 * step, 0.5 * (resolution or 0.0)))
-    sm = gaussian_filter1d(yu, max(smoothing / step / 2.3548, 0.5), mode="nearest")
-    i_max = int(np.argmax(sm))
+    sig_pts = max(smoothing / step / 2.3548, 0.5)
+    sm = gaussian_filter1d(yu, sig_pts, mode="nearest")
+    # maxima closer to the ends than the smoothing are edge effects of a cropped band
+    edge = int(math.ceil(1.5 * sig_pts)) + 1
+    inner = slice(edge, sm.size - edge)
+    if sm.size <= 2 * edge + 4:
+        raise FitError("the spectrum is too short for its smoothing; give a wider range")
+    i_max = edge + int(np.argmax(sm[inner]))
     top = sm[i_max]
+    # the noise left after smoothing: σ of the raw data over sqrt(2√π σ_points)
+    d = np.diff(yu)
+    noise = 1.4826 * float(np.median(np.abs(d - np.median(d)))) / math.sqrt(2.0)
+    if top - float(np.median(sm)) < 8.0 * noise / math.sqrt(2.0 * math.sqrt(math.pi) * sig_pts):
+        raise FitError("no band found: the contour does not rise above the noise; crop the "
+                       "spectrum to the band, or give start values")
     # local maxima that stand out from the dip between them
     peaks = np.flatnonzero((sm[1:-1] > sm[:-2]) & (sm[1:-1] >= sm[2:])) + 1
-    peaks = peaks[sm[peaks] > 0.25 * top]
+    peaks = peaks[(sm[peaks] > 0.25 * top) & (peaks >= edge) & (peaks < sm.size - edge)]
     best = None
     for j in peaks:
         if j == i_max:

@@ -123,6 +123,9 @@ def _deposit(grid: Grid, pos, s, weights: list[np.ndarray]) -> np.ndarray:
     ``weights`` is a list of (a, b, c) triples of arrays (L,) or None; returns (n_cols, M).
     """
     h = grid.h
+    if s.size and not float(np.max(s)) * _WINDOW < 0.5 * grid.M * h:
+        # lines wider than the spectrum (a solver's absurd trial step): no model
+        return np.full((len(weights), grid.M), np.nan)
     w = int(math.ceil(_WINDOW * float(np.max(s)) / h)) if s.size else 0
     offs = np.arange(-w, w + 1)
     centre = np.rint((pos - grid.u0) / h).astype(np.int64)
@@ -212,11 +215,12 @@ class _Spectra:
         return np.vstack([v[None, :], d.astype(np.float64)])
 
 
-def render(grid: Grid, pos: np.ndarray, area: np.ndarray, sigma: np.ndarray, kernel: Kernel, *,
-           d_area: np.ndarray | None = None, d_pos: np.ndarray | None = None,
-           d_sigma: np.ndarray | None = None, d_gamma: int | None = None,
-           d_resolution: int | None = None) -> tuple[np.ndarray, np.ndarray | None]:
+def render(grid: Grid, *args, **kwargs) -> tuple[np.ndarray, np.ndarray | None]:
     """Observed band absorbance at the data points and its derivatives.
+
+    Arguments: ``grid, pos, area, sigma, kernel`` and the keywords below. Floating-point
+    overflow is allowed: a solver's trial step may ask for absurd parameters; the result is
+    then non-finite and the solver rejects the step.
 
     Parameters
     ----------
@@ -240,6 +244,15 @@ def render(grid: Grid, pos: np.ndarray, area: np.ndarray, sigma: np.ndarray, ker
     jac : ndarray (N, P) or None
         Derivatives of ``y``.
     """
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore", under="ignore"):
+        return _render(grid, *args, **kwargs)
+
+
+def _render(grid: Grid, pos: np.ndarray, area: np.ndarray, sigma: np.ndarray, kernel: Kernel, *,
+           d_area: np.ndarray | None = None, d_pos: np.ndarray | None = None,
+           d_sigma: np.ndarray | None = None, d_gamma: int | None = None,
+           d_resolution: int | None = None) -> tuple[np.ndarray, np.ndarray | None]:
+    """The computation of :func:`render`."""
     extra = deposit_extra(kernel)
     s = np.sqrt(sigma * sigma + extra * extra)
     n_par = 0 if d_area is None else d_area.shape[1]

@@ -37,6 +37,8 @@ class Solution:
 
 def normal_solve(A: np.ndarray, g: np.ndarray, lam: float = 0.0, rcond: float = 1e-13) -> np.ndarray:
     """Solve (A + λ diag A) δ = −g by scaled eigen-decomposition (pseudo-inverse)."""
+    if not (np.all(np.isfinite(A)) and np.all(np.isfinite(g))):
+        return np.zeros_like(g)
     d = np.sqrt(np.maximum(np.diag(A), 1e-300))
     As = A / np.outer(d, d) + lam * np.eye(d.size)
     w, V = np.linalg.eigh(As)
@@ -91,6 +93,9 @@ def levenberg_marquardt(fun: Callable, theta0: np.ndarray, lower: np.ndarray, up
     message, converged = "", False
     stall = 0
     while True:
+        if not (np.all(np.isfinite(J)) and np.all(np.isfinite(r))):
+            message = "stopped: the model or its derivatives are not finite at these parameters"
+            break
         A = J.T @ J
         g = J.T @ r
         redchi = max(chi2 / max(dof, 1), 1e-300)

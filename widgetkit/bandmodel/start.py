@@ -1,6 +1,6 @@
 """Start values of a band-model fit from the spectrum alone (private).
 
-1. Baseline: a straight line through the medians of the outer 5 % at each end.
+1. Baseline: a straight line under the lower envelope (:func:`.quick.baseline_line`).
 2. P and R maxima and the line spacing (:func:`.quick.pr_separation`).
 3. Resolved lines (a regular comb was found): the strongest peaks are indexed from the
    band-origin gap (R(0)–P(1) is twice the neighbouring spacings) with the running
@@ -26,19 +26,20 @@ from scipy.ndimage import gaussian_filter1d
 from ..errors import FitError
 from ..oscillator import C2
 from .build import kratzer_d
-from .quick import PRSeparation, _absorbance_like, _detrend, _uniform, pr_separation, strong_peaks
+from .quick import (
+    PRSeparation,
+    _absorbance_like,
+    _detrend,
+    _uniform,
+    baseline_line,
+    pr_separation,
+    strong_peaks,
+)
 
 __all__ = ["estimate_starts", "index_comb"]
 
 DEFAULT_TEMPERATURE = 296.0  # K, room temperature (common practice)
 DEFAULT_LORENTZ = 0.05  # cm-1 HWHM, a small molecule near 1 atm (common practice, order of magnitude)
-
-
-def _baseline(x: np.ndarray, a: np.ndarray) -> tuple[float, float]:
-    """(b0, b1) of a straight baseline in t = (x − centre)/half-range."""
-    n = max(3, x.size // 20)
-    y0, y1 = float(np.median(a[:n])), float(np.median(a[-n:]))
-    return 0.5 * (y0 + y1), 0.5 * (y1 - y0)
 
 
 def index_comb(xu: np.ndarray, au: np.ndarray, spacing: float, centre: float):
@@ -141,7 +142,7 @@ def estimate_starts(x, y, *, y_kind: str, band, temperature: float | None,
     """
     x = np.asarray(x, dtype=float)
     a = _absorbance_like(np.asarray(y, dtype=float), y_kind)
-    b0, b1 = _baseline(x, a)
+    b0, b1 = baseline_line(x, a)
     xu, au, step = _uniform(x, _detrend(x, a))
     src: dict[str, str] = {}
     try:

@@ -230,10 +230,9 @@ def latest_constants(session) -> pd.DataFrame:
     session's own table, with every column other parts add, such as ``method``)."""
     if session.viewing == len(session.history) - 1:
         return session.constants
-    asg = session.state_at(len(session.history) - 1).assignment
-    consts = getattr(asg, "constants", None)
-    return consts.copy() if isinstance(consts, pd.DataFrame) else pd.DataFrame(
-        columns=["isotopologue", "name", "value", "stderr", "unit"])
+    from ..session.views import constants_table
+
+    return constants_table(session.state_at(len(session.history) - 1))
 
 
 def _band_model_paragraph(session, state) -> str | None:

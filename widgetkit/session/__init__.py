@@ -4,7 +4,13 @@ See :class:`Session`. Step kinds are registered in ``kinds_*`` modules; adding
 one is a small class (see :mod:`widgetkit.session.steps`).
 """
 
-from . import kinds_analysis, kinds_basic, kinds_lines, kinds_raman  # noqa: F401  (register kinds)
+from . import (  # noqa: F401  (register the step kinds)
+    kinds_analysis,
+    kinds_bandmodel,
+    kinds_basic,
+    kinds_lines,
+    kinds_raman,
+)
 from .recipe import Recipe, RecipeRun, RecipeStep
 from .session import Session, SessionEvent
 from .steps import STEP_KINDS, State, Step, StepKind, register_step

@@ -283,6 +283,31 @@ class Session(StateViews):
         self._run("assign_band", params)
         return self.assignments
 
+    def fit_band_model(self, molecule, *, progress=None, **options):
+        """Fit a model of the whole band to the current spectrum (one recorded step).
+
+        ``molecule`` is a :class:`widgetkit.Diatomic` or a formula (``"CO"``); the options
+        are those of :func:`widgetkit.bandmodel.fit` (``band``, ``temperature``,
+        ``resolution`` — default from the file's ``##RESOLUTION`` —, ``instrument``,
+        ``isotopologues``, ``fix``, ``baseline``, ``joint``, ...). ``progress(stage,
+        iteration, chisqr, elapsed)`` is called during the fit and not recorded. The
+        constants join :attr:`constants` with ``method`` "band model". A fit that cannot
+        be set up raises :class:`~widgetkit.errors.FitError` and changes nothing; a fit
+        that stops early is kept and marked "doubtful".
+
+        Returns the :class:`~widgetkit.bandmodel.BandFit` (also :attr:`band_model`).
+        """
+        from .kinds_bandmodel import plain_bands, progress_to
+
+        if hasattr(molecule, "to_dict"):
+            molecule = molecule.to_dict()
+        params = {"molecule": molecule, **options}
+        if params.get("band") is not None:
+            params["band"] = plain_bands(params["band"])
+        with progress_to(progress):
+            self._run("fit_band_model", params)
+        return self.band_model
+
     def set_assignment(self, line_id: int, **labels) -> None:
         """Lock the assignment of one line (``label="R(3)"``, ``isotopologue=``, ``v_upper=``, ...).
 

@@ -160,6 +160,9 @@ class State:
     next_peak_id : int
         The id the next new peak gets. Ids only grow: a peak id (and so a line id)
         is never given to a different peak within a session.
+    band_model : BandFit or None
+        The last band-model fit (:mod:`widgetkit.bandmodel`); a step that changes the
+        spectrum clears it.
     """
 
     spectrum: Spectrum | None = None
@@ -170,12 +173,15 @@ class State:
     assign_spec: dict | None = None
     locks: Mapping[int, dict] = field(default_factory=dict)
     next_peak_id: int = 1
+    band_model: Any = None
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     def evolve(self, **changes) -> State:
         """A copy with some fields changed (values derived from the spectrum are kept
-        while the spectrum stays the same)."""
+        while the spectrum stays the same; a new spectrum clears the band-model fit)."""
         cache = self._cache if "spectrum" not in changes else {}
+        if "spectrum" in changes and "band_model" not in changes:
+            changes["band_model"] = None
         return dataclasses.replace(self, **changes, _cache=cache)
 
     def noise(self) -> float:
@@ -297,7 +303,8 @@ def drop_dependents(state: State, *, spectrum: Spectrum | None = None,
     cleared : dict
         What was cleared, for the step's result: ``lines`` (number of fitted lines),
         ``assignment`` (number of assigned lines), ``locks`` (line ids), ``peaks``
-        (number of peaks dropped). Empty when nothing was.
+        (number of peaks dropped), ``band_model`` (True: a new spectrum drops the
+        band-model fit). Empty when nothing was.
     """
     changes: dict[str, Any] = {}
     if spectrum is not None:
@@ -315,6 +322,8 @@ def drop_dependents(state: State, *, spectrum: Spectrum | None = None,
         cleared["lines"] = int(len(state.line_fit.table))
     if state.assignment is not None:
         cleared["assignment"] = assigned_count(state.assignment)
+    if spectrum is not None and state.band_model is not None:
+        cleared["band_model"] = True
     keep = set(new_peaks["peak_id"].tolist())
     gone = sorted(int(k) for k in state.locks if int(k) not in keep)
     if gone:
@@ -344,6 +353,8 @@ def cleared_text(cleared: dict) -> str:
     if cleared.get("locks"):
         n = len(cleared["locks"])
         parts.append(f"{n} lock{'s' if n != 1 else ''}")
+    if cleared.get("band_model"):
+        parts.append("the band-model fit")
     if not parts:
         return ""
     text = parts[0] if len(parts) == 1 else ", ".join(parts[:-1]) + " and " + parts[-1]

@@ -11,13 +11,34 @@ import pandas as pd
 from ..spectrum import Spectrum
 from .steps import Step
 
-__all__ = ["StateViews", "LINE_COLUMNS", "ASSIGNMENT_COLUMNS", "CONSTANT_COLUMNS"]
+__all__ = ["StateViews", "LINE_COLUMNS", "ASSIGNMENT_COLUMNS", "CONSTANT_COLUMNS",
+           "constants_table", "METHOD_LINE_POSITIONS", "METHOD_BAND_MODEL"]
 
 LINE_COLUMNS = ["line_id", "position", "position_err", "area", "area_err", "height", "fwhm",
                 "fwhm_err"]
 ASSIGNMENT_COLUMNS = ["line_id", "position", "isotopologue", "v_upper", "v_lower", "J_upper",
                       "J_lower", "label", "calc", "obs_minus_calc", "outlier"]
-CONSTANT_COLUMNS = ["isotopologue", "name", "value", "stderr", "unit"]
+CONSTANT_COLUMNS = ["isotopologue", "name", "value", "stderr", "unit", "method"]
+#: the ``method`` of each source of constants
+METHOD_LINE_POSITIONS = "line positions"
+METHOD_BAND_MODEL = "band model"
+
+
+def constants_table(state) -> pd.DataFrame:
+    """The constants of a state: those of the assignment (``method`` "line positions") and
+    of the band-model fit (``method`` "band model"), in that order; further columns a
+    result adds follow :data:`CONSTANT_COLUMNS`."""
+    parts = []
+    a = state.assignment
+    if a is not None and len(a.constants):
+        parts.append(a.constants.assign(method=METHOD_LINE_POSITIONS))
+    b = getattr(state, "band_model", None)
+    if b is not None and len(b.constants):
+        parts.append(b.constants.assign(method=METHOD_BAND_MODEL))
+    if not parts:
+        return pd.DataFrame(columns=CONSTANT_COLUMNS)
+    out = pd.concat(parts, ignore_index=True)
+    return out[CONSTANT_COLUMNS + [c for c in out.columns if c not in CONSTANT_COLUMNS]]
 
 
 class StateViews:
@@ -73,9 +94,18 @@ class StateViews:
 
     @property
     def constants(self) -> pd.DataFrame:
-        """Fitted and derived constants: ``isotopologue, name, value, stderr, unit``."""
-        a = self.state.assignment
-        return pd.DataFrame(columns=CONSTANT_COLUMNS) if a is None else a.constants.copy()
+        """Fitted and derived constants: ``isotopologue, name, value, stderr, unit, method``.
+
+        ``method`` says which route produced each number: "line positions" (the assignment
+        of fitted lines, :meth:`assign_band`) or "band model" (the contour fit,
+        :meth:`fit_band_model`). Read columns by name; more may be added.
+        """
+        return constants_table(self.state)
+
+    @property
+    def band_model(self):
+        """The last band-model fit (:class:`widgetkit.bandmodel.BandFit`), or None."""
+        return self.state.band_model
 
     @property
     def locks(self) -> dict:

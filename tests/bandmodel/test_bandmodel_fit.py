@@ -1,0 +1,160 @@
+"""Band-model fits of simulated bands (our simulator, seeded noise): constants within 3 standard
+errors of what the simulator was given, at high, medium and low resolution, for molecules,
+temperatures, instruments and baselines unlike the demo."""
+
+import math
+
+import numpy as np
+import pytest
+
+import widgetkit as wk
+from widgetkit.bandmodel import fit, fit_spectrum
+from widgetkit.bandmodel.instrument import profile
+from widgetkit.levels import scale_constants
+
+from .bands import CO, DCL, HBR, HCL, assert_within, simulate, truth
+
+CO_MOL = wk.Diatomic("C", "O")
+
+
+def test_high_resolution_band_gives_constants_and_temperature():
+    # 0.01 cm-1 Gaussian instrument: Doppler-limited lines, both branches
+    sp = simulate(CO_MOL, CO, resolution=0.01, x_range=(2080.0, 2220.0), step=0.0025,
+                  lorentz_hwhm=0.01)
+    res = fit_spectrum(sp, CO_MOL, resolution=0.01)
+    assert res.status == "ok", res.reasons
+    assert_within(res, CO, temperature=296.0)
+
+
+def test_half_wavenumber_resolution_band():
+    sp = simulate(CO_MOL, CO, resolution=0.5, step=0.1, temperature=350.0)
+    res = fit_spectrum(sp, CO_MOL, resolution=0.5)
+    assert res.status == "ok", res.reasons
+    assert_within(res, CO, temperature=350.0)
+
+
+def test_four_wavenumber_band_gives_b_with_t_fixed_and_t_with_b_fixed(co_4cm):
+    res = fit_spectrum(co_4cm, CO_MOL, resolution=4.0, fix={"temperature": 296.0})
+    assert res.status == "ok", res.reasons
+    assert_within(res, CO)
+    b, e = res.constant("B_lower")
+    assert 0 < e < 0.01 * b  # an error, and an honest one (within 3σ above)
+    res_t = fit_spectrum(co_4cm, CO_MOL, resolution=4.0,
+                         fix={"B_e": CO["B_e"], "alpha_e": CO["alpha_e"]})
+    t, et = res_t.constant("T_rot")
+    assert abs(t - 296.0) < 3 * et and et > 0
+
+
+def test_unresolved_contour_flags_b_and_t_as_correlated_and_says_to_fix_one():
+    sp = simulate(CO_MOL, CO, resolution=8.0, step=2.0, seed=3)
+    res = fit_spectrum(sp, CO_MOL, resolution=8.0)
+    assert res.status == "doubtful"
+    text = " ".join(res.reasons)
+    assert "temperature" in text and "correlated" in text and "fix={'temperature'" in text
+    assert abs(res.correlation.loc["B_e", "temperature"]) > 0.95
+    # fixing T (to the value simulated) gives B within its error
+    fixed = fit_spectrum(sp, CO_MOL, resolution=8.0, fix={"temperature": 296.0})
+    assert fixed.status == "ok"
+    assert_within(fixed, CO, names=("B_lower",))
+
+
+def test_blended_half_wavenumber_band_agrees_with_a_high_resolution_one():
+    # HCl at 0.5 cm-1: the 35Cl/37Cl doublets (2 cm-1 apart) blend with their neighbours' wings
+    hcl = wk.Diatomic("H", "Cl")
+    lo = fit_spectrum(simulate(hcl, HCL, resolution=0.5, step=0.1, seed=5), hcl, resolution=0.5)
+    hi = fit_spectrum(simulate(hcl, HCL, resolution=0.02, step=0.01, seed=6,
+                               x_range=(2600.0, 3150.0)), hcl, resolution=0.02)
+    for name in ("band_origin", "B_lower", "B_upper", "T_rot"):
+        (a, ea), (b, eb) = lo.constant(name), hi.constant(name)
+        assert abs(a - b) < 3 * math.hypot(ea, eb), name
+        assert eb < ea  # the resolved band determines them better
+
+
+@pytest.mark.parametrize(("name", "molecule", "constants", "sim", "opts"), [
+    # HBr (79/81 nearly equal abundances), transmittance, curved baseline, 400 K
+    ("HBr", wk.Diatomic("H", "Br"), HBR,
+     dict(resolution=0.2, step=0.05, temperature=400.0, y_kind="transmittance", strength=0.6,
+          baseline=(0.03, 0.01, 0.008)), dict(resolution=0.2, baseline="poly2")),
+    # DCl at 1 cm-1 and 250 K, low noise
+    ("DCl", wk.Diatomic("D", "Cl"), DCL,
+     dict(resolution=1.0, step=0.25, temperature=250.0, noise=0.0005), dict(resolution=1.0)),
+    # hot HCl at 2 cm-1
+    ("HCl", wk.Diatomic("H", "Cl"), HCL,
+     dict(resolution=2.0, step=0.5, temperature=800.0), dict(resolution=2.0)),
+])
+def test_bands_unlike_the_demo(name, molecule, constants, sim, opts):
+    T = sim["temperature"]
+    sp = simulate(molecule, constants, **sim)
+    res = fit_spectrum(sp, molecule, **opts)
+    assert res.status == "ok", res.reasons
+    assert_within(res, constants, temperature=T)
+
+
+@pytest.mark.parametrize("kind", ["triangular", "boxcar"])
+def test_ftir_instrument_functions(kind):
+    # the simulator's monochromatic CO band convolved with the FTIR line shape by brute force
+    # (scipy fftconvolve on a 0.002 cm-1 grid), sampled every 0.25 cm-1, resolution 1 cm-1
+    from scipy.signal import fftconvolve
+
+    h = 0.002
+    u = np.arange(1950.0, 2350.0, h)
+    mono = wk.simulate.rovibrational(CO_MOL, CO, x=u, temperature=296.0, lorentz_hwhm=0.05)
+    conv = fftconvolve(mono.y, profile(kind, 1.0, np.arange(-100000, 100001) * h) * h, "same")
+    x = np.arange(2000.0, 2300.0, 0.25)
+    y = np.interp(x, u, conv) + np.random.default_rng(1).normal(0, 0.001, x.size)
+    res = fit(x, y, CO_MOL, instrument=kind, resolution=1.0, y_kind="absorbance")
+    assert res.status == "ok", res.reasons
+    assert_within(res, CO, temperature=296.0)
+
+
+def test_separate_constants_of_each_isotopologue():
+    hcl = wk.Diatomic("H", "Cl")
+    sp = simulate(hcl, HCL, resolution=0.1, step=0.02, temperature=350.0, seed=2)
+    res = fit_spectrum(sp, hcl, resolution=0.1, joint=False)
+    assert res.status == "ok", res.reasons
+    assert_within(res, HCL, temperature=350.0)
+    rho = math.sqrt(hcl.isotopologues[0].reduced_mass / hcl.isotopologues[1].reduced_mass)
+    t37 = truth(scale_constants({k: v for k, v in HCL.items() if k != "r_e"}, rho))
+    for n in ("band_origin", "B_lower", "B_upper"):
+        v, e = res.constant(n, "1H-37Cl")
+        assert abs(v - t37[n]) < 3 * e, n  # mass scaling (MASS_EXPONENTS) of the given constants
+
+
+def test_what_the_data_cannot_tell_is_held_and_said(co_4cm):
+    res = fit_spectrum(co_4cm, CO_MOL, resolution=4.0, fix={"temperature": 296.0})
+    p = res.parameters.set_index("name")
+    assert p.loc["omega_e_x_e", "status"] == "held"  # only isotope shifts carry it
+    assert "not determined" in p.loc["omega_e_x_e", "note"]
+    assert p.loc["temperature", "status"] == "fixed"
+    # ω_e depends on the held ω_e x_e: its error carries the held parameter's range
+    w, ew = res.constant("omega_e")
+    assert ew > 1.0
+
+
+def test_a_budget_that_runs_out_keeps_the_best_result_and_says_so(co_4cm):
+    res = fit_spectrum(co_4cm, CO_MOL, resolution=4.0, max_nfev=6)
+    assert not res.converged and res.status == "doubtful"
+    assert "did not converge" in res.reasons[0]
+    assert np.all(np.isfinite(res.model_y))
+
+
+def test_exact_transmittance_data_are_fitted_in_transmittance():
+    # data made by the band model itself in the transmittance domain (self-consistency)
+    from widgetkit.bandmodel.build import ModelOptions, build_model
+
+    x = np.arange(2000.0, 2300.0, 0.2)
+    opts = ModelOptions(bands=((1, 0),), joint=True, centrifugal="shared",
+                        isotopologues=("12C-16O", "13C-16O"), abundance_ratios=(1.0, 0.0107),
+                        free_abundances=False, shape="doppler", instrument="gaussian",
+                        domain="transmittance", baseline_degree=1, y_kind="transmittance")
+    t0 = truth(CO)
+    st = dict(t0, D=CO["D_e"], temperature=296.0, band_area=1.5, lorentz_hwhm=0.07,
+              resolution=1.0, omega_e_x_e=CO["omega_e_x_e"], baseline=[0.0, 0.0])
+    model, params = build_model(x, CO_MOL, opts, st, structure_temperature=450.0)
+    y, _ = model.evaluate(np.array([p.value for p in params]), [], jac=False)
+    y = y + np.random.default_rng(4).normal(0, 0.002, x.size)
+    res = fit(x, y, CO_MOL, resolution=1.0)  # y_kind detected
+    assert res.domain == "transmittance"
+    assert any("look like transmittance" in m for m in res.messages)
+    assert_within(res, CO, temperature=296.0)
+    assert abs(res.value("band_area") - 1.5) < 3 * res.stderr("band_area")

@@ -1,0 +1,422 @@
+"""The stages of a band-model fit on one model (private): :class:`Run` holds a model, its
+parameters and a :class:`~.engine.Fitter`; the convolution domain is settled by
+:func:`exact_for_transmittance` and :func:`note_approximation`.
+
+Parameters the data cannot determine: after the full fit, a *secondary* parameter (centrifugal
+constants, ω_e x_e, line widths, the resolution, abundance ratios, the minor isotopologues'
+own constants) whose standard error exceeds its scale (:func:`relevance`) is held at its start
+value and the fit repeated; the result lists it as "held" with the reason. Primary parameters
+(band origin, B, T, band area) are never held: strong correlations among them make the result
+"doubtful" with a hint which to fix.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+
+import numpy as np
+import pandas as pd
+
+from ..errors import FitError
+from .build import ModelOptions, build_model
+from .checks import check_mapping
+from .engine import Fitter
+from .instrument import fwhm_factor
+from .params import PRIMARY
+from .quick import PRSeparation
+from .result import PARAMETER_COLUMNS, BandFit, derived_constants
+
+__all__ = ["Run", "relevance", "exact_for_transmittance", "note_approximation", "guess_y_kind"]
+
+
+def relevance(name: str, value: float, start: float, B: float, step: float) -> float:
+    """The scale above which the standard error of secondary parameter ``name`` means
+    "not determined" (cm⁻¹ or the parameter's unit)."""
+    base = name.split("(")[0]
+    if base in ("D", "D_e", "D_upper", "D_lower"):
+        return max(abs(start), 1e-12)
+    if base == "lorentz_hwhm":
+        return max(abs(value), 0.005)
+    if base == "resolution":
+        return max(abs(value), step)
+    if base == "gauss_fwhm":
+        return max(abs(value), step)
+    if base == "omega_e_x_e":
+        return 0.5 * max(abs(start), 1e-6)
+    if base.startswith("abundance_ratio"):
+        return 0.5 * max(abs(start), 1e-6)
+    if base == "band_origin":
+        return 0.5 * B
+    if base in ("B_upper", "B_lower"):
+        return 0.05 * B
+    if base == "herman_wallis":
+        return 0.05
+    return math.inf
+
+
+# ---------------------------------------------------------------------- the run
+class Run:
+    """One model, its fitter, and the staged fit."""
+
+    def __init__(self, x, y, mol, opts, st, sources, t_struct, user_start, fix, free, resolution,
+                 lorentz, max_nfev, max_time, progress, t0, messages=None, theta=None):
+        self.x, self.y, self.mol, self.opts, self.st = x, y, mol, opts, st
+        self.sources, self.t_struct = sources, t_struct
+        self.user_start, self.fix, self.free_opt = dict(user_start), dict(fix), list(free)
+        self.resolution, self.lorentz = resolution, lorentz
+        self.max_nfev, self.max_time, self.progress, self.t0 = max_nfev, max_time, progress, t0
+        self.messages = list(messages or [])
+        self.model, self.params = build_model(x, mol, opts, st, structure_temperature=t_struct)
+        self._configure()
+        left = max(max_time - (time.perf_counter() - t0), 1.0)
+        self.fitter = Fitter(self.model, self.params, y, max_nfev=max_nfev, max_time=left,
+                             progress=progress)
+        if theta is not None:
+            for k, n in enumerate(self.model.names):
+                if n in theta and self.params[k].vary:
+                    self.fitter.theta[k] = theta[n]
+        self.held: dict[str, str] = {}
+
+    def _configure(self) -> None:
+        names = [p.name for p in self.params]
+        # band constants are start hints of a joint model too (they set B_e, α_e and D_e)
+        hints = ["B_lower", "B_upper", "D"] if self.opts.joint else []
+        start = {k: v for k, v in check_mapping("start", self.user_start, names + hints).items()
+                 if k in names}
+        fix = check_mapping("fix", self.fix, names)
+        free = check_mapping("free", self.free_opt, names)
+        for p in self.params:
+            if p.name in start:
+                p.value, p.source = float(start[p.name]), "given"
+            elif p.name in self.sources:
+                p.source = self.sources[p.name]
+            if p.name in free:
+                p.vary = True
+            if p.name in fix:
+                p.value, p.vary, p.source = float(fix[p.name]), False, "fixed"
+        for p in self.params:
+            if p.name == "resolution" and self.resolution is not None and p.name not in free:
+                p.vary, p.source = False, "given"
+            if p.name == "lorentz_hwhm" and self.lorentz is not None and p.name not in free:
+                p.vary, p.source = False, "given"
+            if p.name == "resolution" and p.vary and p.source == "estimated":
+                p.source = "estimated from the line widths" if "observed_fwhm" in self.st \
+                    else "scanned"
+            if p.name.startswith("baseline_"):
+                p.source = "spectrum ends"
+            if not (p.lower <= p.value <= p.upper):
+                raise FitError(f"the start value of {p.name} ({p.value:g}) is outside its "
+                               f"bounds [{p.lower:g}, {p.upper:g}]")
+        if not any(p.vary for p in self.params):
+            raise FitError("every parameter is fixed; nothing to fit")
+
+    def rebuilt(self, t_struct: float) -> Run:
+        theta = dict(zip(self.model.names, self.fitter.theta, strict=True))
+        st = {**self.st, **{k: v for k, v in theta.items() if not k.startswith("baseline_")}}
+        st["baseline"] = [theta[n] for n in self.model.base_names]
+        if "B_e" in theta:  # joint: band constants of the main isotopologue for the set-up
+            vu, vl = self.opts.bands[0]
+            st["B_lower"] = theta["B_e"] - theta["alpha_e"] * (vl + 0.5)
+            st["B_upper"] = theta["B_e"] - theta["alpha_e"] * (vu + 0.5)
+            st["D"] = theta["D_e"]
+        new = Run(self.x, self.y, self.mol, self.opts, st, self.sources, t_struct,
+                   self.user_start, self.fix, self.free_opt, self.resolution, self.lorentz,
+                   self.max_nfev, self.max_time, self.progress, self.t0, self.messages, theta)
+        for p_new, p_old in zip(new.params, self.params, strict=True):
+            p_new.vary, p_new.note, p_new.source = p_old.vary, p_old.note, p_old.source
+            if not p_old.vary:
+                p_new.value = p_old.value
+        new.fitter.theta = np.array([theta[n] for n in new.model.names])
+        new.held = dict(self.held)
+        new.fitter.nfev, new.fitter.njev = self.fitter.nfev, self.fitter.njev
+        return new
+
+    # -------------------------------------------------------------- stages
+    def stages(self) -> None:
+        f = self.fitter
+        linear = [p.name for p in self.params if p.vary and
+                  (p.name == "band_area" or p.name.startswith("baseline_"))]
+        if linear:
+            f.run(linear, stage="linear", max_nfev=10)
+        if not self.st.get("indexed", True) and self.st.get("spacing"):
+            self._coarse_to_fine(float(self.st["spacing"]))
+        res = self.params[f.index("resolution")]
+        if res.vary and res.source == "scanned":
+            B = self.st["B_lower"]
+            step = float(np.median(np.diff(self.x)))
+            cands = np.geomspace(max(2 * step, 0.02 * B), max(8 * B, 4 * step), 9)
+            best = f.scan("resolution", cands, linear)
+            res.value = best
+            self.messages.append(f"resolution not given: scanned, best start {best:.3g} cm-1")
+        self.final_stage()
+
+    def _coarse_to_fine(self, spacing: float) -> None:
+        """Resolved lines without indexed start values: fit the contour smoothed (data and
+        model alike) to a Gaussian FWHM of one line spacing, then of a third of it, so that
+        the band constants come into the basin of the full fit."""
+        from scipy.ndimage import gaussian_filter1d
+
+        from .render import uniform_step
+
+        dx = uniform_step(self.x)
+        if dx is None or self.opts.domain != "absorbance":
+            return
+        f = self.fitter
+        names = [p.name for p in self.params if p.vary and not p.secondary or
+                 (p.vary and p.name.startswith("baseline_"))]
+        y0 = f.y
+        k0 = f.index("band_origin")
+        for fwhm in (spacing, spacing / 3.0):
+            sigma = fwhm / 2.3548
+            self.model.smoothing = sigma
+            f.y = gaussian_filter1d(y0, sigma / dx, mode="nearest")
+            f.run(names, stage=f"coarse {fwhm:.3g} cm-1", max_nfev=25, tol=1e-2)
+        # the J numbering: the band origin one line further either way
+        best = (f.chisqr(), f.theta.copy())
+        for shift in (-spacing, spacing):
+            keep = f.theta.copy()
+            f.theta[k0] += shift
+            sol = f.run(names, stage="coarse, numbering", max_nfev=25, tol=1e-2)
+            if sol.chisqr < best[0]:
+                best = (sol.chisqr, f.theta.copy())
+            f.theta = keep
+        f.theta = best[1]
+        self.model.smoothing = 0.0
+        f.y = y0
+        f._cache = None
+        self.messages.append(f"coarse-to-fine: the contour smoothed to {spacing:.3g} and "
+                             f"{spacing / 3:.3g} cm-1 first (start values from the P-R maxima)")
+
+    def final_stage(self) -> None:
+        f = self.fitter
+        f.run(stage="fit")
+        for _ in range(3):
+            newly = self._hold_undetermined()
+            if not newly:
+                break
+            f.run(stage="refit")
+
+    def _hold_undetermined(self) -> list[str]:
+        f = self.fitter
+        cov, *_ = f.covariance()
+        B = self._b_scale()
+        step = float(np.median(np.diff(self.x)))
+        newly = []
+        for k, p in enumerate(self.params):
+            if not (p.vary and p.secondary) or p.name.startswith("baseline_"):
+                continue
+            se = math.sqrt(max(cov[k, k], 0.0))
+            scale = relevance(p.name, f.theta[k], p.value, B, step)
+            at_bound = f.theta[k] <= p.lower + 1e-12 or f.theta[k] >= p.upper - 1e-12
+            if se > scale or not np.isfinite(se) or (at_bound and p.name != "lorentz_hwhm"):
+                start = p.value
+                p.vary = False
+                f.theta[k] = start
+                why = ("at its bound" if at_bound else
+                       f"not determined by the data (standard error {se:.2g} > {scale:.2g})")
+                self.held[p.name] = why
+                p.note = f"held at its start value {start:.6g}: {why}"
+                newly.append(p.name)
+            elif p.name == "lorentz_hwhm" and at_bound:
+                p.vary = False
+                self.held[p.name] = "at zero"
+                p.note = "held at 0: the lines show no Lorentzian width"
+                newly.append(p.name)
+        if newly:
+            self.messages.append("held " + ", ".join(f"{n} ({self.held[n]})" for n in newly))
+        return newly
+
+    def _b_scale(self) -> float:
+        th = dict(zip(self.model.names, self.fitter.theta, strict=True))
+        return float(th.get("B_lower", th.get("B_e", 1.0)))
+
+    # -------------------------------------------------------------- result
+    def result(self, spec: dict, pr: PRSeparation | None) -> BandFit:
+        f = self.fitter
+        model = self.model
+        cov, r, chi2, scale, idx = f.covariance()
+        theta = f.theta
+        names = model.names
+        se = np.sqrt(np.clip(np.diag(cov), 0.0, None))
+        status = ["free" if p.vary else ("held" if p.name in self.held else "fixed")
+                  for p in self.params]
+        ptab = pd.DataFrame({
+            "name": names, "value": theta, "stderr": se, "status": status,
+            "unit": [p.unit for p in self.params], "start": [p.value for p in self.params],
+            "source": [p.source for p in self.params], "note": [p.note for p in self.params]},
+            columns=PARAMETER_COLUMNS)
+        free_names = [names[k] for k in idx]
+        sub = cov[np.ix_(idx, idx)]
+        d = np.sqrt(np.clip(np.diag(sub), 1e-300, None))
+        corr = sub / np.outer(d, d) if len(idx) else sub
+        isos = list(self.opts.isotopologues)
+        main = self.mol.isotopologue(isos[0])
+        rhos = [math.sqrt(main.reduced_mass / self.mol.isotopologue(n).reduced_mass) for n in isos]
+        C = self._constant_map()
+        # a held parameter's start is a guess: its scale enters the derived constants that
+        # depend on it directly (e.g. a minor isotopologue's band origin on ω_e x_e)
+        B, step = self._b_scale(), float(np.median(np.diff(self.x)))
+        prior = np.array([relevance(p.name, theta[k], p.value, B, step) ** 2
+                          if p.name in self.held else 0.0 for k, p in enumerate(self.params)])
+        prior[~np.isfinite(prior)] = 0.0
+        consts = derived_constants(model, theta, cov + np.diag(prior), C, joint=self.opts.joint,
+                                   isotopologues=isos,
+                                   rhos=rhos, reduced_masses=[self.mol.isotopologue(n).reduced_mass
+                                                              for n in isos],
+                                   band=self.opts.bands[0])
+        comp = model.components(theta)
+        dof = max(self.y.size - len(idx), 1)
+        reasons = self._reasons(corr, free_names, theta, se, scale)
+        sol = f.last
+        converged = bool(sol.converged) if sol is not None else False
+        if not converged:
+            reasons.insert(0, f"the fit did not converge ({sol.message if sol else 'no run'}); "
+                              "the best parameters so far are kept")
+        return BandFit(
+            parameters=ptab, constants=consts,
+            correlation=pd.DataFrame(corr, index=free_names, columns=free_names),
+            covariance=pd.DataFrame(sub, index=free_names, columns=free_names),
+            x=self.x, y=self.y, model_y=comp["model"], baseline_y=comp["baseline"], residual=r,
+            y_kind=self.opts.y_kind, status="doubtful" if reasons else "ok", reasons=reasons,
+            messages=self.messages + self._start_messages(), converged=converged,
+            message=sol.message if sol else "", nfev=f.nfev, njev=f.njev,
+            elapsed=time.perf_counter() - self.t0, chisqr=chi2, redchi=chi2 / dof,
+            error_scale=scale, domain=self.opts.domain, lines=model.line_table(theta), quick=pr,
+            spec={**spec, "structure_temperature": self.t_struct},
+            theta={n: float(v) for n, v in zip(names, theta, strict=True)})
+
+    def _constant_map(self) -> np.ndarray:
+        from .params import constant_map
+
+        return constant_map(self.opts.joint, list(self.opts.isotopologues), self.opts.centrifugal,
+                            self.model.names, self.opts.bands[0])
+
+    def _start_messages(self) -> list[str]:
+        return [f"start of {p.name}: {p.source}" for p in self.params
+                if p.source not in ("fixed", "given", "default") and not p.name.startswith("baseline")]
+
+    def _reasons(self, corr, free_names, theta, se, scale) -> list[str]:
+        out = []
+        k_s = self.model.index["band_area"]
+        if theta[k_s] < 3.0 * se[k_s] or theta[k_s] <= 0:
+            out.append(f"no band detected: the band area is {theta[k_s]:.3g} ± {se[k_s]:.2g}; check "
+                       "the range, the molecule and the band")
+        prim = [k for k, n in enumerate(free_names) if n.split("(")[0] in PRIMARY]
+        for a in range(len(prim)):
+            for b in range(a + 1, len(prim)):
+                i, j = prim[a], prim[b]
+                if abs(corr[i, j]) > 0.95:
+                    ni, nj = free_names[i], free_names[j]
+                    hint = ("fix one, e.g. fix={'temperature': 296}" if "temperature" in (ni, nj)
+                            else f"fix one of them, e.g. fix={{'{nj}': ...}}")
+                    out.append(f"{ni} and {nj} are {corr[i, j]:+.3f} correlated: the data determine "
+                               f"only a combination of them; {hint}")
+        for k, n in enumerate(self.model.names):
+            if n in free_names and n.split("(")[0] in PRIMARY and n != "band_area":
+                v, e = theta[k], se[k]
+                if n.startswith("band_origin"):
+                    if e > 0.5 * self._b_scale():
+                        out.append(f"{n} is not determined (standard error {e:.3g} cm-1)")
+                elif abs(v) > 0 and e > 0.25 * abs(v) and not n.startswith("alpha"):
+                    out.append(f"{n} is not determined ({v:.4g} ± {e:.2g})")
+        if self.st.get("spacing") and not self.st.get("indexed", True) and \
+                not {"band_origin", "B_lower", "B_e"} & set(self.user_start):
+            out.append("the lines are resolved but the band-origin gap was not found, so the "
+                       "rotational numbering comes from the contour only; check B against the line "
+                       "spacing, or give start values (start={'band_origin': ..., 'B_lower': ...})")
+        if scale > 3.0:
+            out.append(f"the residuals are strongly correlated (errors scaled by {scale:.1f}): "
+                       "the model misses structure (other bands, impurity lines, baseline, "
+                       "line shape)")
+        return out
+
+
+def _peak_monochromatic(run: Run) -> tuple[float, float]:
+    """(highest monochromatic peak absorbance, instrument FWHM / line FWHM)."""
+    th = run.fitter.theta
+    m = run.model
+    pos, area, sig, *_ = m.lines(th)
+    gamma = max(m._get(th, "lorentz_hwhm"), 0.0)
+    from scipy.special import voigt_profile
+
+    peak = float(np.max(area * voigt_profile(0.0, np.maximum(sig, 1e-9), gamma)))
+    line_fwhm = float(np.median(2.3548 * sig)) + 2 * gamma
+    inst = fwhm_factor(m.instrument) * m._get(th, "resolution")
+    return peak, inst / max(line_fwhm, 1e-12)
+
+
+def note_approximation(run: Run, simulated: bool) -> Run:
+    """Say where the absorbance approximation stands for absorbance data."""
+    peak, ratio = _peak_monochromatic(run)
+    if simulated:
+        return run
+    if peak > 0.5 and ratio > 1.0:
+        run.messages.append(
+            f"absorbance approximation used with lines narrower than the instrument "
+            f"(instrument/line width {ratio:.2g}) and a monochromatic peak absorbance of "
+            f"{peak:.2g}: a real spectrometer would saturate such lines and the approximation "
+            "fails (intensities, T and the band area are biased); for a measured spectrum fit "
+            "its transmittance, or give convolve='transmittance' and the pressure width "
+            "lorentz_hwhm")
+    else:
+        run.messages.append(f"absorbance approximation used (monochromatic peak absorbance "
+                            f"{peak:.2g}{'' if ratio > 1 else ', lines wider than the instrument'}"
+                            "): it holds here")
+    return run
+
+
+def exact_for_transmittance(run: Run, *, force: bool = False) -> Run:
+    """Transmittance data: after the (fast) absorbance approximation, when lines are strong
+    and narrower than the instrument, fit the exact transmittance convolution from there and
+    keep it unless the approximation fits better by Δχ² > 9 (in units of the noise).
+    ``force``: always fit and keep the transmittance convolution (``convolve="transmittance"``)."""
+    peak, ratio = _peak_monochromatic(run)
+    f = run.fitter
+    if not force and not (peak > 0.1 and ratio > 1.0):
+        run.messages.append(f"absorbance approximation used: the lines are weak or resolved "
+                            f"(monochromatic peak absorbance {peak:.2g}), where it equals the "
+                            "transmittance convolution")
+        return run
+    opts = ModelOptions(**{**run.opts.__dict__, "domain": "transmittance"})
+    try:
+        alt = Run(run.x, run.y, run.mol, opts, run.st, run.sources, run.t_struct,
+                   run.user_start, run.fix, run.free_opt, run.resolution, run.lorentz,
+                   run.max_nfev, run.max_time, run.progress, run.t0, run.messages)
+    except FitError as exc:
+        if force:
+            raise
+        run.messages.append(f"the transmittance convolution could not be set up ({exc}); the "
+                            "absorbance approximation is kept and may bias T and the band area")
+        return run
+    for p_new, p_old in zip(alt.params, run.params, strict=True):
+        p_new.vary, p_new.note, p_new.source = p_old.vary, p_old.note, p_old.source
+    alt.fitter.theta = f.theta.copy()
+    alt.held = dict(run.held)
+    alt.final_stage()
+    c_abs, c_tr = f.chisqr(), alt.fitter.chisqr()
+    s2 = c_tr / max(run.y.size - len(alt.fitter.free()), 1)
+    if not force and c_abs < c_tr - 9.0 * s2:
+        run.messages.append(
+            f"the absorbance approximation fits better than the transmittance convolution "
+            f"(chi-square {c_abs:.4g} against {c_tr:.4g}): kept; the spectrum behaves as if the "
+            "instrument acted on absorbance (as in widgetkit.simulate)")
+        return run
+    alt.messages.append(f"convolved in transmittance (lines narrower than the instrument, "
+                        f"monochromatic peak absorbance {peak:.2g}; chi-square {c_tr:.4g}, the "
+                        f"absorbance approximation {c_abs:.4g})")
+    return alt
+
+
+def guess_y_kind(y: np.ndarray) -> str:
+    """Transmittance when the band dips below a baseline near 1, else absorbance."""
+    med = float(np.median(y))
+    up, down = float(np.max(y)) - med, med - float(np.min(y))
+    if 0.3 < med <= 1.05 and float(np.max(y)) <= 1.1 and down > 2.0 * up:
+        return "transmittance"
+    return "absorbance"
+
+
+def _noise(y: np.ndarray) -> float:
+    d = np.diff(y)
+    return float(1.4826 * np.median(np.abs(d - np.median(d))) / math.sqrt(2.0))
