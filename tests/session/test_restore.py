@@ -203,7 +203,7 @@ def test_restored_results_pickle_and_copy_as_the_real_ones(hcl):
 
     again = pickle.loads(pickle.dumps(hcl.assignment))
     assert not isinstance(again, records.Restored)
-    pd.testing.assert_frame_equal(again.constants, hcl.constants)
+    pd.testing.assert_frame_equal(again.constants, hcl.assignment.constants)
     fit = copy.deepcopy(hcl.line_fit)
     pd.testing.assert_frame_equal(fit.table, hcl.lines)
 

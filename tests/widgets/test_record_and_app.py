@@ -143,8 +143,8 @@ def test_a_closed_panel_stops_listening(session):
 
 def test_the_app_shows_all_panels_as_tabs_on_one_session(session):
     app = AnalysisApp(session)
-    assert [app.tabs.get_title(i) for i in range(5)] == ["Spectrum", "Peaks", "Lines", "Levels",
-                                                          "Record"]
+    assert [app.tabs.get_title(i) for i in range(6)] == ["Spectrum", "Peaks", "Lines", "Levels",
+                                                          "Band model", "Record"]
     assert all(p.session is session for p in app.panels)
     app.spectrum_panel.crop_lo.value, app.spectrum_panel.crop_hi.value = 2800.0, 3000.0
     app.spectrum_panel.crop_button.click()

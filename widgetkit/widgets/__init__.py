@@ -9,14 +9,16 @@ Panels: :class:`SpectrumPanel` (open, metadata, crop, baseline, absorbance),
 :class:`PeaksPanel` (find, click to add, select, remove), :class:`LinesPanel`
 (line-shape fit, model, components, residuals, line table),
 :class:`LevelsPanel` (assign, lock or clear, Fortrat and obs − calc plots,
-constants), :class:`RecordPanel` (history, notes, step through, save,
-reopen, verify).
+constants), :class:`BandModelPanel` (fit the whole band: data, model,
+residual, parameters, constants, correlations), :class:`RecordPanel`
+(history, notes, step through, save, reopen, verify).
 """
 
 from __future__ import annotations
 
 from ._plot import SpectrumFigure
 from .app import AnalysisApp
+from .bandmodel_panel import BandModelPanel
 from .levels_panel import LevelsPanel, fortrat_m
 from .lines_panel import LinesPanel
 from .numbers import format_uncertainty, format_value
@@ -30,6 +32,7 @@ __all__ = [
     "PeaksPanel",
     "LinesPanel",
     "LevelsPanel",
+    "BandModelPanel",
     "RecordPanel",
     "SpectrumFigure",
     "format_uncertainty",

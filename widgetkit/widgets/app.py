@@ -5,6 +5,7 @@ from __future__ import annotations
 import ipywidgets as ipw
 import traitlets
 
+from .bandmodel_panel import BandModelPanel
 from .levels_panel import LevelsPanel
 from .lines_panel import LinesPanel
 from .peaks_panel import PeaksPanel
@@ -15,7 +16,7 @@ __all__ = ["AnalysisApp"]
 
 
 class AnalysisApp(ipw.VBox):
-    """All panels in tabs (Spectrum, Peaks, Lines, Levels, Record) on one session.
+    """All panels in tabs (Spectrum, Peaks, Lines, Levels, Band model, Record) on one session.
 
     Parameters
     ----------
@@ -48,13 +49,14 @@ class AnalysisApp(ipw.VBox):
         self.peaks_panel = PeaksPanel(session, **plot_kw)
         self.lines_panel = LinesPanel(session, **plot_kw)
         self.levels_panel = LevelsPanel(session, **ro)
+        self.bandmodel_panel = BandModelPanel(session, **plot_kw)
         self.record_panel = RecordPanel(session, **ro)
         self.panels = [self.spectrum_panel, self.peaks_panel, self.lines_panel,
-                       self.levels_panel, self.record_panel]
+                       self.levels_panel, self.bandmodel_panel, self.record_panel]
         # one axis direction for all spectrum plots: the Spectrum panel's check box
         self._links = [traitlets.dlink((self.spectrum_panel.high_to_low, "value"),
                                        (p.plot.x_scale, "reverse"))
-                       for p in (self.peaks_panel, self.lines_panel)]
+                       for p in (self.peaks_panel, self.lines_panel, self.bandmodel_panel)]
         self.tabs = ipw.Tab(children=self.panels, titles=[p.title for p in self.panels])
         self.children = [self.tabs]
 

@@ -1,0 +1,104 @@
+"""The Band model panel: controls -> one recorded fit_band_model step; data, model, residual,
+parameters, constants and correlations shown from the session; errors in the status line."""
+
+import numpy as np
+import pytest
+
+import widgetkit as wk
+from widgetkit.errors import FitError
+from widgetkit.simulate import HANDBOOK
+from widgetkit.widgets import AnalysisApp, BandModelPanel
+from widgetkit.widgets.bandmodel_panel import parse_band, parse_fix
+
+CO = wk.Diatomic("C", "O")
+
+
+@pytest.fixture(scope="module")
+def co_4cm():
+    """CO 1-0 at 4 cm-1, simulated from the handbook constants (self-consistency only)."""
+    return wk.simulate.rovibrational(CO, HANDBOOK["12C-16O"], temperature=296.0, resolution=4.0,
+                                     step=1.0, noise=0.002, seed=4)
+
+
+def test_fit_band_at_four_wavenumbers_records_one_step_and_shows_everything(co_4cm):
+    s = wk.Session(co_4cm)
+    panel = BandModelPanel(s)
+    panel.resolution.value = 4.0
+    panel.fix_temperature.value = True
+    panel.fit_button.click()
+    assert panel.last_error is None, panel.status.value
+    assert [st.kind for st in s.history] == ["load", "fit_band_model"]
+    assert s.history[-1].params["fix"] == {"temperature": 296.0}
+    fit = s.band_model
+    model = np.asarray(panel.plot.curve("model").y, dtype=float)
+    assert model.size > 0 and np.isfinite(model).all()
+    assert np.asarray(panel.plot.curve("residual").y).size > 0
+    assert "wk-band-parameters" in panel.parameter_table.value
+    assert "B_e" in panel.parameter_table.value and "held" in panel.parameter_table.value
+    assert "wk-band-constants" in panel.constant_table.value
+    assert fit.status in panel.status.value or "fitted" in panel.status.value
+    assert panel.fit_button.description == "Fit band" and not panel.fit_button.disabled
+
+
+def test_an_unresolved_contour_shows_why_it_is_doubtful(co_4cm):
+    sp = wk.simulate.rovibrational(CO, HANDBOOK["12C-16O"], temperature=296.0, resolution=8.0,
+                                   step=2.0, noise=0.002, seed=3)
+    s = wk.Session(sp)
+    panel = BandModelPanel(s)
+    panel.resolution.value = 8.0
+    panel.fit_button.click()
+    assert s.band_model.status == "doubtful"
+    assert "wk-band-reasons" in panel.summary.value and "correlated" in panel.summary.value
+    assert "strong correlations" in panel.correlations.value
+    assert "warning" in panel.status.value
+
+
+def test_a_high_resolution_band_works_too():
+    sp = wk.simulate.rovibrational(CO, HANDBOOK["12C-16O"], temperature=296.0, resolution=0.01,
+                                   x_range=(2120.0, 2170.0), step=0.0025, lorentz_hwhm=0.01,
+                                   noise=0.003, seed=2)
+    s = wk.Session(sp)
+    panel = BandModelPanel(s)
+    panel.resolution.value = 0.01
+    panel.fit_button.click()
+    assert panel.last_error is None, panel.status.value
+    b, e = s.band_model.constant("B_lower")
+    assert abs(b - 1.92253) < 3 * e + 1e-5  # B0 = Be - αe/2 of the constants simulated
+
+
+def test_bad_input_goes_to_the_status_line_and_changes_nothing(co_4cm):
+    s = wk.Session(co_4cm)
+    panel = BandModelPanel(s)
+    panel.band.value = "one-zero"
+    panel.fit_button.click()
+    assert isinstance(panel.last_error, FitError) and "upper-lower" in panel.status.value
+    panel.band.value = "1-0"
+    panel.fix_more.value = "B_e:1.9"
+    panel.fit_button.click()
+    assert "name=value" in panel.status.value
+    panel.fix_more.value = ""
+    panel.molecule.value = "Xy"
+    panel.fit_button.click()
+    assert panel.last_error is not None and "error" in panel.status.value
+    assert len(s.history) == 1
+
+
+def test_parsers():
+    assert parse_band("2-0") == [2, 0] and parse_band(" 1 - 0 ") == [1, 0]
+    assert parse_fix("B_e=1.93, temperature = 300") == {"B_e": 1.93, "temperature": 300.0}
+    assert parse_fix("  ") == {}
+    with pytest.raises(FitError):
+        parse_band("10")
+
+
+def test_the_app_has_a_band_model_tab_that_follows_the_session(co_4cm):
+    s = wk.Session(co_4cm)
+    app = AnalysisApp(s)
+    titles = [app.tabs.get_title(i) for i in range(len(app.panels))]
+    assert "Band model" in titles and titles[-1] == "Record"
+    s.fit_band_model("CO", resolution=4.0, fix={"temperature": 296.0})
+    assert app.bandmodel_panel.constant_table.value  # rendered from the session
+    s.crop(2000.0, 2300.0)
+    assert app.bandmodel_panel.constant_table.value == ""  # a new spectrum clears the fit
+    ro = AnalysisApp(s, read_only=True)
+    assert ro.bandmodel_panel.fit_button.disabled
