@@ -194,6 +194,7 @@ class SeriesResult:
         self.variable = Variable.from_json(doc.get("variable"))
         self.interrupted = bool(interrupted)
         self.temporary = bool(temporary)
+        self._table: pd.DataFrame | None = None
         if temporary:
             self._cleanup = weakref.finalize(self, shutil.rmtree, str(self.folder), True)
 
@@ -275,6 +276,11 @@ class SeriesResult:
         sha256, variable, isotopologue, name, value, stderr, unit, status`` (and ``method``
         when the sessions give one). A spectrum without constants (failed) has one row with
         an empty name, so that it is not lost."""
+        if self._table is None:
+            self._table = self._build_table()
+        return self._table.copy()
+
+    def _build_table(self) -> pd.DataFrame:
         cols = list(TABLE_COLUMNS)
         rows = []
         for e in self._doc["spectra"]:

@@ -207,8 +207,12 @@ def _constants(session) -> dict:
 
 
 def _failed(task: dict, reason: str, t0: float, sha=None, **extra) -> dict:
+    value = unit = None
+    var = task.get("variable")
+    if var is not None and var.field is None:  # a file name or a mapping tells it even so
+        value, unit, _ = var.value({}, task["name"], task.get("path"))
     return {"index": task["index"], "name": task["name"], "source": task.get("path"),
-            "sha256": sha, "variable": None, "variable_unit": None, "status": "failed",
+            "sha256": sha, "variable": value, "variable_unit": unit, "status": "failed",
             "reasons": [reason], "notes": [], "constants": {}, "document": None,
             "seconds": time.perf_counter() - t0, "warm_start": task.get("warm_meta"),
             "hints": None, **extra}

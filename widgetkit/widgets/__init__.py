@@ -12,6 +12,8 @@ Panels: :class:`SpectrumPanel` (open, metadata, crop, baseline, absorbance),
 constants), :class:`BandModelPanel` (fit the whole band: data, model,
 residual, parameters, constants, correlations), :class:`RecordPanel`
 (history, notes, step through, save, reopen, verify).
+:class:`SeriesPanel` shows a series (``wk.run_series``): a constant against the series
+variable, and opens any spectrum's session in the app.
 """
 
 from __future__ import annotations
@@ -24,6 +26,7 @@ from .lines_panel import LinesPanel
 from .numbers import format_uncertainty, format_value
 from .peaks_panel import PeaksPanel
 from .record_panel import RecordPanel
+from .series_panel import SeriesPanel
 from .spectrum_panel import SpectrumPanel
 
 __all__ = [
@@ -34,6 +37,7 @@ __all__ = [
     "LevelsPanel",
     "BandModelPanel",
     "RecordPanel",
+    "SeriesPanel",
     "SpectrumFigure",
     "format_uncertainty",
     "format_value",
