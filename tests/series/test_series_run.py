@@ -57,7 +57,7 @@ def test_the_process_pool_gives_the_serial_numbers(serial_run, recipe, series_di
 def test_a_dask_local_cluster_gives_the_serial_numbers(serial_run, recipe, series_dir, tmp_path):
     distributed = pytest.importorskip("distributed")
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                  dashboard_address=None) as cluster, \
+                                  dashboard_address=":0") as cluster, \
             distributed.Client(cluster) as client:
         res = wk.run_series(recipe, series_dir, variable="set temperature", client=client,
                             progress=False, out=tmp_path)

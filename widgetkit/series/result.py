@@ -43,7 +43,8 @@ SERIES_VERSION = 1
 SERIES_FILE = "series.json"
 TABLE_COLUMNS = ["spectrum", "source", "sha256", "variable", "isotopologue", "name", "value",
                  "stderr", "unit", "status"]
-STATUS_COLORS = {"ok": "#1f4e79", "doubtful": "#e08214", "failed": "#b2182b"}
+#: ok, doubtful, failed: as the Series panel draws them (data blue, model orange, outlier red)
+STATUS_COLORS = {"ok": "#1f4e79", "doubtful": "#e69f00", "failed": "#d7191c"}
 
 
 def is_series_file(path: str | os.PathLike) -> bool:
@@ -102,7 +103,7 @@ def series_document(recipe: Recipe, variable: Variable | None, entries: list[dic
             "variable": None if variable is None else variable.to_json(), "spectra": entries}
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, repr=False)
 class SeriesVerifyReport:
     """The outcome of :meth:`SeriesResult.verify`: every session replayed.
 
@@ -124,6 +125,9 @@ class SeriesVerifyReport:
 
     def __bool__(self) -> bool:
         return self.ok
+
+    def __repr__(self) -> str:
+        return f"<SeriesVerifyReport: {str(self).splitlines()[0]}>"
 
     def __str__(self) -> str:
         n = len(self.rows)

@@ -18,13 +18,15 @@ import numpy as np
 import pandas as pd
 
 from ..errors import WidgetkitError
+from ..formatting import display_isotopologue
 from ._base import row, status_html
+from ._plot import COLORS
 from ._tables import TABLE_CSS, html_table
 
 __all__ = ["SeriesPanel", "STATUS_COLORS"]
 
-#: colours of ok, doubtful and failed spectra (blue, orange, red: apart for colour-blind eyes)
-STATUS_COLORS = {"ok": "#1f4e79", "doubtful": "#e08214", "failed": "#b2182b"}
+#: colours of ok, doubtful and failed spectra: the data blue, the model orange, the outlier red
+STATUS_COLORS = {"ok": COLORS["data"], "doubtful": COLORS["model"], "failed": COLORS["outlier"]}
 
 
 class SeriesPanel(ipw.VBox):
@@ -105,7 +107,8 @@ class SeriesPanel(ipw.VBox):
         isos = [i for i in pd.unique(t.loc[t["name"] == self.constant.value, "isotopologue"])
                 if isinstance(i, str)]
         value = preferred if preferred in isos else (isos[0] if isos else None)
-        self.isotopologue.options = isos      # its value becomes the first option
+        # shown as the trade writes them (H³⁵Cl), the ASCII key as the value
+        self.isotopologue.options = [(display_isotopologue(i), i) for i in isos]
         self.isotopologue.value = value
 
     # ------------------------------------------------------------------ handlers
