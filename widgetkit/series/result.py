@@ -8,11 +8,12 @@ The series file (``series.json`` in the output folder) is JSON::
      "variable": {"name", "unit", "field", "pattern", "values"} or null,
      "spectra": [{"index", "name", "source", "sha256", "variable", "variable_unit",
                   "status", "reasons", "notes", "session", "session_sha256", "seconds",
-                  "warm_start", "constants": {column: [values]}}, ...]}
+                  "cpu_seconds", "warm_start", "constants": {column: [values]}}, ...]}
 
 ``sha256`` is that of the source file's bytes (of the data for an in-memory
 spectrum), ``session`` the session file relative to the series file and
-``session_sha256`` the sha256 of its bytes; ``spectra`` are in series order
+``session_sha256`` the sha256 of its bytes, ``seconds`` and ``cpu_seconds`` the wall and
+processor time its worker spent on it; ``spectra`` are in series order
 (by the variable, then by name).
 """
 

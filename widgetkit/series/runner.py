@@ -105,7 +105,7 @@ class _Store:
         hints = out.pop("hints", None)
         entry = {k: out.get(k) for k in ("index", "name", "source", "sha256", "variable",
                                          "variable_unit", "status", "reasons", "notes",
-                                         "seconds", "warm_start", "constants")}
+                                         "seconds", "cpu_seconds", "warm_start", "constants")}
         entry["session"] = entry["session_sha256"] = None
         if doc is not None:
             data = doc.encode("utf-8")

@@ -225,7 +225,7 @@ def run_one(task: dict) -> dict:
     ``read_options`` (None: the recipe's), ``variable`` (a Variable or None), ``note``,
     and for a warm start ``hints`` and ``warm_meta``.
     """
-    t0 = time.perf_counter()
+    t0, c0 = time.perf_counter(), time.process_time()
     with threadpool_limits(limits=1):
         recipe: Recipe = task["recipe"]
         opts = recipe.read_options if task.get("read_options") is None else task["read_options"]
@@ -266,6 +266,7 @@ def run_one(task: dict) -> dict:
                 "sha256": sha, "variable": value, "variable_unit": unit, "status": status,
                 "reasons": reasons, "notes": notes, "constants": _constants(run.session),
                 "document": doc, "seconds": time.perf_counter() - t0,
+                "cpu_seconds": time.process_time() - c0,
                 "warm_start": task.get("warm_meta"), "hints": hints or None}
 
 
