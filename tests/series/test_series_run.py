@@ -76,6 +76,7 @@ def test_a_corrupt_file_in_the_middle_is_reported_and_the_rest_complete(recipe, 
     assert rows.loc["cell_01_328K.jdx", "status"] == "failed"
     assert rows.loc["cell_01_328K.jdx", "reasons"].startswith("step 0 (load)")
     assert str(bad) in rows.loc["cell_01_328K.jdx", "reasons"]
+    assert "warm start" not in rows.loc["cell_01_328K.jdx", "notes"]  # no use for a bad file
     assert list(rows.drop("cell_01_328K.jdx")["status"]) == ["ok", "ok"]
     t = res.table
     assert t.loc[t["spectrum"] == "cell_01_328K.jdx", "name"].isna().all()  # kept as a row

@@ -8,7 +8,8 @@ pool and a cluster give the same numbers:
    session file is written as it arrives and the series file is refreshed
    every few seconds, so an interrupted run keeps what it finished.
 2. **Warm starts where they help** (``warm_start=True``): each spectrum that
-   failed or came out doubtful is run again starting from its nearest
+   came out doubtful, or failed in a step a warm start changes
+   (:data:`WARM_KINDS`), is run again starting from its nearest
    neighbour in the series that came out ok (by the series variable, then by
    name; the worked-out spectrum of the recipe when there is none): peaks for
    the neighbour's assigned lines that were not found, the neighbour's line
@@ -25,6 +26,7 @@ spectra are tried again).
 from __future__ import annotations
 
 import os
+import re
 import tempfile
 import time
 from collections.abc import Iterator
@@ -206,11 +208,24 @@ def _neighbour_hints(store: _Store, order: list[dict], pos: int):
     return None, None
 
 
+#: steps a warm start changes: a spectrum that failed elsewhere (reading, a conversion) is
+#: not run again
+WARM_KINDS = frozenset({"find_peaks", "add_peak", "fit_lines", "set_assignment", "assign_band"})
+_FAILED_STEP = re.compile(r"step \d+ \((\w+)\)")
+
+
+def _may_help(entry: dict) -> bool:
+    if entry["status"] == "doubtful":
+        return True
+    m = _FAILED_STEP.match((entry.get("reasons") or [""])[0])
+    return entry["status"] == "failed" and m is not None and m.group(1) in WARM_KINDS
+
+
 def _warm_tasks(store: _Store, sources: list[Source], ran: set[int], variable, read_options
                 ) -> Iterator[dict]:
     order = store.ordered()
     for pos, e in enumerate(order):
-        if e["index"] not in ran or e["status"] == "ok" or e.get("sha256") is None:
+        if e["index"] not in ran or not _may_help(e) or e.get("sha256") is None:
             continue
         name, hints = _neighbour_hints(store, order, pos)
         if hints is None:
