@@ -3,6 +3,7 @@ with a Q branch (HCN, C2H2), spin statistics (half the lines missing, 3:1 altern
 what must not happen (an isotopologue invented for a missing-line pattern)."""
 
 import numpy as np
+import pandas as pd
 import pytest
 
 import widgetkit as wk
@@ -130,3 +131,27 @@ def test_bad_requests_are_refused_with_the_reason():
     except wk.AssignmentError:
         return
     assert res.status == "doubtful" and res.reasons  # random lines are never a confident band
+
+
+def test_a_partial_band_is_marked_doubtful_with_the_reason():
+    mol = wk.Linear("OCO")
+    lines = linear_line_list(mol, CO2, bands=[("00^01", "00^00")])
+    table, _ = observed(lines[lines["position"] > 2350], seed=9)  # the R branch alone
+    res = assign_linear(table, mol, kind="parallel", hot_bands=False)
+    assert res.status == "doubtful"
+    assert any("partial band" in r for r in res.reasons)
+
+
+def test_impurity_lines_are_left_unassigned():
+    mol = wk.Linear("OCO")
+    table, truth = observed(linear_line_list(mol, CO2, bands=[("00^01", "00^00")]), seed=4)
+    rng = np.random.default_rng(8)
+    extra = table.iloc[:12].copy()
+    extra["line_id"] = np.arange(500, 512)
+    extra["position"] = rng.uniform(2300, 2390, 12)  # invented impurity lines, as strong as the band
+    res = assign_linear(pd.concat([table, extra], ignore_index=True), mol, kind="parallel",
+                        hot_bands=False)
+    ok = label_agreement(res, truth, {"00^01-00^00": "fundamental"})
+    assert ok["00^01-00^00"] >= 0.95
+    left = res.assignments.set_index("line_id").loc[extra["line_id"], "label"]
+    assert left.isna().mean() >= 0.75  # most impurities are not forced into the band

@@ -31,7 +31,7 @@ from ._linear_model import BandSpec, ConstantsFit, Obs, Template, fit_constants
 from ._linear_seed import cached, full_vector, low_j, spacing_unit, start_values, strong_lines
 from ._lsq import robust_scale
 
-__all__ = ["Obs", "BandState", "refine", "branch_counts", "strength_factor", "label_list",
+__all__ = ["Obs", "BandState", "refine", "branch_counts", "branch_balance", "strength_factor", "label_list",
            "lower_energy"]
 
 _GROW = 4
@@ -381,7 +381,9 @@ def _rounds(obs, spec, iso, free, st: BandState, locks, opts, max_rounds, unit, 
         inside = (cg >= lo) & (cg <= hi)
         if skip_q:
             inside &= t.branch[reps] != "Q"
-        win = _windows(t, reps, cg, opts["match_fraction"], 0.5 * opts["match_fraction"] * unit * Bnow)
+        # a bare hypothesis is only known to a fraction of a spacing: its first round looks wider
+        frac = max(opts["match_fraction"], 0.45) if grow == 0 else opts["match_fraction"]
+        win = _windows(t, reps, cg, frac, 0.5 * frac * unit * Bnow)
         idx = np.full(obs.n, -1)
         labels = np.array(label_list(spec, t), dtype=object)[reps]
         taken = set()
@@ -505,7 +507,7 @@ def branch_counts(st: BandState) -> dict[str, int]:
     return out
 
 
-def _balance(st: BandState) -> float:
+def branch_balance(st: BandState) -> float:
     """min/max of the line counts of the two outer branches (P/R, O/S); 1 for a rotational band.
     A wrong J numbering can fit every line as one branch of a band whose other branch lies
     outside the spectrum: the positions alone cannot tell, the balance of the branches can."""
@@ -519,7 +521,12 @@ def _balance(st: BandState) -> float:
 def _score(obs: Obs, st: BandState, temperature: float | None = None) -> float:
     good = st.good()
     score = float(good.sum()) - 0.5 * float(st.outlier.sum()) - 2.0 * st.holes
-    score += 0.2 * float(good.sum()) * min(_balance(st), 0.5)
+    f = st.fit.fit if st.fit is not None else None
+    if f is not None and f.absolute and f.dof > 0:
+        # positions that scatter far beyond their stated errors: a wrong pattern forced onto them
+        birge = float(np.sqrt(max(f.reduced_chi2, 1e-12)))
+        score -= float(good.sum()) * min(max(np.log10(birge) - 0.3, 0.0), 1.0)
+    score += 0.2 * float(good.sum()) * min(branch_balance(st), 0.5)
     if st.spec.rotational:
         off = abs(st.values.get("zero_offset", 0.0)) / max(abs(st.values.get("B", 1.0)), 1e-9)
         score -= 2.0 * max(off - 1.0, 0.0)  # zero shift should be near 0 (within about B)

@@ -20,8 +20,8 @@ import numpy as np
 
 from ._linear_model import BandSpec, Obs, Template, design, template
 
-__all__ = ["strong_lines", "search", "centres", "spacing_unit", "low_j", "cached", "full_vector",
-           "start_values"]
+__all__ = ["strong_lines", "search", "centres", "edge_centres", "spacing_unit", "low_j", "cached",
+           "full_vector", "start_values"]
 
 
 @functools.lru_cache(maxsize=256)
@@ -107,6 +107,8 @@ def search(obs: Obs, spec: BandSpec, iso, free: np.ndarray, *, B_range=None,
         s = float(np.median(d[len(d) // 2:]))
         B_range = (0.5 * s / unit, 1.6 * s / unit)
     lo, hi = (float(v) for v in B_range)
+    if not (np.isfinite(lo) and np.isfinite(hi) and 0 < lo < hi):
+        return []  # no usable spacing (or a band found with B <= 0 to search beside)
     Bs = np.exp(np.arange(np.log(lo), np.log(hi), 0.012))
     jl = low_j(spec, unit)
     t, base = cached(spec, iso, jl, spec.rotational)
@@ -191,7 +193,9 @@ def centres(obs: Obs, spec: BandSpec, iso, free: np.ndarray, *, B_range=None,
     unit = spacing_unit(spec, iso)
     d = np.diff(xs)
     dd = np.sort(d[d > 0])
-    B0 = _mode_spacing(dd) / unit if B_range is None else float(np.sqrt(B_range[0] * B_range[1]))
+    B0 = _mode_spacing(dd) / unit if B_range is None else float(np.sqrt(abs(B_range[0] * B_range[1])))
+    if not (np.isfinite(B0) and B0 > 0):
+        return []
     step = unit * B0
     cs = []
     if spec.rotational:
@@ -201,9 +205,10 @@ def centres(obs: Obs, spec: BandSpec, iso, free: np.ndarray, *, B_range=None,
     if len(d) >= 5:
         loc = np.array([np.median(d[max(0, i - 3): i + 4]) for i in range(len(d))])
         ratio = d / np.maximum(loc, 1e-12)
+        off = _gap_offset(spec, iso) * B0
         for i in np.argsort(-ratio)[:3]:
             if ratio[i] > 1.25:
-                cs.append(0.5 * (xs[i] + xs[i + 1]))
+                cs.append(0.5 * (xs[i] + xs[i + 1]) - off)
     dens = np.array([np.sum(w[np.abs(xs - x) <= 0.5 * step]) for x in xs])
     cs.append(float(xs[int(np.argmax(dens))]))
     out = []
@@ -213,8 +218,12 @@ def centres(obs: Obs, spec: BandSpec, iso, free: np.ndarray, *, B_range=None,
         dl = np.sort(np.diff(xs[near]))[:-1]
         dl = dl[dl > 0.3 * step]
         Bs = {B0} if B_range is not None or not len(dl) else {B0, float(np.median(dl)) / unit}
-        for Bc in Bs:
-            for k in (-2, -1, -0.5, 0, 0.5, 1, 2):
+        if B_range is None:  # the spacing estimates can be a few % off (impurity lines, Fortrat
+            # compression of a branch): B 6 % either side, for the numbering at the centre
+            Bs |= {B0 * 0.94, B0 * 1.06}
+        for Bc in sorted(Bs):
+            ks = (-2, -1, -0.5, 0, 0.5, 1, 2) if Bc in (B0,) or len(Bs) < 3 else (-1, -0.5, 0, 0.5, 1)
+            for k in ks:
                 nu0 = c + k * unit * Bc
                 if origin_range is not None and not origin_range[0] <= nu0 <= origin_range[1]:
                     continue
@@ -223,9 +232,42 @@ def centres(obs: Obs, spec: BandSpec, iso, free: np.ndarray, *, B_range=None,
     return out
 
 
+@functools.lru_cache(maxsize=64)
+def _gap_offset(spec: BandSpec, iso) -> float:
+    """Where the middle of the widest gap between the band's low-J lines lies, in units of B,
+    from the band origin (0 for a Σ–Σ band; −1 for ¹⁶O¹²C¹⁶O, whose gap is P(2)…R(0))."""
+    t, A = cached(spec, iso, 6, spec.rotational)
+    keep = (t.branch != "Q") & (t.sign > 0)
+    p = np.unique(np.round(A[keep] @ full_vector(spec, {"B_upper": 1.0, "B_lower": 1.0, "B": 1.0}), 9))
+    if len(p) < 2:
+        return 0.0
+    i = int(np.argmax(np.diff(p)))
+    return float(0.5 * (p[i] + p[i + 1]))
+
+
+def edge_centres(obs: Obs, spec: BandSpec, iso, free: np.ndarray) -> list[tuple[float, float]]:
+    """Starting points for a partial band, one branch of which is seen: ν₀ beyond either end of
+    the lines, half a spacing to four spacings out (B from the most common spacing)."""
+    xs = np.sort(obs.x[strong_lines(obs, free, spec)])
+    if len(xs) < 4:
+        return []
+    d = np.diff(xs)
+    B0 = _mode_spacing(np.sort(d[d > 0])) / spacing_unit(spec, iso)
+    if not (np.isfinite(B0) and B0 > 0):
+        return []
+    step = spacing_unit(spec, iso) * B0
+    out = []
+    for B in (B0 * 0.97, B0 * 1.03):
+        for k in np.arange(0.5, 4.01, 0.5):
+            out += [(float(xs[0] - k * step), B), (float(xs[-1] + k * step), B)]
+    return out
+
+
 def _mode_spacing(d: np.ndarray) -> float:
     """The most common neighbour spacing (a smoothed histogram of log spacing), among spacings
     above a fifth of the 90th percentile (dense Q branches and blends give small ones)."""
+    if not len(d):
+        return float("nan")
     d = d[d >= 0.2 * np.quantile(d, 0.9)]
     ld = np.log(d)
     grid = np.linspace(ld.min(), ld.max(), 200)

@@ -33,8 +33,8 @@ import pandas as pd
 
 from ..errors import AssignmentError
 from ._linear_model import BandSpec, Obs
-from ._linear_search import BandState, refine
-from ._linear_seed import centres, search
+from ._linear_search import BandState, branch_balance, refine
+from ._linear_seed import centres, edge_centres, search, strong_lines
 from ._rovib_core import prepare_lines
 from .linear import Linear, as_linear
 from .linear_report import tables
@@ -152,6 +152,19 @@ def _best(obs: Obs, spec: BandSpec, iso, free: np.ndarray, locks: dict, opts: di
           prior=None, **kw) -> BandState:
     """The best refined hypothesis; ``prior(state)`` is a penalty subtracted from its score."""
     hyps = centres(obs, spec, iso, free, **kw) + [(n, b) for _, n, b in search(obs, spec, iso, free, **kw)]
+    best = _refine_all(obs, spec, iso, free, locks, opts, hyps, prior)
+    weak = best is None or branch_balance(best) < 0.3 or best.score < 0.6 * strong_lines(
+        obs, free, spec).sum()
+    if not spec.rotational and not kw and weak:
+        # one branch only, or a poor fit, so far: the band origin may lie beyond the lines (a
+        # partial band)
+        edge = _refine_all(obs, spec, iso, free, locks, opts, edge_centres(obs, spec, iso, free), prior)
+        if edge is not None and (best is None or edge.score > best.score):
+            best = edge
+    return best
+
+
+def _refine_all(obs, spec, iso, free, locks, opts, hyps, prior) -> BandState | None:
     best = None
     for nu0, B in hyps:
         try:

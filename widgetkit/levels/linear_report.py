@@ -6,7 +6,14 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from ._linear_search import BandState, label_list, lower_energy, strength_factor
+from ._linear_search import (
+    BandState,
+    branch_balance,
+    branch_counts,
+    label_list,
+    lower_energy,
+    strength_factor,
+)
 from ._lsq import SingularDesign, weighted_lstsq
 from .bandfit import equilibrium_constants
 from .candidates import C2
@@ -238,6 +245,10 @@ def tables(data, mol, kind, states, msgs, *, temperature, excitation_wavenumber,
                        "times its stated position errors")
     if int(main.good().sum()) < 8:
         reasons.append(f"only {int(main.good().sum())} lines define the {main.spec.name} band")
+    if not main.spec.rotational and branch_balance(main) == 0:
+        seen = ", ".join(sorted(branch_counts(main)))
+        reasons.append(f"only the {seen} branch of the {main.spec.name} band is assigned (a partial "
+                       "band): its J numbering rests on the line intensities alone")
     B = main.values.get("B", main.values.get("B_lower", 0.0))
     if not B > 0:
         reasons.append(f"B = {B:.4g} cm-1 is not positive")
