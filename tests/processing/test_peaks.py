@@ -307,3 +307,19 @@ def test_peak_table_numbers_hand_placed_peaks_in_ascending_position():
 def test_peak_row_refuses_a_position_outside_the_data():
     with pytest.raises(ProcessingError, match="outside the data"):
         peak_row(np.arange(5.0), np.ones(5), -1.0, 0.1)
+
+
+def test_the_local_baseline_leaves_out_the_whole_top_of_a_band_hundreds_of_points_wide():
+    # invented demo data: one Gaussian band of FWHM 400 points, 30 sigma high, on unit noise;
+    # the points above the baseline are widened by a quarter of the 4001-point window, and
+    # for runs longer than 127 points that widening once overflowed and let the top back in
+    from widgetkit.processing import local_baseline
+    from widgetkit.processing.envelope import baseline_window
+
+    rng = np.random.default_rng(3)
+    i = np.arange(20_000)
+    y = rng.normal(0.0, 1.0, i.size) + 30.0 * np.exp(-4 * math.log(2) * ((i - 10_000) / 400) ** 2)
+    base, free, _ = local_baseline(y, 1.0, window=baseline_window(400, i.size), width=400)
+    assert not free[9_000:11_001].any()
+    # the baseline bridges the band at the level of the noise around it (true level 0)
+    assert abs(base[10_000]) < 1.0

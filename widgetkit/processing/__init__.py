@@ -8,9 +8,10 @@ session (:mod:`widgetkit.session`) calls them and records each call as a step.
 Modules: :mod:`.transform` (crop, to_absorbance, to_transmittance, to_raman_shift),
 :mod:`.baseline` (baseline_poly, baseline_als, subtract_baseline),
 :mod:`.noise` (measure_noise, estimate_noise: the one noise σ),
-:mod:`.envelope` (local baseline, typical width), :mod:`.peaks`
-(search_peaks, find_peaks), :mod:`.peak_edit` (nearest_maximum, peak_row,
-peak_table: peaks placed by hand), :mod:`.decimate` (decimate_minmax).
+:mod:`.envelope` (local baseline, typical width), :mod:`.threshold`
+(default_threshold: the false-alarm rule), :mod:`.peak_data` (peak_context: what a
+search measures first), :mod:`.peaks` (search_peaks, find_peaks), :mod:`.peak_edit`
+(nearest_maximum, peak_row, peak_table: peaks placed by hand), :mod:`.decimate` (decimate_minmax).
 
 The names below load on first use (reopening a session converts to absorbance or
 crops without importing the baseline, noise and peak modules, which need scipy).
@@ -65,9 +66,10 @@ _WHERE = {
     **{name: "noise" for name in ("NoiseEstimate", "estimate_noise", "line_free_mask",
                                   "measure_noise")},
     **{name: "peak_edit" for name in ("nearest_maximum", "peak_row", "peak_table")},
-    **{name: "peaks" for name in ("PEAK_COLUMNS", "PeakContext", "PeakSearch",
-                                  "default_threshold", "find_peaks", "peak_context",
+    **{name: "peaks" for name in ("PEAK_COLUMNS", "PeakSearch", "find_peaks",
                                   "refine_parabola", "search_peaks")},
+    **{name: "peak_data" for name in ("PeakContext", "peak_context")},
+    "default_threshold": "threshold",
     **{name: "transform" for name in ("MAX_TRANSMITTANCE", "crop", "excitation_wavenumber",
                                       "to_absorbance", "to_raman_shift", "to_transmittance")},
 }
