@@ -7,6 +7,7 @@ import pandas as pd
 
 from ._rovib_core import Lines, State
 from .bandfit import combination_differences, equilibrium_constants, rotational_temperature
+from ._rovib_joint import joint_constants
 from .candidates import C2, format_label, honl_london, rotational_partition
 from .plausibility import abundance_reason, expected_B, refuse_unresolved
 from .terms import rot_term
@@ -147,6 +148,8 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
         if t is not None:
             add("T_rot", t[0], t[1], "K")
             trot[name] = t[0]
+    if opts.get("joint"):
+        joint_constants(data, st, good, table, consts, covs, msgs, reasons, opts, order)
     _abundance(data, st, good, molecule, order, trot, opts, consts, msgs, reasons)
     _temperature_reason(consts, order, opts, reasons)
     _report_flags(table, msgs, opts["outlier_sigma"])

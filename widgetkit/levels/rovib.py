@@ -141,6 +141,7 @@ def assign_rovibrational(
     resolution: float | None = None,
     technique: str | None = None,
     sample_state: str | None = None,
+    joint: bool = False,
 ) -> BandAssignment:
     """Assign the P and R lines of a v′ ← v″ band and fit the molecular constants.
 
@@ -187,6 +188,15 @@ def assign_rovibrational(
         A Raman spectrum is refused (no P and R branches).
     sample_state : {"gas", "liquid", "solid"}, optional
         A liquid or solid sample is refused (no free rotation).
+    joint : bool
+        After the separate fits, fit all sub-bands together with one set of
+        mass-independent constants (:mod:`widgetkit.levels.joint`): the
+        constants of each isotopologue are then derived from that set (with
+        omega_e and omega_e_x_e, which need two isotopologues), and rows of
+        isotopologue "mass-independent" hold the mass-reduced Dunham
+        coefficients U_10, U_20, U_01, U_11 (U_02 with centrifugal="shared")
+        and r_e. Needs lines of at least two isotopologues (AssignmentError
+        otherwise).
 
     Returns
     -------
@@ -226,7 +236,8 @@ def assign_rovibrational(
     opts = dict(outlier_sigma=float(outlier_sigma), match_fraction=float(match_fraction),
                 centrifugal=centrifugal, band=band, molecule=molecule,
                 temperature=None if temperature is None else float(temperature),
-                resolution=None if resolution is None else float(resolution))
+                resolution=None if resolution is None else float(resolution),
+                joint=bool(joint))
     refuse_unresolved_lines(data, None, opts)
     final = solve(data, lk, opts, seed_fraction=seed_fraction, max_rounds=max_rounds,
                   min_rounds=min_rounds)

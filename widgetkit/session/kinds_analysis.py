@@ -102,7 +102,7 @@ def _assign(state: State, spec: dict, locks: dict):
 
 _ROVIB_OPTIONS = frozenset({"temperature", "outlier_sigma", "max_rounds", "min_rounds", "band",
                             "centrifugal", "match_fraction", "seed_fraction", "resolution",
-                            "technique", "sample_state"})
+                            "technique", "sample_state", "joint"})
 _PROGRESSION_OPTIONS = frozenset({"temperature", "outlier_sigma", "isotopologue", "v_max",
                                   "hot_max", "max_anharmonicity", "n_terms", "max_labellings"})
 
@@ -228,6 +228,8 @@ class AssignBand(StepKind):
               doc="centrifugal distortion fitted"),
         Param("match_fraction", "number", 0.3, above=0, below=1, doc="matching tolerance"),
         Param("seed_fraction", "number", 0.25, above=0, below=1, doc="seeding tolerance"),
+        Param("joint", "boolean", False,
+              doc="fit all isotopologues with one set of mass-independent constants"),
         # what the spectrum's metadata say unless given (widgetkit.levels.plausibility)
         Param("resolution", "number", None, above=0, maximum=1e4, nullable=True, unit="cm-1",
               doc="instrument resolution (default: the file's)"),
