@@ -1,20 +1,6 @@
-"""The result of a series: the series file, its tables, its sessions, its verification.
+"""The result of a series: its tables, its sessions, its verification.
 
-The series file (``series.json`` in the output folder) is JSON::
-
-    {"format": "widgetkit-series", "version": 1, "session_version": <session format>,
-     "created", "modified", "software", "complete": bool,
-     "recipe": <the recipe document>, "recipe_sha256": hex,
-     "variable": {"name", "unit", "field", "pattern", "values"} or null,
-     "spectra": [{"index", "name", "source", "sha256", "variable", "variable_unit",
-                  "status", "reasons", "notes", "session", "session_sha256", "seconds",
-                  "cpu_seconds", "warm_start", "constants": {column: [values]}}, ...]}
-
-``sha256`` is that of the source file's bytes (of the data for an in-memory
-spectrum), ``session`` the session file relative to the series file and
-``session_sha256`` the sha256 of its bytes, ``seconds`` and ``cpu_seconds`` the wall and
-processor time its worker spent on it; ``spectra`` are in series order
-(by the variable, then by name).
+The series file it reads and writes is described in :mod:`.seriesfile`.
 """
 
 from __future__ import annotations
@@ -33,75 +19,24 @@ import pandas as pd
 from ..errors import SeriesError
 from ..session import codec
 from ..session.recipe import Recipe
-from ..session.steps import software_versions, utc_now
+from .seriesfile import (
+    SERIES_FILE,
+    SERIES_FORMAT,
+    SERIES_VERSION,
+    is_series_file,
+    read_series_document,
+    series_document,
+)
 from .variable import Variable
 
 __all__ = ["SeriesResult", "SeriesVerifyReport", "SeriesSessions", "SERIES_FORMAT",
-           "SERIES_VERSION", "SERIES_FILE", "read_series_document", "is_series_file"]
+           "SERIES_VERSION", "SERIES_FILE", "read_series_document", "is_series_file",
+           "series_document"]
 
-SERIES_FORMAT = "widgetkit-series"
-SERIES_VERSION = 1
-SERIES_FILE = "series.json"
 TABLE_COLUMNS = ["spectrum", "source", "sha256", "variable", "isotopologue", "name", "value",
                  "stderr", "unit", "status"]
 #: ok, doubtful, failed: as the Series panel draws them (data blue, model orange, outlier red)
 STATUS_COLORS = {"ok": "#1f4e79", "doubtful": "#e69f00", "failed": "#d7191c"}
-
-
-def is_series_file(path: str | os.PathLike) -> bool:
-    """Whether ``path`` looks like a series file (its ``format`` field, read cheaply), or is a
-    folder holding one."""
-    if os.path.isdir(path):
-        return is_series_file(os.path.join(path, SERIES_FILE))
-    try:
-        with open(path, "rb") as fh:
-            head = fh.read(4096)
-    except OSError:
-        return False
-    return f'"format":"{SERIES_FORMAT}"'.encode() in head.replace(b" ", b"")
-
-
-def read_series_document(path: str | os.PathLike) -> dict:
-    """Read and check a series file; :class:`SeriesError` naming the field otherwise."""
-    p = str(path)
-    try:
-        doc = json.loads(Path(p).read_text(encoding="utf-8"))
-    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
-        raise SeriesError(f"not a series file (invalid JSON: {exc})", path=p) from None
-    if not isinstance(doc, dict) or doc.get("format") != SERIES_FORMAT:
-        raise SeriesError(f"not a widgetkit series file (format {doc.get('format')!r})"
-                          if isinstance(doc, dict) else "not a widgetkit series file", path=p)
-    v = doc.get("version")
-    if not isinstance(v, int) or isinstance(v, bool) or v < 1:
-        raise SeriesError(f"field version: must be a positive integer, got {v!r}", path=p)
-    if v > SERIES_VERSION:
-        raise SeriesError(f"the series file is of version {v}; this widgetkit reads up to "
-                          f"{SERIES_VERSION}; upgrade widgetkit", path=p)
-    spectra = doc.get("spectra")
-    if not isinstance(spectra, list):
-        raise SeriesError("field spectra: must be a list", path=p)
-    for i, e in enumerate(spectra):
-        if not isinstance(e, dict) or not isinstance(e.get("name"), str) \
-                or e.get("status") not in ("ok", "doubtful", "failed"):
-            raise SeriesError(f"field spectra/{i}: each entry needs a 'name' and a 'status' "
-                              "(ok, doubtful or failed)", path=p)
-        sess = e.get("session")
-        if sess is not None and (not isinstance(sess, str) or os.path.isabs(sess)
-                                 or ".." in Path(sess).parts):
-            raise SeriesError(f"field spectra/{i}/session: must be a path inside the series "
-                              f"folder, got {sess!r}", path=p)
-    Recipe.from_json(doc.get("recipe"), path=p)
-    return doc
-
-
-def series_document(recipe: Recipe, variable: Variable | None, entries: list[dict], *,
-                    created: str, complete: bool) -> dict:
-    """The series file's document (module notes)."""
-    return {"format": SERIES_FORMAT, "version": SERIES_VERSION, "session_version": codec.VERSION,
-            "created": created, "modified": utc_now(), "software": software_versions(),
-            "complete": bool(complete), "recipe": recipe.to_json(),
-            "recipe_sha256": recipe.sha256,
-            "variable": None if variable is None else variable.to_json(), "spectra": entries}
 
 
 @dataclass(frozen=True, repr=False)

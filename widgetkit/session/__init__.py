@@ -9,6 +9,8 @@ from . import (  # noqa: F401  (register the step kinds)
     kinds_bandmodel,
     kinds_basic,
     kinds_lines,
+    kinds_locks,
+    kinds_peaks,
     kinds_raman,
 )
 from .recipe import Recipe, RecipeRun, RecipeStep
