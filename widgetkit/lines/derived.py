@@ -12,6 +12,11 @@ with first-order (delta-method) uncertainties ``var(q) = g^T C g``, ``g`` the
 gradient of ``q`` with respect to (area, widths) and ``C`` their covariance,
 obtained from the variables' covariance through the exact ``dθ/dv`` of the
 constraint expressions (so tied and shared parameters carry their share).
+
+For a large fit the variables' covariance is sparse (only the entries a line
+fit needs, :mod:`.structured`); the parameters' covariance is then a
+:class:`~.structured.ParameterCovariance` computed entry by entry, never an
+n × n matrix.
 """
 
 from __future__ import annotations
@@ -20,9 +25,11 @@ from collections.abc import Sequence
 
 import numpy as np
 import pandas as pd
+import scipy.sparse as sp
 
 from .params import ThetaMap, line_prefix
 from .shapes import Shape
+from .structured import ParameterCovariance
 
 __all__ = ["line_table", "parameter_covariance"]
 
@@ -33,11 +40,14 @@ def parameter_covariance(tmap: ThetaMap, v: np.ndarray, covar: np.ndarray | None
     Returns
     -------
     values : dict name -> (value, index)
-    cov : ndarray (n_params, n_params) or None
+    cov : ndarray (n_params, n_params), ParameterCovariance (sparse ``covar``) or None
+        Indexed as ``cov[i, j]`` with integer arrays either way.
     """
     values, jac = tmap.all_values_and_jacobian(v)
     if covar is None:
         return values, None
+    if sp.issparse(covar):
+        return values, ParameterCovariance(jac, covar)
     jd = jac.toarray()
     return values, jd @ covar @ jd.T
 
@@ -64,13 +74,11 @@ def line_table(shape: Shape, line_ids: Sequence, values: dict, cov: np.ndarray |
 
     h_err = np.full(m, np.nan)
     f_err = np.full(m, np.nan)
-    if cov is not None:
-        sub_names = ["area", *shape.widths]
-        for j in range(m):
-            k = [idx[s][j] for s in sub_names]
-            c = cov[np.ix_(k, k)]
-            h_err[j] = np.sqrt(max(h_grad[:, j] @ c @ h_grad[:, j], 0.0))
-            f_err[j] = np.sqrt(max(f_grad[:, j] @ c @ f_grad[:, j], 0.0))
+    if cov is not None and m:
+        kk = np.array([idx[s] for s in ["area", *shape.widths]]).T  # (m, 1 + n_widths)
+        c = np.asarray(cov[kk[:, :, None], kk[:, None, :]])  # every line's block at once
+        h_err = np.sqrt(np.clip(np.einsum("im,mij,jm->m", h_grad, c, h_grad), 0.0, None))
+        f_err = np.sqrt(np.clip(np.einsum("im,mij,jm->m", f_grad, c, f_grad), 0.0, None))
     cols = {
         "line_id": list(line_ids),
         "position": val["position"], "position_err": err("position"),

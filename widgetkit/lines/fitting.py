@@ -44,7 +44,7 @@ from threadpoolctl import threadpool_limits
 
 from ..errors import FitError
 from ..processing.noise import estimate_noise
-from . import solver
+from . import solver, structured
 from ._lmfit_sparse import SparseMinimizer
 from .baselines import get_baseline
 from .derived import line_table, parameter_covariance
@@ -351,14 +351,18 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     try:
         # from a converged point one cheap trust-region iteration is all lmfit needs
         extra = {"tr_options": {"maxiter": 25}} if crit < CONVERGENCE_TOL else {}
-        res = mini.least_squares(params=current, **extra)
+        if model.structured:  # many variables: no dense step anywhere (lines.structured)
+            res = structured.lmfit_result(mini, model, current, v)
+        else:
+            res = mini.least_squares(params=current, **extra)
         nfev += int(res.nfev)
         njev += int(getattr(res, "njev", 0) or 0)
         if res.aborted or not np.isfinite(res.chisqr):
             error = f"the solver stopped: {res.message}"
         else:
             v = model.variables(res.params)
-            crit, held = solver.certify(res.jac, res.residual, v, lo, hi, res.redchi)
+            crit, held = solver.certify(getattr(res, "jac", None), res.residual, v, lo, hi,
+                                        res.redchi, model=model)
             at_bound = [tmap.var_names[k] for k in held]
     except (ValueError, FloatingPointError, np.linalg.LinAlgError) as exc:
         error = f"the solver failed: {exc}"

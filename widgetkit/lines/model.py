@@ -33,10 +33,19 @@ from .baselines import Baseline
 from .params import ThetaMap
 from .shapes import Shape
 
-__all__ = ["WindowedModel", "GAUSS_WINDOW_CAP"]
+__all__ = ["WindowedModel", "GAUSS_WINDOW_CAP", "STRUCTURED_MIN_VARS", "WINGS_EXACT_MAX",
+           "FAR_WING_REACH", "COMPONENTS_DENSE_MAX"]
 
 #: a Gaussian is evaluated at most this many HWHM from its centre
 GAUSS_WINDOW_CAP = 12.0
+#: fits with more variables than this use the structured (banded) normal equations
+STRUCTURED_MIN_VARS = 400
+#: far wings are exact (every line on every point) up to this many line × point pairs
+WINGS_EXACT_MAX = 20_000_000
+#: beyond that, each far wing reaches this many window half-widths from its line
+FAR_WING_REACH = 3.0
+#: ``components`` is a dense array up to this many line × point pairs, sparse beyond
+COMPONENTS_DENSE_MAX = 20_000_000
 
 
 class WindowedModel:
@@ -69,6 +78,8 @@ class WindowedModel:
         self.n_b = len(baseline.params)
         self._var_index = [] if tmap is None else [tmap.vindex[n] for n in tmap.var_names]
         self.wings = np.zeros(x.size)
+        #: normal equations in banded-plus-arrowhead form (:mod:`.structured`), never dense
+        self.structured = tmap is not None and len(tmap.var_names) > STRUCTURED_MIN_VARS
 
     # ------------------------------------------------------------- windows
     def window_ranges(self, theta: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -115,17 +126,56 @@ class WindowedModel:
         self.pairs = pairs
 
     def set_wings(self, theta: np.ndarray) -> float:
-        """Fix the far-wing offset outside the windows from θ; return its largest change."""
+        """Fix the far-wing offset outside the windows from θ; return its largest change.
+
+        Exact (every line on the whole grid) while ``n_lines × n`` is at most
+        :data:`WINGS_EXACT_MAX`; beyond, each wing is summed out to
+        :data:`FAR_WING_REACH` window widths (see :meth:`_reach_wings`).
+        """
         new = np.zeros(self.x.size)
         if self.window is not None and self.shape.wing is not None:
             lp, _ = self._split(theta)
-            for i in range(self.n_lines):
-                w = self.shape.wing(self.x, *lp[:, i])
-                w[self.starts[i]:self.ends[i]] = 0.0
-                new += w
+            if self.n_lines * self.x.size > WINGS_EXACT_MAX:
+                new = self._reach_wings(lp)
+            else:
+                for i in range(self.n_lines):
+                    w = self.shape.wing(self.x, *lp[:, i])
+                    w[self.starts[i]:self.ends[i]] = 0.0
+                    new += w
         change = float(np.max(np.abs(new - self.wings))) if new.size else 0.0
         self.wings = new
         return change
+
+    def _reach_wings(self, lp: np.ndarray) -> np.ndarray:
+        """Far wings out to ``FAR_WING_REACH`` × the window on either side, vectorised.
+
+        A 1/d² wing beyond R half widths is below 1/R² of its line's peak; the
+        neglected tail of all lines, spaced s half widths apart, is at most
+        about peak / (s R) on either side (3e-5 of the peak for the default
+        window, R = 300 HWHM, and lines s = 100 HWHM apart): a smooth offset
+        that the baseline takes up.
+        """
+        n = self.x.size
+        hw = 0.5 * np.abs(self.shape.approx_fwhm(*np.abs(lp[2:])))
+        reach = FAR_WING_REACH * self.window * hw
+        fs = np.searchsorted(self.x, lp[1] - reach, side="left")
+        fe = np.searchsorted(self.x, lp[1] + reach, side="right")
+        out = np.zeros(n)
+        segs = [(fs, np.maximum(self.starts, fs)), (np.minimum(self.ends, fe), fe)]
+        for a, b in segs:
+            lengths = np.maximum(b - a, 0)
+            step = max(1, int(4e6 // max(1, int(lengths.max(initial=1)))))
+            for c0 in range(0, self.n_lines, step):  # chunks bound the memory
+                sl = slice(c0, c0 + step)
+                ln = lengths[sl]
+                total = int(ln.sum())
+                if total == 0:
+                    continue
+                offs = np.repeat(np.cumsum(ln) - ln, ln)
+                idx = np.repeat(a[sl], ln) + (np.arange(total) - offs)
+                seg = np.repeat(np.arange(c0, c0 + ln.size), ln)
+                out += np.bincount(idx, self.shape.wing(self.x[idx], *lp[:, seg]), minlength=n)
+        return out
 
     @property
     def nnz(self) -> int:
@@ -145,8 +195,18 @@ class WindowedModel:
         return (self.baseline.evaluate(self.u, bc) + self.wings
                 + np.bincount(self.rows, vals, minlength=self.x.size))
 
-    def components(self, theta: np.ndarray) -> np.ndarray:
-        """Each line on ``x`` (its far wing outside its window), shape (n_lines, n)."""
+    def components(self, theta: np.ndarray):
+        """Each line on ``x`` (its far wing outside its window), shape (n_lines, n).
+
+        Dense while ``n_lines × n`` is at most :data:`COMPONENTS_DENSE_MAX`;
+        beyond, a sparse array (``scipy.sparse.csr_array``) holding each line
+        inside its window only (far wings left out), so that memory stays
+        linear in the number of lines.
+        """
+        if self.n_lines * self.x.size > COMPONENTS_DENSE_MAX:
+            from .structured import components
+
+            return components(self, theta)
         lp, _ = self._split(theta)
         vals = self.shape.profile(self.X, *lp[:, self.seg])
         out = np.zeros((self.n_lines, self.x.size))
@@ -169,15 +229,17 @@ class WindowedModel:
         return sp.csc_array((data, self.indices, self.indptr),
                             shape=(self.x.size, self.n_lines * self.n_lp + self.n_b))
 
-    def normal_equations(self, v: np.ndarray, r: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """``J^T J`` (dense, n_vars × n_vars) and ``J^T r`` without forming ``J``.
+    def normal_blocks(self, theta: np.ndarray, r: np.ndarray):
+        """The non-zero blocks of ``J_θ^T J_θ`` and ``J_θ^T r`` from the window structure.
 
-        Uses the window structure: a line's block with itself is a sum over
-        its window, with another line a sum over the overlap of two windows,
-        with the baseline a sum over its window. Equal to the products of
-        :meth:`jacobian_vec` (tested).
+        A line's block with itself is a sum over its window, with another line a
+        sum over the overlap of two windows, with the baseline a sum over its
+        window. Returns ``(diag, pairs, lb, bb, gt)``: ``diag[a][b - a]`` the
+        (a, b) entries of every line's own block (a ≤ b, length n_lines each),
+        ``pairs`` a list of ``(i, j, block)`` for overlapping windows,
+        ``lb`` (n_lines·n_lp, n_b) the line–baseline block, ``bb`` the baseline
+        block and ``gt`` the gradient (θ order).
         """
-        theta = self.tmap.values(v)
         lp, bc = self._split(theta)
         m, npar, nb = self.n_lines, self.n_lp, self.n_b
         G = self.shape.gradient(self.X, *lp[:, self.seg])[1:]
@@ -185,34 +247,53 @@ class WindowedModel:
         if self.w is not None:
             G = G * self.w[self.rows]
             B = B * self.w
-        nt = m * npar + nb
-        H = np.zeros((nt, nt))
-        gt = np.zeros(nt)
-        idx = np.arange(m)
+        gt = np.zeros(m * npar + nb)
         starts = self.offsets
-        Gr = G * r[self.rows]
-        gt[: m * npar] = np.add.reduceat(Gr, starts, axis=1).ravel()
-        for a in range(npar):
-            prod = G[a:] * G[a]
-            red = np.add.reduceat(prod, starts, axis=1)
-            for k, b in enumerate(range(a, npar)):
-                H[a * m + idx, b * m + idx] = red[k]
-                H[b * m + idx, a * m + idx] = red[k]
+        gt[: m * npar] = np.add.reduceat(G * r[self.rows], starts, axis=1).ravel()
+        diag = [np.add.reduceat(G[a:] * G[a], starts, axis=1) for a in range(npar)]
+        pairs = []
         for i, j in self.pairs:
             lo, hi = self.starts[j], min(self.ends[i], self.ends[j])
             gi = G[:, self.offsets[i] + lo - self.starts[i]: self.offsets[i] + hi - self.starts[i]]
             gj = G[:, self.offsets[j]: self.offsets[j] + hi - lo]
-            blk = gi @ gj.T
-            H[np.ix_(idx[i] + m * np.arange(npar), idx[j] + m * np.arange(npar))] = blk
-            H[np.ix_(idx[j] + m * np.arange(npar), idx[i] + m * np.arange(npar))] = blk.T
+            pairs.append((i, j, gi @ gj.T))
+        lb = np.zeros((m * npar, nb))
         if nb:
             Bp = B[:, self.rows]
             lb = np.stack([np.add.reduceat(G * Bp[c], starts, axis=1).ravel() for c in range(nb)],
                           axis=1)
+            gt[m * npar:] = B @ r
+        return diag, pairs, lb, B @ B.T, gt
+
+    def normal_equations(self, v: np.ndarray, r: np.ndarray):
+        """``J^T J`` and ``J^T r`` of the variables without forming ``J``.
+
+        Dense (n_vars × n_vars) for small fits; with :attr:`structured` set an
+        :class:`~.banded.ArrowSystem` (banded lines plus global rows, never
+        dense; :mod:`.structured`). Equal to the products of
+        :meth:`jacobian_vec` (tested).
+        """
+        if self.structured:
+            from .structured import normal_equations
+
+            return normal_equations(self, v, r)
+        theta = self.tmap.values(v)
+        m, npar, nb = self.n_lines, self.n_lp, self.n_b
+        diag, pairs, lb, bb, gt = self.normal_blocks(theta, r)
+        nt = m * npar + nb
+        H = np.zeros((nt, nt))
+        idx = np.arange(m)
+        for a in range(npar):
+            for k, b in enumerate(range(a, npar)):
+                H[a * m + idx, b * m + idx] = diag[a][k]
+                H[b * m + idx, a * m + idx] = diag[a][k]
+        for i, j, blk in pairs:
+            H[np.ix_(i + m * np.arange(npar), j + m * np.arange(npar))] = blk
+            H[np.ix_(j + m * np.arange(npar), i + m * np.arange(npar))] = blk.T
+        if nb:
             H[: m * npar, m * npar:] = lb
             H[m * npar:, : m * npar] = lb.T
-            H[m * npar:, m * npar:] = B @ B.T
-            gt[m * npar:] = B @ r
+            H[m * npar:, m * npar:] = bb
         if self.tmap.identity:
             return H, gt
         D = self.tmap.jacobian(v).toarray()

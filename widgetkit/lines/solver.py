@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .banded import ArrowSystem
 from .model import WindowedModel
 
 __all__ = ["levenberg_marquardt", "certify", "gauss_newton", "rewindow", "CONVERGENCE_TOL"]
@@ -43,6 +44,8 @@ def _held(v, g, lo, hi):
 
 def _solve(hess, g, free, lam=0.0):
     """Step minimising the (damped) quadratic model over the free variables."""
+    if isinstance(hess, ArrowSystem):
+        return hess.solve(g, free, lam)[0]
     step = np.zeros_like(g)
     if np.any(free):
         hf = hess[np.ix_(free, free)]
@@ -63,7 +66,12 @@ def gauss_newton(hess, g, free, fast=False):
     Pseudo-inverse of the scaled normal matrix (undetermined directions are
     left alone); with ``fast=True`` a Cholesky factorisation is tried first
     (well-conditioned case) and the eigen-decomposition used only if it fails.
+    A structured ``hess`` (:class:`~.banded.ArrowSystem`) is solved in its own
+    form, a small ridge standing in for the pseudo-inverse.
     """
+    if isinstance(hess, ArrowSystem):
+        step, pred, _ = hess.solve(g, np.asarray(free, dtype=bool))
+        return step, pred
     step = np.zeros_like(g)
     if not np.any(free):
         return step, 0.0
@@ -105,9 +113,17 @@ def bounded_gauss_newton(hess, g, v, lo, hi, *, fast=False):
         held = held | out
 
 
-def certify(jac, r, v, lo, hi, redchi):
+def certify(jac, r, v, lo, hi, redchi, model: WindowedModel | None = None):
     """Predicted chi-square reduction of the exact Gauss–Newton step, in reduced
-    chi-squares, and the indices of variables held at a bound."""
+    chi-squares, and the indices of variables held at a bound.
+
+    With a structured ``model`` (:attr:`WindowedModel.structured`) the normal
+    equations come from the model's window structure (``jac`` is not used).
+    """
+    if model is not None and model.structured:
+        hess, g = model.normal_equations(v, r)
+        _, pred, held = bounded_gauss_newton(hess, g, v, lo, hi)
+        return pred / max(redchi, 1e-300), np.nonzero(held)[0]
     g = jac.T @ r
     hess = jac.T @ jac
     hess = hess.toarray() if hasattr(hess, "toarray") else np.asarray(hess)

@@ -1,0 +1,211 @@
+"""Structured (banded plus arrowhead) normal equations against the dense numpy answer.
+
+References: numpy.linalg (solve, inv, pinv) on the same small matrices, and the
+dense path of the fit itself (``STRUCTURED_MIN_VARS`` raised). The bands are
+invented (conftest), so the fit comparisons are self-consistency checks.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import scipy.sparse as sp
+from conftest import simulate_band
+
+import widgetkit.lines as wl
+from widgetkit.lines import model as model_mod
+from widgetkit.lines import solver, structured
+from widgetkit.lines.banded import ArrowSystem, selected_inverse
+
+
+def _arrow_matrix(rng, n_loc=50, g=3, n_rows=500):
+    """J^T J of a random J whose local columns cover overlapping row ranges."""
+    J = np.zeros((n_rows, n_loc + g))
+    for j in range(n_loc):
+        lo = max(0, j * 9 - 30)
+        J[lo:lo + 60, j] = rng.normal(size=min(60, n_rows - lo))
+    J[:, n_loc:] = rng.normal(size=(n_rows, g))
+    H = J.T @ J
+    perm = rng.permutation(n_loc + g)  # the variables' own order is shuffled
+    Ho = np.empty_like(H)
+    Ho[np.ix_(perm, perm)] = H
+    return Ho, perm
+
+
+def test_selected_inverse_equals_numpy_inverse_inside_the_band():
+    import scipy.linalg as sla
+
+    rng = np.random.default_rng(1)
+    n, b = 40, 4
+    A = np.zeros((n, n))
+    for k in range(b + 1):
+        v = rng.normal(size=n - k) * (0.3 if k else 0.0)
+        A += np.diag(v, -k) + (np.diag(v, k) if k else 0)
+    A += np.diag(np.full(n, 3.0))
+    ab = np.array([np.r_[np.diag(A, -k), np.zeros(k)] for k in range(b + 1)])
+    sig = selected_inverse(sla.cholesky_banded(ab, lower=True))
+    ref = np.linalg.inv(A)  # numpy.linalg.inv as the reference
+    for k in range(b + 1):
+        assert np.allclose(sig[k, : n - k], np.diag(ref, -k), rtol=1e-12, atol=1e-14)
+
+
+def test_arrow_solve_and_covariance_equal_dense_numpy():
+    rng = np.random.default_rng(0)
+    H, perm = _arrow_matrix(rng)
+    system = ArrowSystem(sp.csr_array(H), perm, 50)
+    assert system.bw < 20  # banded, not dense
+    g = rng.normal(size=H.shape[0])
+    free = np.ones(g.size, dtype=bool)
+    free[[3, 17]] = False
+    step, pred, ridge = system.solve(g, free)
+    ref = np.zeros_like(g)
+    ref[free] = -np.linalg.solve(H[np.ix_(free, free)], g[free])  # numpy.linalg.solve
+    assert ridge == 0.0
+    assert np.allclose(step, ref, rtol=1e-10, atol=1e-12 * np.abs(ref).max())
+    assert pred == pytest.approx(-g @ ref, rel=1e-10)
+    damped = system.solve(g, free, lam=0.1)[0]
+    d = np.sqrt(np.diag(H))[free]
+    hs = H[np.ix_(free, free)] / np.outer(d, d) + 0.1 * np.eye(d.size)
+    assert np.allclose(damped[free], -np.linalg.solve(hs, g[free] / d) / d, rtol=1e-10)
+
+    cov = system.covariance()
+    inv = np.linalg.inv(H)  # numpy.linalg.inv
+    computed = cov.to_sparse().toarray()
+    mask = computed != 0
+    assert mask.mean() < 0.7  # only the band and the global rows
+    assert np.allclose(computed[mask], inv[mask], rtol=1e-9, atol=1e-12 * np.abs(inv).max())
+    assert np.allclose(cov.diagonal(), np.diag(inv), rtol=1e-10)
+    far = (perm[0], perm[49])  # two local variables at either end of the band
+    assert np.isnan(cov.entries(*far))
+
+
+def test_a_variable_the_data_does_not_touch_is_left_alone_like_the_pseudo_inverse():
+    rng = np.random.default_rng(2)
+    H, perm = _arrow_matrix(rng)
+    H[5, :] = 0.0
+    H[:, 5] = 0.0
+    g = rng.normal(size=H.shape[0])
+    g[5] = 0.0
+    step, pred, ridge = ArrowSystem(sp.csr_array(H), perm, 50).solve(g, np.ones(g.size, bool))
+    ref = -np.linalg.pinv(H) @ g  # numpy.linalg.pinv
+    assert ridge > 0.0 and step[5] == pytest.approx(0.0, abs=1e-12)
+    assert np.allclose(step, ref, rtol=1e-6, atol=1e-8 * np.abs(ref).max())
+    assert pred == pytest.approx(-g @ ref, rel=1e-6)
+
+
+def _spy_model(monkeypatch, band, **kw):
+    seen = {}
+    orig = solver.levenberg_marquardt
+
+    def spy(model, v, *a, **k):
+        seen["model"], seen["v"] = model, v
+        return orig(model, v, *a, **k)
+
+    monkeypatch.setattr(solver, "levenberg_marquardt", spy)
+    res = wl.fit(band.x, band.y, band.positions + 0.01, **kw)
+    return seen["model"], seen["v"], res
+
+
+@pytest.mark.parametrize("kw", [
+    {}, {"shared_width": True}, {"baseline": "exponential"}, {"baseline": "none"},
+    {"constraints": {"l2_area": "0.5 * l1_area", "l4_gamma": 0.08}},
+    {"shared_width": {"a": [1, 2, 3], "b": [5, 6]}}, {"shape": "pseudo_voigt", "window": 20},
+])
+def test_structured_normal_equations_give_the_dense_step_and_covariance(kw, monkeypatch):
+    b = simulate_band(n_lines=8, n_points=3000)
+    model, v, _ = _spy_model(monkeypatch, b, **kw)
+    r = model.residual_vec(v)
+    H, g = model.normal_equations(v, r)
+    model.structured = True
+    S, g2 = model.normal_equations(v, r)
+    assert isinstance(S, ArrowSystem) and np.allclose(g2, g, rtol=1e-12, atol=0)
+    free = np.ones(v.size, dtype=bool)
+    free[1] = False
+    st, pred = solver.gauss_newton(S, g2, free)
+    ref, pred0 = solver.gauss_newton(H, g, free)  # the dense path (numpy)
+    assert np.allclose(st, ref, rtol=1e-8, atol=1e-10 * np.abs(ref).max())
+    assert pred == pytest.approx(pred0, rel=1e-8)
+    computed = S.covariance().to_sparse().toarray()
+    inv = np.linalg.inv(H)
+    mask = computed != 0
+    scale = np.sqrt(np.outer(np.diag(inv), np.diag(inv)))
+    assert np.max(np.abs(computed - inv)[mask] / scale[mask]) < 1e-8
+
+
+@pytest.mark.parametrize("kw", [
+    {}, {"shared_width": True}, {"constraints": {"l2_area": "0.5 * l1_area", "l4_gamma": 0.08}},
+    {"shape": "gaussian", "baseline": "poly2"},
+])
+def test_a_structured_fit_equals_the_dense_fit(kw, monkeypatch):
+    b = simulate_band(n_lines=8, n_points=3000)
+    dense = wl.fit(b.x, b.y, b.positions + 0.01, **kw)
+    monkeypatch.setattr(model_mod, "STRUCTURED_MIN_VARS", 0)
+    fast = wl.fit(b.x, b.y, b.positions + 0.01, **kw)
+    assert dense.converged and fast.converged
+    assert sp.issparse(fast.result.covar) and not sp.issparse(dense.result.covar)
+    assert fast.chisqr == pytest.approx(dense.chisqr, rel=1e-8)
+    for col in dense.table.columns[1:]:
+        assert np.allclose(fast.table[col], dense.table[col], rtol=1e-5, atol=0), col
+    assert np.allclose(fast.baseline_params.stderr, dense.baseline_params.stderr, rtol=1e-5)
+    for name, par in dense.params.items():
+        if par.stderr:
+            assert fast.params[name].stderr == pytest.approx(par.stderr, rel=1e-5), name
+    k = next(iter(fast.params["l3_area"].correl))
+    assert fast.params["l3_area"].correl[k] == pytest.approx(
+        dense.params["l3_area"].correl[k], rel=1e-4, abs=1e-7)
+
+
+def test_parameter_covariance_equals_the_dense_propagation(monkeypatch):
+    b = simulate_band(n_lines=6, n_points=2500)
+    kw = {"constraints": {"l2_area": "0.5 * l1_area", "l3_position": "l2_position + 3.8"},
+          "shared_width": "gamma"}
+    model, v, _ = _spy_model(monkeypatch, b, **kw)
+    H, _ = model.normal_equations(v, model.residual_vec(v))
+    values, jac = model.tmap.all_values_and_jacobian(v)
+    jd = jac.toarray()
+    ref = jd @ np.linalg.inv(H) @ jd.T  # dense delta-method propagation (numpy)
+    model.structured = True
+    S, _ = model.normal_equations(v, model.residual_vec(v))
+    pc = structured.ParameterCovariance(jac, S.covariance())
+    k = np.arange(len(values))
+    assert np.allclose(pc[k, k], np.diag(ref), rtol=1e-8)
+    line3 = [values[f"l3_{p}"][1] for p in ("area", "position", "sigma", "gamma")]
+    blk = pc[np.ix_(line3, line3)]
+    assert np.allclose(blk, ref[np.ix_(line3, line3)], rtol=1e-7, atol=1e-12 * np.abs(blk).max())
+
+
+def test_blocks_are_the_connected_components_of_the_window_overlaps(monkeypatch):
+    b = simulate_band(n_lines=8, n_points=3000)
+    model, _, _ = _spy_model(monkeypatch, b, window=20)
+    labels = structured.blocks(model)
+    order = np.argsort(model.starts)
+    for i, j in zip(order[:-1], order[1:]):  # neighbours along the spectrum
+        overlap = model.starts[j] < np.max(model.ends[order[: list(order).index(j)]])
+        assert (labels[i] == labels[j]) == overlap
+    assert len(set(labels)) == 2  # two groups of four lines in this band
+
+
+def test_reach_limited_wings_differ_from_the_exact_ones_only_by_the_neglected_tail(monkeypatch):
+    b = simulate_band(n_lines=8, n_points=6000)
+    model, v, _ = _spy_model(monkeypatch, b, window=5)
+    theta = model.tmap.values(v)
+    model.set_wings(theta)
+    exact = model.wings.copy()
+    monkeypatch.setattr(model_mod, "WINGS_EXACT_MAX", 0)
+    model.set_wings(theta)
+    reach = model.wings
+    lp = theta[: 8 * 4].reshape(4, 8)
+    peak = np.max(np.abs(lp[0]) / (np.pi * lp[3]))
+    # each neglected wing lies beyond R = 3 x 5 HWHM, where it is below peak / R^2
+    assert 0 < np.max(np.abs(exact - reach)) <= 8 * peak / 15.0**2
+    assert np.max(np.abs(exact - reach)) < 0.2 * np.max(np.abs(exact))
+
+
+def test_components_are_sparse_beyond_the_dense_limit(monkeypatch):
+    b = simulate_band(n_lines=5, n_points=2000)
+    res = wl.fit(b.x, b.y, b.positions, window=None)
+    monkeypatch.setattr(model_mod, "COMPONENTS_DENSE_MAX", 0)
+    res2 = wl.fit(b.x, b.y, b.positions, window=None)
+    assert sp.issparse(res2.components) and res2.components.shape == res.components.shape
+    assert np.allclose(res2.components.toarray(), res.components, rtol=1e-6,
+                       atol=1e-9 * np.abs(res.components).max())
