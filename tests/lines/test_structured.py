@@ -209,3 +209,18 @@ def test_components_are_sparse_beyond_the_dense_limit(monkeypatch):
     assert sp.issparse(res2.components) and res2.components.shape == res.components.shape
     assert np.allclose(res2.components.toarray(), res.components, rtol=1e-6,
                        atol=1e-9 * np.abs(res.components).max())
+
+
+def test_points_far_from_lines_match_the_direct_test_including_the_edges():
+    from widgetkit.lines.start import _far_from_lines
+
+    rng = np.random.default_rng(5)
+    for _ in range(100):
+        x = np.sort(rng.uniform(0.0, 10.0, rng.integers(5, 300)))
+        p = rng.uniform(-1.0, 11.0, rng.integers(1, 20))
+        reach = rng.uniform(0.0, 2.0, p.size)
+        direct = np.all(np.abs(x[:, None] - p[None, :]) > reach[None, :], axis=1)
+        assert np.array_equal(_far_from_lines(x, p, reach), direct)
+    x = np.arange(10.0)
+    assert _far_from_lines(x, np.array([5.0]), np.array([2.0])).tolist() == [
+        True, True, True, False, False, False, False, False, True, True]  # |x - 5| > 2
