@@ -223,3 +223,19 @@ def test_a_progression_is_plotted_against_the_upper_level():
     n_labelled = int(session.assignments["label"].notna().sum())
     assert panel.fortrat_obs.x.size == n_labelled > 0
     assert "omega_e" in panel.constants_table.value
+
+
+def test_the_fit_shows_its_progress_and_keeps_a_fit_stopped_by_its_budget(peaked, monkeypatch):
+    panel = LinesPanel(peaked)
+    statuses = []
+    panel.status.observe(lambda change: statuses.append(change["new"]), "value")
+    opts = panel.fit_options()
+    monkeypatch.setattr(panel, "fit_options", lambda: {**opts, "max_nfev": 1})
+    panel.fit_button.click()
+    assert any("of the budget" in s for s in statuses)          # progress in the busy line
+    fit = peaked.line_fit
+    assert fit is not None and not fit.converged and fit.stopped == "evaluations"
+    assert "kept although it did not converge" in panel.status.value
+    assert "evaluations was spent" in panel.status.value and "lmfit" not in panel.status.value
+    assert "did not converge" in panel.fit_summary.value
+    assert panel.plot.curve("model").x.size > 0                  # and its figure is drawn

@@ -27,6 +27,9 @@ __all__ = [
     "Baseline",
     "DEFAULT_WINDOW",
     "CONVERGENCE_TOL",
+    "DEFAULT_MAX_NFEV",
+    "DEFAULT_TIME_LIMIT",
+    "Budget",
     "gaussian",
     "lorentzian",
     "voigt",
@@ -42,7 +45,8 @@ __all__ = [
 #: public name -> the module (in this package) that defines it
 _WHERE = {
     "fit": "fitting", "LineFit": "fitting", "DEFAULT_WINDOW": "fitting",
-    "CONVERGENCE_TOL": "fitting", "BASELINES": "baselines", "Baseline": "baselines",
+    "CONVERGENCE_TOL": "fitting", "DEFAULT_MAX_NFEV": "budget", "DEFAULT_TIME_LIMIT": "budget",
+    "Budget": "budget", "BASELINES": "baselines", "Baseline": "baselines",
     "check_expression": "expressions", "estimate_noise": "..processing.noise",
     **{name: "shapes" for name in ("SHAPES", "Shape", "doppler_sigma", "gaussian", "lorentzian",
                                    "olivero_fwhm", "pseudo_voigt", "tch_parameters", "voigt",

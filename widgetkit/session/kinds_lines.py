@@ -8,9 +8,24 @@ settings as recorded, the model curves evaluated from them on first use by
 Parameters are declared once (shapes and baselines by name, constraint
 expressions checked for grammar, size and evaluability, bounded confidence
 intervals and fit size) for live calls and saved files alike.
+
+Budget and replay: every fit runs under a budget of evaluations (``max_nfev``) and
+wall time (``time_limit``); the step records both with what was used
+(``result["budget"]``: ``nfev``, ``seconds``, ``stopped``). A fit that stopped on
+its evaluation cap replays exactly by itself. A fit that stopped on its time limit
+would replay differently on a faster or busier machine, so its replay
+(:meth:`FitLines.replay`, used by ``verify`` and wherever a recorded fit is
+computed again) stops before the evaluation after the recorded ``nfev`` and counts
+that as the time limit: the same evaluations, the same result. Seconds are not
+compared. Progress (``Session.fit_lines(progress=...)``) is not recorded.
 """
 
 from __future__ import annotations
+
+import contextlib
+import contextvars
+import re
+from collections.abc import Callable, Iterator
 
 import numpy as np
 
@@ -27,7 +42,24 @@ from .steps import (
     table_to_json,
 )
 
-__all__ = ["FitLines", "MAX_CONF_INTERVAL", "MAX_FIT_CELLS", "SHAPE_WIDTHS", "BASELINE_NAMES"]
+__all__ = ["FitLines", "MAX_CONF_INTERVAL", "MAX_FIT_CELLS", "SHAPE_WIDTHS", "BASELINE_NAMES",
+           "progress_to"]
+
+#: the progress callback of the line fit now running (not recorded: it is not data)
+_PROGRESS: contextvars.ContextVar[Callable | None] = contextvars.ContextVar("lines_progress",
+                                                                             default=None)
+
+
+@contextlib.contextmanager
+def progress_to(callback: Callable | None) -> Iterator[None]:
+    """Send the progress ``(fraction, text)`` of line fits run inside the block to
+    ``callback``."""
+    token = _PROGRESS.set(callback)
+    try:
+        yield
+    finally:
+        _PROGRESS.reset(token)
+
 
 #: LineFit fields not recorded: the table and statistics are recorded beside the record,
 #: the arrays are rebuilt from the spectrum (:func:`widgetkit.lines.record.model_curves`),
@@ -106,6 +138,10 @@ class FitLines(StepKind):
         Param("conf_interval", "strings", None, nullable=True, max_items=MAX_CONF_INTERVAL,
               doc="parameters given confidence intervals"),
         Param("max_passes", "integer", 4, minimum=1, maximum=50, doc="solver restarts"),
+        Param("max_nfev", "integer", 2000, minimum=1, maximum=10_000_000,
+              doc="most model evaluations"),
+        Param("time_limit", "number", 60.0, above=0, maximum=86_400.0, unit="s",
+              doc="most seconds of wall time"),
         Param("strict", "boolean", False,
               doc="refuse a fit that has not converged instead of keeping it"),
     )
@@ -117,6 +153,19 @@ class FitLines(StepKind):
         return out
 
     def apply(self, state: State, params: dict, ctx):
+        return self._fit(state, params, None)
+
+    def replay(self, state: State, params: dict, result: dict, ctx):
+        """As :meth:`apply`; a fit recorded as stopped by its time limit stops at the
+        recorded number of evaluations instead (module docstring)."""
+        budget = result.get("budget") if isinstance(result, dict) else None
+        nfev = budget.get("nfev") if isinstance(budget, dict) else None
+        if (budget is None or budget.get("stopped") != "time" or isinstance(nfev, bool)
+                or not isinstance(nfev, int) or nfev < 0):
+            nfev = None
+        return self._fit(state, params, nfev)
+
+    def _fit(self, state: State, params: dict, replay_nfev: int | None):
         from .. import lines
 
         sp = state.require_spectrum()
@@ -133,7 +182,8 @@ class FitLines(StepKind):
         _check_fit_size(len(peaks), sp, region)
         strict = bool(opts.pop("strict", False))
         fit = lines.fit(sp.x, sp.y, peaks["position"].to_numpy(dtype=float),
-                        line_ids=[int(i) for i in peaks["peak_id"]], **opts)
+                        line_ids=[int(i) for i in peaks["peak_id"]], progress=_PROGRESS.get(),
+                        replay_nfev=replay_nfev, **opts)
         usable = np.all(np.isfinite(fit.table["position"])) and np.isfinite(fit.chisqr)
         if not fit.converged and (strict or not usable):
             why = "strict=True asks for a converged fit" if usable else "the result holds " \
@@ -145,19 +195,22 @@ class FitLines(StepKind):
             raise err
         result = {"lines": table_to_json(fit.table), "chisqr": float(fit.chisqr),
                   "redchi": float(fit.redchi), "converged": bool(fit.converged),
-                  "record": encode_fields(fit, skip=_LINEFIT_NOT_RECORDED)}
+                  "record": encode_fields(fit, skip=_LINEFIT_NOT_RECORDED),
+                  "budget": {"max_nfev": fit.spec.get("max_nfev"),
+                             "time_limit": fit.spec.get("time_limit"), "nfev": int(fit.nfev),
+                             "seconds": float(fit.seconds), "stopped": fit.stopped}}
         cleared = {} if state.assignment is None else {"assignment": assigned_count(state.assignment)}
         if cleared:
             result["cleared"] = cleared
         summary = (f"fitted {len(fit.table)} {opts.get('shape', 'voigt')} lines, "
                    f"reduced chi-square {fit.redchi:.3g}")
         if not fit.converged:
-            summary += f"; NOT converged ({fit.message})"
+            summary += f"; NOT converged ({_timeless(fit.message)})"
         summary += cleared_text(cleared)
         return state.evolve(line_fit=fit, assignment=None), result, summary
 
     #: diagnostics that legitimately differ between machines (the solver's last step size)
-    volatile = ("record.fields.message",)
+    volatile = ("record.fields.message", "record.fields.seconds", "budget.seconds")
 
     def restore(self, state, params, result, ctx):
         rec = result.get("record")
@@ -186,11 +239,23 @@ class FitLines(StepKind):
                 return curves[name]
             return compute
 
+        budget = result.get("budget") if isinstance(result.get("budget"), dict) else {}
+        converged = bool(result.get("converged"))
         fields.update(table=table, chisqr=result.get("chisqr"), redchi=result.get("redchi"),
-                      converged=bool(result.get("converged")), nfev=None, njev=None)
+                      converged=converged, nfev=budget.get("nfev"), njev=None)
+        fields.setdefault("stopped", "converged" if converged else "tolerance")
+        fields.setdefault("seconds", budget.get("seconds"))
         restored = Restored("LineFit", fields, lazy={n: curve(n) for n in _CURVES},
-                            real=lambda: self.apply(state, params, ctx)[0].line_fit)
+                            real=lambda: self.replay(state, params, result, ctx)[0].line_fit)
         return state.evolve(line_fit=restored, assignment=None)
+
+
+def _timeless(message: str) -> str:
+    """A fit's message without its opening "not converged:" and the closing "(N evaluations,
+    T s)": the summary is compared
+    on replay, and seconds differ between runs."""
+    text = re.sub(r"^not converged:\s*", "", str(message))
+    return re.sub(r"\s*\(\d+ evaluations?, [0-9.]+ s\)$", "", text)
 
 
 def _check_fit_size(n_lines: int, sp, region) -> None:

@@ -126,7 +126,7 @@ def restore_states(steps: list[Step], ctx: Context, path: str) -> tuple[list[Sta
                         f"the records of more than {MAX_RECOMPUTED} steps do not fit the "
                         "states before them; the file is too damaged to open (steps "
                         f"{', '.join(map(str, recomputed[:5]))}, ...)") from None
-                new = kind.apply(state, dict(step.params), ctx)[0]
+                new = kind.replay(state, dict(step.params), step.result, ctx)[0]
         except SessionFormatError as exc:
             raise SessionFormatError(f"step {i} ({step.kind}): {exc}", path=path) from None
         except Exception as exc:

@@ -87,19 +87,32 @@ class StepMethods:
         self._run("remove_peak", {"peak_id": peak_id})
 
     def fit_lines(self, *, shape: str = "voigt", shared_width=False, baseline: str | None = "linear",
-                  region=None, strict: bool = False, **options) -> pd.DataFrame:
+                  region=None, strict: bool = False, max_nfev: int | None = None,
+                  time_limit: float | None = None, progress=None, **options) -> pd.DataFrame:
         """Fit every peak (inside ``region``) with a line shape; see :func:`widgetkit.lines.fit`.
 
-        A fit that stops before it has converged is kept and recorded with ``converged``
-        False and the reason (``s.line_fit.message``); with ``strict=True`` it is refused
-        instead (:class:`~widgetkit.errors.FitError`, whose ``.fit`` holds it) and the
-        previous lines stay. Returns :attr:`lines`.
+        The fit always ends: at most ``max_nfev`` model evaluations (default 2000) and
+        ``time_limit`` seconds (default 60). ``progress(fraction, text)`` is called during
+        the fit and not recorded. A fit that stops before it has converged (on the
+        budget or a solver's tolerance) is kept and recorded with ``converged`` False and
+        the reason (``s.line_fit.message``, ``s.line_fit.stopped``); with ``strict=True``
+        it is refused instead (:class:`~widgetkit.errors.FitError`, whose ``.fit`` holds
+        it) and the previous lines stay. The step records the budget and what was used;
+        ``verify`` replays a fit stopped by its time limit to the recorded number of
+        evaluations. Returns :attr:`lines`.
         """
+        from .kinds_lines import progress_to
+
         params = {"shape": shape, "shared_width": shared_width, "baseline": baseline,
                   "region": region, **options}
         if strict:
             params["strict"] = True
-        self._run("fit_lines", params)
+        if max_nfev is not None:
+            params["max_nfev"] = max_nfev
+        if time_limit is not None:
+            params["time_limit"] = time_limit
+        with progress_to(progress):
+            self._run("fit_lines", params)
         return self.lines
 
     def assign_band(self, molecule, *, kind: str = "rovibrational", temperature: float | None = None,

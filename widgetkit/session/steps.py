@@ -243,6 +243,14 @@ class StepKind:
         """
         raise NotImplementedError
 
+    def replay(self, state: State, params: dict, result: dict, ctx: Context
+               ) -> tuple[State, dict, str]:
+        """Compute the step again to reproduce its recorded ``result`` (``verify``, and a
+        record that cannot be restored). The default is :meth:`apply`; a kind whose
+        computation depends on more than its parameters (a fit stopped by its time
+        limit) reads what it needs from the record to end where the record did."""
+        return self.apply(state, params, ctx)
+
     def restore(self, state: State, params: dict, result: dict, ctx: Context) -> State:
         """The state after this step, rebuilt from its recorded ``result`` (fast reopen).
 

@@ -151,7 +151,7 @@ def compare_results(recorded, replayed, *, rtol: float, where: str, out: list[st
 
 
 def replay_and_compare(steps: list, ctx, problems: list[str]) -> VerifyReport:
-    """Run every step again from the sources (``apply``, never ``restore``) and compare its
+    """Run every step again from the sources (``replay``, never ``restore``) and compare its
     result and summary with the record; ``problems`` (found while opening: hashes, records
     that had to be computed) are mismatches too. Steps are numbered from 0."""
     import json
@@ -174,7 +174,7 @@ def replay_and_compare(steps: list, ctx, problems: list[str]) -> VerifyReport:
         kind = STEP_KINDS[step.kind]
         where = f"step {i} ({step.kind})"
         try:
-            state, result, summary = kind.apply(state, dict(step.params), ctx)
+            state, result, summary = kind.replay(state, dict(step.params), step.result, ctx)
         except Exception as exc:  # a damaged file may make any computation fail
             what = str(exc) if isinstance(exc, WidgetkitError) else \
                 f"{type(exc).__name__}: {cut(str(exc), 200)}"

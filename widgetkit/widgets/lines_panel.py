@@ -145,15 +145,25 @@ class LinesPanel(PlotPanel):
         shape = SHAPE_NAMES.get(opts["shape"], opts["shape"])
         self.fit_button.description = "Fitting…"
         self.fit_button.icon = "hourglass-half"
+        def progress(fraction: float, text: str) -> None:
+            self.show_status("busy", f"fitting {plural(n, shape + ' line')}: {text} "
+                                     f"({fraction:.0%} of the budget)")
+
         try:
-            self._call("fit lines", "fit_lines", **opts, busy=f"fitting {plural(n, shape + ' line')}…")
+            self._call("fit lines", "fit_lines", **opts, progress=progress,
+                       busy=f"fitting {plural(n, shape + ' line')}…")
         finally:
             self.fit_button.description = "Fit lines"
             self.fit_button.icon = "line-chart"
         if self.last_error is None:
             fit = self.session.line_fit
-            self.show_status("ok", f"fitted {plural(len(fit.table), 'line')}, reduced χ² "
-                                   f"{format_value(fit.redchi, 4)}")
+            text = (f"fitted {plural(len(fit.table), 'line')}, reduced χ² "
+                    f"{format_value(fit.redchi, 4)}")
+            if fit.converged:
+                self.show_status("ok", text)
+            else:
+                self.show_status("info", f"{text}; kept although it "
+                                         f"{fit_verdict(False, fit.message)}")
 
     def _on_brush(self, lo: float, hi: float) -> None:
         self.region_lo.value, self.region_hi.value = lo, hi

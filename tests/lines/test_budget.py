@@ -1,0 +1,100 @@
+"""A line fit always ends: the evaluation cap, the time limit, progress, and a fit stopped
+by either is kept with its uncertainties (self-consistency checks on the invented band of
+conftest.py; no outside reference values)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+import widgetkit as wk
+import widgetkit.lines as wl
+from widgetkit.lines import budget as budget_module
+
+
+class FakeClock:
+    """perf_counter that moves one second per reading (a time limit reached after a
+    known amount of work, independent of the machine)."""
+
+    def __init__(self):
+        self.now = 0.0
+
+    def __call__(self):
+        self.now += 1.0
+        return self.now
+
+
+def test_an_evaluation_cap_stops_the_fit_and_keeps_it_with_uncertainties(band, starts):
+    res = wl.fit(band.x, band.y, starts, max_nfev=5)
+    assert not res.converged and res.stopped == "evaluations"
+    assert res.nfev == 5
+    assert "budget of 5 evaluations was spent" in res.message
+    assert "lmfit" not in res.message and "ftol" not in res.message
+    assert np.all(np.isfinite(res.table["position"]))
+    assert np.all(np.isfinite(res.table["position_err"]))   # covariance at the stopping point
+    assert res.spec["max_nfev"] == 5 and res.spec["time_limit"] == wl.DEFAULT_TIME_LIMIT
+
+
+def test_the_same_fit_unbudgeted_converges_in_more_evaluations(band, starts):
+    res = wl.fit(band.x, band.y, starts)
+    assert res.converged and res.stopped == "converged"
+    assert res.nfev > 5 and res.message.startswith("converged")
+    assert "evaluations" in res.message and "lmfit" not in res.message
+
+
+def test_a_cap_inside_the_trust_region_stage_keeps_that_stage_best(band, starts):
+    full = wl.fit(band.x, band.y, starts, max_passes=1)
+    stage_one = wl.fit(band.x, band.y, starts, max_passes=1, max_nfev=full.nfev - 1)
+    assert stage_one.stopped == "evaluations" and stage_one.nfev == full.nfev - 1
+    # it stopped in the refinement, whose start is the converged stage-one point
+    assert stage_one.chisqr == pytest.approx(full.chisqr, rel=1e-6)
+
+
+def test_a_time_limit_stops_the_fit_and_says_so(band, starts, monkeypatch):
+    monkeypatch.setattr(budget_module.time, "perf_counter", FakeClock())
+    res = wl.fit(band.x, band.y, starts, time_limit=6.0)
+    assert res.stopped == "time" and not res.converged
+    assert 0 < res.nfev < 15
+    assert "time limit of 6 s was reached" in res.message
+    assert np.isfinite(res.chisqr)
+
+
+def test_a_time_limited_fit_is_replayed_exactly_to_its_evaluation_count(band, starts,
+                                                                        monkeypatch):
+    with monkeypatch.context() as m:
+        m.setattr(budget_module.time, "perf_counter", FakeClock())
+        first = wl.fit(band.x, band.y, starts, time_limit=6.0)
+    again = wl.fit(band.x, band.y, starts, time_limit=6.0, replay_nfev=first.nfev)
+    assert again.stopped == "time" and again.nfev == first.nfev
+    assert again.chisqr == first.chisqr
+    np.testing.assert_array_equal(again.table["position"], first.table["position"])
+
+
+def test_progress_reports_the_share_of_the_budget_and_what_happens(band, starts):
+    calls = []
+    wl.fit(band.x, band.y, starts, progress=lambda f, t: calls.append((f, t)))
+    assert calls and calls[0][1] == "fitting 12 lines"
+    assert all(0.0 <= f <= 1.0 and isinstance(t, str) for f, t in calls)
+
+
+def test_a_fit_stuck_on_noise_lines_ends_within_its_evaluation_cap(band):
+    # forty starting positions where there is only noise, one shared width: a fit with
+    # no good minimum, the kind that ran for minutes without a cap
+    rng = np.random.default_rng(5)
+    noise_lines = rng.uniform(band.x[0] + 1, band.x[-1] - 1, 40)
+    res = wl.fit(band.x, band.y, np.r_[band.positions, noise_lines], shared_width=True,
+                 max_nfev=80)
+    assert res.nfev <= 80 and res.stopped == "evaluations"
+    assert len(res.table) == 52 and np.isfinite(res.chisqr)
+
+
+@pytest.mark.parametrize("kw", [{"max_nfev": 0}, {"max_nfev": 2.5}, {"max_nfev": True},
+                                {"time_limit": -1.0}, {"time_limit": "soon"}])
+def test_a_bad_budget_is_refused_before_fitting(band, starts, kw):
+    with pytest.raises(wk.FitError, match=next(iter(kw))):
+        wl.fit(band.x, band.y, starts, **kw)
+
+
+def test_a_budget_of_none_means_no_cap(band, starts):
+    res = wl.fit(band.x, band.y, starts, max_nfev=None, time_limit=None)
+    assert res.converged and res.spec["max_nfev"] is None and res.spec["time_limit"] is None

@@ -1,0 +1,195 @@
+"""Set-up of a line fit: checked data, the settings record, starting values, parameters
+with their bounds and the windowed model (:class:`Problem`).
+
+Everything here is checked before any solving starts: a set-up error raises
+:class:`~widgetkit.errors.FitError` naming the parameter and the fix, and nothing is
+fitted.
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import lmfit
+import numpy as np
+
+from ..errors import FitError
+from ..processing.noise import estimate_noise
+from .baselines import Baseline, get_baseline
+from .model import WindowedModel
+from .params import ThetaMap, build_params, line_prefix, theta_names
+from .shapes import Shape, get_shape
+from .start import Starts, starting_values
+
+__all__ = ["Problem", "set_up", "plain", "BELOW_NOISE", "MIN_WIDTH"]
+
+#: a line whose starting height is below this many noise sigmas is flagged
+BELOW_NOISE = 3.0
+#: lower bound of every width parameter, in sampling steps (a narrower line is unresolvable)
+MIN_WIDTH = 0.1
+
+
+@dataclass
+class Problem:
+    """One line fit, set up: data, shape and baseline, ids, starts, parameters, model.
+
+    ``flags`` collects warnings per line id (key ``"fit"`` for the whole fit) while
+    the fit runs; ``lo``/``hi`` are the bounds of the variables in ``tmap.var_names``
+    order; ``dx`` the median sampling step, ``nfree`` points minus variables.
+    """
+
+    xs: np.ndarray
+    ys: np.ndarray
+    ws: np.ndarray | None
+    shape: Shape
+    baseline: Baseline
+    ids: list
+    positions: np.ndarray
+    noise: float
+    x_ref: float
+    starts: Starts
+    params: lmfit.Parameters
+    tmap: ThetaMap
+    model: WindowedModel
+    lo: np.ndarray
+    hi: np.ndarray
+    dx: float
+    nfree: int
+    spec: dict
+    flags: dict
+
+
+def _as_1d(a, name: str) -> np.ndarray:
+    try:
+        arr = np.asarray(a, dtype=float).ravel()
+    except (TypeError, ValueError):
+        raise FitError(f"parameter {name!r} must be numbers, got {type(a).__name__}") from None
+    if not np.all(np.isfinite(arr)):
+        raise FitError(f"parameter {name!r} contains NaN or infinite values at indices "
+                       f"{np.nonzero(~np.isfinite(arr))[0][:5].tolist()}; remove them first")
+    return arr
+
+
+def _prepare_data(x, y, weights, region):
+    x, y = _as_1d(x, "x"), _as_1d(y, "y")
+    if x.size != y.size:
+        raise FitError(f"x and y differ in length ({x.size} and {y.size})")
+    w = None if weights is None else _as_1d(weights, "weights")
+    if w is not None and w.size != x.size:
+        raise FitError(f"weights has {w.size} values for {x.size} data points")
+    order = np.argsort(x, kind="stable")
+    x, y = x[order], y[order]
+    w = None if w is None else w[order]
+    if region is not None:
+        try:
+            lo, hi = sorted(float(r) for r in region)
+        except (TypeError, ValueError):
+            raise FitError(f"region must be (lo, hi) in cm-1, got {region!r}") from None
+        keep = (x >= lo) & (x <= hi)
+        x, y = x[keep], y[keep]
+        w = None if w is None else w[keep]
+    if x.size < 5:
+        raise FitError(f"only {x.size} data points to fit (region={region!r}); widen the region")
+    if np.any(np.diff(x) <= 0):
+        raise FitError("x has repeated values; a fit needs distinct x values")
+    return x, y, w
+
+
+def plain(obj):
+    """numpy scalars and arrays inside settings -> Python numbers and lists."""
+    if isinstance(obj, Mapping):
+        return {(plain(k) if isinstance(k, np.generic) else k): plain(v)
+                for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [plain(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return plain(obj.tolist())
+    if isinstance(obj, np.generic):
+        obj = obj.item()
+    if isinstance(obj, float) and not np.isfinite(obj):
+        return None  # "estimate this one" in heights/widths; JSON has no NaN
+    return obj
+
+
+def _spec(**kw) -> dict:
+    spec = copy.deepcopy(plain(kw))
+    try:
+        json.dumps(spec, allow_nan=False)
+    except (TypeError, ValueError) as exc:
+        raise FitError(f"fit settings must be plain data (numbers, strings, lists, dicts): "
+                       f"{exc}") from None
+    return spec
+
+
+def _check_lines(xs, positions, line_ids, heights, widths, region):
+    pos = _as_1d(positions, "positions")
+    if pos.size == 0:
+        raise FitError("no lines to fit (parameter 'positions' is empty); find or add peaks "
+                       "first")
+    ids = list(range(1, pos.size + 1)) if line_ids is None else plain(list(line_ids))
+    if len(ids) != pos.size or len(set(map(str, ids))) != len(ids):
+        raise FitError(f"line_ids must be {pos.size} distinct ids, got {ids!r}")
+    for i, p in zip(ids, pos):
+        line_prefix(i)
+        if not xs[0] <= p <= xs[-1]:
+            raise FitError(f"line {i!r} at {p:g} cm-1 lies outside the data "
+                           f"[{xs[0]:g}, {xs[-1]:g}] cm-1 (region={region!r}); remove it or "
+                           "widen the region")
+    for name, arr in (("heights", heights), ("widths", widths)):
+        if arr is not None and np.asarray(arr, dtype=float).size != pos.size:
+            raise FitError(f"{name} has {np.asarray(arr).size} values for {pos.size} lines")
+    return pos, ids
+
+
+def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, line_ids,
+           heights, widths, noise, constraints, weights, extra_spec: Mapping) -> Problem:
+    """Check everything and build the :class:`Problem` (arguments as :func:`~.fitting.fit`;
+    ``extra_spec`` joins the settings record)."""
+    shp, bl = get_shape(shape), get_baseline(baseline)
+    spec = _spec(shape=shp.name, shared_width=shared_width, baseline=bl.name, region=(
+        None if region is None else [float(r) for r in region]), window=window,
+        constraints=dict(constraints or {}), positions=_as_1d(positions, "positions").tolist(),
+        line_ids=None if line_ids is None else list(line_ids),
+        heights=None if heights is None else np.asarray(heights, float).tolist(),
+        widths=None if widths is None else np.asarray(widths, float).tolist(),
+        noise=noise, **extra_spec)
+    if window is not None and (isinstance(window, bool)
+                               or not isinstance(window, (int, float, np.number))
+                               or not float(window) > 1.0):
+        raise FitError(f"window must be a number of half widths above 1 or None, got {window!r}")
+    xs, ys, ws = _prepare_data(x, y, weights, region)
+    pos, ids = _check_lines(xs, positions, line_ids, heights, widths, region)
+    sigma_n = estimate_noise(ys) if noise is None else float(noise)
+    x_ref = 0.5 * (xs[0] + xs[-1])
+    st = starting_values(xs, ys, pos, bl, x_ref, heights, widths)
+    flags: dict = {}
+    for i, h in zip(ids, st.heights):
+        if abs(h) < BELOW_NOISE * sigma_n:
+            flags.setdefault(i, []).append(
+                f"starting height {h:.3g} is below {BELOW_NOISE:g} x noise ({sigma_n:.3g})")
+    w0 = shp.widths_from_fwhm(st.fwhm)
+    area0 = st.heights / shp.height(1.0, *w0)
+    theta0 = np.concatenate([area0, pos, *w0, st.baseline])
+    names = theta_names(shp, ids, bl)
+    dx = float(np.median(np.diff(xs)))
+    span = float(xs[-1] - xs[0])
+    bounds = {}
+    for i, h in zip(ids, st.heights):
+        p = line_prefix(i)
+        bounds[p + "area"] = (0.0, np.inf) if h >= 0 else (-np.inf, 0.0)
+        bounds[p + "position"] = (float(xs[0]), float(xs[-1]))
+        for wname in shp.widths:
+            bounds[p + wname] = (MIN_WIDTH * dx, span)
+    params = build_params(shp, bl, ids, theta0, bounds, plain(shared_width), plain(constraints))
+    tmap = ThetaMap(params, names)
+    model = WindowedModel(xs, ys, ws, shp, bl, x_ref, len(ids), tmap, window)
+    model.set_windows(tmap.values(model.variables(params)))
+    lo = np.array([params[n].min for n in tmap.var_names], dtype=float)
+    hi = np.array([params[n].max for n in tmap.var_names], dtype=float)
+    return Problem(xs=xs, ys=ys, ws=ws, shape=shp, baseline=bl, ids=ids, positions=pos,
+                   noise=sigma_n, x_ref=x_ref, starts=st, params=params, tmap=tmap, model=model,
+                   lo=lo, hi=hi, dx=dx, nfree=xs.size - len(tmap.var_names), spec=spec,
+                   flags=flags)
