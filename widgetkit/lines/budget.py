@@ -163,6 +163,12 @@ class Counted:
             raise AttributeError(name)  # copy and pickle look these up before __init__
         return getattr(self._model, name)
 
+    def __setattr__(self, name, value):
+        if name in ("_model", "_budget"):
+            object.__setattr__(self, name, value)
+        else:
+            setattr(self._model, name, value)  # the model's state is the model's
+
     def residual_vec(self, v: np.ndarray) -> np.ndarray:
         self._budget.spend()
         r = self._model.residual_vec(v)
