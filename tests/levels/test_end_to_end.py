@@ -105,3 +105,17 @@ def test_an_unresolved_co_band_is_refused_line_by_line_with_the_contour_pointer(
     with pytest.raises(wk.AssignmentError, match="instrument resolution, 4 cm-1") as err:
         s.assign_band("CO", temperature=296.0)
     assert "s.fit_band_model" in str(err.value) and len(s.history) == n
+    # the refusal offers the quick P–R estimate measured on this spectrum: B of CO v=0 is
+    # 1.9225 cm-1 (handbook, from memory); the estimate holds to a few per cent
+    text = str(err.value)
+    assert "Quick estimate from this spectrum" in text
+    B = float(text.split("so B ≈ ")[1].split(" ")[0])
+    assert B == pytest.approx(1.9225, rel=0.1)
+
+
+def test_a_refusal_without_p_r_maxima_says_no_quick_estimate_was_found():
+    from widgetkit.bandmodel.quick import quick_estimate_text
+
+    x = np.linspace(2000, 2300, 2000)
+    text = quick_estimate_text(x, np.exp(-0.5 * ((x - 2150) / 20) ** 2))  # one smooth hump
+    assert text.startswith("No P and R branch maxima")

@@ -104,8 +104,23 @@ def test_without_a_handbook_entry_the_fitted_spacing_is_the_measure():
 def test_the_p_r_separation_estimate():
     # Δν_PR = √(8kTB/(hc)) (Herzberg, from memory), k/(hc) from scipy.constants
     kT = sc.k / (sc.h * sc.c * 100.0)
-    assert plausibility.pr_separation(1.93, 296.0) == pytest.approx(math.sqrt(8 * kT * 1.93 * 296))
-    assert plausibility.PR_COEFFICIENT == pytest.approx(2.358, abs=5e-4)  # DOMAIN constant, computed
+    assert plausibility.expected_pr_separation(1.93, 296.0) == pytest.approx(
+        math.sqrt(8 * kT * 1.93 * 296))
+    # Herzberg (1950) prints 2.3583 (from memory); recomputed from CODATA constants
+    assert plausibility.PR_COEFFICIENT == pytest.approx(2.3583, abs=5e-4)
+
+
+def test_one_implementation_of_the_p_r_formula_serves_levels_and_the_band_model():
+    from widgetkit.bandmodel import quick
+    from widgetkit.levels import contour
+
+    assert quick.PR_COEFFICIENT is contour.PR_COEFFICIENT
+    assert quick.rotational_constant_from_separation is contour.rotational_constant_from_separation
+    assert plausibility.expected_pr_separation is contour.expected_pr_separation
+    assert not hasattr(plausibility, "pr_separation")
+    # round trip: B from the separation expected for B (same formula both ways)
+    d = contour.expected_pr_separation(1.93, 296.0)
+    assert contour.rotational_constant_from_separation(d, 296.0) == pytest.approx(1.93, rel=1e-12)
 
 
 # ---------------------------------------------------------------- rotational constants

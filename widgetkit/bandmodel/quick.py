@@ -1,20 +1,7 @@
-"""Quick estimate for unresolved bands: B or T from the separation of the P and R maxima.
+"""Quick estimate for unresolved bands: the P and R branch maxima of a contour and their
+separation, from which B or T follow by Δν_PR ≈ K √(B T) (the formula, its source and its
+limits are in :mod:`widgetkit.levels.contour`, its one implementation).
 
-For a ¹Σ–¹Σ band whose rotational lines are not resolved, the P and R branch maxima
-lie near the most populated J, J_max ≈ √(kT/(2hcB)) − ½, about 2B(J_max + ½) on
-either side of the band origin, so
-
-    Δν_PR ≈ 4B (J_max + ½) = √(8 k T B / (h c)) = K √(B T),   K = √(8 k/(h c))
-
-with B in cm⁻¹ and T in K (Herzberg, *Spectra of Diatomic Molecules*, 2nd ed. 1950,
-ch. III, intensity distribution in rotation–vibration bands, where the coefficient
-is printed as 2.3583 from the constants of the time; from memory). With CODATA
-constants (``scipy.constants``, k/hc = 0.6950348 cm⁻¹ K⁻¹) K = 2.35802 cm⁻¹ K^-½
-(:data:`PR_COEFFICIENT`); the difference, 1.2e-4 relative, is far below the accuracy
-of the formula itself.
-
-The formula neglects the Hönl–London and ν factors, B′ ≠ B″ and the instrument
-function; on the simulator's contours it holds to a few per cent (see the tests).
 It is a starting point, not a result: fit the band contour for B or T with an
 honest error.
 """
@@ -25,30 +12,19 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.constants as sc
 from scipy.ndimage import gaussian_filter1d
 
 from ..errors import FitError
+from ..levels.contour import (
+    PR_COEFFICIENT,
+    PR_COEFFICIENT_PRINTED,
+    rotational_constant_from_separation,
+    temperature_from_separation,
+)
 
 __all__ = ["PR_COEFFICIENT", "PR_COEFFICIENT_PRINTED", "PRSeparation", "pr_separation",
            "rotational_constant_from_separation", "temperature_from_separation", "line_spacing",
-           "strong_peaks"]
-
-#: K in Δν_PR = K √(B T): √(8k/(hc)) with CODATA constants, cm⁻¹ K^-½ (B in cm⁻¹)
-PR_COEFFICIENT = math.sqrt(8.0 * sc.k / (sc.h * sc.c * 100.0))
-#: the coefficient as printed by Herzberg (1950), from the constants of that time
-PR_COEFFICIENT_PRINTED = 2.3583
-
-
-def rotational_constant_from_separation(separation: float, temperature: float) -> float:
-    """B = (Δν_PR / K)² / T in cm⁻¹."""
-    return (float(separation) / PR_COEFFICIENT) ** 2 / float(temperature)
-
-
-def temperature_from_separation(separation: float, B: float) -> float:
-    """T = (Δν_PR / K)² / B in K."""
-    return (float(separation) / PR_COEFFICIENT) ** 2 / float(B)
-
+           "strong_peaks", "quick_estimate_text"]
 
 @dataclass(frozen=True)
 class PRSeparation:
@@ -284,3 +260,24 @@ def _refine(x: np.ndarray, y: np.ndarray, i: int) -> float:
         if den < 0:
             return float(x[i] + 0.5 * (a - c) / den * (x[1] - x[0]))
     return float(x[i])
+
+
+def quick_estimate_text(x, y, *, y_kind: str = "absorbance", resolution: float | None = None,
+                        temperature: float | None = None) -> str:
+    """One sentence offering the quick P–R estimate of B measured on a spectrum, for the
+    refusal of a line-by-line assignment of an unresolved band (empty-handed but polite when
+    no P–R structure is found). T defaults to 296 K (said so)."""
+    try:
+        pr = pr_separation(x, y, y_kind="transmittance" if y_kind == "transmittance" else "absorbance",
+                           resolution=resolution)
+    except FitError:
+        return ("No P and R branch maxima could be found on this spectrum for a quick estimate; "
+                "crop it around one band and try s.fit_band_model.")
+    T = float(temperature) if temperature else 296.0
+    B = pr.rotational_constant(T)
+    eB = 2.0 * B * pr.uncertainty / pr.separation
+    return (f"Quick estimate from this spectrum (widgetkit.bandmodel.pr_separation): P and R "
+            f"branch maxima at {pr.p_max:.1f} and {pr.r_max:.1f} cm-1, Δν = {pr.separation:.1f} ± "
+            f"{pr.uncertainty:.1g} cm-1, so B ≈ {B:.3g} ± {eB:.1g} cm-1 at {T:g} K"
+            + ("" if temperature else " (assumed)")
+            + "; a starting point for s.fit_band_model, not a result.")

@@ -6,8 +6,8 @@ import numpy as np
 import pandas as pd
 
 from ._rovib_core import Lines, State
-from .bandfit import combination_differences, equilibrium_constants, rotational_temperature
 from ._rovib_joint import joint_constants
+from .bandfit import combination_differences, equilibrium_constants, rotational_temperature
 from .candidates import C2, format_label, honl_london, rotational_partition
 from .plausibility import abundance_reason, expected_B, refuse_unresolved
 from .terms import rot_term
@@ -144,10 +144,16 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
         t = rotational_temperature(data.x[sel], data.area[sel],
                                    None if data.area_err is None else data.area_err[sel],
                                    st.Ju[sel], st.Jl[sel], E,
-                                   temperature_guess=opts["temperature"] or 300.0)
+                                   temperature_guess=opts["temperature"] or 300.0,
+                                   outlier_sigma=opts["outlier_sigma"])
         if t is not None:
             add("T_rot", t[0], t[1], "K")
             trot[name] = t[0]
+            if t[3]:
+                msgs.append(f"{name}: T_rot from {t[2]} line areas; {t[3]} "
+                            f"{'area lies' if t[3] == 1 else 'areas lie'} off the Boltzmann plot "
+                            f"beyond {opts['outlier_sigma']:g} times the expected scatter "
+                            "(a partly blended line?) and were left out")
     if opts.get("joint"):
         joint_constants(data, st, good, table, consts, covs, msgs, reasons, opts, order)
     _abundance(data, st, good, molecule, order, trot, opts, consts, msgs, reasons)

@@ -28,7 +28,7 @@ import numpy as np
 from scipy import constants as sc
 
 from ..errors import AssignmentError
-from ._lsq import LinearFit, SingularDesign, propagate, weighted_lstsq
+from ._lsq import LinearFit, SingularDesign, propagate, robust_scale, weighted_lstsq
 from .candidates import C2, honl_london
 
 __all__ = [
@@ -238,7 +238,7 @@ def equilibrium_constants(band: BandFit, v_upper: int, v_lower: int, reduced_mas
 
 
 def rotational_temperature(position, area, area_err, J_upper, J_lower, lower_energy,
-                           *, temperature_guess: float = 300.0):
+                           *, temperature_guess: float = 300.0, outlier_sigma: float = 4.0):
     """Rotational temperature from a Boltzmann plot of line areas.
 
     For absorption lines of a ¹Σ–¹Σ band, area ∝ ν̃ L(J″) exp(−c₂E″/T)
@@ -247,11 +247,20 @@ def rotational_temperature(position, area, area_err, J_upper, J_lower, lower_ene
     line in E″; T = −c₂/slope, σ_T = c₂ σ_slope / slope². The stimulated
     emission factor depends on T and is iterated (three passes from
     ``temperature_guess``). Weights from ``area_err`` (σ_y = area_err/area)
-    when given, else from the scatter.
+    when given, else from the scatter; the covariance follows :mod:`._lsq`
+    (inflated by the Birge ratio when the points scatter beyond their errors).
+
+    A line whose area is off the straight line by more than ``outlier_sigma``
+    times the expected scatter (σ_y × the robust Birge ratio, or the robust
+    scatter without errors) is left out, one at a time, the worst first: a
+    partly blended line carries the area of its neighbour, and with precise
+    areas a few such lines bias T by several standard errors while the
+    Birge ratio hides them.
 
     Returns
     -------
-    (T, stderr, n_lines) or None when fewer than 3 usable lines or the slope is not negative.
+    (T, stderr, n_lines, n_left_out) or None when fewer than 3 usable lines or the slope is
+    not negative.
     """
     a = np.asarray(area, dtype=float)
     ok = np.isfinite(a) & (a > 0)
@@ -264,16 +273,71 @@ def rotational_temperature(position, area, area_err, J_upper, J_lower, lower_ene
     sig = ae / a[ok] if ae is not None and np.all(np.isfinite(ae) & (ae > 0)) else None
     if np.ptp(E) <= 0 or np.any(L <= 0):
         return None
-    T = float(temperature_guess)
     A = np.column_stack([np.ones_like(E), E])
-    for _ in range(3):
-        y = np.log(a[ok] / (nu * L * -np.expm1(-C2 * nu / T)))
+    keep = np.ones(len(E), dtype=bool)
+    for _ in range(len(E)):
+        fit = _boltzmann(A, a[ok], nu, L, sig, keep, temperature_guess)
+        if fit is None:
+            return None
+        f, T, y = fit
+        z = (y - A @ f.beta) / (sig if sig is not None else 1.0)
+        if f.dof < 3:
+            break
+        scale = robust_scale(z[keep])
+        scale = max(1.0, scale) if sig is not None else (scale if scale > 0 else 1.0)
+        worst = np.where(keep, np.abs(z) / scale, -1.0)
+        if worst.max() <= outlier_sigma:
+            break
+        keep[int(np.argmax(worst))] = False
+    if sig is not None:
+        lin = _boltzmann_linear(a[ok][keep], ae[keep], nu[keep], L[keep], E[keep], f.beta, T)
+        if lin is not None:
+            return lin[0], lin[1], int(keep.sum()), int((~keep).sum())
+    return float(T), float(C2 * f.stderr[1] / f.beta[1] ** 2), int(keep.sum()), int((~keep).sum())
+
+
+def _boltzmann_linear(area, area_err, nu, L, E, beta, T):
+    """The Boltzmann-plot line fitted to the areas themselves, weights 1/area_err².
+
+    The logarithm of a noisy area is biased low by about (σ/area)²/2, which
+    tilts the plot where the lines are weak (high J) and biases T by several
+    of its standard errors at high signal-to-noise; fitting
+    area = exp(a + b E″) ν̃ L (1 − exp(−c₂ν̃/T)) by Gauss–Newton from the
+    logarithmic fit has no such bias. Covariance as in :mod:`._lsq`.
+    """
+    a0, b = float(beta[0]), float(beta[1])
+    for _ in range(20):
+        g = nu * L * -np.expm1(-C2 * nu / T)
+        m = np.exp(a0 + b * E) * g
+        J = np.column_stack([m, m * E]) / area_err[:, None]
+        r = (area - m) / area_err
         try:
-            f = weighted_lstsq(A, y, sig)
+            step = weighted_lstsq(J, r, None).beta
         except SingularDesign:
             return None
-        slope = f.beta[1]
-        if not slope < 0:
+        a0, b = a0 + step[0], b + step[1]
+        if not b < 0:
             return None
-        T = -C2 / slope
-    return float(T), float(C2 * f.stderr[1] / slope**2), int(ok.sum())
+        T = -C2 / b
+        if abs(step[1]) < 1e-10 * abs(b):
+            break
+    m = np.exp(a0 + b * E) * nu * L * -np.expm1(-C2 * nu / T)
+    try:
+        f = weighted_lstsq(np.column_stack([m, m * E]), area, area_err)
+    except SingularDesign:
+        return None
+    return float(T), float(C2 * f.stderr[1] / b**2)
+
+
+def _boltzmann(A, area, nu, L, sig, keep, T):
+    """Weighted straight-line fit of the Boltzmann plot of the kept lines (T iterated)."""
+    for _ in range(3):
+        y = np.log(area / (nu * L * -np.expm1(-C2 * nu / T)))
+        try:
+            f = weighted_lstsq(A[keep], y[keep], None if sig is None else sig[keep])
+        except SingularDesign:
+            return None
+        if not f.beta[1] < 0:
+            return None
+        T = -C2 / f.beta[1]
+    return f, T, y

@@ -59,14 +59,15 @@ import math
 from collections.abc import Mapping
 
 import numpy as np
-from scipy import constants as sc
 
 from ..errors import AssignmentError
+from .contour import PR_COEFFICIENT, expected_pr_separation
 from .molecule import Diatomic, Isotopologue, isotope
 
 __all__ = [
     "spectrum_context", "refuse_unsuitable_spectrum", "handbook_constants", "expected_B",
-    "rotational_problems", "vibrational_problem", "refuse_unresolved", "abundance_reason", "pr_separation",
+    "rotational_problems", "vibrational_problem", "refuse_unresolved", "abundance_reason",
+    "expected_pr_separation", "PR_COEFFICIENT", "UnresolvedLines",
     "hot_band_ratio", "hot_band_reasons", "branch_pair_reason", "HOT_BAND_MAX_TEMPERATURE",
     "HOT_BAND_MARGIN", "ABUNDANCE_FACTOR", "HANDBOOK_B_FACTOR", "HANDBOOK_OMEGA_FACTOR",
 ]
@@ -80,8 +81,6 @@ ABUNDANCE_FACTOR = 3.0
 HANDBOOK_B_FACTOR = 1.5
 #: a fitted ωe this many times off the mass-scaled handbook ωe is refused
 HANDBOOK_OMEGA_FACTOR = 1.25
-#: Δν_PR = PR_COEFFICIENT √(B T): √(8 k/(hc)) with k/(hc) in cm⁻¹ K⁻¹ (CODATA via scipy.constants)
-PR_COEFFICIENT = math.sqrt(8.0 * sc.k / (sc.h * sc.c * 100.0))
 
 _CONDENSED = ("liquid", "solid")
 
@@ -214,9 +213,9 @@ def vibrational_problem(omega_e: float, iso: Isotopologue | None) -> str | None:
             f"{HANDBOOK_OMEGA_FACTOR:g}")
 
 
-def pr_separation(B: float, temperature: float) -> float:
-    """P–R branch maximum separation of an unresolved ¹Σ–¹Σ band, Δν ≈ 2.358 √(B T) cm⁻¹."""
-    return PR_COEFFICIENT * math.sqrt(B * temperature)
+class UnresolvedLines(AssignmentError):
+    """Line-by-line assignment refused because the rotational lines are not resolved; the
+    session adds the quick P–R estimate measured on the spectrum to the message."""
 
 
 def refuse_unresolved(*, spacing: float, resolution: float | None, fwhm: float | None,
@@ -228,12 +227,12 @@ def refuse_unresolved(*, spacing: float, resolution: float | None, fwhm: float |
         if width is None or not np.isfinite(width) or not spacing > 0 or width < spacing:
             continue
         B = 0.5 * spacing
-        raise AssignmentError(
+        raise UnresolvedLines(
             f"{what}, {width:.3g} cm-1, is not below the rotational line spacing of "
             f"{molecule.main.name}, about {spacing:.3g} cm-1 ({source}): the rotational lines are "
             "not resolved, so they cannot be assigned one by one. Fit the band contour instead, "
             "s.fit_band_model(molecule, ...), or estimate B from the separation of the P and R "
-            f"branch maxima, Δν ≈ 2.358 √(B T) cm-1 (about {pr_separation(B, T):.3g} cm-1 at "
+            f"branch maxima, Δν ≈ 2.358 √(B T) cm-1 (about {expected_pr_separation(B, T):.3g} cm-1 at "
             f"{T:g} K for B = {B:.3g} cm-1)")
 
 
@@ -341,7 +340,7 @@ def branch_pair_reason(positions, areas, widths, molecule: Diatomic | None,
     if exp is None:
         return None
     T = temperature or 296.0
-    d_exp = pr_separation(exp[0], T)
+    d_exp = expected_pr_separation(exp[0], T)
     x = np.asarray(positions, dtype=float)
     a = np.full(len(x), np.nan) if areas is None else np.asarray(areas, dtype=float)
     w = np.full(len(x), np.nan) if widths is None else np.asarray(widths, dtype=float)

@@ -70,7 +70,7 @@ def _assign_linear(state: State, fit, opts: dict, molecule, kind: str, locks: di
 
 def _assign(state: State, spec: dict, locks: dict):
     from .. import levels
-    from ..levels.plausibility import spectrum_context
+    from ..levels.plausibility import UnresolvedLines, spectrum_context
 
     fit = state.line_fit
     if fit is None:
@@ -85,7 +85,15 @@ def _assign(state: State, spec: dict, locks: dict):
         return _assign_linear(state, fit, opts, molecule, kind, locks, context)
     if kind == "rovibrational":
         _only(opts, _ROVIB_OPTIONS, kind)
-        out = levels.assign_rovibrational(fit.table, molecule, locks=locks, **{**context, **opts})
+        try:
+            out = levels.assign_rovibrational(fit.table, molecule, locks=locks, **{**context, **opts})
+        except UnresolvedLines as exc:
+            from ..bandmodel.quick import quick_estimate_text
+
+            sp = state.require_spectrum()
+            raise UnresolvedLines(f"{exc}. " + quick_estimate_text(
+                sp.x, sp.y, y_kind=sp.y_kind, temperature=opts.get("temperature"),
+                resolution=opts.get("resolution") or context.get("resolution"))) from None
     elif kind == "progression":
         _only({k: v for k, v in opts.items() if k not in context}, _PROGRESSION_OPTIONS, kind)
         opts = {k: v for k, v in opts.items() if k not in context}  # no rotation needed
