@@ -224,3 +224,46 @@ def test_points_far_from_lines_match_the_direct_test_including_the_edges():
     x = np.arange(10.0)
     assert _far_from_lines(x, np.array([5.0]), np.array([2.0])).tolist() == [
         True, True, True, False, False, False, False, False, True, True]  # |x - 5| > 2
+
+
+def test_a_block_whose_step_fails_keeps_its_values_while_the_others_move():
+    from widgetkit.lines.lmblocks import _damped_step
+
+    class Stub:  # two blocks of ten points: a -> a - 1 (a step helps), b -> 5 b (it hurts)
+        def residual_vec(self, v):
+            return np.r_[np.full(10, v[0] - 1.0), np.full(10, 5.0 * v[1])]
+
+    class Hess:
+        def solve(self, g, free, lam):
+            return np.array([1.0, 1.0]), 0.0, 0.0
+
+    model, v = Stub(), np.zeros(2)
+    r = model.residual_vec(v)
+    lam = np.full(3, 1e-3)
+    vn, rn, cn, nfev = _damped_step(model, Hess(), None, np.ones(2, bool), v, r, float(r @ r),
+                                    np.full(2, -9.0), np.full(2, 9.0), lam, np.array([0, 1]),
+                                    np.repeat([0, 1], 10), 10)
+    assert vn.tolist() == [1.0, 0.0] and cn == 0.0 and nfev == 2
+    assert lam[0] < 1e-3 < lam[1]
+
+
+def test_independent_blocks_fitted_together_equal_each_block_fitted_alone(monkeypatch):
+    # Gaussian lines without a baseline: nothing couples the two groups (no far wings)
+    b = simulate_band(n_lines=8, n_points=3000, shape="gaussian", baseline=(0.0, 0.0))
+    monkeypatch.setattr(model_mod, "STRUCTURED_MIN_VARS", 0)
+    kw = {"baseline": "none", "shape": "gaussian", "noise": b.noise}
+    whole = wl.fit(b.x, b.y, b.positions + 0.01, **kw)
+    assert whole.converged
+    order = np.argsort(b.positions)
+    cut = 0.5 * (b.positions[order[3]] + b.positions[order[4]])  # between the two blocks
+    for side in (b.positions < cut, b.positions > cut):
+        ids = [i + 1 for i in np.nonzero(side)[0]]
+        region = (b.x[0], cut) if side[order[0]] else (cut, b.x[-1])
+        alone = wl.fit(b.x, b.y, b.positions[side] + 0.01, region=region, line_ids=ids, **kw)
+        assert alone.converged
+        part = whole.table.set_index("line_id").loc[ids]
+        for col in ("position", "area", "fwhm"):
+            assert np.allclose(part[col], alone.table[col], rtol=1e-6), col
+        for col in ("position_err", "area_err"):  # errors scale with each fit's reduced chi2
+            assert np.allclose(part[col] / np.sqrt(whole.redchi),
+                               alone.table[col] / np.sqrt(alone.redchi), rtol=1e-5), col

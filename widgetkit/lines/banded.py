@@ -103,10 +103,12 @@ class ArrowSystem:
         return (self.n, self.n)
 
     # ------------------------------------------------------------ factorisation
-    def _scaled(self, free: np.ndarray, lam: float):
-        """Unit-diagonal parts (held variables -> identity rows), damped by ``lam``."""
+    def _scaled(self, free: np.ndarray, lam):
+        """Unit-diagonal parts (held variables -> identity rows), damped by ``lam``
+        (a number, or one per variable)."""
         d = np.sqrt(np.maximum(self.diag, 1e-300))[self.order]
         fp = free[self.order]
+        lam = np.broadcast_to(np.asarray(lam, dtype=float), (self.n,))[self.order]
         nl, bw = self.n_loc, self.bw
         ds, fl = d[:nl], fp[:nl]
         ab = self.band.copy()
@@ -114,11 +116,11 @@ class ArrowSystem:
             ok = fl[: nl - k] & fl[k:]
             ab[k, : nl - k] = np.where(ok, ab[k, : nl - k] / (ds[: nl - k] * ds[k:]), 0.0)
             ab[k, nl - k:] = 0.0
-        ab[0] = np.where(fl, ab[0] + lam, 1.0)
+        ab[0] = np.where(fl, ab[0] + lam[:nl], 1.0)
         dg, fg = d[nl:], fp[nl:]
         B = self.B / np.outer(ds, dg) * np.outer(fl, fg)
         C = self.C / np.outer(dg, dg) * np.outer(fg, fg)
-        C[np.diag_indices_from(C)] = np.where(fg, np.diag(C) + lam, 1.0)
+        C[np.diag_indices_from(C)] = np.where(fg, np.diag(C) + lam[nl:], 1.0)
         return d, fp, ab, B, C
 
     def _factor(self, ab, B, C, strict: bool) -> _Factor | None:
@@ -150,10 +152,11 @@ class ArrowSystem:
         xg = sla.cho_solve((f.cs, True), rg - f.W.T @ rl, check_finite=False)
         return np.concatenate([al - f.W @ xg, xg])
 
-    def solve(self, g: np.ndarray, free: np.ndarray, lam: float = 0.0):
+    def solve(self, g: np.ndarray, free: np.ndarray, lam=0.0):
         """Step ``-H⁻¹ g`` over the free variables (held ones stay put) and ``gᵀ H⁻¹ g``.
 
-        ``lam`` damps the unit-diagonal matrix (Levenberg–Marquardt). Returns
+        ``lam`` damps the unit-diagonal matrix (Levenberg–Marquardt), one number
+        or one per variable. Returns
         ``(step, predicted reduction, ridge used)``; step zero and reduction 0
         if no ridge makes the matrix factorable.
         """
@@ -161,7 +164,7 @@ class ArrowSystem:
         if not np.any(free):
             return step, 0.0, 0.0
         d, fp, ab, B, C = self._scaled(np.asarray(free, dtype=bool), lam)
-        f = self._factor(ab, B, C, strict=lam == 0.0)
+        f = self._factor(ab, B, C, strict=bool(np.all(np.asarray(lam) == 0.0)))
         if f is None:
             return step, 0.0, np.inf
         rhs = np.where(fp, g[self.order] / d, 0.0)

@@ -103,6 +103,8 @@ class WindowedModel:
         """Fix the windows to index ranges ``[starts, ends)`` and precompute the layout."""
         n = self.x.size
         self.starts, self.ends = starts, ends
+        self._last_values = None
+        self._last_normal = None
         lengths = ends - starts
         self.lengths = lengths
         total = int(lengths.sum())
@@ -188,10 +190,22 @@ class WindowedModel:
         lp = theta[: m * self.n_lp].reshape(self.n_lp, m)
         return lp, theta[m * self.n_lp:]
 
+    def window_values(self, theta: np.ndarray) -> np.ndarray:
+        """Every line on its window (concatenated); the last result is kept, so the
+        model, its residual and the components at one θ evaluate the shapes once."""
+        lp, _ = self._split(theta)
+        key = lp.copy()
+        last = self._last_values
+        if last is not None and last[0].shape == key.shape and np.array_equal(last[0], key):
+            return last[1]
+        vals = self.shape.profile(self.X, *lp[:, self.seg])
+        self._last_values = (key, vals)
+        return vals
+
     def evaluate(self, theta: np.ndarray) -> np.ndarray:
         """Model values on ``x``."""
-        lp, bc = self._split(theta)
-        vals = self.shape.profile(self.X, *lp[:, self.seg])
+        _, bc = self._split(theta)
+        vals = self.window_values(theta)
         return (self.baseline.evaluate(self.u, bc) + self.wings
                 + np.bincount(self.rows, vals, minlength=self.x.size))
 
@@ -208,7 +222,7 @@ class WindowedModel:
 
             return components(self, theta)
         lp, _ = self._split(theta)
-        vals = self.shape.profile(self.X, *lp[:, self.seg])
+        vals = self.window_values(theta)
         out = np.zeros((self.n_lines, self.x.size))
         if self.window is not None and self.shape.wing is not None:
             for i in range(self.n_lines):

@@ -144,7 +144,14 @@ def levenberg_marquardt(model: WindowedModel, v, lo, hi, nfree: int, max_iter: i
 
     Returns variables, certificate (as :func:`certify`), names held, and
     the numbers of model and Jacobian evaluations.
+
+    A structured model (:attr:`WindowedModel.structured`) is solved with one
+    damping per independent block of lines (:mod:`.lmblocks`).
     """
+    if getattr(model, "structured", False):
+        from .lmblocks import levenberg_marquardt_blocks
+
+        return levenberg_marquardt_blocks(model, v, lo, hi, nfree, max_iter, max_nfev)
     r = model.residual_vec(v)
     chi = float(r @ r)
     lam, nfev, crit, held, slow = 1e-3, 1, np.inf, np.zeros(v.size, dtype=bool), 0

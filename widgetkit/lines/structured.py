@@ -105,7 +105,15 @@ def layout(model, D: sp.csc_array) -> tuple[np.ndarray, int, int, np.ndarray]:
 
 
 def normal_equations(model, v: np.ndarray, r: np.ndarray) -> tuple[ArrowSystem, np.ndarray]:
-    """``J^T J`` of the variables as an :class:`ArrowSystem`, and ``J^T r``."""
+    """``J^T J`` of the variables as an :class:`ArrowSystem`, and ``J^T r``.
+
+    The last result is kept on the model (``_last_normal``): the convergence
+    test and the covariance at the solution share one assembly.
+    """
+    last = getattr(model, "_last_normal", None)
+    if (last is not None and last[0].shape == v.shape and np.array_equal(last[0], v)
+            and last[1] is model.wings and np.array_equal(last[2], r)):
+        return last[3], last[4]
     theta = model.tmap.values(v)
     H, gt = theta_normal(model, theta, r)
     D = model.tmap.jacobian(v)
@@ -115,13 +123,16 @@ def normal_equations(model, v: np.ndarray, r: np.ndarray) -> tuple[ArrowSystem, 
     order, n_loc, min_band, line_of = layout(model, D)
     system = ArrowSystem(H, order, n_loc, min_band)
     system.line_of = line_of
+    model._last_normal = (v.copy(), model.wings, r.copy(), system, np.asarray(gt))
     return system, np.asarray(gt)
 
 
-def covariance(model, v: np.ndarray) -> tuple[ArrowCovariance | None, np.ndarray]:
+def covariance(model, v: np.ndarray, r: np.ndarray | None = None
+               ) -> tuple[ArrowCovariance | None, np.ndarray]:
     """Selected inverse of ``J^T J`` at ``v`` (unscaled: multiply by the reduced
-    chi-square) and the line of each variable (-1 for a global)."""
-    system, _ = normal_equations(model, v, np.zeros(model.x.size))
+    chi-square) and the line of each variable (-1 for a global). ``r``, the
+    residual at ``v``, only lets a later convergence test reuse the assembly."""
+    system, _ = normal_equations(model, v, np.zeros(model.x.size) if r is None else r)
     return system.covariance(), system.line_of
 
 
@@ -195,8 +206,7 @@ def _inner(ni: np.ndarray, nj: np.ndarray, outer: bool) -> np.ndarray:
 
 def components(model, theta: np.ndarray) -> sp.csr_array:
     """Each line alone inside its window, sparse (n_lines, n) (far wings left out)."""
-    lp, _ = model._split(theta)
-    vals = model.shape.profile(model.X, *lp[:, model.seg])
+    vals = model.window_values(theta)
     return sp.csr_array((vals, (model.seg, model.rows)), shape=(model.n_lines, model.x.size))
 
 
@@ -219,7 +229,7 @@ def lmfit_result(mini, model, params, v: np.ndarray):
     res.residual = model.residual_vec(v)
     res._calculate_statistics()
     res.success, res.message, res.covar = True, "solved on the structured normal equations", None
-    cov, line_of = covariance(model, v)
+    cov, line_of = covariance(model, v, res.residual)
     if cov is None:
         res.errorbars = False
         return res
