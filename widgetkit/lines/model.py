@@ -38,6 +38,8 @@ __all__ = ["WindowedModel", "GAUSS_WINDOW_CAP", "STRUCTURED_MIN_VARS", "WINGS_EX
 
 #: a Gaussian is evaluated at most this many HWHM from its centre
 GAUSS_WINDOW_CAP = 12.0
+#: the shapes are evaluated on this many window points at a time
+CHUNK = 1 << 16
 #: fits with more variables than this use the structured (banded) normal equations
 STRUCTURED_MIN_VARS = 400
 #: far wings are exact (every line on every point) up to this many line × point pairs
@@ -114,9 +116,7 @@ class WindowedModel:
         self.X = self.x[self.rows]
         col_len = np.concatenate([np.tile(lengths, self.n_lp), np.full(self.n_b, n)])
         self.indptr = np.concatenate([[0], np.cumsum(col_len)])
-        self.indices = np.concatenate([np.tile(self.rows, self.n_lp),
-                                       np.tile(np.arange(n), self.n_b)])
-        self.w_at = None if self.w is None else self.w[self.indices]
+        self._jac_index = None  # the Jacobian's row indices, built when first needed
         self.offsets = np.cumsum(lengths) - lengths
         order = np.argsort(starts, kind="stable")
         pairs = []
@@ -166,7 +166,7 @@ class WindowedModel:
         segs = [(fs, np.maximum(self.starts, fs)), (np.minimum(self.ends, fe), fe)]
         for a, b in segs:
             lengths = np.maximum(b - a, 0)
-            step = max(1, int(4e6 // max(1, int(lengths.max(initial=1)))))
+            step = max(1, int(CHUNK // max(1, int(lengths.max(initial=1)))))
             for c0 in range(0, self.n_lines, step):  # chunks bound the memory
                 sl = slice(c0, c0 + step)
                 ln = lengths[sl]
@@ -190,6 +190,24 @@ class WindowedModel:
         lp = theta[: m * self.n_lp].reshape(self.n_lp, m)
         return lp, theta[m * self.n_lp:]
 
+    def _chunks(self):
+        """Slices of the concatenated windows, :data:`CHUNK` points each: the shapes'
+        temporaries stay small (reused memory, no fresh pages per evaluation)."""
+        total = self.X.size
+        return [slice(a, min(a + CHUNK, total)) for a in range(0, total, CHUNK)]
+
+    def window_gradient(self, lp: np.ndarray) -> np.ndarray:
+        """d line / d (area, position, widths) on every window, (n_lp, total points),
+        written chunk by chunk into one buffer kept for the next call."""
+        shape = (self.n_lp, self.X.size)
+        buf = getattr(self, "_gbuf", None)
+        if buf is None or buf.shape != shape:
+            buf = np.empty(shape)
+        self._gbuf = None  # the caller owns it until it is handed back
+        for sl in self._chunks():
+            buf[:, sl] = self.shape.gradient(self.X[sl], *lp[:, self.seg[sl]])[1:]
+        return buf
+
     def window_values(self, theta: np.ndarray) -> np.ndarray:
         """Every line on its window (concatenated); the last result is kept, so the
         model, its residual and the components at one θ evaluate the shapes once."""
@@ -198,7 +216,9 @@ class WindowedModel:
         last = self._last_values
         if last is not None and last[0].shape == key.shape and np.array_equal(last[0], key):
             return last[1]
-        vals = self.shape.profile(self.X, *lp[:, self.seg])
+        vals = np.empty(self.X.size)
+        for sl in self._chunks():
+            vals[sl] = self.shape.profile(self.X[sl], *lp[:, self.seg[sl]])
         self._last_values = (key, vals)
         return vals
 
@@ -230,6 +250,16 @@ class WindowedModel:
         out[self.seg, self.rows] = vals  # inside its window a line is evaluated exactly
         return out
 
+    def _jacobian_index(self):
+        """Row index of every stored Jacobian entry and the weights there (built once per
+        set of windows; a structured fit never needs them)."""
+        if self._jac_index is None:
+            n = self.x.size
+            indices = np.concatenate([np.tile(self.rows, self.n_lp),
+                                      np.tile(np.arange(n), self.n_b)])
+            self._jac_index = (indices, None if self.w is None else self.w[indices])
+        return self._jac_index
+
     def theta_jacobian(self, theta: np.ndarray) -> sp.csc_array:
         """d model / d θ, sparse (n, len(θ)), weighted like the residual."""
         lp, bc = self._split(theta)
@@ -238,9 +268,10 @@ class WindowedModel:
         if self.n_b:
             parts.append(self.baseline.gradient(self.u, bc)[1:].ravel())
         data = np.concatenate(parts)
-        if self.w_at is not None:
-            data = data * self.w_at
-        return sp.csc_array((data, self.indices, self.indptr),
+        indices, w_at = self._jacobian_index()
+        if w_at is not None:
+            data = data * w_at
+        return sp.csc_array((data, indices, self.indptr),
                             shape=(self.x.size, self.n_lines * self.n_lp + self.n_b))
 
     def normal_blocks(self, theta: np.ndarray, r: np.ndarray):
@@ -256,15 +287,21 @@ class WindowedModel:
         """
         lp, bc = self._split(theta)
         m, npar, nb = self.n_lines, self.n_lp, self.n_b
-        G = self.shape.gradient(self.X, *lp[:, self.seg])[1:]
+        G = buf = self.window_gradient(lp)
         B = self.baseline.gradient(self.u, bc)[1:] if nb else np.zeros((0, self.x.size))
         if self.w is not None:
             G = G * self.w[self.rows]
             B = B * self.w
         gt = np.zeros(m * npar + nb)
         starts = self.offsets
-        gt[: m * npar] = np.add.reduceat(G * r[self.rows], starts, axis=1).ravel()
-        diag = [np.add.reduceat(G[a:] * G[a], starts, axis=1) for a in range(npar)]
+        tmp = np.empty(G.shape[1])  # one product at a time, reduced per window
+
+        def window_sums(a, other):
+            return np.add.reduceat(np.multiply(G[a], other, out=tmp), starts)
+
+        r_at = r[self.rows]
+        gt[: m * npar] = np.concatenate([window_sums(a, r_at) for a in range(npar)])
+        diag = [np.stack([window_sums(a, G[b]) for b in range(a, npar)]) for a in range(npar)]
         pairs = []
         for i, j in self.pairs:
             lo, hi = self.starts[j], min(self.ends[i], self.ends[j])
@@ -272,11 +309,12 @@ class WindowedModel:
             gj = G[:, self.offsets[j]: self.offsets[j] + hi - lo]
             pairs.append((i, j, gi @ gj.T))
         lb = np.zeros((m * npar, nb))
+        for c in range(nb):
+            b_at = B[c][self.rows]
+            lb[:, c] = np.concatenate([window_sums(a, b_at) for a in range(npar)])
         if nb:
-            Bp = B[:, self.rows]
-            lb = np.stack([np.add.reduceat(G * Bp[c], starts, axis=1).ravel() for c in range(nb)],
-                          axis=1)
             gt[m * npar:] = B @ r
+        self._gbuf = buf  # handed back for the next call
         return diag, pairs, lb, B @ B.T, gt
 
     def normal_equations(self, v: np.ndarray, r: np.ndarray):
