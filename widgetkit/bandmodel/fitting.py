@@ -53,7 +53,7 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
         isotopologues="natural", fix: Mapping | None = None, baseline: str | None = "linear",
         y_kind: str | None = None, joint: bool = True, centrifugal: str = "shared",
         shape: str = "doppler", lorentz_hwhm: float | None = None, convolve: str = "auto",
-        start: Mapping | None = None, free=None, max_nfev: int = 400, max_time: float = 120.0,
+        start: Mapping | None = None, free=None, max_nfev: int = 3000, max_time: float = 60.0,
         progress: Callable | None = None, meta: Mapping | None = None) -> BandFit:
     """Fit the spectrum of a diatomic's band (or bands) to the data.
 
