@@ -26,9 +26,10 @@ from .checks import (
     check_number,
     instrument_name,
 )
+from .domain import exact_for_transmittance, guess_y_kind, note_approximation
 from .instrument import fwhm_factor
 from .result import PARAMETER_COLUMNS, BandFit
-from .stages import Run, exact_for_transmittance, guess_y_kind, note_approximation
+from .stages import Run
 from .start import estimate_starts
 
 __all__ = ["fit", "fit_spectrum", "restore_fit"]

@@ -35,7 +35,8 @@ import numpy as np
 
 from ..errors import AssignmentError
 from ._rovib_core import Lines, State, seed_model
-from ._rovib_match import refine, relabel
+from ._rovib_match import refine
+from ._rovib_relabel import relabel
 from ._seed import lock_seed, m_to_J, natural_seed, shift_index
 from .candidates import format_label, parse_label
 from .molecule import Diatomic
