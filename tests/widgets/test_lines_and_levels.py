@@ -239,3 +239,15 @@ def test_the_fit_shows_its_progress_and_keeps_a_fit_stopped_by_its_budget(peaked
     assert "evaluations was spent" in panel.status.value and "lmfit" not in panel.status.value
     assert "did not converge" in panel.fit_summary.value
     assert panel.plot.curve("model").x.size > 0                  # and its figure is drawn
+
+
+def test_the_fit_summary_names_the_lines_removed_as_unsupported(peaked, monkeypatch):
+    from widgetkit.session import kinds_lines
+
+    monkeypatch.setattr(kinds_lines, "_by_hand", lambda peaks: None)  # as if found
+    hand = peaked.add_peak(2950.0, snap=False)    # only noise there (invented band)
+    peaked.fit_lines(shape="gaussian")
+    panel = LinesPanel(peaked)
+    summary = panel.fit_summary.value
+    assert f"1 line removed as unsupported by the data ({hand})" in summary
+    assert "standard errors" in summary or "bound" in summary or "moved" in summary

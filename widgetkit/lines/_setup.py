@@ -24,12 +24,18 @@ from .params import ThetaMap, build_params, line_prefix, theta_names
 from .shapes import Shape, get_shape
 from .start import Starts, starting_values
 
-__all__ = ["Problem", "set_up", "plain", "BELOW_NOISE", "MIN_WIDTH"]
+__all__ = ["Problem", "set_up", "plain", "BELOW_NOISE", "MIN_WIDTH", "MAX_WIDTH_GROWTH"]
 
 #: a line whose starting height is below this many noise sigmas is flagged
 BELOW_NOISE = 3.0
 #: lower bound of every width parameter, in sampling steps (a narrower line is unresolvable)
 MIN_WIDTH = 0.1
+#: upper bound of a line's width parameters, in its starting FWHM (at least
+#: :data:`MIN_MAX_WIDTH` sampling steps): a line that wants to be wider than this is
+#: not the line that was found (it is spreading over a blend or the baseline); its
+#: width then ends on the bound, where it is flagged and pruned
+MAX_WIDTH_GROWTH = 10.0
+MIN_MAX_WIDTH = 20.0
 
 
 @dataclass
@@ -177,12 +183,13 @@ def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, li
     dx = float(np.median(np.diff(xs)))
     span = float(xs[-1] - xs[0])
     bounds = {}
-    for i, h in zip(ids, st.heights):
+    for i, h, f in zip(ids, st.heights, st.fwhm):
         p = line_prefix(i)
         bounds[p + "area"] = (0.0, np.inf) if h >= 0 else (-np.inf, 0.0)
         bounds[p + "position"] = (float(xs[0]), float(xs[-1]))
+        wmax = min(span, max(MAX_WIDTH_GROWTH * abs(float(f)), MIN_MAX_WIDTH * dx))
         for wname in shp.widths:
-            bounds[p + wname] = (MIN_WIDTH * dx, span)
+            bounds[p + wname] = (MIN_WIDTH * dx, wmax)
     params = build_params(shp, bl, ids, theta0, bounds, plain(shared_width), plain(constraints))
     tmap = ThetaMap(params, names)
     model = WindowedModel(xs, ys, ws, shp, bl, x_ref, len(ids), tmap, window)

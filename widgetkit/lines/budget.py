@@ -23,11 +23,12 @@ import numpy as np
 
 __all__ = ["Budget", "BudgetSpent", "DEFAULT_MAX_NFEV", "DEFAULT_TIME_LIMIT", "STOP_REASONS"]
 
-#: default cap on model evaluations over both solver stages (a stuck trust-region stage was
-#: measured at about 4 ms an evaluation on a 24-line band: some 8 s for this many)
-DEFAULT_MAX_NFEV = 2000
-#: default cap on wall time, seconds
-DEFAULT_TIME_LIMIT = 60.0
+#: default cap on model evaluations of one solve, over both solver stages (a converged
+#: 12-line fit takes about 15; a fit stuck on a band it cannot describe was measured at
+#: 10 ms an evaluation on 15 lines and 300 points: some 10 s for this many)
+DEFAULT_MAX_NFEV = 1000
+#: default cap on the wall time of one solve, seconds (a pruned fit is solved twice)
+DEFAULT_TIME_LIMIT = 30.0
 #: how a fit ended: at the minimum, stopped by a solver's own tolerance before it, by the
 #: evaluation cap, by the time limit, or by a solver failure
 STOP_REASONS = ("converged", "tolerance", "evaluations", "time", "failed")
@@ -74,6 +75,7 @@ class Budget:
         self.nfev = 0
         self.stopped: str | None = None
         self.stage = "fitting"
+        self.stage_cap: int | None = None
         self._best = _Best()
         self._last_report = -np.inf
 
@@ -91,6 +93,8 @@ class Budget:
         """Account for one evaluation about to be made, or raise :class:`BudgetSpent`."""
         if self.stopped is not None:
             raise BudgetSpent(self.stopped)
+        if self.stage_cap is not None and self.nfev >= self.stage_cap:
+            raise BudgetSpent("stage")  # the stage's share is spent, the fit's is not
         if self.max_nfev is not None and self.nfev >= self.max_nfev:
             self.stopped = "evaluations"
         elif self._out_of_time():
@@ -104,7 +108,7 @@ class Budget:
         lifts both limits (later evaluations, such as confidence-interval refits, are
         not part of the fit)."""
         stopped, self.stopped = self.stopped, None
-        self.max_nfev = self.time_limit = self.replay_nfev = None
+        self.max_nfev = self.time_limit = self.replay_nfev = self.stage_cap = None
         self.progress = None
         return stopped
 
@@ -132,11 +136,13 @@ class Budget:
         self.progress(self.fraction(), text)
 
     # ------------------------------------------------------------- best point
-    def mark(self, stage: str | None = None) -> None:
-        """Start a new stage: forget the best point (the objective may have changed)."""
+    def mark(self, stage: str | None = None, share: int | None = None) -> None:
+        """Start a new stage: forget the best point (the objective may have changed);
+        ``share`` caps the evaluations of this stage (None: the fit's budget only)."""
         self._best = _Best()
         if stage is not None:
             self.stage = stage
+        self.stage_cap = None if share is None else self.nfev + int(share)
 
     def seen(self, v: np.ndarray, r: np.ndarray) -> None:
         """Remember ``v`` if its residual ``r`` is the best since :meth:`mark`."""

@@ -43,6 +43,7 @@ their area is not significant, or a parameter ends at its bound.
 
 from __future__ import annotations
 
+import dataclasses
 import functools
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
@@ -59,6 +60,7 @@ from ._assemble import assemble
 from ._setup import set_up
 from ._solve import solve, verdict
 from .budget import DEFAULT_MAX_NFEV, DEFAULT_TIME_LIMIT, Budget
+from .prune import find_unsupported, protected_by_constraints, removed_table
 
 __all__ = ["fit", "LineFit", "DEFAULT_WINDOW", "CONVERGENCE_TOL", "DEFAULT_MAX_NFEV",
            "DEFAULT_TIME_LIMIT"]
@@ -116,7 +118,14 @@ class LineFit:
         ``"tolerance"`` (a solver stopped short of the minimum), ``"evaluations"``
         or ``"time"`` (the budget), ``"failed"`` (the model could not be evaluated).
     seconds : float
-        Wall time of the solve.
+        Wall time of the solves.
+    removed : pandas.DataFrame
+        Lines removed as not supported by the data (:mod:`.prune`), one row each:
+        line_id, rule, reason, merged_into, start, position, area, area_err, fwhm
+        (the last four from the first fit). Empty when none was removed.
+    solve_nfev, solve_stopped : tuple
+        Evaluations used and how it stopped, for each solve (two when lines were
+        removed and the fit repeated).
     """
 
     table: pd.DataFrame
@@ -141,6 +150,9 @@ class LineFit:
     njev: int = 0
     stopped: str = "converged"
     seconds: float = 0.0
+    removed: pd.DataFrame = field(default_factory=lambda: removed_table([]))
+    solve_nfev: tuple = ()
+    solve_stopped: tuple = ()
 
 
 def _one_blas_thread(func):
@@ -168,6 +180,28 @@ def _budget_number(value, name: str, *, integer: bool):
     return int(value) if integer else float(value)
 
 
+def _replays(replay_nfev) -> list:
+    """``replay_nfev`` for each of the (at most two) solves."""
+    if replay_nfev is None:
+        return [None, None]
+    if isinstance(replay_nfev, (int, np.integer)):
+        return [int(replay_nfev), None]
+    out = [None if n is None else int(n) for n in list(replay_nfev)[:2]]
+    return out + [None] * (2 - len(out))
+
+
+def _subset(keep: list, ids: list, arrays: dict, shared_width):
+    """Arguments of the repeated fit: the kept lines only (``arrays`` of per-line starts)."""
+    mask = np.isin(np.array(ids, dtype=object), np.array(keep, dtype=object))
+    out = {k: (None if v is None else [a for a, m in zip(np.asarray(v, dtype=float).tolist(),
+                                                            mask) if m])
+           for k, v in arrays.items()}
+    if isinstance(shared_width, Mapping):
+        groups = {g: [i for i in members if i in keep] for g, members in shared_width.items()}
+        shared_width = {g: m for g, m in groups.items() if m}
+    return mask, out, shared_width
+
+
 @_one_blas_thread
 def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         baseline: str | None = "linear", region: Sequence[float] | None = None,
@@ -176,8 +210,8 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         constraints: Mapping | None = None, weights=None,
         conf_interval: str | Sequence[str] | None = None, max_passes: int = 4,
         max_nfev: int | None = DEFAULT_MAX_NFEV, time_limit: float | None = DEFAULT_TIME_LIMIT,
-        progress: Callable[[float, str], Any] | None = None,
-        replay_nfev: int | None = None) -> LineFit:
+        progress: Callable[[float, str], Any] | None = None, prune: bool = True,
+        keep: Sequence | None = None, replay_nfev=None) -> LineFit:
     """Fit lines of one shape plus a baseline to ``y(x)``.
 
     Parameters
@@ -202,7 +236,9 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     line_ids : sequence, optional
         Ids for ``table.line_id`` and parameter names ``l<id>_...`` (default 1..m).
     heights, widths : array_like, optional
-        Starting heights (y units) and FWHM (cm⁻¹); NaN or None = estimate.
+        Starting heights (y units) and FWHM (cm⁻¹); NaN or None = estimate. A
+        line's widths are bounded by 0.1 sampling step and 10 times its starting
+        FWHM (at least 20 steps).
     noise : float, optional
         Noise sigma of y; measured on the line-free points if None
         (:func:`widgetkit.processing.estimate_noise`).
@@ -216,17 +252,26 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     max_passes : int
         Solver restarts allowed by the convergence test.
     max_nfev : int or None
-        Most model evaluations over both solver stages (default
+        Most model evaluations of one solve, over both solver stages (default
         :data:`DEFAULT_MAX_NFEV`; None: no cap).
     time_limit : float or None
-        Most seconds of wall time (default :data:`DEFAULT_TIME_LIMIT`; None: no
-        limit). Checked before each model evaluation, as the evaluation cap is.
+        Most seconds of wall time of one solve (default :data:`DEFAULT_TIME_LIMIT`;
+        None: no limit). Checked before each model evaluation, as the cap is. A
+        pruned fit is solved twice, so it ends within twice the limits.
     progress : callable, optional
         ``progress(fraction, text)`` during the fit (about four times a second):
         the share of the budget used and what the fit is doing.
-    replay_nfev : int, optional
-        For replaying a recorded fit that ran out of time: the time limit counts
-        as reached before evaluation ``replay_nfev + 1``, whatever the clock
+    prune : bool
+        Remove the lines the data cannot support (:mod:`.prune`: area below 3
+        standard errors, FWHM on a bound, centre moved more than a width,
+        collapsed onto a neighbour) and fit once more without them; each
+        removal is listed in ``LineFit.removed``. False keeps every line.
+    keep : sequence, optional
+        Line ids never removed (lines added by hand); one that fails a test is
+        kept and flagged. Lines named in ``constraints`` are kept too.
+    replay_nfev : int or sequence, optional
+        For replaying a recorded fit that ran out of time: per solve, the time
+        limit counts as reached before evaluation ``n + 1``, whatever the clock
         says, so the replay ends where the record did (``Session.verify``).
 
     Returns
@@ -244,15 +289,51 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     """
     max_nfev = _budget_number(max_nfev, "max_nfev", integer=True)
     time_limit = _budget_number(time_limit, "time_limit", integer=False)
-    replay_nfev = None if replay_nfev is None else int(replay_nfev)
-    budget = Budget(max_nfev, time_limit, progress, replay_nfev)
-    prob = set_up(x, y, positions, shape=shape, shared_width=shared_width, baseline=baseline,
-                  region=region, window=window, line_ids=line_ids, heights=heights,
-                  widths=widths, noise=noise, constraints=constraints, weights=weights,
-                  extra_spec={"max_nfev": max_nfev, "time_limit": time_limit})
+    replays = _replays(replay_nfev)
+    args = dict(shape=shape, baseline=baseline, region=region, window=window,
+                constraints=constraints, weights=weights)
+    prob = set_up(x, y, positions, shared_width=shared_width, line_ids=line_ids,
+                  heights=heights, widths=widths, noise=noise, **args,
+                  extra_spec={"max_nfev": max_nfev, "time_limit": time_limit,
+                              "prune": bool(prune),
+                              "keep": None if keep is None else list(keep)})
+    spec = prob.spec
+    budget = Budget(max_nfev, time_limit, progress, replays[0])
     budget.report(f"fitting {len(prob.ids)} lines", force=True)
-    sol = solve(prob, budget, max_passes)
-    fields = assemble(prob, sol)
+    solves = [solve(prob, budget, max_passes)]
+    fields = assemble(prob, solves[0])
+    removals: list = []
+    if prune and solves[0].stopped != "failed":
+        named = {"ci": [conf_interval] if isinstance(conf_interval, str)
+                 else list(conf_interval or [])}
+        protected = (set(keep or ()) | protected_by_constraints(prob.ids, constraints)
+                     | protected_by_constraints(prob.ids, named))
+        removals, kept_flags, restarts = find_unsupported(
+            fields["table"], solves[0].result.params, prob.shape.widths, prob.positions,
+            prob.starts.fwhm, protected)
+        if removals:
+            gone = {r.line_id for r in removals}
+            kept = [i for i in prob.ids if i not in gone]
+            mask, sub, shared = _subset(kept, prob.ids, {"heights": heights, "widths": widths},
+                                        shared_width)
+            starts = np.array([restarts.get(i, p) for i, p in zip(prob.ids, prob.positions)])
+            prob = set_up(prob.xs, prob.ys, starts[mask], shared_width=shared,
+                          line_ids=kept, noise=prob.noise, **sub,
+                          **{**args, "region": None, "weights": prob.ws}, extra_spec={})
+            budget = Budget(max_nfev, time_limit, progress, replays[1])
+            budget.report(f"fitting again without {len(removals)} unsupported lines",
+                          force=True)
+            solves.append(solve(prob, budget, max_passes))
+            fields = assemble(prob, solves[-1])
+        flags = {k: list(v) for k, v in fields["flags"].items()}
+        for lid, texts in kept_flags.items():
+            flags.setdefault(lid, []).extend(texts)
+        fields["flags"] = {k: tuple(v) for k, v in flags.items()}
+    sol = solves[-1]
+    fields.update(spec=spec, removed=removed_table(removals),
+                  nfev=sum(s.nfev for s in solves), seconds=sum(s.seconds for s in solves),
+                  solve_nfev=tuple(s.nfev for s in solves),
+                  solve_stopped=tuple(s.stopped for s in solves))
     cis = None
     if conf_interval is not None and sol.converged:
         res = sol.result
@@ -261,4 +342,5 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         if unknown:
             raise FitError(f"conf_interval names {unknown}, which are not varied parameters")
         cis = lmfit.conf_interval(sol.minimizer, res, p_names=pn, sigmas=[1, 2])
-    return LineFit(message=verdict(sol, max_nfev, time_limit), conf_intervals=cis, **fields)
+    total = dataclasses.replace(sol, nfev=fields["nfev"], seconds=fields["seconds"])
+    return LineFit(message=verdict(total, max_nfev, time_limit), conf_intervals=cis, **fields)

@@ -110,7 +110,8 @@ def build_params(shape: Shape, baseline: Baseline, line_ids: Sequence, starts_th
         for w in widths:
             members = [line_prefix(i) + w for i in ids]
             vals = [params[m].value for m in members]
-            lo, hi = bounds.get(members[0], (-np.inf, np.inf))
+            spans = [bounds.get(m, (-np.inf, np.inf)) for m in members]
+            lo, hi = min(b[0] for b in spans), max(b[1] for b in spans)  # any member's range
             params.add(f"{g}_{w}", value=float(np.median(vals)), min=lo, max=hi)
             for mname in members:
                 params[mname].set(expr=f"{g}_{w}", min=-np.inf, max=np.inf)

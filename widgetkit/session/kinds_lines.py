@@ -28,6 +28,7 @@ import re
 from collections.abc import Callable, Iterator
 
 import numpy as np
+import pandas as pd
 
 from ..errors import FitError, SessionStateError
 from .params import Param, ParamProblem, show
@@ -67,6 +68,10 @@ def progress_to(callback: Callable | None) -> Iterator[None]:
 _LINEFIT_NOT_RECORDED = ("table", "chisqr", "redchi", "converged", "result", "params", "nfev",
                          "njev", "x", "y", "model_y", "baseline_y", "components", "residual")
 _CURVES = ("x", "y", "model_y", "baseline_y", "components", "residual")
+#: columns of LineFit.removed (a test keeps them equal to widgetkit.lines.prune's, which
+#: this module must not import: reopening a session imports no fitting code)
+REMOVED_COLUMNS = ("line_id", "rule", "reason", "merged_into", "start", "position", "area",
+                   "area_err", "fwhm")
 
 #: most parameters given confidence intervals in one fit (each costs many refits)
 MAX_CONF_INTERVAL = 8
@@ -138,10 +143,12 @@ class FitLines(StepKind):
         Param("conf_interval", "strings", None, nullable=True, max_items=MAX_CONF_INTERVAL,
               doc="parameters given confidence intervals"),
         Param("max_passes", "integer", 4, minimum=1, maximum=50, doc="solver restarts"),
-        Param("max_nfev", "integer", 2000, minimum=1, maximum=10_000_000,
-              doc="most model evaluations"),
-        Param("time_limit", "number", 60.0, above=0, maximum=86_400.0, unit="s",
-              doc="most seconds of wall time"),
+        Param("max_nfev", "integer", 1000, minimum=1, maximum=10_000_000,
+              doc="most model evaluations of one solve"),
+        Param("time_limit", "number", 30.0, above=0, maximum=86_400.0, unit="s",
+              doc="most seconds of wall time of one solve"),
+        Param("prune", "boolean", True,
+              doc="remove the lines the data cannot support and fit again once"),
         Param("strict", "boolean", False,
               doc="refuse a fit that has not converged instead of keeping it"),
     )
@@ -159,13 +166,15 @@ class FitLines(StepKind):
         """As :meth:`apply`; a fit recorded as stopped by its time limit stops at the
         recorded number of evaluations instead (module docstring)."""
         budget = result.get("budget") if isinstance(result, dict) else None
-        nfev = budget.get("nfev") if isinstance(budget, dict) else None
-        if (budget is None or budget.get("stopped") != "time" or isinstance(nfev, bool)
-                or not isinstance(nfev, int) or nfev < 0):
-            nfev = None
-        return self._fit(state, params, nfev)
+        budget = budget if isinstance(budget, dict) else {}
+        counts = budget.get("nfev_by_solve") or [budget.get("nfev")]
+        stops = budget.get("stopped_by_solve") or [budget.get("stopped")]
+        caps = [n if (s == "time" and isinstance(n, int) and not isinstance(n, bool)
+                      and n >= 0) else None
+                for n, s in zip(list(counts)[:2], list(stops)[:2])]
+        return self._fit(state, params, caps if any(c is not None for c in caps) else None)
 
-    def _fit(self, state: State, params: dict, replay_nfev: int | None):
+    def _fit(self, state: State, params: dict, replay_nfev: list | None):
         from .. import lines
 
         sp = state.require_spectrum()
@@ -183,7 +192,7 @@ class FitLines(StepKind):
         strict = bool(opts.pop("strict", False))
         fit = lines.fit(sp.x, sp.y, peaks["position"].to_numpy(dtype=float),
                         line_ids=[int(i) for i in peaks["peak_id"]], progress=_PROGRESS.get(),
-                        replay_nfev=replay_nfev, **opts)
+                        keep=_by_hand(peaks), replay_nfev=replay_nfev, **opts)
         usable = np.all(np.isfinite(fit.table["position"])) and np.isfinite(fit.chisqr)
         if not fit.converged and (strict or not usable):
             why = "strict=True asks for a converged fit" if usable else "the result holds " \
@@ -198,12 +207,18 @@ class FitLines(StepKind):
                   "record": encode_fields(fit, skip=_LINEFIT_NOT_RECORDED),
                   "budget": {"max_nfev": fit.spec.get("max_nfev"),
                              "time_limit": fit.spec.get("time_limit"), "nfev": int(fit.nfev),
-                             "seconds": float(fit.seconds), "stopped": fit.stopped}}
+                             "seconds": float(fit.seconds), "stopped": fit.stopped,
+                             "nfev_by_solve": [int(n) for n in fit.solve_nfev],
+                             "stopped_by_solve": list(fit.solve_stopped)},
+                  "removed": table_to_json(fit.removed[["line_id", "rule", "reason",
+                                                        "merged_into"]])}
         cleared = {} if state.assignment is None else {"assignment": assigned_count(state.assignment)}
         if cleared:
             result["cleared"] = cleared
         summary = (f"fitted {len(fit.table)} {opts.get('shape', 'voigt')} lines, "
                    f"reduced chi-square {fit.redchi:.3g}")
+        if len(fit.removed):
+            summary += "; " + _removed_text(fit.removed)
         if not fit.converged:
             summary += f"; NOT converged ({_timeless(fit.message)})"
         summary += cleared_text(cleared)
@@ -244,10 +259,27 @@ class FitLines(StepKind):
         fields.update(table=table, chisqr=result.get("chisqr"), redchi=result.get("redchi"),
                       converged=converged, nfev=budget.get("nfev"), njev=None)
         fields.setdefault("stopped", "converged" if converged else "tolerance")
+        fields.setdefault("removed", pd.DataFrame({c: [] for c in REMOVED_COLUMNS}))
         fields.setdefault("seconds", budget.get("seconds"))
         restored = Restored("LineFit", fields, lazy={n: curve(n) for n in _CURVES},
                             real=lambda: self.replay(state, params, result, ctx)[0].line_fit)
         return state.evolve(line_fit=restored, assignment=None)
+
+
+def _by_hand(peaks) -> list[int] | None:
+    """Ids of the peaks added by hand (``add_peak``): a fit never removes them."""
+    if "origin" not in peaks:
+        return None
+    ids = [int(i) for i in peaks.loc[peaks["origin"] == "manual", "peak_id"]]
+    return ids or None
+
+
+def _removed_text(removed) -> str:
+    """``removed 2 lines the data cannot support: 7 (area ...), 9 (collapsed onto line 8)``."""
+    parts = [f"{lid} ({reason})" for lid, reason in zip(removed["line_id"], removed["reason"])]
+    n = len(parts)
+    return (f"removed {n} line{'s' if n != 1 else ''} the data cannot support, fitted again: "
+            + ", ".join(parts))
 
 
 def _timeless(message: str) -> str:

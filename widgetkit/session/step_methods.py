@@ -88,16 +88,23 @@ class StepMethods:
 
     def fit_lines(self, *, shape: str = "voigt", shared_width=False, baseline: str | None = "linear",
                   region=None, strict: bool = False, max_nfev: int | None = None,
-                  time_limit: float | None = None, progress=None, **options) -> pd.DataFrame:
+                  time_limit: float | None = None, prune: bool = True, progress=None,
+                  **options) -> pd.DataFrame:
         """Fit every peak (inside ``region``) with a line shape; see :func:`widgetkit.lines.fit`.
 
-        The fit always ends: at most ``max_nfev`` model evaluations (default 2000) and
-        ``time_limit`` seconds (default 60). ``progress(fraction, text)`` is called during
-        the fit and not recorded. A fit that stops before it has converged (on the
-        budget or a solver's tolerance) is kept and recorded with ``converged`` False and
-        the reason (``s.line_fit.message``, ``s.line_fit.stopped``); with ``strict=True``
-        it is refused instead (:class:`~widgetkit.errors.FitError`, whose ``.fit`` holds
-        it) and the previous lines stay. The step records the budget and what was used;
+        The fit always ends: at most ``max_nfev`` model evaluations (default 1000) and
+        ``time_limit`` seconds (default 30) per solve. ``progress(fraction, text)`` is
+        called during the fit and not recorded. With ``prune=True`` (default) the lines
+        the data cannot support (area below 3 standard errors, FWHM on a bound, centre
+        moved more than a width, collapsed onto a neighbour) are removed and the fit is
+        repeated once; ``s.line_fit.removed`` and the step's summary list them with
+        their reasons. The peaks stay as they are (a later fit starts from all of them
+        again); peaks added by hand are never removed, only flagged. A fit that stops
+        before it has converged (on the budget or a solver's tolerance) is kept and
+        recorded with ``converged`` False and the reason (``s.line_fit.message``,
+        ``s.line_fit.stopped``); with ``strict=True`` it is refused instead
+        (:class:`~widgetkit.errors.FitError`, whose ``.fit`` holds it) and the previous
+        lines stay. The step records the budget and what was used;
         ``verify`` replays a fit stopped by its time limit to the recorded number of
         evaluations. Returns :attr:`lines`.
         """
@@ -111,6 +118,8 @@ class StepMethods:
             params["max_nfev"] = max_nfev
         if time_limit is not None:
             params["time_limit"] = time_limit
+        if prune is not True:
+            params["prune"] = prune
         with progress_to(progress):
             self._run("fit_lines", params)
         return self.lines

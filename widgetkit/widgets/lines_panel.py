@@ -123,10 +123,18 @@ class LinesPanel(PlotPanel):
         lines = plural(len(fit.table), f"{SHAPE_NAMES.get(shape, shape)} line")
         how = ("reopened from the record" if fit.nfev is None
                else plural(int(fit.nfev), "model evaluation"))
+        removed = getattr(fit, "removed", None)
+        gone = ""
+        if removed is not None and len(removed):
+            items = "; ".join(f"{lid}: {why}" for lid, why in zip(removed["line_id"],
+                                                                 removed["reason"]))
+            gone = (f' · <span title="{html.escape(items)}">'
+                    f"{html.escape(plural(len(removed), 'line'))} removed as unsupported by "
+                    f"the data ({html.escape(', '.join(map(str, removed['line_id'])))})</span>")
         return (f'<div class="wk-fit-summary"><span style="color:{color}"><b>'
                 f"{html.escape(verdict)}</b></span> · "
                 f"{html.escape(lines)} · reduced χ² {format_value(fit.redchi, 4)} · "
-                f"{html.escape(how)}</div>")
+                f"{html.escape(how)}{gone}</div>")
 
     # ------------------------------------------------------------------ actions
     def fit_options(self) -> dict:

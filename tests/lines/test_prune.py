@@ -1,0 +1,89 @@
+"""Lines the data cannot support are removed (or merged) and the fit repeated once, each
+removal listed with its reason; prune=False keeps every line. Self-consistency checks on
+the invented band of conftest.py (no outside reference values)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+import widgetkit.lines as wl
+from widgetkit.lines import prune
+
+
+def test_a_noise_line_added_to_the_starts_is_removed_with_its_reason(band, starts):
+    empty = 0.5 * (band.positions[0] + band.positions[1])   # between two lines: only noise
+    res = wl.fit(band.x, band.y, np.r_[starts, empty], line_ids=list(range(1, 14)))
+    assert list(res.table["line_id"]) == list(range(1, 13))
+    assert list(res.removed["line_id"]) == [13]
+    row = res.removed.iloc[0]
+    assert row["rule"] == "insignificant" and "standard errors" in row["reason"]
+    assert row["start"] == empty
+    assert res.converged and res.solve_nfev and len(res.solve_nfev) == 2
+    assert res.spec["positions"][-1] == empty          # the settings say what was asked
+
+
+def test_two_starts_on_one_line_are_merged_into_one(band, starts):
+    twin = band.positions[4] + 0.02
+    res = wl.fit(band.x, band.y, np.r_[starts, twin], line_ids=list(range(1, 14)))
+    assert len(res.table) == 12 and len(res.removed) == 1
+    gone = res.removed.iloc[0]
+    assert gone["line_id"] in (5, 13)
+    assert gone["rule"] in ("merged", "insignificant")
+    kept = res.table.set_index("line_id")
+    survivor = 13 if gone["line_id"] == 5 else 5
+    # the line is described once, where it was simulated (self-consistency)
+    assert abs(kept.loc[survivor, "position"] - band.positions[4]) < 5 * kept.loc[
+        survivor, "position_err"]
+
+
+def test_prune_false_keeps_every_line(band, starts):
+    twin = band.positions[4] + 0.02
+    empty = 0.5 * (band.positions[0] + band.positions[1])
+    res = wl.fit(band.x, band.y, np.r_[starts, twin, empty], line_ids=list(range(1, 15)),
+                 prune=False)
+    assert len(res.table) == 14 and res.removed.empty
+    assert len(res.solve_nfev) == 1
+    assert res.spec["prune"] is False
+
+
+def test_lines_kept_by_request_are_flagged_not_removed(band, starts):
+    empty = 0.5 * (band.positions[0] + band.positions[1])
+    res = wl.fit(band.x, band.y, np.r_[starts, empty], line_ids=list(range(1, 14)), keep=[13])
+    assert 13 in list(res.table["line_id"]) and res.removed.empty
+    assert any(f.startswith("kept although area") for f in res.flags[13])
+
+
+def test_lines_named_in_constraints_are_not_removed(band, starts):
+    empty = 0.5 * (band.positions[0] + band.positions[1])
+    res = wl.fit(band.x, band.y, np.r_[starts, empty], line_ids=list(range(1, 14)),
+                 constraints={"l13_gamma": 0.08})
+    assert 13 in list(res.table["line_id"]) and res.removed.empty
+    assert prune.protected_by_constraints([1, 13, 3], {"l2_area": "0.5 * l13_area"}) == {13}
+    assert prune.protected_by_constraints([1, 2], {"doppler": {"temperature": 300,
+                                                               "mass": 28,
+                                                               "lines": [2]}}) == {2}
+
+
+def test_a_line_that_ran_to_its_width_bound_is_removed():
+    # one clean Gaussian line and a start on the flat baseline far away; invented data
+    x = np.linspace(0.0, 100.0, 2001)
+    y = np.exp(-0.5 * ((x - 30.0) / 0.5) ** 2) + np.random.default_rng(2).normal(0, 0.01,
+                                                                                 x.size)
+    res = wl.fit(x, y, [30.0, 75.0], shape="gaussian", widths=[1.2, 0.2])
+    assert list(res.table["line_id"]) == [1]
+    assert res.removed.iloc[0]["line_id"] == 2
+
+
+def test_the_removed_table_has_its_columns_also_when_empty():
+    table = prune.removed_table([])
+    assert list(table.columns) == list(prune.REMOVED_COLUMNS)
+    assert isinstance(table, pd.DataFrame) and table.empty
+
+
+def test_nothing_is_removed_when_every_line_would_be():
+    x = np.linspace(0.0, 10.0, 501)
+    y = np.random.default_rng(4).normal(0.0, 0.01, x.size)   # noise only (invented)
+    res = wl.fit(x, y, [3.0], shape="gaussian", widths=[0.3])
+    assert len(res.table) == 1 and res.removed.empty
+    assert any("none was removed" in f for f in res.flags["fit"])
