@@ -60,18 +60,6 @@ def test_a_molecule_that_is_not_a_diatomic_is_refused(band):
         fit(x, y, "CO2")
 
 
-def test_a_linear_polyatomic_molecule_is_refused_naming_what_is_supported(band):
-    x, y = band
-    for molecule in (wk.Linear("OCO"), wk.Linear("OCO").to_dict()):
-        with pytest.raises(FitError, match=r"diatomic molecules.*OCO \(3 atoms\).*kind='parallel'"):
-            fit(x, y, molecule)
-    s = wk.Session(wk.Spectrum(x, y))
-    n = len(s.history)
-    with pytest.raises(FitError, match="diatomic molecules"):
-        s.fit_band_model(wk.Linear("OCO"), resolution=4.0)
-    assert len(s.history) == n
-
-
 def test_a_two_atom_linear_molecule_is_fitted_as_the_diatomic_it_is(band):
     from widgetkit.bandmodel.checks import check_molecule
 

@@ -17,6 +17,7 @@ import numpy as np
 
 from ..levels.molecule import Diatomic
 from ..simulate.linesystem import BandMap, DunhamMap, diatomic_system, j_limit, partition_levels
+from .linear import apply_spin_weights, is_linear_polyatomic
 from .model import BandModel
 from .params import Param, constant_map, spectroscopic_params
 
@@ -96,7 +97,7 @@ def build_model(x, molecule: Diatomic, opts: ModelOptions, st: dict, *,
     """The model and its parameter list (start values from ``st``; nothing fixed yet)."""
     main = molecule.isotopologue(opts.isotopologues[0])
     isos = [molecule.isotopologue(n) for n in opts.isotopologues]
-    rhos = [math.sqrt(main.reduced_mass / i.reduced_mass) for i in isos]
+    rhos = [1.0] if len(isos) == 1 else [math.sqrt(main.reduced_mass / i.reduced_mass) for i in isos]
     band = opts.bands[0]
     js = joint_starts(st, band)
     st = {**st, **{k: v for k, v in js.items() if k not in st or k == "omega_e"}}
@@ -116,6 +117,8 @@ def build_model(x, molecule: Diatomic, opts: ModelOptions, st: dict, *,
         partition = None
     system = diatomic_system(_Selection(molecule, opts.isotopologues), term_map, opts.bands, j_max,
                              partition=partition, abundances=[1.0] * len(isos))
+    if is_linear_polyatomic(molecule):
+        system = apply_spin_weights(system, molecule)
     minor = {}
     for iso, rho in zip(opts.isotopologues[1:], rhos[1:], strict=True):
         c = _dunham_dict(st, rho)

@@ -52,18 +52,6 @@ def check_data(x, y, y_kind: str) -> tuple[np.ndarray, np.ndarray, str]:
     return xa, ya, kind
 
 
-#: what the band model fits, said when another molecule kind is given
-SUPPORTED = ("the band model fits bands of diatomic molecules (wk.Diatomic, P and R branches of "
-             "a v' <- v'' band)")
-
-
-def _not_supported(what: str) -> FitError:
-    return FitError(
-        f"{SUPPORTED}; {what} is a linear polyatomic molecule, which it does not take yet. "
-        "Assign its resolved lines with s.assign_band(molecule, kind='parallel') or "
-        "kind='perpendicular', which know its spin statistics, Q branches and hot bands")
-
-
 def check_molecule(molecule) -> Diatomic:
     if isinstance(molecule, Diatomic):
         return molecule
@@ -71,12 +59,14 @@ def check_molecule(molecule) -> Diatomic:
         atoms = tuple(getattr(molecule, "atoms", ()))
         if len(atoms) == 2:
             return Diatomic(*atoms, min_abundance=getattr(molecule, "min_abundance", 0.01))
-        raise _not_supported(f"{''.join(atoms)} ({len(atoms)} atoms)")
+        return molecule  # a parallel band (see .linear)
     if isinstance(molecule, str):
         return Diatomic.parse(molecule)
     if isinstance(molecule, Mapping) and "atoms" in molecule:
         if molecule.get("kind") == "linear" and len(molecule["atoms"]) != 2:
-            raise _not_supported(f"{''.join(molecule['atoms'])} ({len(molecule['atoms'])} atoms)")
+            from ..levels.linear import Linear
+
+            return Linear.from_dict(molecule)
         return Diatomic.from_dict({k: v for k, v in molecule.items() if k != "kind"})
     raise FitError(f"molecule must be a widgetkit Diatomic or a formula such as 'CO', got "
                    f"{type(molecule).__name__}; other molecule kinds plug in through their line "

@@ -28,6 +28,7 @@ from .checks import (
 )
 from .domain import exact_for_transmittance, guess_y_kind, note_approximation
 from .instrument import fwhm_factor
+from .linear import check_linear_options, is_linear_polyatomic, spacing_in_B
 from .result import PARAMETER_COLUMNS, BandFit
 from .stages import Run
 from .start import estimate_starts
@@ -154,7 +155,8 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
     user_start = dict(start or {})
     try:
         st, sources, pr = estimate_starts(x, y, y_kind=y_kind, band=bands[0],
-                                          temperature=temperature, resolution=resolution)
+                                          temperature=temperature, resolution=resolution,
+                                          spacing_in_B=spacing_in_B(mol))
     except FitError:
         if not {"band_origin", "B_lower"} <= set(user_start):
             raise
@@ -203,6 +205,8 @@ def _options(x, y, molecule, *, band, temperature, resolution, instrument, isoto
     joint = bool(joint)
     if len(bands) > 1 and not joint:
         raise FitError("several bands need joint=True (one set of equilibrium constants)")
+    if is_linear_polyatomic(mol):
+        bands, isotopologues, joint = check_linear_options(mol, bands, isotopologues, joint)
     iso_names, ratios, free_ab = check_isotopologues(mol, isotopologues)
     inst = instrument_name(instrument)
     if baseline not in BASELINES:

@@ -161,6 +161,8 @@ def derived_constants(model, theta: np.ndarray, cov: np.ndarray, C: np.ndarray, 
             grads = {nm: C[k + j] for j, nm in enumerate(BAND_NAMES)}
         for nm, g in grads.items():
             add(iso, nm, *_lin(g, theta, cov))
+        if not math.isfinite(reduced_masses[i]):
+            continue  # a linear polyatomic: no B_e, α_e or r_e from one band (several bonds)
         g_alpha = (grads["B_lower"] - grads["B_upper"]) / (vu - vl)
         g_be = grads["B_lower"] + g_alpha * (vl + 0.5)
         be, be_err = _lin(g_be, theta, cov)

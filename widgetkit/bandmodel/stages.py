@@ -251,7 +251,8 @@ class Run:
         corr = sub / np.outer(d, d) if len(idx) else sub
         isos = list(self.opts.isotopologues)
         main = self.mol.isotopologue(isos[0])
-        rhos = [math.sqrt(main.reduced_mass / self.mol.isotopologue(n).reduced_mass) for n in isos]
+        rhos = [1.0] if len(isos) == 1 else \
+            [math.sqrt(main.reduced_mass / self.mol.isotopologue(n).reduced_mass) for n in isos]
         C = self._constant_map()
         # a held parameter's start is a guess: its scale enters the derived constants that
         # depend on it directly (e.g. a minor isotopologue's band origin on ω_e x_e)
@@ -321,8 +322,11 @@ class Run:
                     out.append(f"{n} is not determined ({v:.4g} ± {e:.2g})")
         if self.st.get("spacing") and not self.st.get("indexed", True) and \
                 not {"band_origin", "B_lower", "B_e"} & set(self.user_start):
-            out.append("the lines are resolved but the band-origin gap was not found, so the "
-                       "rotational numbering comes from the contour only; check B against the line "
+            out.append(("the lines are resolved, and with every other line missing (nuclear-spin "
+                        "statistics) they are not indexed from the band-origin gap, so the"
+                        if self.st.get("index_skipped") else
+                        "the lines are resolved but the band-origin gap was not found, so the")
+                       + " rotational numbering comes from the contour only; check B against the line "
                        "spacing, or give start values (start={'band_origin': ..., 'B_lower': ...})")
         if scale > 3.0:
             out.append(f"the residuals are strongly correlated (errors scaled by {scale:.1f}): "

@@ -133,8 +133,13 @@ def _observed_fwhm(xu: np.ndarray, au: np.ndarray, i: int) -> float | None:
 
 
 def estimate_starts(x, y, *, y_kind: str, band, temperature: float | None,
-                    resolution: float | None) -> tuple[dict, dict, PRSeparation | None]:
+                    resolution: float | None, spacing_in_B: float = 2.0
+                    ) -> tuple[dict, dict, PRSeparation | None]:
     """Start values and their sources, and the P–R separation (None when not found).
+
+    ``spacing_in_B`` is the line spacing in units of B: 2 (B′ + B″), or 4 when nuclear-spin
+    statistics remove every other level (¹⁶O¹²C¹⁶O); then the lines are not indexed from
+    the band-origin gap (its pattern differs) but B comes from the spacing.
 
     Returns ``(starts, sources, pr)``; starts has ``band_origin, B_upper, B_lower, D,
     temperature, band_area, baseline, lorentz_hwhm`` and, when lines are resolved,
@@ -154,7 +159,7 @@ def estimate_starts(x, y, *, y_kind: str, band, temperature: float | None,
     src["temperature"] = "given" if temperature is not None else "default (296 K)"
     src["lorentz_hwhm"] = "default (0.05 cm-1)"
     comb = None
-    if pr is not None and pr.line_spacing is not None:
+    if pr is not None and pr.line_spacing is not None and spacing_in_B == 2.0:
         light = gaussian_filter1d(au, 1.0, mode="nearest")
         idx = index_comb(xu, light, pr.line_spacing, pr.centre)
         if idx is not None:
@@ -166,6 +171,7 @@ def estimate_starts(x, y, *, y_kind: str, band, temperature: float | None,
                     st["observed_fwhm"] = fw
     st["spacing"] = pr.line_spacing if pr is not None else None
     st["indexed"] = comb is not None
+    st["index_skipped"] = spacing_in_B != 2.0
     if comb is not None:
         st.update(comb)
         for k in ("band_origin", "B_upper", "B_lower", "D"):
@@ -174,7 +180,7 @@ def estimate_starts(x, y, *, y_kind: str, band, temperature: float | None,
             src["temperature"] = "Boltzmann plot of peak heights"
     elif pr is not None and pr.line_spacing is not None:
         # resolved lines that could not be indexed: B from the spacing, T from the envelope
-        B = 0.5 * _central_spacing(xu, au, pr)
+        B = _central_spacing(xu, au, pr) / spacing_in_B
         st.update(band_origin=pr.centre, B_lower=B, B_upper=B * 0.99, D=kratzer_d(B, pr.centre))
         for k in ("band_origin", "B_upper", "B_lower"):
             src[k] = f"line spacing {pr.line_spacing:.4g} cm-1 and the P-R maxima"
