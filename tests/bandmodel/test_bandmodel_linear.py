@@ -62,3 +62,14 @@ def test_the_session_records_and_replays_a_linear_band_model():
     row = c[(c["method"] == "band model") & (c["name"] == "band_origin")]
     assert abs(row["value"].iloc[0] - TRUTH["band_origin"]) < 3 * row["stderr"].iloc[0]
     assert s.verify().ok
+
+
+def test_a_perpendicular_band_is_refused_naming_what_is_supported():
+    sp = _band(2.0, 0.5)
+    with pytest.raises(FitError, match=r"parallel \(Σ–Σ\) bands only.*kind='perpendicular'"):
+        fit(sp.x, sp.y, wk.Linear("HCN"), kind="perpendicular")
+    s = wk.Session(sp)
+    with pytest.raises(FitError, match="parallel"):
+        s.fit_band_model(OCO, kind="perpendicular", resolution=2.0)
+    assert len(s.history) == 1
+    assert fit(sp.x, sp.y, OCO, kind="parallel", resolution=2.0).constant("band_origin")[1] > 0

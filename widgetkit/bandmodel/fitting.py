@@ -28,7 +28,7 @@ from .checks import (
 )
 from .domain import exact_for_transmittance, guess_y_kind, note_approximation
 from .instrument import fwhm_factor
-from .linear import check_linear_options, is_linear_polyatomic, spacing_in_B
+from .linear import check_kind, check_linear_options, is_linear_polyatomic, spacing_in_B
 from .result import PARAMETER_COLUMNS, BandFit
 from .stages import Run
 from .start import estimate_starts
@@ -55,7 +55,8 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
         isotopologues="natural", fix: Mapping | None = None, baseline: str | None = "linear",
         y_kind: str | None = None, joint: bool = True, centrifugal: str = "shared",
         shape: str = "doppler", lorentz_hwhm: float | None = None, convolve: str = "auto",
-        start: Mapping | None = None, free=None, max_nfev: int = 3000, max_time: float = 60.0,
+        start: Mapping | None = None, free=None, kind: str | None = None,
+        max_nfev: int = 3000, max_time: float = 60.0,
         progress: Callable | None = None, meta: Mapping | None = None) -> BandFit:
     """Fit the spectrum of a diatomic's band (or bands) to the data.
 
@@ -123,6 +124,9 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
     free : list of str, optional
         Parameters fixed by default to be fitted (``herman_wallis``, ``omega_e_y_e``,
         ``gamma_e``, ``beta_e``, the abundance ratios).
+    kind : {None, "parallel", "perpendicular"}
+        The band type: None or "parallel" (P and R branches, a Σ–Σ band); a perpendicular
+        (Π–Σ) band with its Q branch is not modelled and is refused with what is supported.
     max_nfev, max_time : int, float
         Budget of model evaluations and seconds (the best result so far is kept and the
         fit is marked as not converged).
@@ -146,7 +150,8 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
     o = _options(x, y, molecule, band=band, temperature=temperature, resolution=resolution,
                  instrument=instrument, isotopologues=isotopologues, fix=fix, baseline=baseline,
                  y_kind=y_kind, joint=joint, centrifugal=centrifugal, shape=shape,
-                 lorentz_hwhm=lorentz_hwhm, convolve=convolve, start=start, free=free, meta=meta)
+                 lorentz_hwhm=lorentz_hwhm, convolve=convolve, start=start, free=free, meta=meta,
+                 kind=kind)
     x, y, mol, bands, spec = o["x"], o["y"], o["mol"], o["bands"], o["spec"]
     y_kind, resolution, temperature = o["y_kind"], o["resolution"], o["temperature"]
     start, fix = o["start"], o["fix"]
@@ -188,7 +193,7 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
 
 def _options(x, y, molecule, *, band, temperature, resolution, instrument, isotopologues, fix,
              baseline, y_kind, joint, centrifugal, shape, lorentz_hwhm, convolve, start, free,
-             meta) -> dict:
+             meta, kind=None) -> dict:
     """Check every option of :func:`fit` (shared with :func:`restore_fit`)."""
     meta = dict(meta or {})
     detected = y_kind is None
@@ -201,6 +206,7 @@ def _options(x, y, molecule, *, band, temperature, resolution, instrument, isoto
                 and res > 0:
             resolution = float(res)
     mol = check_molecule(molecule)
+    check_kind(kind, mol)
     bands = check_bands(band)
     joint = bool(joint)
     if len(bands) > 1 and not joint:
@@ -302,11 +308,11 @@ def restore_fit(spectrum: Spectrum, molecule, options: Mapping, recorded: Mappin
         opts.pop(k, None)
     keys = ("band", "temperature", "resolution", "instrument", "isotopologues", "fix", "baseline",
             "y_kind", "joint", "centrifugal", "shape", "lorentz_hwhm", "convolve", "start", "free",
-            "meta")
+            "meta", "kind")
     defaults = {"band": (1, 0), "temperature": None, "resolution": None, "instrument": "gaussian",
                 "isotopologues": "natural", "fix": None, "baseline": "linear", "y_kind": None,
                 "joint": True, "centrifugal": "shared", "shape": "doppler", "lorentz_hwhm": None,
-                "convolve": "auto", "start": None, "free": None, "meta": None}
+                "convolve": "auto", "start": None, "free": None, "meta": None, "kind": None}
     unknown = set(opts) - set(keys)
     if unknown:
         raise FitError(f"restore_fit: unknown option(s) {', '.join(sorted(unknown))}")

@@ -23,7 +23,7 @@ from ..errors import FitError
 from ..levels.spin import parity
 from ..simulate.linesystem import LineSystem
 
-__all__ = ["is_linear_polyatomic", "check_linear_options", "apply_spin_weights", "spacing_in_B"]
+__all__ = ["check_kind", "is_linear_polyatomic", "check_linear_options", "apply_spin_weights", "spacing_in_B"]
 
 
 def is_linear_polyatomic(molecule) -> bool:
@@ -77,3 +77,17 @@ def spacing_in_B(molecule) -> float:
         return 2.0
     w = _ground_weights(molecule, np.arange(4))
     return 4.0 if np.any(w == 0) else 2.0
+
+
+def check_kind(kind, molecule) -> None:
+    """Only parallel bands are modelled: ``kind`` None or "parallel"."""
+    if kind in (None, "parallel"):
+        return
+    what = "".join(getattr(molecule, "atoms", ())) or str(molecule)
+    if kind == "perpendicular":
+        raise FitError(
+            f"kind='perpendicular': the band model fits parallel (Σ–Σ) bands only, P and R "
+            f"branches of a diatomic or of a linear molecule's ground state; a perpendicular band "
+            f"of {what} (Q branch, ℓ-type doubling) is assigned line by line with "
+            "s.assign_band(molecule, kind='perpendicular')")
+    raise FitError(f"kind must be None, 'parallel' or 'perpendicular', got {kind!r}")

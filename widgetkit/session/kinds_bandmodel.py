@@ -88,6 +88,8 @@ class FitBandModel(StepKind):
         Param("shape", "choice", "doppler", choices=("doppler", "voigt")),
         Param("lorentz_hwhm", "number", None, minimum=0, nullable=True, unit="cm-1"),
         Param("convolve", "choice", "auto", choices=("auto", "absorbance", "transmittance")),
+        Param("kind", "choice", None, choices=("parallel", "perpendicular"), nullable=True,
+              doc="band type (only parallel bands are modelled)"),
         Param("max_nfev", "integer", 3000, minimum=3, maximum=100_000),
         Param("max_time", "number", 60.0, above=0, maximum=86_400.0, unit="s"),
     )
