@@ -137,8 +137,8 @@ def big_band(n_lines: int, n_points: int, seed: int = 2):
 
 def large_one(n_lines: int, n_points: int) -> dict:
     """One large fit in this process: wall and CPU time, peak RSS, and its floor
-    (Jacobian evaluations x one residual plus one structured normal-equation
-    assembly and solve at the solution)."""
+    (Jacobian evaluations x the CPU time of one residual plus one structured
+    normal-equation assembly and solve at the solution)."""
     import resource
 
     from widgetkit.lines import structured
@@ -159,12 +159,12 @@ def large_one(n_lines: int, n_points: int) -> dict:
     rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0  # kB -> MB (Linux)
     model = captured["model"]
     v = model.variables(res.params)
-    t = time.perf_counter()
+    t = time.process_time()  # CPU time: the machine is shared, wall time is not ours
     r = model.residual_vec(v + 0.0)
     model._last_values = model._last_normal = None
     hess, g = structured.normal_equations(model, v, r)
     hess.solve(g, np.ones(v.size, dtype=bool), 1e-3)
-    one = time.perf_counter() - t
+    one = time.process_time() - t
     pos_err = np.abs(res.table.position.to_numpy() - np.sort(start)).max()
     return dict(n_lines=n_lines, n_points=n_points, wall=wall, cpu=cpu, rss_mb=rss,
                 njev=res.njev, nfev=res.nfev, converged=res.converged, one=one,
@@ -186,8 +186,8 @@ def large(cases=((500, 100_000), (5000, 1_000_000))):
         base = base or d
         print(f"{n_lines:5d} lines {n_points:8d} points: {d['wall']:7.2f} s wall, "
               f"{d['cpu']:7.2f} s CPU, peak RSS {d['rss_mb']:6.0f} MB, converged "
-              f"{d['converged']}, njev {d['njev']}, nfev {d['nfev']}; floor {d['floor']:.2f} s "
-              f"({d['njev']} x {d['one']:.3f} s) -> {d['wall'] / d['floor']:.1f}x floor; "
+              f"{d['converged']}, njev {d['njev']}, nfev {d['nfev']}; CPU floor {d['floor']:.2f} s "
+              f"({d['njev']} x {d['one']:.3f} s) -> {d['cpu'] / d['floor']:.1f}x floor; "
               f"CPU per line {d['cpu'] / n_lines * 1e3:.2f} ms = "
               f"{(d['cpu'] / n_lines) / (base['cpu'] / base['n_lines']):.2f}x the "
               f"{base['n_lines']}-line case; covariance entries kept {d['cov_nnz']}", flush=True)

@@ -267,3 +267,61 @@ def test_independent_blocks_fitted_together_equal_each_block_fitted_alone(monkey
         for col in ("position_err", "area_err"):  # errors scale with each fit's reduced chi2
             assert np.allclose(part[col] / np.sqrt(whole.redchi),
                                alone.table[col] / np.sqrt(alone.redchi), rtol=1e-5), col
+
+
+def test_the_lmfit_stage_forms_no_dense_covariance_beyond_its_limit(monkeypatch):
+    from widgetkit.lines import _lmfit_sparse
+
+    b = simulate_band(n_lines=4, n_points=1500)
+    seen = {}
+    orig = _lmfit_sparse.SparseMinimizer.least_squares
+
+    def spy(self, *a, **k):
+        seen["res"] = orig(self, *a, **k)
+        return seen["res"]
+
+    monkeypatch.setattr(_lmfit_sparse.SparseMinimizer, "least_squares", spy)
+    wl.fit(b.x, b.y, b.positions)
+    assert seen["res"].covar.shape == (18, 18)
+    monkeypatch.setattr(_lmfit_sparse, "DENSE_COVAR_MAX", 10)
+    wl.fit(b.x, b.y, b.positions)
+    assert seen["res"].covar is None
+
+
+def test_a_broad_line_under_narrow_ones_joins_the_globals_and_the_band_stays_narrow():
+    from widgetkit.lines.baselines import get_baseline
+    from widgetkit.lines.params import ThetaMap, build_params, theta_names
+    from widgetkit.lines.shapes import get_shape
+
+    rng = np.random.default_rng(7)
+    x = np.linspace(0.0, 200.0, 20000)
+    pos = np.r_[np.linspace(5.0, 195.0, 60), 100.0]  # sixty narrow lines and one broad band
+    area = np.r_[np.full(60, 0.3), 40.0]
+    sig, gam = np.r_[np.full(60, 0.05), 5.0], np.r_[np.full(60, 0.05), 8.0]
+    y = 0.1 + rng.normal(0.0, 0.01, x.size)
+    for a, p, s_, g_ in zip(area, pos, sig, gam):
+        y = y + wl.voigt(x, a, p, s_, g_)
+    shp, bl = get_shape("voigt"), get_baseline("linear")
+    ids = list(range(1, 62))
+    theta = np.r_[area, pos, sig, gam, 0.1, 0.0]
+    params = build_params(shp, bl, ids, theta, {})
+    tmap = ThetaMap(params, theta_names(shp, ids, bl))
+    model = model_mod.WindowedModel(x, y, None, shp, bl, 100.0, 61, tmap, 30.0)
+    model.set_windows(theta)
+    v = model.variables(params)
+    assert structured.wide_lines(model).tolist() == [False] * 60 + [True]
+    r = model.residual_vec(v)
+    model.structured = False
+    H, g = model.normal_equations(v, r)
+    model.structured = True
+    S, g2 = model.normal_equations(v, r)
+    assert S.bw < 12 and S.n - S.n_loc == 2 + 4  # baseline and the broad line's variables
+    free = np.ones(v.size, dtype=bool)
+    st, pred = solver.gauss_newton(S, g2, free)
+    ref, pred0 = solver.gauss_newton(H, g, free)  # the dense path (numpy)
+    assert np.allclose(st, ref, rtol=1e-7, atol=1e-9 * np.abs(ref).max())
+    computed = S.covariance().to_sparse().toarray()
+    inv = np.linalg.inv(H)
+    mask = computed != 0
+    scale = np.sqrt(np.outer(np.diag(inv), np.diag(inv)))
+    assert np.max(np.abs(computed - inv)[mask] / scale[mask]) < 1e-7

@@ -30,7 +30,12 @@ from lmfit.minimizer import AbortFitException
 from numpy.linalg import LinAlgError
 from scipy.optimize import least_squares as _scipy_least_squares
 
-__all__ = ["SparseMinimizer", "DEFAULT_LSQ_OPTIONS"]
+__all__ = ["SparseMinimizer", "DEFAULT_LSQ_OPTIONS", "DENSE_COVAR_MAX"]
+
+#: above this many variables no dense covariance is formed here (``covar`` None; the
+#: refits of :func:`lmfit.conf_interval` need only chi-square, and a fit's own
+#: uncertainties then come from :mod:`.structured`)
+DENSE_COVAR_MAX = 2000
 
 #: solver options of the fast path (``x_scale='jac'``: with lmfit's default
 #: ``x_scale=1.0`` windowed fits stopped early with chi-square too high)
@@ -99,7 +104,8 @@ class SparseMinimizer(Minimizer):
 
         Same contract and result as :meth:`lmfit.Minimizer.least_squares`;
         the covariance is ``inv(J.T @ J)`` (scaled by reduced chi-square when
-        ``scale_covar``), formed from the sparse ``J`` at the solution.
+        ``scale_covar``), formed from the sparse ``J`` at the solution, for at
+        most :data:`DENSE_COVAR_MAX` variables (None beyond).
         """
         result = self.prepare_fit(params)
         result.method = "least_squares"
@@ -146,12 +152,14 @@ class SparseMinimizer(Minimizer):
                 setattr(result, "least_squares_nfev" if attr == "nfev" else attr, ret[attr])
             result.x = np.atleast_1d(result.x)
             jac = ret.jac
-            hess = (jac.T @ jac).toarray() if sp.issparse(jac) else jac.T @ jac
-            try:
-                result.covar = np.linalg.inv(np.asarray(hess))
-                self._calculate_uncertainties_correlations()
-            except (LinAlgError, ValueError):
-                result.covar = None
+            result.covar = None
+            if result.nvarys <= DENSE_COVAR_MAX:  # beyond, lines.structured gives them
+                hess = (jac.T @ jac).toarray() if sp.issparse(jac) else jac.T @ jac
+                try:
+                    result.covar = np.linalg.inv(np.asarray(hess))
+                    self._calculate_uncertainties_correlations()
+                except (LinAlgError, ValueError):
+                    result.covar = None
         return result
 
     def leastsq(self, params=None, max_nfev=None, **kws):

@@ -29,7 +29,10 @@ import scipy.sparse as sp
 from .banded import ArrowCovariance, ArrowSystem
 
 __all__ = ["normal_equations", "layout", "covariance", "ParameterCovariance", "components",
-           "blocks"]
+           "blocks", "wide_lines", "WIDE_MAX"]
+
+#: most lines whose variables are moved to the globals for being wide (:func:`wide_lines`)
+WIDE_MAX = 200
 
 
 def theta_normal(model, theta: np.ndarray, r: np.ndarray) -> tuple[sp.csr_array, np.ndarray]:
@@ -77,9 +80,9 @@ def layout(model, D: sp.csc_array) -> tuple[np.ndarray, int, int, np.ndarray]:
     """Variable order for the band: ``(order, n_local, min_band, line_of_variable)``.
 
     A variable is local when every model parameter it moves belongs to one
-    line; locals are ordered by their line's window start, then globals.
-    ``D`` is ``dθ/dv`` (sparse, θ × variables); ``line_of_variable`` is -1
-    for a global.
+    line that is not wide (:func:`wide_lines`); locals are ordered by their
+    line's window start, then globals. ``D`` is ``dθ/dv`` (sparse, θ ×
+    variables); ``line_of_variable`` is -1 for a global.
     """
     m, npar = model.n_lines, model.n_lp
     D = sp.csc_array(D)
@@ -93,6 +96,7 @@ def layout(model, D: sp.csc_array) -> tuple[np.ndarray, int, int, np.ndarray]:
     np.minimum.at(lo, col, lines)
     np.maximum.at(hi, col, lines)
     local = (counts > 0) & (lo == hi) & (lo >= 0)
+    local &= ~wide_lines(model)[np.clip(lo, 0, max(m - 1, 0))]
     rank = np.empty(m, dtype=int)
     rank[np.argsort(model.starts, kind="stable")] = np.arange(m)
     loc = np.nonzero(local)[0]
@@ -102,6 +106,22 @@ def layout(model, D: sp.csc_array) -> tuple[np.ndarray, int, int, np.ndarray]:
     per_line = np.bincount(lo[local], minlength=m) if np.any(local) else np.zeros(1, int)
     return (order, int(loc.size), int(max(per_line.max() - 1, 0)),
             np.where(local, lo, -1))
+
+
+def wide_lines(model, most: int = WIDE_MAX) -> np.ndarray:
+    """Lines whose window overlaps far more windows than is usual in the fit (a broad
+    band under narrow lines): their variables join the globals, so that the band
+    stays as narrow as the ordinary lines make it. Overlapping more than
+    ``max(4 × median, 32)`` windows counts, at most ``most`` lines (the widest)."""
+    m = model.n_lines
+    s_sorted, e_sorted = np.sort(model.starts), np.sort(model.ends)
+    degree = (np.searchsorted(s_sorted, model.ends, side="left")
+              - np.searchsorted(e_sorted, model.starts, side="right") - 1)
+    wide = np.zeros(m, dtype=bool)
+    if m:
+        cand = np.nonzero(degree > max(4.0 * float(np.median(degree)), 32.0))[0]
+        wide[cand[np.argsort(-degree[cand], kind="stable")[:most]]] = True
+    return wide
 
 
 def normal_equations(model, v: np.ndarray, r: np.ndarray) -> tuple[ArrowSystem, np.ndarray]:
