@@ -325,3 +325,12 @@ def test_a_broad_line_under_narrow_ones_joins_the_globals_and_the_band_stays_nar
     mask = computed != 0
     scale = np.sqrt(np.outer(np.diag(inv), np.diag(inv)))
     assert np.max(np.abs(computed - inv)[mask] / scale[mask]) < 1e-7
+
+
+def test_a_matrix_with_nan_gives_no_step_and_no_claim_of_convergence():
+    rng = np.random.default_rng(3)
+    H, perm = _arrow_matrix(rng)
+    H[4, 4] = np.nan
+    step, pred, ridge = ArrowSystem(sp.csr_array(H), perm, 50).solve(
+        rng.normal(size=H.shape[0]), np.ones(H.shape[0], bool))
+    assert not np.any(step) and pred == np.inf and ridge == np.inf

@@ -135,6 +135,9 @@ class ArrowSystem:
                 cs = np.linalg.cholesky(S) if S.size else S
             except (np.linalg.LinAlgError, ValueError):
                 continue
+            if not (np.all(np.isfinite(cb)) and np.all(np.isfinite(W))
+                    and np.all(np.isfinite(cs))):
+                return None  # NaN or infinity in the matrix: no ridge helps
             if ridge == 0.0 and strict:
                 piv = np.concatenate([cb[0], np.diag(cs)]) if cs.size else cb[0]
                 if piv.size and np.min(np.abs(piv)) <= _MIN_PIVOT:
@@ -157,8 +160,9 @@ class ArrowSystem:
 
         ``lam`` damps the unit-diagonal matrix (Levenberg–Marquardt), one number
         or one per variable. Returns
-        ``(step, predicted reduction, ridge used)``; step zero and reduction 0
-        if no ridge makes the matrix factorable.
+        ``(step, predicted reduction, ridge used)``; if no ridge makes the matrix
+        factorable (it holds NaN or infinity), step zero and reduction and ridge
+        infinite, so that nobody takes it for a converged point.
         """
         step = np.zeros(self.n)
         if not np.any(free):
@@ -166,7 +170,7 @@ class ArrowSystem:
         d, fp, ab, B, C = self._scaled(np.asarray(free, dtype=bool), lam)
         f = self._factor(ab, B, C, strict=bool(np.all(np.asarray(lam) == 0.0)))
         if f is None:
-            return step, 0.0, np.inf
+            return step, np.inf, np.inf
         rhs = np.where(fp, g[self.order] / d, 0.0)
         x = self._apply(f, rhs, self.n_loc)
         step[self.order] = -x / d
