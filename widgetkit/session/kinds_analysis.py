@@ -11,6 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import AssignmentError, SessionStateError
+from ..formatting import plural
 from .params import Param, ParamProblem, show
 from .records import RESULT_TYPES, Restored, decode, encode_fields, table_from_json, table_kinds
 from .steps import RecordMismatch, State, StepKind, register_step, table_to_json
@@ -234,7 +235,7 @@ class AssignBand(StepKind):
 
     def apply(self, state, params, ctx):
         out = _assign(state, params, dict(state.locks))
-        summary = (f"assigned {_n_assigned(out)} of {len(out.assignments)} lines "
+        summary = (f"assigned {_n_assigned(out)} of {plural(len(out.assignments), 'line')} "
                    f"({params.get('kind', 'rovibrational')})"
                    + ("; DOUBTFUL" if getattr(out, "status", "ok") != "ok" else ""))
         return (state.evolve(assignment=out, assign_spec=dict(params)), _assignment_result(out),

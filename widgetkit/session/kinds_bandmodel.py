@@ -14,6 +14,7 @@ import contextvars
 from collections.abc import Callable, Iterator
 
 from ..errors import FitError, WidgetkitError
+from ..formatting import plural
 from .kinds_analysis import molecule_from_param
 from .params import Param
 from .steps import RecordMismatch, State, StepKind, register_step, table_to_json
@@ -102,7 +103,7 @@ class FitBandModel(StepKind):
         molecule = molecule_from_param(opts.pop("molecule"))
         fit = bandmodel.fit_spectrum(sp, molecule, progress=_PROGRESS.get(), **opts)
         summary = (f"band model of {' '.join(molecule.atoms)}: {fit.status}, "
-                   f"{int((fit.parameters['status'] == 'free').sum())} parameters fitted, "
+                   f"{plural(int((fit.parameters['status'] == 'free').sum()), 'parameter')} fitted, "
                    f"reduced chi-square {fit.redchi:.3g} ({fit.domain} domain)")
         return state.evolve(band_model=fit), _result(fit), summary
 

@@ -16,6 +16,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import ProcessingError, SessionStateError
+from ..formatting import article, plural
 from .codec import decode_array, encode_array
 from .params import Param, ParamProblem
 from .steps import (
@@ -29,6 +30,10 @@ from .steps import (
 )
 
 __all__ = ["Load", "Crop", "ToAbsorbance", "SubtractBaseline", "Note"]
+
+
+#: how a summary names each baseline method ("subtracted an ALS baseline")
+BASELINE_WORDS = {"als": "ALS", "poly": "polynomial"}
 
 
 def _spectrum_result(sp) -> dict:
@@ -63,7 +68,7 @@ class Load(StepKind):
         # edit of a recorded hash, size or metadata value is a mismatch
         result = _spectrum_result(sp) | {"source": {k: rec.get(k) for k in _SOURCE_FIELDS}}
         return (State(spectrum=sp), result,
-                f"loaded {sp.x.size} points, {sp.x[0]:.6g}–{sp.x[-1]:.6g} cm-1 ({sp.y_kind})")
+                f"loaded {plural(sp.x.size, 'point')}, {sp.x[0]:.6g}–{sp.x[-1]:.6g} cm-1 ({sp.y_kind})")
 
     def restore(self, state, params, result, ctx):
         if params["source"] not in ctx.sources:
@@ -161,8 +166,9 @@ class SubtractBaseline(StepKind):
         }
         result["baseline"] = encode_array(b)  # reopening subtracts it again, without fitting
         new, cleared = drop_dependents(state, spectrum=sp, baseline=b, peaks=_no_peaks(state))
+        what = article(BASELINE_WORDS.get(method, method))
         return (new, _with_cleared(result, cleared),
-                f"subtracted a {method} baseline (mean {b.mean():.4g})" + cleared_text(cleared))
+                f"subtracted {what} baseline (mean {b.mean():.4g})" + cleared_text(cleared))
 
     def restore(self, state, params, result, ctx):
         recorded = result.get("baseline")

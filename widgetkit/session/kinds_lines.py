@@ -31,6 +31,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import FitError, SessionStateError
+from ..formatting import plural
 from .params import Param, ParamProblem, show
 from .records import Restored, decode, encode_fields, table_from_json
 from .steps import (
@@ -80,6 +81,9 @@ MAX_CONF_INTERVAL = 8
 MAX_FIT_CELLS = 100_000_000
 #: the registered line shapes with their width parameters, and the baselines (a test keeps
 #: these equal to the registries of widgetkit.lines, which this module must not import)
+#: how a summary names each line shape ("fitted 12 Voigt lines")
+SHAPE_WORDS = {"gaussian": "Gaussian", "lorentzian": "Lorentzian", "voigt": "Voigt",
+               "pseudo_voigt": "pseudo-Voigt"}
 SHAPE_WIDTHS = {"gaussian": ("sigma",), "lorentzian": ("gamma",), "voigt": ("sigma", "gamma"),
                 "pseudo_voigt": ("sigma", "gamma")}
 SHAPE_NAMES = tuple(SHAPE_WIDTHS)
@@ -215,7 +219,8 @@ class FitLines(StepKind):
         cleared = {} if state.assignment is None else {"assignment": assigned_count(state.assignment)}
         if cleared:
             result["cleared"] = cleared
-        summary = (f"fitted {len(fit.table)} {opts.get('shape', 'voigt')} lines, "
+        shape = SHAPE_WORDS.get(opts.get("shape", "voigt"), opts.get("shape", "voigt"))
+        summary = (f"fitted {plural(len(fit.table), shape + ' line')}, "
                    f"reduced chi-square {fit.redchi:.3g}")
         if len(fit.removed):
             summary += "; " + _removed_text(fit.removed)

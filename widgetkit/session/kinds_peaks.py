@@ -12,6 +12,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import ProcessingError, SessionStateError
+from ..formatting import plural
 from .kinds_basic import _with_cleared
 from .params import Param
 from .records import table_from_json
@@ -90,7 +91,7 @@ class FindPeaks(StepKind):
         result = _with_cleared({"noise": search.noise.sigma, "search": search.to_json(),
                                 "peaks": table_to_json(peaks[cols])}, cleared)
         how = "automatic" if params.get("min_snr") is None else "given"
-        summary = (f"found {len(peaks)} peaks with snr ≥ {search.min_snr:.3g} ({how}); "
+        summary = (f"found {plural(len(peaks), 'peak')} with SNR ≥ {search.min_snr:.3g} ({how}); "
                    f"{search.noise.describe()}")
         return new, result, summary + cleared_text(cleared)
 

@@ -3,9 +3,11 @@
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field
 
-__all__ = ["VerifyReport", "compare_results", "cut", "replay_and_compare", "without_paths"]
+__all__ = ["VerifyReport", "compare_results", "cut", "replay_and_compare", "without_paths",
+           "summary_key", "same_summary"]
 
 
 @dataclass(frozen=True)
@@ -35,6 +37,32 @@ class VerifyReport:
         lines = [f"NOT verified: {len(self.mismatches)} mismatch(es) in {self.steps_checked} steps"]
         lines += [f"  - {m}" for m in self.mismatches]
         return "\n".join(lines)
+
+
+_ARTICLE = re.compile(r"\b(?:a|an)\s+")
+_PLURAL_S = re.compile(r"\b([^\W\d_]+?)s\b")
+_SPACES = re.compile(r"\s+")
+
+
+def summary_key(text: str) -> str:
+    """A step summary with its wording normalised: letter case, the articles "a"/"an", a
+    plural "s", ``_``/``-`` and the spelling of cm⁻¹ (``cm-1``) are set aside; numbers,
+    names and everything else are kept.
+
+    ``verify`` compares summaries through this key, so a file saved before a summary's
+    grammar was corrected ("subtracted a als baseline", "fitted 1 voigt lines") still
+    verifies against today's wording ("subtracted an ALS baseline", "fitted 1 Voigt line"),
+    while a changed number or word is still a mismatch (and the step's seal catches any
+    edit of the recorded text)."""
+    t = str(text).replace("cm⁻¹", "cm-1").replace("_", "-").casefold()
+    t = _ARTICLE.sub("", t)
+    t = _PLURAL_S.sub(r"\1", t)
+    return _SPACES.sub(" ", t).strip()
+
+
+def same_summary(recorded: str, replayed: str) -> bool:
+    """Whether two summaries say the same, wording aside (:func:`summary_key`)."""
+    return recorded == replayed or summary_key(recorded) == summary_key(replayed)
 
 
 def cut(value, limit: int = 120) -> str:
@@ -152,8 +180,9 @@ def compare_results(recorded, replayed, *, rtol: float, where: str, out: list[st
 
 def replay_and_compare(steps: list, ctx, problems: list[str]) -> VerifyReport:
     """Run every step again from the sources (``replay``, never ``restore``) and compare its
-    result and summary with the record; ``problems`` (found while opening: hashes, records
-    that had to be computed) are mismatches too. Steps are numbered from 0."""
+    result and summary (wording aside, :func:`same_summary`) with the record; ``problems``
+    (found while opening: hashes, records that had to be computed) are mismatches too.
+    Steps are numbered from 0."""
     import json
 
     from ..errors import WidgetkitError
@@ -185,7 +214,7 @@ def replay_and_compare(steps: list, ctx, problems: list[str]) -> VerifyReport:
         compare_results(without_paths(step.result, kind.volatile),
                         without_paths(result, kind.volatile), rtol=kind.tolerance,
                         where=f"{where} result", out=mismatches)
-        if summary != step.summary:
+        if not same_summary(step.summary, summary):
             mismatches.append(f"{where} summary: recorded {cut(step.summary)}, "
                               f"replayed {cut(summary)}")
     return VerifyReport(ok=not mismatches, mismatches=mismatches, steps_checked=checked)
