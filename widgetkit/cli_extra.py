@@ -1,4 +1,4 @@
-"""The ``report`` and ``demo`` sub-commands of ``widgetkit``.
+"""The ``report``, ``migrate`` and ``demo`` sub-commands of ``widgetkit``.
 
 ``widgetkit report FILE -o OUT [--bundle DIR] [--overwrite] [--verify] [--title TEXT]``
     Write the report of a saved session; the format follows OUT's suffix (.md, .html,
@@ -6,6 +6,12 @@
     processed spectrum as JCAMP-DX and CSV, a README for the referee, SHA256SUMS).
     Exit 0 on success, 1 when ``--verify`` found mismatches (the report is still
     written and says so), 2 when the session cannot be read or the output not written.
+
+``widgetkit migrate OLD NEW [--overwrite]``
+    Bring a session file saved by an older widgetkit up to date (every recorded step run
+    again in this version; see :mod:`widgetkit.session.migrate`). Exit 0 when every step ran
+    again, 1 when one could not (the session up to there is written), 2 on unreadable input
+    or an output that cannot be written.
 
 ``widgetkit demo [--dir DIR] [--no-browser] [--yes] [--port N]``
     Copy the sample notebooks and demo data to DIR (default ``~/widgetkit-demo``) and
@@ -18,6 +24,7 @@
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 
 __all__ = ["register_report", "register_demo", "COMMANDS"]
@@ -29,6 +36,12 @@ _REPORT_HELP = (
     "spectrum as JCAMP-DX and CSV, a README for the referee and SHA256SUMS. Exit status 0 on "
     "success, 1 when --verify found mismatches (the report is still written and says so), 2 when "
     "the session cannot be read or the output cannot be written.")
+_MIGRATE_HELP = (
+    "Run every step of a session file saved by an older widgetkit again in this version, from "
+    "the file's embedded data, and write the result to NEW (OLD is only read). Lists the steps "
+    "whose results came out other than recorded. Exit status 0 when every step ran again, 1 "
+    "when a step could not be (the session up to there is written), 2 when OLD cannot be read "
+    "or NEW not written.")
 _DEMO_HELP = (
     "Copy the sample notebooks and the demo data to a folder of yours (default ~/widgetkit-demo) "
     "and start JupyterLab there on 01-quick-start.ipynb, listening on 127.0.0.1 only with "
@@ -97,6 +110,43 @@ def register_report(sub) -> None:
     p.set_defaults(func=_cmd_report)
 
 
+def _cmd_migrate(args: argparse.Namespace) -> int:
+    from ._files import check_writable
+    from .errors import WidgetkitError
+    from .session import Session
+
+    try:  # the output is checked before anything is computed
+        if os.path.exists(args.new) and os.path.samefile(args.new, args.old):
+            _err("migrate", f"{args.new} is the file being migrated; write the migrated session "
+                            "to a new file (the old one stays as the record)")
+            return 2
+        if os.path.exists(args.new) and not args.overwrite:
+            _err("migrate", f"{args.new} exists; give --overwrite to replace it")
+            return 2
+        check_writable(args.new)
+        report = Session.migrate(args.old)
+        report.session.save(args.new)
+    except FileNotFoundError:
+        _err("migrate", f"{args.old}: no such file")
+        return 2
+    except (WidgetkitError, OSError) as exc:
+        _err("migrate", str(exc))
+        return 2
+    print(report)
+    print(f"wrote {args.new}; check it with: widgetkit verify {args.new}")
+    return 0 if report.ok else 1
+
+
+def register_migrate(sub) -> None:
+    """Add ``migrate`` to the sub-command parser ``sub``."""
+    p = sub.add_parser("migrate", help="bring a session file saved by an older widgetkit up to "
+                                       "date", description=_MIGRATE_HELP)
+    p.add_argument("old", help="the session file saved by an older widgetkit (only read)")
+    p.add_argument("new", help="the session file to write")
+    p.add_argument("--overwrite", action="store_true", help="replace NEW when it exists")
+    p.set_defaults(func=_cmd_migrate)
+
+
 def _ask_on_terminal(rel: str) -> bool:
     if not sys.stdin.isatty():
         return False
@@ -137,4 +187,4 @@ def register_demo(sub) -> None:
 
 
 #: the registration functions, in the order the commands are listed
-COMMANDS = [register_report, register_demo]
+COMMANDS = [register_report, register_migrate, register_demo]

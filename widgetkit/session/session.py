@@ -22,6 +22,7 @@ from typing import Any
 from ..errors import SessionFormatError, SessionStateError
 from ..spectrum import Spectrum
 from . import codec, persist
+from .migrate import MigrationReport, migrate_file, refuse_older
 from .params import ParamProblem, check_json
 from .step_methods import StepMethods
 from .steps import STEP_KINDS, Context, State, Step, software_versions, utc_now
@@ -139,13 +140,15 @@ class Session(StepMethods, StateViews):
         Raises
         ------
         SessionFormatError
-            When the file is not strict JSON, fails the schema, holds a malformed step
-            (naming it from 0 and the field), is of a newer version than this code, or a
-            step can be neither restored nor computed.
+            When the file was saved by an older widgetkit in a form this version cannot
+            verify (the message names :meth:`migrate`), is not strict JSON, fails the
+            schema, holds a malformed step (naming it from 0 and the field), is of a newer
+            version than this code, or a step can be neither restored nor computed.
         OSError
             When the file cannot be read at all (missing, a folder, no permission).
         """
         doc = codec.read_document(path)
+        refuse_older(doc, str(path))
         persist.check_steps(doc["steps"], str(path))
         self = cls.__new__(cls)
         self._init_empty()
@@ -163,6 +166,17 @@ class Session(StepMethods, StateViews):
             f"step {i} ({self._steps[i].kind}): the recorded result does not fit the state "
             "before it, so it was computed again on reopening" for i in recomputed]
         return self
+
+    @classmethod
+    def migrate(cls, path: str | os.PathLike) -> MigrationReport:
+        """Bring a session file saved by an older widgetkit up to date: every recorded step is
+        run again in this version from the file's embedded data (the file is only read).
+
+        Returns a :class:`~widgetkit.session.migrate.MigrationReport` whose ``session`` is the
+        new session (save it to a new file) and which lists the steps whose results moved.
+        ``widgetkit migrate OLD NEW`` does the same from the command line.
+        """
+        return migrate_file(path)
 
     # ------------------------------------------------------------------ running steps
     def _run(self, kind: str, params: dict) -> Step:
