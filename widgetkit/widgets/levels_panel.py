@@ -12,10 +12,11 @@ import pandas as pd
 
 from ..formatting import column_label, display_isotopologue, unicode_units
 from ._base import Panel, row
+from ._levels_text import edge_lines, fortrat_m, verdict_html
 from ._plot import COLORS
 from ._tables import html_table
 
-__all__ = ["LevelsPanel", "fortrat_m", "verdict_html"]
+__all__ = ["LevelsPanel", "fortrat_m", "verdict_html", "edge_lines"]
 
 KIND_CHOICES = [("rovibrational band (P/R lines)", "rovibrational"),
                 ("vibrational progression (band centres)", "progression"),
@@ -43,14 +44,6 @@ HEADINGS.update({"position": "position / cm⁻¹", "calc": "calc / cm⁻¹",
                  "obs_minus_calc": "obs − calc / cm⁻¹", "normalised_residual": "(obs − calc)/σ"})
 
 
-def fortrat_m(J_upper, J_lower) -> np.ndarray:
-    """The running number m of a ¹Σ–¹Σ band: m = J″ + 1 for R lines (J′ = J″ + 1),
-    m = −J″ for P lines (J′ = J″ − 1); NaN otherwise (Q lines, unassigned)."""
-    ju = pd.to_numeric(pd.Series(J_upper), errors="coerce").to_numpy(float)
-    jl = pd.to_numeric(pd.Series(J_lower), errors="coerce").to_numpy(float)
-    return np.where(ju == jl + 1, jl + 1, np.where(ju == jl - 1, -jl, np.nan))
-
-
 def _small_figure(title: str, x_label: str, y_label: str):
     xs, ys = bq.LinearScale(), bq.LinearScale()
     fig = bq.Figure(marks=[], title=title,
@@ -61,15 +54,6 @@ def _small_figure(title: str, x_label: str, y_label: str):
                     layout=ipw.Layout(width="50%", height="280px"),
                     min_aspect_ratio=0.01, max_aspect_ratio=100, animation_duration=0)
     return fig, xs, ys
-
-
-def verdict_html(assignment) -> str:
-    """The assignment's status: nothing when ok, else "doubtful" and its reasons."""
-    if assignment is None or getattr(assignment, "status", "ok") == "ok":
-        return ""
-    items = "".join(f"<li>{html.escape(str(r))}</li>" for r in getattr(assignment, "reasons", []))
-    return ('<div class="wk-doubtful" style="color:#8a5300"><b>Doubtful result</b>: check before '
-            f"using these constants<ul>{items}</ul></div>")
 
 
 class LevelsPanel(Panel):
@@ -194,16 +178,20 @@ class LevelsPanel(Panel):
                 self.edit_line.value = keep if keep in ids else ids[0]
         a = s.assignments
         locks = s.locks
+        edge = edge_lines(state.line_fit)
         if "line_id" in a:
-            a = a.assign(lock=["locked" if int(i) in locks else "" for i in a["line_id"]])
-        self.verdict.value = verdict_html(s.assignment)
+            a = a.assign(lock=["locked" if int(i) in locks else "" for i in a["line_id"]],
+                         edge=[int(i) in edge for i in a["line_id"]])
+        cut = a[a["edge"] & a["label"].notna()] if "edge" in a else None
+        self.verdict.value = verdict_html(s.assignment, cut)
         extra = [c for c in ("band", "side") if c in a.columns and a[c].notna().any()]
         cols = ASSIGNMENT_COLUMNS[:3] + extra + ASSIGNMENT_COLUMNS[3:]
         self.assignment_table.value = html_table(
             a, name="assignments", columns=[*cols, "lock"],
             headers=HEADINGS, formats={"obs_minus_calc": ".5f", "normalised_residual": ".2f"},
             converters=CONVERTERS,
-            row_class=lambda r: "wk-outlier" if bool(r.get("outlier", False)) else "",
+            row_class=lambda r: "wk-outlier" if bool(r.get("outlier", False))
+            or bool(r.get("edge", False)) else "",
             empty="no assignment yet: fit lines, then press Assign")
         consts = s.constants
         cols = [c for c in CONSTANT_COLUMNS[:1] + ["band"] + CONSTANT_COLUMNS[1:]
@@ -265,7 +253,8 @@ class LevelsPanel(Panel):
                               errors="coerce").to_numpy(float)
             self.fortrat_fig.title, self.fortrat_fig.axes[0].label = "progression", "v′"
         order = np.argsort(np.where(np.isfinite(m), m, np.inf), kind="stable")
-        flagged = [OUTLIER_COLOR if bool(o) else c for o, c in zip(a["outlier"].tolist(), colors)]
+        marked = a["outlier"].astype(bool) | (a["edge"].astype(bool) if "edge" in a else False)
+        flagged = [OUTLIER_COLOR if o else c for o, c in zip(marked.tolist(), colors)]
         with self.fortrat_obs.hold_sync():
             self.fortrat_obs.x, self.fortrat_obs.y = m, pos
             self.fortrat_obs.colors = flagged
