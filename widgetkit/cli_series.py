@@ -89,6 +89,10 @@ def verify_series(args: argparse.Namespace) -> int:
     except (WidgetkitError, OSError) as exc:
         _err("verify", f"cannot read the series file: {exc}")
         return 2
+    except Exception as exc:  # never a traceback for a file, whatever it holds
+        _err("verify", f"cannot read the series file {args.file}: {type(exc).__name__}: "
+                       f"{str(exc)[:200]}")
+        return 2
     try:
         report = res.verify(workers=getattr(args, "workers", None),
                             client=getattr(args, "scheduler", None), progress=False)

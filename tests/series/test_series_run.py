@@ -1,5 +1,6 @@
 """run_series: truth, identical results on every executor, failures isolated, re-runs."""
 
+import logging
 import os
 import shutil
 
@@ -54,13 +55,34 @@ def test_the_process_pool_gives_the_serial_numbers(serial_run, recipe, series_di
     assert list(pool.spectra["status"]) == list(serial_run.spectra["status"])
 
 
-def test_a_dask_local_cluster_gives_the_serial_numbers(serial_run, recipe, series_dir, tmp_path):
+@pytest.fixture
+def dask_client():
+    """A Dask client of a LocalCluster started here: one worker process with one thread (the
+    tasks still cross a process boundary, as on a cluster, and the test stays light on a
+    shared machine), timeouts generous enough for a loaded machine, and the client and the
+    cluster always closed, also when the test fails."""
     distributed = pytest.importorskip("distributed")
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                  dashboard_address=":0") as cluster, \
-            distributed.Client(cluster) as client:
-        res = wk.run_series(recipe, series_dir, variable="set temperature", client=client,
-                            progress=False, out=tmp_path)
+    import dask
+
+    slow = {"distributed.comm.timeouts.connect": "300s", "distributed.comm.timeouts.tcp": "300s",
+            "distributed.deploy.lost-worker-timeout": "300s"}
+    with dask.config.set(slow):
+        cluster = distributed.LocalCluster(n_workers=1, threads_per_worker=1, processes=True,
+                                           dashboard_address=":0", silence_logs=logging.ERROR)
+        try:
+            client = distributed.Client(cluster, timeout="300s")
+            try:
+                yield client
+            finally:
+                client.close(timeout=120)
+        finally:
+            cluster.close(timeout=120)
+
+
+def test_a_dask_local_cluster_gives_the_serial_numbers(serial_run, recipe, series_dir, tmp_path,
+                                                       dask_client):
+    res = wk.run_series(recipe, series_dir, variable="set temperature", client=dask_client,
+                        progress=False, out=tmp_path)
     np.testing.assert_allclose(constants_of(res), constants_of(serial_run), rtol=1e-9)
     assert list(res.spectra["status"]) == list(serial_run.spectra["status"])
 

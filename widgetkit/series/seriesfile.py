@@ -19,7 +19,6 @@ processor time its worker spent on it; ``spectra`` are in series order
 
 from __future__ import annotations
 
-import json
 import os
 from pathlib import Path
 
@@ -50,13 +49,63 @@ def is_series_file(path: str | os.PathLike) -> bool:
     return f'"format":"{SERIES_FORMAT}"'.encode() in head.replace(b" ", b"")
 
 
+def _text(v) -> bool:
+    return v is None or isinstance(v, str)
+
+
+def _number(v) -> bool:
+    return v is None or (isinstance(v, (int, float)) and not isinstance(v, bool))
+
+
+def _texts(v) -> bool:
+    return v is None or (isinstance(v, list) and all(isinstance(t, str) for t in v))
+
+
+def _columns(v) -> bool:
+    """``{column: [values]}`` with every column as long as the others."""
+    return v is None or (isinstance(v, dict) and all(isinstance(c, list) for c in v.values())
+                         and len({len(c) for c in v.values()}) <= 1)
+
+
+#: the fields of a spectrum's entry: (check, what it must be)
+_ENTRY_FIELDS = {
+    "index": (lambda v: v is None or (isinstance(v, int) and not isinstance(v, bool)),
+              "a whole number"),
+    "source": (_text, "text"), "sha256": (_text, "text"), "session_sha256": (_text, "text"),
+    "variable_unit": (_text, "text"),
+    "variable": (lambda v: _number(v) or isinstance(v, str), "a number or text"),
+    "reasons": (_texts, "a list of texts"), "notes": (_texts, "a list of texts"),
+    "seconds": (_number, "a number"), "cpu_seconds": (_number, "a number"),
+    "warm_start": (lambda v: v is None or isinstance(v, dict), "an object"),
+    "constants": (_columns, "an object of equally long columns {name: [values]}"),
+}
+#: the fields of the document besides the spectra and the recipe
+_DOC_FIELDS = {
+    "variable": (lambda v: v is None or (isinstance(v, dict) and _text(v.get("name"))
+                                         and _text(v.get("unit"))),
+                 "an object with a 'name' and a 'unit' (texts) or null"),
+    "recipe_sha256": (_text, "text"), "created": (_text, "text"), "modified": (_text, "text"),
+    "complete": (lambda v: v is None or isinstance(v, bool), "true or false"),
+}
+
+
+def _check_fields(obj: dict, fields: dict, where: str, path: str) -> None:
+    from ..session.verify import cut
+
+    for key, (ok, what) in fields.items():
+        if key in obj and not ok(obj[key]):
+            raise SeriesError(f"field {where}{key}: must be {what}, got {cut(obj[key], 80)}",
+                              path=path)
+
+
 def read_series_document(path: str | os.PathLike) -> dict:
-    """Read and check a series file; :class:`SeriesError` naming the field otherwise."""
+    """Read and check a series file: strict, bounded JSON (as session files are read, see
+    :mod:`widgetkit.session.jsonfile`) and every field the series uses of the right type;
+    :class:`SeriesError` naming the file and the field otherwise."""
+    from ..session.jsonfile import read
+
     p = str(path)
-    try:
-        doc = json.loads(Path(p).read_text(encoding="utf-8"))
-    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
-        raise SeriesError(f"not a series file (invalid JSON: {exc})", path=p) from None
+    doc = read(p, error=SeriesError, what="a series file")
     if not isinstance(doc, dict) or doc.get("format") != SERIES_FORMAT:
         raise SeriesError(f"not a widgetkit series file (format {doc.get('format')!r})"
                           if isinstance(doc, dict) else "not a widgetkit series file", path=p)
@@ -66,6 +115,7 @@ def read_series_document(path: str | os.PathLike) -> dict:
     if v > SERIES_VERSION:
         raise SeriesError(f"the series file is of version {v}; this widgetkit reads up to "
                           f"{SERIES_VERSION}; upgrade widgetkit", path=p)
+    _check_fields(doc, _DOC_FIELDS, "", p)
     spectra = doc.get("spectra")
     if not isinstance(spectra, list):
         raise SeriesError("field spectra: must be a list", path=p)
@@ -74,6 +124,7 @@ def read_series_document(path: str | os.PathLike) -> dict:
                 or e.get("status") not in ("ok", "doubtful", "failed"):
             raise SeriesError(f"field spectra/{i}: each entry needs a 'name' and a 'status' "
                               "(ok, doubtful or failed)", path=p)
+        _check_fields(e, _ENTRY_FIELDS, f"spectra/{i}/", p)
         sess = e.get("session")
         if sess is not None and (not isinstance(sess, str) or os.path.isabs(sess)
                                  or ".." in Path(sess).parts):

@@ -121,13 +121,7 @@ def read_document(path: str | os.PathLike) -> dict:
     """Read, migrate and validate a session file; raises SessionFormatError on any problem
     of its content (and OSError when it cannot be read at all)."""
     p = os.fspath(path)
-    size = os.stat(p).st_size
-    if size > jsonfile.MAX_BYTES:
-        raise SessionFormatError(f"the file holds {size:,} bytes, more than the "
-                                 f"{jsonfile.MAX_BYTES:,} a session file may have", path=p)
-    with open(p, "rb") as fh:
-        data = fh.read()
-    doc = migrate(jsonfile.parse(data, path=p), path=p)
+    doc = migrate(jsonfile.read(p), path=p)
     validate(doc, path=p)
     return doc
 

@@ -1,4 +1,4 @@
-"""Strict reading of session files: JSON as the standard defines it, bounded.
+"""Strict reading of session, recipe and series files: JSON as the standard defines it, bounded.
 
 :func:`parse` refuses, with a :class:`~widgetkit.errors.SessionFormatError`
 naming the line, column and field, what Python's ``json`` module would accept
@@ -25,7 +25,7 @@ import numpy as np
 
 from ..errors import SessionFormatError
 
-__all__ = ["parse", "MAX_BYTES", "MAX_DEPTH", "MAX_INT_DIGITS", "MAX_NUMBER_CHARS"]
+__all__ = ["parse", "read", "MAX_BYTES", "MAX_DEPTH", "MAX_INT_DIGITS", "MAX_NUMBER_CHARS"]
 
 #: largest session file read (bytes): a 10-million-point spectrum embedded is about 210 MB
 MAX_BYTES = 512 * 2**20
@@ -113,17 +113,19 @@ def nesting_depth(data: bytes) -> int:
     return int(np.cumsum(steps).max())
 
 
-def parse(data: bytes, *, path: str | None = None):
-    """The JSON value of a session file's bytes; :class:`SessionFormatError` for anything
-    that is not strict, bounded JSON (module docstring)."""
+def parse(data: bytes, *, path: str | None = None, error: type = SessionFormatError,
+          what: str = "a session file"):
+    """The JSON value of a file's bytes; ``error`` (default :class:`SessionFormatError`,
+    with ``path``) for anything that is not strict, bounded JSON (module docstring). ``what``
+    names the kind of file in messages ("a series file")."""
     if len(data) > MAX_BYTES:
-        raise SessionFormatError(f"the file holds {len(data):,} bytes, more than the "
-                                 f"{MAX_BYTES:,} a session file may have", path=path)
+        raise error(f"the file holds {len(data):,} bytes, more than the "
+                    f"{MAX_BYTES:,} {what} may have", path=path)
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError as exc:
-        raise SessionFormatError(f"not a text (UTF-8 JSON) file: byte {exc.start} cannot be "
-                                 "decoded", path=path) from None
+        raise error(f"not a text (UTF-8 JSON) file: byte {exc.start} cannot be decoded",
+                    path=path) from None
     if text.startswith("\ufeff"):
         text = text[1:]
     try:
@@ -133,19 +135,30 @@ def parse(data: bytes, *, path: str | None = None):
             raise RecursionError
         return value
     except RecursionError:  # the parser stops by itself far below any danger
-        raise SessionFormatError(f"the JSON is nested {nesting_depth(data):,} levels deep (at "
-                                 f"most {MAX_DEPTH}); this is not a session file",
-                                 path=path) from None
+        raise error(f"the JSON is nested {nesting_depth(data):,} levels deep (at most "
+                    f"{MAX_DEPTH}); this is not {what}", path=path) from None
     except json.JSONDecodeError as exc:
-        raise SessionFormatError(
-            f"invalid JSON at line {exc.lineno}, column {exc.colno}: {exc.msg}", path=path
-        ) from None
+        raise error(f"invalid JSON at line {exc.lineno}, column {exc.colno}: {exc.msg}",
+                    path=path) from None
     except _Problem as exc:
-        raise SessionFormatError(f"{_locate(text, exc.token)}holds {exc.what}",
-                                 path=path) from None
+        raise error(f"{_locate(text, exc.token)}holds {exc.what}", path=path) from None
     except (ValueError, MemoryError) as exc:  # pragma: no cover - bounded above
-        raise SessionFormatError(f"the JSON cannot be read: {type(exc).__name__}",
-                                 path=path) from None
+        raise error(f"the JSON cannot be read: {type(exc).__name__}", path=path) from None
+
+
+def read(path, *, error: type = SessionFormatError, what: str = "a session file"):
+    """The JSON value of the file ``path``, read strictly (:func:`parse`); its size is
+    checked before it is read. ``OSError`` when it cannot be read at all."""
+    import os
+
+    p = os.fspath(path)
+    size = os.stat(p).st_size
+    if size > MAX_BYTES:
+        raise error(f"the file holds {size:,} bytes, more than the {MAX_BYTES:,} {what} may "
+                    "have", path=p)
+    with open(p, "rb") as fh:
+        data = fh.read()
+    return parse(data, path=p, error=error, what=what)
 
 
 def _locate(text: str, token: str) -> str:

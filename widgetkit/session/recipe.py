@@ -37,7 +37,6 @@ import json
 import os
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
-from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -194,22 +193,16 @@ class Recipe:
         Raises
         ------
         SeriesError
-            Not JSON, not a recipe, a newer version than this widgetkit reads, a
+            Not strict JSON (repeated keys, NaN, absurd sizes or nesting are refused as
+            for session files), not a recipe, a newer version than this widgetkit reads, a
             malformed step or an unknown step kind (the message names the field).
         FileNotFoundError
             No such file.
         """
+        from .jsonfile import read
+
         p = str(path)
-        try:
-            text = Path(p).read_text(encoding="utf-8")
-        except UnicodeDecodeError as exc:
-            raise SeriesError(f"not a text (UTF-8 JSON) file: {exc}", path=p) from None
-        try:
-            doc = json.loads(text)
-        except json.JSONDecodeError as exc:
-            raise SeriesError(f"invalid JSON at line {exc.lineno}, column {exc.colno}: {exc.msg}",
-                              path=p) from None
-        return _parse(doc, p)
+        return _parse(read(p, error=SeriesError, what="a recipe"), p)
 
     # ------------------------------------------------------------------ applying
     def apply(self, spectrum: Spectrum | str | os.PathLike, *, read_options: dict | None = None,
