@@ -1,4 +1,5 @@
-"""Atomic, shareable file writes (used by session saves).
+"""Atomic, shareable file writes: the one writer of the package (sessions, recipes, series
+files, reports and bundles, spectra written by `widgetkit.io`, the demo folder).
 
 :func:`atomic_write` writes through a temporary file in the target's folder and
 renames it over the target, so a reader sees the old file or the new one,

@@ -28,6 +28,7 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from .._files import atomic_write
 from ..errors import WidgetkitError
 from .scenario import LAB, SAFETY_NOTE, SAMPLES, SCENARIO
 
@@ -194,9 +195,7 @@ def _backup_name(path: Path) -> Path:
 
 def _copy(src: Path, dest: Path) -> None:
     dest.parent.mkdir(parents=True, exist_ok=True)
-    tmp = dest.with_name(f".{dest.name}.widgetkit-tmp")
-    tmp.write_bytes(src.read_bytes())
-    os.replace(tmp, dest)
+    atomic_write(dest, src.read_bytes(), what="copy the demo")
 
 
 def copy_demo(folder: str | os.PathLike | None = None, *,
@@ -253,10 +252,10 @@ def copy_demo(folder: str | os.PathLike | None = None, *,
                 report.kept.append(rel)
                 continue
         new_manifest[rel] = want
-    tmp = manifest_path.with_name(MANIFEST + ".tmp")
-    tmp.write_text(json.dumps({"format": "widgetkit-demo-manifest", "files": new_manifest},
-                              indent=1, sort_keys=True), encoding="utf-8")
-    os.replace(tmp, manifest_path)
+    atomic_write(manifest_path, json.dumps({"format": "widgetkit-demo-manifest",
+                                            "files": new_manifest}, indent=1,
+                                           sort_keys=True).encode("utf-8"),
+                 what="copy the demo")
     return report
 
 

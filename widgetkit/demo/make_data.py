@@ -24,6 +24,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .._files import atomic_write
 from ..spectrum import Spectrum
 from .scenario import SAMPLES, scenario_markdown
 
@@ -104,9 +105,7 @@ def write_labelled_jcamp(spectrum: Spectrum, path: str | Path, labels: dict[str,
     lines = path.read_text(encoding="ascii").split("\n")
     at = next(i for i, line in enumerate(lines) if line.startswith("##OWNER=")) + 1
     lines[at:at] = [f"##{k}={v}" for k, v in labels.items()]
-    tmp = path.with_name(f".{path.name}.tmp")
-    tmp.write_text("\n".join(lines), encoding="ascii")
-    tmp.replace(path)
+    atomic_write(path, "\n".join(lines).encode("ascii"), what="write the demo data")
     return path
 
 

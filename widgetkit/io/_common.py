@@ -6,7 +6,6 @@ from __future__ import annotations
 import hashlib
 import io
 import os
-import secrets
 from typing import Any
 
 import numpy as np
@@ -249,28 +248,10 @@ def _percent_to_fraction(y: np.ndarray, percent: bool | None, percent_from: str,
 
 
 def atomic_write(path: str, data: bytes) -> None:
-    """Write ``data`` to a temporary file beside ``path``, then rename it over ``path``.
+    """Write ``data`` to ``path`` atomically with the one writer of the package
+    (:func:`widgetkit._files.atomic_write`: a temporary file beside it renamed over it, the
+    umask's mode, links written through); a failed write leaves ``path`` as it was, and a
+    place that cannot be written is a :class:`~widgetkit.errors.FilePathError` naming it."""
+    from .._files import atomic_write as write
 
-    The temporary file is created with mode 0o666 less the process umask, as ``open`` would
-    create ``path`` itself (not the private 0o600 of :func:`tempfile.mkstemp`), so the file
-    written has the usual permissions. A failed write leaves ``path`` as it was.
-    """
-    folder = os.path.dirname(path) or "."
-    base = os.path.basename(path)
-    for _ in range(100):
-        tmp = os.path.join(folder, f".{base}.{secrets.token_hex(6)}.tmp")
-        try:
-            fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)
-            break
-        except FileExistsError:
-            continue
-    else:  # pragma: no cover - 100 random names all taken
-        raise FileExistsError(f"could not create a temporary file beside {path}")
-    try:
-        with os.fdopen(fd, "wb") as f:
-            f.write(data)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    write(path, data, what="write")

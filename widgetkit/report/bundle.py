@@ -21,7 +21,6 @@
 from __future__ import annotations
 
 import hashlib
-import os
 from dataclasses import dataclass
 from importlib import metadata
 from pathlib import Path
@@ -31,7 +30,7 @@ from ..formatting import plural, summary_text
 from .data import ReportData, collect
 from .figures import report_figures
 from .wheel import WheelInfo, build_wheel, dependency_names
-from .write import _file_mode, atomic_write, check_folder, write_report
+from .write import atomic_write, check_folder, write_report
 
 __all__ = ["Bundle", "BundleExistsError", "write_bundle", "referee_readme", "check_bundle_folder"]
 
@@ -252,8 +251,6 @@ def write_bundle(session, folder, *, overwrite: bool = False, title: str | None 
         written.append(info.path)
     atomic_write(out / "software" / "requirements.txt", _requirements(data).encode("utf-8"))
     written.append(out / "software" / "requirements.txt")
-    for p in written:  # writers of other layers create private (0600) temporary files
-        os.chmod(p, _file_mode())
     files = {p.relative_to(out).as_posix(): _sha256(p) for p in written}
     atomic_write(out / "README.md", referee_readme(data, files, info).encode("utf-8"))
     files["README.md"] = _sha256(out / "README.md")

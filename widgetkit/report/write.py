@@ -4,11 +4,10 @@ from __future__ import annotations
 
 import io
 import os
-import tempfile
 from collections.abc import Mapping
 from pathlib import Path
 
-from ..errors import WidgetkitError
+from ..errors import FilePathError, WidgetkitError
 from .csvout import render_csv
 from .data import ReportData, collect
 from .figures import report_figures
@@ -87,31 +86,17 @@ def as_report_data(source, *, title: str | None = None, verify: bool = False) ->
     return collect(source, title=title, verify=verify)
 
 
-def _file_mode() -> int:
-    mask = os.umask(0o022)
-    os.umask(mask)
-    return 0o666 & ~mask
-
-
 def atomic_write(path: Path, data: bytes) -> None:
-    """Write ``data`` to ``path`` through a temporary file in the same folder and a rename.
+    """Write ``data`` to ``path`` atomically with the one writer of the package
+    (:func:`widgetkit._files.atomic_write`: the umask's mode, links written through,
+    temporaries of killed writes removed); a place that cannot be written is a
+    :class:`ReportPathError` naming it."""
+    from .._files import atomic_write as write
 
-    The file gets the permissions a newly created file would (0666 less the umask),
-    not the private mode of the temporary file: reports and bundles are for sharing.
-    """
     try:
-        fd, tmp = tempfile.mkstemp(prefix=".widgetkit-", dir=path.parent)
-    except OSError as exc:
-        raise ReportPathError(f"cannot write {path}: {exc.strerror or exc}") from None
-    try:
-        with os.fdopen(fd, "wb") as f:
-            f.write(data)
-        os.chmod(tmp, _file_mode())
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+        write(path, data, what="report")
+    except FilePathError as exc:
+        raise ReportPathError(str(exc)) from None
 
 
 def _write_figures(figs: Mapping, out: Path, fmt: str) -> dict[str, str]:
