@@ -25,28 +25,15 @@ __all__ = ["main"]
 
 
 def _cmd_verify(args: argparse.Namespace) -> int:
-    from .errors import WidgetkitError
+    from ._cli_common import read_or_fail
     from .series.result import is_series_file
     from .session import Session
 
     if is_series_file(args.file):
         return verify_series(args)
-
-    try:
-        session = Session.load(args.file)
-    except FileNotFoundError:
-        print(f"widgetkit verify: {args.file}: no such file", file=sys.stderr)
-        return 2
-    except IsADirectoryError:
-        print(f"widgetkit verify: {args.file}: is a folder, not a session file", file=sys.stderr)
-        return 2
-    except (WidgetkitError, OSError) as exc:
-        print(f"widgetkit verify: cannot read the session: {exc}", file=sys.stderr)
-        return 2
-    except Exception as exc:  # never a traceback for a file, whatever it holds
-        print(f"widgetkit verify: cannot read the session {args.file}: "
-              f"{type(exc).__name__}: {str(exc)[:200]}", file=sys.stderr)
-        return 2
+    session, code = read_or_fail("verify", "session file", Session.load, args.file)
+    if session is None:
+        return code
     report = session.verify()
     print(f"{args.file}: {report}")
     return 0 if report.ok else 1

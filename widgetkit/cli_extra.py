@@ -27,6 +27,9 @@ import argparse
 import os
 import sys
 
+from ._cli_common import err as _err
+from ._cli_common import read_or_fail
+
 __all__ = ["register_report", "register_demo", "COMMANDS"]
 
 
@@ -48,10 +51,6 @@ _DEMO_HELP = (
     "Jupyter's token authentication on. A notebook you edited is never replaced without asking.")
 
 
-def _err(cmd: str, text: str) -> None:
-    print(f"widgetkit {cmd}: {text}", file=sys.stderr)
-
-
 def _cmd_report(args: argparse.Namespace) -> int:
     from .errors import WidgetkitError
     from .report import collect, write_bundle, write_report
@@ -70,14 +69,9 @@ def _cmd_report(args: argparse.Namespace) -> int:
     except (WidgetkitError, OSError) as exc:
         _err("report", str(exc))
         return 2
-    try:
-        session = Session.load(args.file)
-    except FileNotFoundError:
-        _err("report", f"{args.file}: no such file")
-        return 2
-    except (WidgetkitError, OSError) as exc:
-        _err("report", f"cannot read the session: {exc}")
-        return 2
+    session, code = read_or_fail("report", "session file", Session.load, args.file)
+    if session is None:
+        return code
     try:
         data = collect(session, title=args.title, verify=args.verify)
         if args.output is not None:
@@ -124,11 +118,14 @@ def _cmd_migrate(args: argparse.Namespace) -> int:
             _err("migrate", f"{args.new} exists; give --overwrite to replace it")
             return 2
         check_writable(args.new)
-        report = Session.migrate(args.old)
-        report.session.save(args.new)
-    except FileNotFoundError:
-        _err("migrate", f"{args.old}: no such file")
+    except (WidgetkitError, OSError) as exc:
+        _err("migrate", str(exc))
         return 2
+    report, code = read_or_fail("migrate", "session file", Session.migrate, args.old)
+    if report is None:
+        return code
+    try:
+        report.session.save(args.new)
     except (WidgetkitError, OSError) as exc:
         _err("migrate", str(exc))
         return 2

@@ -18,7 +18,9 @@
 from __future__ import annotations
 
 import argparse
-import sys
+
+from ._cli_common import err as _err
+from ._cli_common import read_or_fail
 
 __all__ = ["register_series", "verify_series", "COMMANDS"]
 
@@ -28,10 +30,6 @@ _HELP = (
     "--out. Exit status 0 when every spectrum was analysed (ok or doubtful), 1 when some "
     "failed (their rows say why), 2 when the run cannot start, 130 when interrupted (the "
     "same command again finishes it; finished spectra are skipped).")
-
-
-def _err(cmd: str, text: str) -> None:
-    print(f"widgetkit {cmd}: {text}", file=sys.stderr)
 
 
 def _load_recipe(path: str):
@@ -50,14 +48,9 @@ def _cmd_series(args: argparse.Namespace) -> int:
     from .errors import WidgetkitError
     from .series import run_series
 
-    try:
-        recipe = _load_recipe(args.recipe)
-    except FileNotFoundError:
-        _err("series", f"{args.recipe}: no such recipe file")
-        return 2
-    except (WidgetkitError, OSError) as exc:
-        _err("series", f"cannot read the recipe: {exc}")
-        return 2
+    recipe, code = read_or_fail("series", "recipe file", _load_recipe, args.recipe)
+    if recipe is None:
+        return code
     variable = None if args.variable is None else (args.variable, args.unit)
     try:
         res = run_series(recipe, args.sources, variable=variable, workers=args.workers,
@@ -84,15 +77,9 @@ def verify_series(args: argparse.Namespace) -> int:
     from .errors import WidgetkitError
     from .series import SeriesResult
 
-    try:
-        res = SeriesResult.load(args.file)
-    except (WidgetkitError, OSError) as exc:
-        _err("verify", f"cannot read the series file: {exc}")
-        return 2
-    except Exception as exc:  # never a traceback for a file, whatever it holds
-        _err("verify", f"cannot read the series file {args.file}: {type(exc).__name__}: "
-                       f"{str(exc)[:200]}")
-        return 2
+    res, code = read_or_fail("verify", "series file", SeriesResult.load, args.file)
+    if res is None:
+        return code
     try:
         report = res.verify(workers=getattr(args, "workers", None),
                             client=getattr(args, "scheduler", None), progress=False)
