@@ -94,7 +94,7 @@ class SpectrumFigure:
                 marks=[], axes=[bq.Axis(scale=self.x_scale, grid_lines="none"),
                                 bq.Axis(scale=self.r_scale, side="left",
                                         label="residual", tick_format=".2g", grid_lines="none",
-                                        label_offset="55px")],
+                                        label_offset="55px", num_ticks=3)],
                 fig_margin={"top": 5, "bottom": 30, "left": 75, "right": 15},
                 layout=ipw.Layout(width="100%", height="130px"),
                 min_aspect_ratio=0.01, max_aspect_ratio=100, animation_duration=0)

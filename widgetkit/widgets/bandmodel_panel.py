@@ -60,6 +60,19 @@ def parse_fix(text: str) -> dict[str, float]:
     return out
 
 
+def session_molecule(session) -> str | None:
+    """The formula the session's analysis is of: the molecule of its last band-model fit or,
+    failing that, of its last assignment ("HCl"); None when it has neither."""
+    for step in reversed(session.history):
+        if step.kind in ("fit_band_model", "assign_band"):
+            mol = step.params.get("molecule")
+            if isinstance(mol, dict) and isinstance(mol.get("atoms"), list):
+                return "".join(str(a) for a in mol["atoms"])
+            if isinstance(mol, str):
+                return mol
+    return None
+
+
 class BandModelPanel(PlotPanel):
     """Fit a model of the whole band (rotational lines, Boltzmann populations, isotopologues,
     line shape and instrument) to the spectrum; works on resolved and unresolved bands.
@@ -72,6 +85,7 @@ class BandModelPanel(PlotPanel):
     def __init__(self, session=None, *, reverse_x: bool | None = None, n_bins: int | None = None,
                  owner=None, read_only: bool = False, **kwargs):
         self._shown_fit = _UNSET
+        self._molecule_of = None  # the session whose molecule the field was filled from
         super().__init__(session, reverse_x=reverse_x, n_bins=n_bins, owner=owner,
                          read_only=read_only, **kwargs)
 
@@ -134,6 +148,11 @@ class BandModelPanel(PlotPanel):
             self._clear_tables()
             self._shown_fit = _UNSET
             return
+        if self._molecule_of is not s:  # a new session: its molecule, not the last one's
+            self._molecule_of = s
+            found = session_molecule(s)
+            if found:
+                self.molecule.value = found
         sp = s.spectrum
         self._show_spectrum(sp)
         res = (sp.meta or {}).get("resolution")

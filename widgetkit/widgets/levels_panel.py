@@ -219,6 +219,8 @@ class LevelsPanel(Panel):
             self.kind.value = spec["kind"]
         if spec.get("detector") in [v for _, v in DETECTOR_CHOICES]:
             self.detector.value = spec.get("detector")
+        t = spec.get("temperature")
+        self.temperature.value = float(t) if isinstance(t, (int, float)) and t > 0 else 0.0
 
     def _render_plots(self, a: pd.DataFrame) -> None:
         if len(a) == 0:
