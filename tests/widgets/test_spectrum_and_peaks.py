@@ -199,7 +199,7 @@ def test_the_automatic_threshold_is_used_until_one_is_typed(session):
     assert panel.auto_snr.value
     panel.find_button.click()
     assert session.history[-1].params["min_snr"] is None
-    assert "snr ≥" in panel.status.value and "noise" in panel.status.value
+    assert "SNR ≥" in panel.status.value and "noise" in panel.status.value
     panel.min_snr.value = 12.0
     assert not panel.auto_snr.value
     panel.find_button.click()

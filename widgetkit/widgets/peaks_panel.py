@@ -67,6 +67,7 @@ class PeaksPanel(PlotPanel):
         self._shown_x = np.zeros(0)
         self._filling_list = False
         self.selected_peak: int | None = None
+        self._settings_of = None  # the find_peaks step whose settings the controls show
         super().__init__(session, reverse_x=reverse_x, n_bins=n_bins, owner=owner,
                          read_only=read_only, **kwargs)
 
@@ -140,6 +141,7 @@ class PeaksPanel(PlotPanel):
         sp = s.spectrum
         if self._show_spectrum(sp):
             self.add_position.value = round(float(sp.x[sp.x.size // 2]), 4)
+        self._show_settings(s)
         peaks = s.peaks
         ids = [int(i) for i in peaks["peak_id"].tolist()]
         if self.selected_peak not in ids:
@@ -159,6 +161,20 @@ class PeaksPanel(PlotPanel):
         finally:
             self._filling_list = False
         self._render_selection()
+
+    def _show_settings(self, s) -> None:
+        """The controls show the settings of the find_peaks step behind the peaks shown (once
+        per step: what the user types afterwards stays)."""
+        step = next((st for st in reversed(s.history[: s.viewing + 1])
+                     if st.kind == "find_peaks"), None)
+        if step is None or step is self._settings_of:
+            return
+        self._settings_of = step
+        snr, sep = step.params.get("min_snr"), step.params.get("min_separation")
+        if isinstance(snr, (int, float)):
+            self.min_snr.value = float(snr)
+        self.auto_snr.value = snr is None
+        self.min_separation.value = float(sep) if isinstance(sep, (int, float)) else 0.0
 
     def _set_markers(self, ids: list[int], x: np.ndarray, y: np.ndarray) -> None:
         self._shown_ids = list(ids)
@@ -191,7 +207,7 @@ class PeaksPanel(PlotPanel):
         if self.last_error is None:
             search = self.session.history[-1].result.get("search", {})
             used = search.get("min_snr")
-            how = f" with snr ≥ {used:.3g}" if isinstance(used, (int, float)) else ""
+            how = f" with SNR ≥ {used:.3g}" if isinstance(used, (int, float)) else ""
             noise = search.get("noise", {})
             sigma = noise.get("sigma")
             extra = (f"; noise {sigma:.3g} ({noise.get('method', '')})"
