@@ -2,10 +2,14 @@
 
 The demo data are invented (self-consistency only); the saved file
 tests/data/sessions/summaries_before_rewording.session.json was written by the code of
-commit d0e7a69, before the summaries were reworded (see tests/data/sessions/README.md).
+commit d0e7a69, before the summaries were reworded (see tests/data/sessions/README.md). Other
+changes since compute some of its results differently (the line fit records its budget, the
+rotational temperature is fitted on the areas themselves), so that file is checked for its
+wording only, and a file that differs from today's only in the old wording must verify.
 """
 
 import json
+import re
 import shutil
 from pathlib import Path
 
@@ -14,6 +18,7 @@ import pytest
 
 import widgetkit as wk
 from widgetkit.cli import main
+from widgetkit.session.steps import Step
 from widgetkit.session.verify import same_summary, summary_key
 
 DATA = Path(__file__).resolve().parents[1] / "data" / "sessions"
@@ -41,7 +46,7 @@ def test_summaries_use_the_article_the_singular_and_the_shape_s_proper_name():
     assert s.history[-1].summary.startswith("subtracted a polynomial baseline")
 
 
-def test_a_file_saved_with_the_old_wording_still_verifies(tmp_path):
+def test_the_old_wording_of_a_file_saved_before_the_change_is_no_mismatch(tmp_path):
     path = tmp_path / "before.json"
     shutil.copy(BEFORE, path)
     s = wk.Session.load(path)
@@ -49,8 +54,33 @@ def test_a_file_saved_with_the_old_wording_still_verifies(tmp_path):
     assert recorded[2].startswith("subtracted a als baseline")   # the old wording, as saved
     assert recorded[4].startswith("fitted 1 voigt lines")
     report = s.verify()
-    assert report.ok, report.mismatches
     assert report.steps_checked == 8
+    # results other code changes computed differently since may differ; the wording may not
+    assert not [m for m in report.mismatches if "summary" in m], report.mismatches
+    # fields later versions added to a result are no mismatch in a step that matches its seal
+    assert not [m for m in report.mismatches if m.endswith("but not recorded")], \
+        report.mismatches
+
+
+def _old_wording(text: str) -> str:
+    """A summary as the code before the change wrote it."""
+    text = text.replace("an ALS baseline", "a als baseline").replace("SNR ≥", "snr ≥")
+    return re.sub(r"fitted (\d+) Voigt lines?", r"fitted \1 voigt lines", text)
+
+
+def test_a_file_whose_only_difference_is_the_old_wording_verifies(tmp_path):
+    s = _one_line()
+    s.save(tmp_path / "now.json")
+    doc = json.loads((tmp_path / "now.json").read_text())
+    for st in doc["steps"]:                  # as the code before the change wrote and sealed it
+        st["summary"] = _old_wording(st["summary"])
+        st["sha256"] = Step(**{k: v for k, v in st.items() if k != "sha256"}).seal()
+    assert [st["summary"][:26] for st in doc["steps"][1:4]] == [
+        "subtracted a als baseline ", "found 1 peak with snr ≥ 20", "fitted 1 voigt lines, redu"]
+    path = tmp_path / "old-words.json"
+    path.write_text(json.dumps(doc))
+    report = wk.Session.load(path).verify()
+    assert report.ok, report.mismatches
     assert main(["verify", str(path)]) == 0
 
 

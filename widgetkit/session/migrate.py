@@ -22,15 +22,12 @@ from typing import TYPE_CHECKING
 from ..errors import SessionFormatError, WidgetkitError
 from . import codec, persist
 from .steps import STEP_KINDS, software_versions
-from .verify import compare_results, cut, same_summary, without_paths
+from .verify import NOT_RECORDED, compare_results, cut, same_summary, without_paths
 
 if TYPE_CHECKING:  # pragma: no cover
     from .session import Session
 
 __all__ = ["older_form", "refuse_older", "MigrationReport", "migrate_file"]
-
-#: a field an older file lacks is not a result that moved (the mismatch line ends so)
-_ONLY_NEW = "produced on replay but not recorded"
 
 
 def older_form(doc: dict) -> str | None:
@@ -122,7 +119,7 @@ def _moved(index: int, kind_name: str, recorded: dict, step) -> str | None:
     compare_results(without_paths(recorded.get("result", {}), kind.volatile),
                     without_paths(step.result, kind.volatile), rtol=kind.tolerance,
                     where="result", out=diffs)
-    diffs = [d for d in diffs if not d.endswith(_ONLY_NEW)]
+    diffs = [d for d in diffs if not d.endswith(NOT_RECORDED)]
     if not same_summary(str(recorded.get("summary", "")), step.summary):
         diffs.insert(0, f"summary: was {cut(recorded.get('summary'))}, now {cut(step.summary)}")
     if not diffs:
