@@ -11,7 +11,7 @@ import numpy as np
 from scipy import ndimage, signal
 
 from ._common import ProcessingError, as_xy
-from .envelope import baseline_window, local_baseline, typical_width
+from .envelope import NARROW, baseline_window, local_baseline, three_point_width, typical_width
 from .noise import NoiseEstimate, measure_noise
 from .threshold import MIN_PROMINENCE, default_threshold
 
@@ -137,7 +137,8 @@ def _first_pass_width(s: np.ndarray, sigma: float, n: int) -> float:
     idx, _ = signal.find_peaks(s, height=t * sigma, prominence=MIN_PROMINENCE * sigma)
     if idx.size < 3:
         return math.nan
-    return float(np.median(signal.peak_widths(s, idx, rel_height=0.5)[0]))
+    width = float(np.median(signal.peak_widths(s, idx, rel_height=0.5)[0]))
+    return three_point_width(s, idx, 0.0, width) if width < NARROW else width
 
 
 def peak_context(x, y, *, noise=None, noise_region=None, direction: str = "up",
