@@ -119,3 +119,34 @@ def test_the_session_records_and_replays_a_joint_fit(tmp_path):
     s2 = wk.Session.load(tmp_path / "joint.json")
     assert s2.constants["value"].tolist() == pytest.approx(k["value"].tolist(), nan_ok=True)
     assert s2.verify().ok
+
+
+Z95 = 1.959964  # two-sided 95 % quantile of the normal distribution (scipy.stats.norm.ppf(0.975))
+
+
+def _joint_z(case: str, n: int) -> dict:
+    mol, c, sigma, jmax = CASES[case]
+    z = {k: [] for k in ("omega_e", "omega_e_x_e", "B_e", "alpha_e")}
+    for seed in range(1000, 1000 + n):
+        df = line_list(mol, c, sigma=sigma, area_noise=0.03, J_max=jmax, seed=seed)
+        res = assign_rovibrational(df, mol, joint=True)
+        for k in z:
+            v, e = res.constant(k, mol.main.name)
+            z[k].append((v - c[k]) / e)
+    cover = {k: 100.0 * float(np.mean(np.abs(v) < Z95)) for k, v in z.items()}
+    print(f"\njoint fit of {case}, 95 % interval coverage over {n} draws: "
+          + ", ".join(f"{k} {v:.1f} %" for k, v in cover.items()))
+    return {k: (cover[k], float(np.std(v))) for k, v in z.items()}
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("case", sorted(CASES))
+def test_joint_intervals_cover_the_truth_in_92_to_98_percent_of_200_draws(case):
+    out = _joint_z(case, 200)
+    assert all(92.0 <= c <= 98.0 for c, _ in out.values()), out
+
+
+def test_joint_standard_errors_are_neither_far_too_small_nor_far_too_large():
+    out = _joint_z("HCl", 60)
+    # 60 draws: 95 % coverage gives 57 ± 1.7 hits; 85 % (51 hits) is 3.5 binomial sd below
+    assert all(c >= 85.0 and 0.6 < sd < 1.4 for c, sd in out.values()), out
