@@ -87,3 +87,33 @@ def test_nothing_is_removed_when_every_line_would_be():
     res = wl.fit(x, y, [3.0], shape="gaussian", widths=[0.3])
     assert len(res.table) == 1 and res.removed.empty
     assert any("none was removed" in f for f in res.flags["fit"])
+
+
+def test_a_weak_line_beside_a_fringe_is_held_in_its_window_not_lost():
+    # stress-corpus case (benchmarks/corpus.py, our simulator, invented scene): HF 1-0 with a
+    # cubic baseline and a fringe; unpruned, the weak line walked 7 cm-1 into the fringe
+    import sys
+    from pathlib import Path
+
+    sys.path.insert(0, str(Path(__file__).resolve().parents[2] / "benchmarks"))
+    from corpus import make_case, render
+
+    import widgetkit as wk
+
+    r = render(make_case(4, seed=11, max_points=3000))
+    s = wk.Session(r.spectrum)
+    s.find_peaks()
+    s.fit_lines()
+    truth = r.positions[r.counted]
+    fitted = s.lines.set_index("line_id")
+    for t in truth:
+        k = (fitted["position"] - t).abs().idxmin()
+        assert abs(fitted.loc[k, "position"] - t) <= 4 * fitted.loc[k, "position_err"], t
+    assert any("held" in f for flags in s.line_fit.flags.values() for f in flags)
+
+
+def test_a_clean_fit_has_nothing_to_remove_or_hold(band, starts):
+    res = wl.fit(band.x, band.y, starts, prune=False)
+    removals, flags, holds = prune.find_unsupported(
+        res.table, res.params, ("sigma", "gamma"), starts, np.full(starts.size, 0.25), set())
+    assert removals == [] and holds == {} and flags == {}

@@ -35,7 +35,7 @@ def test_a_fit_stopped_by_its_evaluation_cap_is_kept_recorded_and_verified(peake
     rec = peaked._steps[-1]
     assert rec.params["max_nfev"] == 2
     assert rec.result["budget"]["nfev"] == 2 and rec.result["budget"]["stopped"] == "evaluations"
-    assert rec.result["budget"]["time_limit"] == 30.0
+    assert rec.result["budget"]["time_limit"] == "auto"
     assert "NOT converged (the budget of 2 evaluations was spent" in rec.summary
     assert " s)" not in rec.summary   # no seconds in what verify compares
     assert peaked.verify().ok

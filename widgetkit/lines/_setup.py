@@ -151,9 +151,12 @@ def _check_lines(xs, positions, line_ids, heights, widths, region):
 
 
 def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, line_ids,
-           heights, widths, noise, constraints, weights, extra_spec: Mapping) -> Problem:
+           heights, widths, noise, constraints, weights, extra_spec: Mapping,
+           holds: Mapping | None = None) -> Problem:
     """Check everything and build the :class:`Problem` (arguments as :func:`~.fitting.fit`;
-    ``extra_spec`` joins the settings record)."""
+    ``extra_spec`` joins the settings record; ``holds`` maps line ids to
+    ``{"position": (lo, hi), "width_max": w}``, either optional: bounds of a line's
+    centre and widths, within the usual ones)."""
     shp, bl = get_shape(shape), get_baseline(baseline)
     spec = _spec(shape=shp.name, shared_width=shared_width, baseline=bl.name, region=(
         None if region is None else [float(r) for r in region]), window=window,
@@ -186,8 +189,12 @@ def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, li
     for i, h, f in zip(ids, st.heights, st.fwhm):
         p = line_prefix(i)
         bounds[p + "area"] = (0.0, np.inf) if h >= 0 else (-np.inf, 0.0)
-        bounds[p + "position"] = (float(xs[0]), float(xs[-1]))
+        hold = (holds or {}).get(i, {})
+        lo_p, hi_p = hold.get("position") or (xs[0], xs[-1])
+        bounds[p + "position"] = (max(float(lo_p), float(xs[0])), min(float(hi_p), float(xs[-1])))
         wmax = min(span, max(MAX_WIDTH_GROWTH * abs(float(f)), MIN_MAX_WIDTH * dx))
+        if hold.get("width_max") is not None:
+            wmax = max(min(wmax, float(hold["width_max"])), 2.0 * MIN_WIDTH * dx)
         for wname in shp.widths:
             bounds[p + wname] = (MIN_WIDTH * dx, wmax)
     params = build_params(shp, bl, ids, theta0, bounds, plain(shared_width), plain(constraints))

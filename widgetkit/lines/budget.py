@@ -21,14 +21,25 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Budget", "BudgetSpent", "DEFAULT_MAX_NFEV", "DEFAULT_TIME_LIMIT", "STOP_REASONS"]
+__all__ = ["Budget", "BudgetSpent", "DEFAULT_MAX_NFEV", "DEFAULT_TIME_LIMIT", "STOP_REASONS",
+           "auto_time_limit"]
 
 #: default cap on model evaluations of one solve, over both solver stages (a converged
 #: 12-line fit takes about 15; a fit stuck on a band it cannot describe was measured at
 #: 10 ms an evaluation on 15 lines and 300 points: some 10 s for this many)
 DEFAULT_MAX_NFEV = 1000
-#: default cap on the wall time of one solve, seconds (a pruned fit is solved twice)
-DEFAULT_TIME_LIMIT = 30.0
+#: default wall-time limit: ``"auto"``, :data:`AUTO_SECONDS` plus :data:`AUTO_PER_LINE`
+#: per line (10.2 s for 24 lines, 60 s for 5,000), for the whole fit
+DEFAULT_TIME_LIMIT = "auto"
+AUTO_SECONDS = 10.0
+AUTO_PER_LINE = 0.01
+#: a repeated fit (after pruning) gets at least this share of the limit
+REFIT_SHARE = 0.25
+
+
+def auto_time_limit(n_lines: int) -> float:
+    """The ``"auto"`` time limit of a fit of ``n_lines`` lines, seconds."""
+    return AUTO_SECONDS + AUTO_PER_LINE * int(n_lines)
 #: how a fit ended: at the minimum, stopped by a solver's own tolerance before it, by the
 #: evaluation cap, by the time limit, or by a solver failure
 STOP_REASONS = ("converged", "tolerance", "evaluations", "time", "failed")

@@ -59,7 +59,7 @@ from . import solver
 from ._assemble import assemble
 from ._setup import set_up
 from ._solve import solve, verdict
-from .budget import DEFAULT_MAX_NFEV, DEFAULT_TIME_LIMIT, Budget
+from .budget import DEFAULT_MAX_NFEV, DEFAULT_TIME_LIMIT, REFIT_SHARE, Budget, auto_time_limit
 from .prune import find_unsupported, protected_by_constraints, removed_table
 
 __all__ = ["fit", "LineFit", "DEFAULT_WINDOW", "CONVERGENCE_TOL", "DEFAULT_MAX_NFEV",
@@ -190,6 +190,15 @@ def _replays(replay_nfev) -> list:
     return out + [None] * (2 - len(out))
 
 
+def _noise_scale(prob, sol) -> float:
+    """Noise over the residual spread (at most 1): areas' errors scaled by the reduced
+    chi-square are judged against the noise instead (:func:`.prune.find_unsupported`)."""
+    redchi = float(getattr(sol.result, "redchi", np.nan))
+    if prob.ws is not None or not prob.noise > 0 or not np.isfinite(redchi) or redchi <= 0:
+        return 1.0
+    return float(min(1.0, prob.noise / np.sqrt(redchi)))
+
+
 def _subset(keep: list, ids: list, arrays: dict, shared_width):
     """Arguments of the repeated fit: the kept lines only (``arrays`` of per-line starts)."""
     mask = np.isin(np.array(ids, dtype=object), np.array(keep, dtype=object))
@@ -209,7 +218,8 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         heights=None, widths=None, noise: float | None = None,
         constraints: Mapping | None = None, weights=None,
         conf_interval: str | Sequence[str] | None = None, max_passes: int = 4,
-        max_nfev: int | None = DEFAULT_MAX_NFEV, time_limit: float | None = DEFAULT_TIME_LIMIT,
+        max_nfev: int | None = DEFAULT_MAX_NFEV,
+        time_limit: float | str | None = DEFAULT_TIME_LIMIT,
         progress: Callable[[float, str], Any] | None = None, prune: bool = True,
         keep: Sequence | None = None, replay_nfev=None) -> LineFit:
     """Fit lines of one shape plus a baseline to ``y(x)``.
@@ -254,10 +264,11 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     max_nfev : int or None
         Most model evaluations of one solve, over both solver stages (default
         :data:`DEFAULT_MAX_NFEV`; None: no cap).
-    time_limit : float or None
-        Most seconds of wall time of one solve (default :data:`DEFAULT_TIME_LIMIT`;
+    time_limit : float, "auto" or None
+        Most seconds of wall time (default ``"auto"``: 10 s plus 0.01 s per line;
         None: no limit). Checked before each model evaluation, as the cap is. A
-        pruned fit is solved twice, so it ends within twice the limits.
+        fit repeated after pruning gets what the first solve left, at least a
+        quarter of the limit (so the whole ends within 1.25 times it).
     progress : callable, optional
         ``progress(fraction, text)`` during the fit (about four times a second):
         the share of the budget used and what the fit is doing.
@@ -288,7 +299,8 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         fails is returned with ``converged=False``.
     """
     max_nfev = _budget_number(max_nfev, "max_nfev", integer=True)
-    time_limit = _budget_number(time_limit, "time_limit", integer=False)
+    if not (isinstance(time_limit, str) and time_limit == "auto"):
+        time_limit = _budget_number(time_limit, "time_limit", integer=False)
     replays = _replays(replay_nfev)
     args = dict(shape=shape, baseline=baseline, region=region, window=window,
                 constraints=constraints, weights=weights)
@@ -298,6 +310,8 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
                               "prune": bool(prune),
                               "keep": None if keep is None else list(keep)})
     spec = prob.spec
+    if time_limit == "auto":
+        time_limit = auto_time_limit(len(prob.ids))
     budget = Budget(max_nfev, time_limit, progress, replays[0])
     budget.report(f"fitting {len(prob.ids)} lines", force=True)
     solves = [solve(prob, budget, max_passes)]
@@ -310,19 +324,23 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
                      | protected_by_constraints(prob.ids, named))
         removals, kept_flags, restarts = find_unsupported(
             fields["table"], solves[0].result.params, prob.shape.widths, prob.positions,
-            prob.starts.fwhm, protected)
-        if removals:
+            prob.starts.fwhm, protected, _noise_scale(prob, solves[0]))
+        if removals or restarts:
             gone = {r.line_id for r in removals}
             kept = [i for i in prob.ids if i not in gone]
             mask, sub, shared = _subset(kept, prob.ids, {"heights": heights, "widths": widths},
                                         shared_width)
-            starts = np.array([restarts.get(i, p) for i, p in zip(prob.ids, prob.positions)])
+            starts = np.array([restarts.get(i, {}).get("start", p)
+                               for i, p in zip(prob.ids, prob.positions)])
+            held = {i: h for i, h in restarts.items() if len(h) > 1}
             prob = set_up(prob.xs, prob.ys, starts[mask], shared_width=shared,
-                          line_ids=kept, noise=prob.noise, **sub,
+                          line_ids=kept, noise=prob.noise, **sub, holds=held,
                           **{**args, "region": None, "weights": prob.ws}, extra_spec={})
-            budget = Budget(max_nfev, time_limit, progress, replays[1])
-            budget.report(f"fitting again without {len(removals)} unsupported lines",
-                          force=True)
+            left = None if time_limit is None else max(time_limit - solves[0].seconds,
+                                                       REFIT_SHARE * time_limit)
+            budget = Budget(max_nfev, left, progress, replays[1])
+            budget.report(f"fitting again without {len(removals)} unsupported lines"
+                          + (f", {len(held)} held" if held else ""), force=True)
             solves.append(solve(prob, budget, max_passes))
             fields = assemble(prob, solves[-1])
         flags = {k: list(v) for k, v in fields["flags"].items()}

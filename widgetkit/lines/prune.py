@@ -2,15 +2,20 @@
 
 After a fit, a line is removed when
 
-* its area is below :data:`AREA_SIGMAS` of its standard errors (``"insignificant"``);
-* its FWHM sits on a bound: every width at the lower bound (narrower than the sampling
-  allows: a spike) or a width at the upper bound (it spread over a blend or the
-  baseline) (``"width_at_bound"``);
+* its area is below :data:`AREA_SIGMAS` of its standard errors (``"insignificant"``;
+  the errors judged against the noise, not inflated by what the model misses), unless
+  its width is held (below) or it is next to a held line (its area was shared with a
+  line that ran away, and is judged again after the hold);
+* its FWHM sits on the lower bound: every width narrower than the sampling allows, a
+  spike (``"width_at_bound"``); a width on the upper bound (the line spread over a
+  blend, a fringe or the baseline) is *held* instead: the repeated fit keeps it below
+  :data:`HOLD_WIDTHS` times its starting FWHM;
 * its centre left its window: it moved more than :data:`MOVE_WIDTHS` times its width
   (the larger of its fitted and starting FWHM) from where it started, and another line
   now sits where it started (``"moved"``: that line does its work). A line that moved
-  as far to a place of its own, with a significant area, found a feature no other line
-  describes: it is kept, flagged, and started where it ended when the fit is repeated;
+  as far without being replaced is *held*: the repeated fit starts it where it started
+  and keeps its centre within its width of there; one that moved onto the start of a
+  line that left takes that line's place (it starts where it ended);
 * it collapsed onto a neighbour: two centres closer than :data:`MERGE_WIDTHS` times the
   smaller FWHM are one line; the one with the larger area stays and the other is merged
   into it (``"merged"``).
@@ -41,6 +46,10 @@ AREA_SIGMAS = 3.0
 MOVE_WIDTHS = 1.0
 #: two centres closer than this many FWHM (the smaller) are one line
 MERGE_WIDTHS = 0.25
+#: a line whose width ran to its upper bound is held below this many starting FWHM
+HOLD_WIDTHS = 2.0
+#: lines whose starts are closer than this many starting FWHM are neighbours
+NEAR_WIDTHS = 3.0
 #: columns of ``LineFit.removed``
 REMOVED_COLUMNS = ("line_id", "rule", "reason", "merged_into", "start", "position", "area",
                    "area_err", "fwhm")
@@ -92,21 +101,24 @@ def protected_by_constraints(ids: Iterable, constraints: Mapping | None) -> set:
     return {i for i in ids if re.search(r"\b" + re.escape(line_prefix(i)), joined)}
 
 
-def _width_at_bound(params, prefix: str, widths: tuple) -> str | None:
+def _width_at_bound(params, prefix: str, widths: tuple) -> tuple[str, str] | None:
+    """("high" or "low", reason) when the line's FWHM sits on a bound."""
     own = [params[prefix + w] for w in widths]
     own = [p for p in own if p.vary and p.expr is None]
     if not own:
         return None  # shared or fixed widths: not this line's
+
     def at(p, side):
         bound = p.min if side == "lo" else p.max
         if not np.isfinite(bound):
             return False
         return abs(p.value - bound) <= 1e-6 * max(abs(bound), abs(p.max - p.min), 1e-300)
+
     high = [p.name for p in own if at(p, "hi")]
     if high:
-        return f"its width {high[0].split('_', 1)[1]} ran to its upper bound"
+        return "high", f"its width {high[0].split('_', 1)[1]} ran to its upper bound"
     if all(at(p, "lo") for p in own):
-        return "its width sits on the lower bound (narrower than the sampling allows)"
+        return "low", "its width sits on the lower bound (narrower than the sampling allows)"
     return None
 
 
@@ -141,39 +153,75 @@ def _moved(k, ids, positions, fwhms, starts, start_fwhm):
     return moved, width, (ids[j] if d[j] <= MOVE_WIDTHS * width else None)
 
 
-def _reasons(k, lid, table, starts, start_fwhm, params, widths, merges, moved_to):
-    """[(rule, reason, merged_into)] for line ``k`` of the table; a line that moved to a
-    place of its own goes into ``moved_to`` (id -> position)."""
-    pos, area, err, fwhm = (float(table[c].iloc[k]) for c in ("position", "area", "area_err",
-                                                                "fwhm"))
-    out = []
+def _judge(k, lid, table, starts, start_fwhm, params, widths, merges, err_scale):
+    """(removal reasons [(rule, reason, merged_into)], hold or None, hold text) for line
+    ``k``: a hold is ``{"start", "position", "width_max"}`` for the repeated fit."""
+    pos, area, err = (float(table[c].iloc[k]) for c in ("position", "area", "area_err"))
+    s0, f0 = float(starts[k]), float(start_fwhm[k])
+    out, hold, why = [], None, ""
+    err = err * err_scale
+    weak = bool(np.isfinite(err) and err > 0 and abs(area) < AREA_SIGMAS * err)
+    weak_text = f"area {area:.3g} is below {AREA_SIGMAS:g} standard errors ({err:.3g})"
     if lid in merges:
         keep, d, f = merges[lid]
         out.append(("merged", f"collapsed onto line {keep} ({d:.3g} cm-1 apart, FWHM "
                               f"{f:.3g})", keep))
-    if np.isfinite(err) and err > 0 and abs(area) < AREA_SIGMAS * err:
-        out.append(("insignificant", f"area {area:.3g} is below {AREA_SIGMAS:g} standard "
-                                     f"errors ({err:.3g})", None))
-    why = _width_at_bound(params, line_prefix(lid), widths)
-    if why:
-        out.append(("width_at_bound", why, None))
-    ids = table["line_id"].tolist()
-    move = _moved(k, ids, table["position"].to_numpy(dtype=float),
-                  table["fwhm"].to_numpy(dtype=float), starts, start_fwhm)
-    if move is not None and lid not in merges:
+    bound = _width_at_bound(params, line_prefix(lid), widths)
+    if bound is not None and bound[0] == "low":
+        out.append(("width_at_bound", bound[1], None))
+    move = None if lid in merges else _moved(
+        k, table["line_id"].tolist(), table["position"].to_numpy(dtype=float),
+        table["fwhm"].to_numpy(dtype=float), starts, start_fwhm)
+    if move is not None:
         dist, width, taken_by = move
-        text = (f"its centre moved {dist:.3g} cm-1 from {float(starts[k]):.6g}, more than "
-                f"its width ({width:.3g})")
+        text = (f"its centre moved {dist:.3g} cm-1 from {s0:.6g}, more than its width "
+                f"({width:.3g})")
         if taken_by is not None:
             out.append(("moved", f"{text}, and line {taken_by} is there now", None))
-        elif not out:
-            moved_to[lid] = (pos, text)
+        elif weak:
+            out.append(("insignificant", f"{weak_text}; {text}", None))
+        else:
+            others = np.delete(np.asarray(starts, dtype=float), k)
+            if others.size and np.min(np.abs(others - pos)) <= MOVE_WIDTHS * width:
+                hold, why = {"start": pos}, f"{text}: it took the place of a line that left"
+            else:
+                hold = {"start": s0, "position": (s0 - width, s0 + width)}
+                why = f"{text}: held within {width:.3g} cm-1 of its start"
+    if bound is not None and bound[0] == "high" and not out:
+        reach = HOLD_WIDTHS * f0
+        hold = dict(hold or {"start": s0, "position": (s0 - reach, s0 + reach)},
+                    width_max=reach)
+        why = "; ".join(filter(None, [why, f"{bound[1]}: held below {HOLD_WIDTHS:g} x its "
+                                             f"starting FWHM ({HOLD_WIDTHS * f0:.3g})"]))
+    if hold is None and weak and not any(r == "insignificant" for r, _, _ in out):
+        out.append(("insignificant", weak_text, None))
+    return out, (None if out else hold), why
+
+
+def _spare_next_to_holds(removals, restarts, ids, starts, start_fwhm, flags):
+    """Keep the lines removed only for their area that overlap a held line: their area
+    was shared with a line that ran away, and is judged again after the hold."""
+    held = [ids.index(i) for i in restarts]
+    if not held:
+        return removals
+    starts, start_fwhm = np.asarray(starts, dtype=float), np.asarray(start_fwhm, dtype=float)
+    out = []
+    for r in removals:
+        k = ids.index(r.line_id)
+        near = any(abs(starts[k] - starts[j]) < NEAR_WIDTHS * max(start_fwhm[k], start_fwhm[j])
+                   for j in held)
+        if r.rule == "insignificant" and near:
+            flags.setdefault(r.line_id, []).append(f"kept although {r.reason}: next to a "
+                                                   "held line")
+        else:
+            out.append(r)
     return out
 
 
 def find_unsupported(table: pd.DataFrame, params, widths: tuple, starts, start_fwhm,
-                     protected: set) -> tuple[list[Removal], dict, dict]:
-    """The lines to remove and the flags of protected lines that failed a test.
+                     protected: set, err_scale: float = 1.0) -> tuple[list[Removal], dict,
+                                                                      dict]:
+    """The lines to remove, the flags of lines kept or held, and the holds.
 
     Parameters
     ----------
@@ -186,7 +234,12 @@ def find_unsupported(table: pd.DataFrame, params, widths: tuple, starts, start_f
     starts, start_fwhm : ndarray
         Starting positions and FWHM, in table order.
     protected : set
-        Line ids never removed.
+        Line ids never removed nor held.
+    err_scale : float
+        Factor on the areas' standard errors for the significance test: the noise
+        over the residual's spread, where the residual is wider than the noise (errors
+        scaled by the reduced chi-square grow with what the model misses, a baseline
+        fringe say; significance is judged against the noise).
 
     Returns
     -------
@@ -194,18 +247,24 @@ def find_unsupported(table: pd.DataFrame, params, widths: tuple, starts, start_f
         In table order; one per removed line, its first failed test as the rule and
         every failed test in the reason.
     flags : dict
-        line id -> [text] for protected lines that failed a test and for lines kept
-        although they moved.
+        line id -> [text] for lines kept although they failed a test, and held lines.
     restarts : dict
-        line id -> fitted position, for the lines that moved to a place of their own
-        (where the repeated fit starts them).
+        line id -> ``{"start": x, "position": (lo, hi), "width_max": w}`` (the last two
+        optional) for the repeated fit. A hold alone asks for the fit to be repeated.
     """
     ids = table["line_id"].tolist()
     pos, fwhm, area = (table[c].to_numpy(dtype=float) for c in ("position", "fwhm", "area"))
     merges = _merges(ids, pos, fwhm, area, protected)
-    removals, flags, moved_to = [], {}, {}
+    removals, flags, restarts = [], {}, {}
     for k, lid in enumerate(ids):
-        found = _reasons(k, lid, table, starts, start_fwhm, params, widths, merges, moved_to)
+        found, hold, why = _judge(k, lid, table, starts, start_fwhm, params, widths, merges,
+                                  err_scale)
+        if hold is not None:
+            if lid in protected:
+                flags.setdefault(lid, []).append(f"kept although {why}")
+            else:
+                flags.setdefault(lid, []).append(why + " in the repeated fit")
+                restarts[lid] = hold
         if not found:
             continue
         reason = "; ".join(r for _, r, _ in found)
@@ -216,9 +275,8 @@ def find_unsupported(table: pd.DataFrame, params, widths: tuple, starts, start_f
         removals.append(Removal(lid, rule, reason, into, float(starts[k]), float(pos[k]),
                                 float(area[k]), float(table["area_err"].iloc[k]),
                                 float(fwhm[k])))
-    for lid, (_, text) in moved_to.items():
-        flags.setdefault(lid, []).append(f"kept although {text}: no other line is there")
+    removals = _spare_next_to_holds(removals, restarts, ids, starts, start_fwhm, flags)
     if len(removals) == len(ids):
         return [], {"fit": ["every line failed a test of what the data can support; none "
                             "was removed"]}, {}
-    return removals, flags, {lid: p for lid, (p, _) in moved_to.items()}
+    return removals, flags, restarts

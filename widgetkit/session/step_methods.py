@@ -92,9 +92,9 @@ class StepMethods:
                   **options) -> pd.DataFrame:
         """Fit every peak (inside ``region``) with a line shape; see :func:`widgetkit.lines.fit`.
 
-        The fit always ends: at most ``max_nfev`` model evaluations (default 1000) and
-        ``time_limit`` seconds (default 30) per solve. ``progress(fraction, text)`` is
-        called during the fit and not recorded. With ``prune=True`` (default) the lines
+        The fit always ends: at most ``max_nfev`` model evaluations per solve (default
+        1000) and ``time_limit`` seconds (default ``"auto"``: 10 s plus 0.01 s a line).
+        ``progress(fraction, text)`` is called during the fit and not recorded. With ``prune=True`` (default) the lines
         the data cannot support (area below 3 standard errors, FWHM on a bound, centre
         moved more than a width, collapsed onto a neighbour) are removed and the fit is
         repeated once; ``s.line_fit.removed`` and the step's summary list them with
