@@ -94,10 +94,11 @@ class StepMethods:
 
         The fit always ends: at most ``max_nfev`` model evaluations per solve (default
         1000) and ``time_limit`` seconds (default ``"auto"``: 10 s plus 0.01 s a line).
-        ``progress(fraction, text)`` is called during the fit and not recorded. With ``prune=True`` (default) the lines
-        the data cannot support (area below 3 standard errors, FWHM on a bound, centre
-        moved more than a width, collapsed onto a neighbour) are removed and the fit is
-        repeated once; ``s.line_fit.removed`` and the step's summary list them with
+        ``progress(fraction, text)`` is called during the fit and not recorded. With
+        ``prune=True`` (default) the lines the data cannot support (area below 3
+        standard errors, width on its lower bound, centre moved to where another line
+        sits, collapsed onto a neighbour) are removed, lines that ran away are held
+        (width, centre), and the fit is repeated once; ``s.line_fit.removed`` and the step's summary list them with
         their reasons. The peaks stay as they are (a later fit starts from all of them
         again); peaks added by hand are never removed, only flagged. A fit that stops
         before it has converged (on the budget or a solver's tolerance) is kept and
