@@ -99,8 +99,9 @@ class StepMethods:
         standard errors, width on its lower bound, centre moved to where another line
         sits, collapsed onto a neighbour) are removed, lines that ran away are held
         (width, centre), and the fit is repeated once; ``s.line_fit.removed`` and the
-        step's summary list the removed lines with their reasons. The peaks stay as they are (a later fit starts from all of them
-        again); peaks added by hand are never removed, only flagged. A fit that stops
+        step's summary list the removed lines with their reasons. The peaks stay as
+        they are (a later fit starts from all of them again); peaks added by hand are
+        never removed, only flagged. A fit that stops
         before it has converged (on the budget or a solver's tolerance) is kept and
         recorded with ``converged`` False and the reason (``s.line_fit.message``,
         ``s.line_fit.stopped``); with ``strict=True`` it is refused instead
