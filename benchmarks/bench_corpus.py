@@ -1,7 +1,7 @@
 """The stress corpus (:mod:`corpus`): success rate and time distribution of the default analysis.
 
 Run: ``python benchmarks/bench_corpus.py [--count 240] [--seed 2026] [--max-points 20000]
-[--budget 10] [--json results.json]``
+[--budget 30] [--json results.json]``
 
 Every case is a simulated diatomic band with its own sampling, noise, baseline, fringe,
 impurity lines, saturation, digitisation and y units (see :mod:`corpus`); the default
@@ -10,7 +10,8 @@ absorbance, each case in a child process with a wall-time budget. Printed:
 
 * the outcomes (success, clear refusal, failure by kind: wrong lines, over the budget,
   undocumented exception) and the success rate;
-* the time distribution of the analyses that finished (median, 95th percentile, maximum);
+* the time distribution of the analyses that finished (median, 95th percentile, maximum,
+  how many over 10 s), as wall time and as processor time (fair on a shared machine);
 * the slowest finished case against its clean twin (the same band on the same grid, clean,
   absorbance) measured in the same run: the ratio the issue asks to stay within 5x;
 * one line per case that did not succeed, with a command that reproduces it.
@@ -43,15 +44,28 @@ def main(argv=None) -> int:
     ap.add_argument("--count", type=int, default=240)
     ap.add_argument("--seed", type=int, default=2026)
     ap.add_argument("--max-points", type=int, default=20_000)
-    ap.add_argument("--budget", type=float, default=10.0,
-                    help="seconds per analysis (the issue: no fit over 10 s)")
+    ap.add_argument("--budget", type=float, default=30.0,
+                    help="wall seconds before an analysis counts as hung (the issue: no fit "
+                         "over 10 s; the margin is for a loaded machine, and the processor "
+                         "time is reported beside the wall time)")
     ap.add_argument("--json", help="write every case's result here")
     ap.add_argument("--quiet", action="store_true", help="no line per case")
     a = ap.parse_args(argv)
     cases = corpus(a.count, a.seed, a.max_points)
     print(f"stress corpus: {a.count} cases, seed {a.seed}, at most {a.max_points} points, "
           f"budget {a.budget:g} s per analysis", flush=True)
-    results = run_corpus(cases, a.budget, None if a.quiet else _progress)
+    sink = open(a.json + ".partial", "w") if a.json else None  # noqa: SIM115
+
+    def progress(i, n, r):
+        if not a.quiet:
+            _progress(i, n, r)
+        if sink is not None:  # one JSON line per case as it ends: a stopped run keeps them
+            sink.write(json.dumps(asdict(r)) + "\n")
+            sink.flush()
+
+    results = run_corpus(cases, a.budget, progress)
+    if sink is not None:
+        sink.close()
     s = summary(results)
     print(f"\noutcomes: {s['success']} success, {s['refusal']} clear refusals, "
           f"{s['failure']} failures of {s['cases']}: success rate {100 * s['success_rate']:.1f} %")
@@ -61,15 +75,18 @@ def main(argv=None) -> int:
     for k, v in sorted(s["reasons"].items()):
         print(f"  {k}: {v}")
     if s["time"]:
-        t = s["time"]
-        print(f"time of finished analyses: median {t['median']:.2f} s, 95 % {t['p95']:.2f} s, "
-              f"max {t['max']:.2f} s")
+        for name, key in (("wall time", "time"), ("processor time", "cpu")):
+            t = s[key]
+            print(f"{name} of finished analyses: median {t['median']:.2f} s, "
+                  f"95 % {t['p95']:.2f} s, max {t['max']:.2f} s, {t['over_10s']} over 10 s")
         slow = max((r for r in results if r.t_total == r.t_total), key=lambda r: r.t_total)
         twin = run_case(clean_twin(cases[slow.index]), a.budget)
         if twin.t_total == twin.t_total:
-            print(f"slowest: case {slow.index} ({slow.n_lines} lines) {slow.t_total:.2f} s; "
-                  f"its clean twin ({twin.n_lines} lines) {twin.t_total:.2f} s: "
-                  f"ratio {slow.t_total / twin.t_total:.2f}x")
+            print(f"slowest: case {slow.index} ({slow.n_lines} lines) {slow.t_total:.2f} s "
+                  f"({slow.cpu_total:.2f} s processor); its clean twin ({twin.n_lines} lines) "
+                  f"{twin.t_total:.2f} s ({twin.cpu_total:.2f} s processor): ratio "
+                  f"{slow.t_total / twin.t_total:.2f}x wall, "
+                  f"{slow.cpu_total / twin.cpu_total:.2f}x processor")
         else:
             print(f"slowest: case {slow.index} {slow.t_total:.2f} s; its clean twin did not "
                   f"finish ({twin.outcome}, {twin.reason})")

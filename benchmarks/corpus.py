@@ -18,7 +18,8 @@ the generator adds, each with its own probability:
 * transmittance or absorbance, fundamental, overtone or a hot band with the fundamental.
 
 Spectra longer than ``max_points`` keep a random part of the band, so that the corpus runs
-in minutes. Everything is invented data for self-consistency: the truth is the simulator's
+in minutes. A case is named by ``(index, seed, max_points)``: the crop takes a draw of its
+own, so the same index with another ``max_points`` may differ beyond the crop. Everything is invented data for self-consistency: the truth is the simulator's
 own line list.
 
 **The truth to meet.** A line counts when its height above the baseline, in the data's own
