@@ -19,7 +19,8 @@ the generator adds, each with its own probability:
 
 Spectra longer than ``max_points`` keep a random part of the band, so that the corpus runs
 in minutes. A case is named by ``(index, seed, max_points)``: the crop takes a draw of its
-own, so the same index with another ``max_points`` may differ beyond the crop. Everything is invented data for self-consistency: the truth is the simulator's
+own, so the same index with another ``max_points`` may differ beyond the crop. Everything
+is invented data for self-consistency: the truth is the simulator's
 own line list.
 
 **The truth to meet.** A line counts when its height above the baseline, in the data's own
