@@ -334,3 +334,25 @@ def test_a_matrix_with_nan_gives_no_step_and_no_claim_of_convergence():
     step, pred, ridge = ArrowSystem(sp.csr_array(H), perm, 50).solve(
         rng.normal(size=H.shape[0]), np.ones(H.shape[0], bool))
     assert not np.any(step) and pred == np.inf and ridge == np.inf
+
+
+def test_a_fit_of_110_lines_goes_structured_by_itself_and_recovers_the_simulated_lines():
+    # invented dense band (our simulator, seeded): 110 Voigt lines, FWHM about 8 points
+    rng = np.random.default_rng(11)
+    x = 2000.0 + 0.01 * np.arange(22000)
+    pos = np.linspace(x[0] + 1.0, x[-1] - 1.0, 110) + rng.uniform(-0.3, 0.3, 110)
+    area = rng.uniform(0.3, 1.0, 110)
+    y = 0.05 + 0.01 * (x - x.mean()) / (x[-1] - x[0])
+    for a, p in zip(area, pos):
+        y = y + wl.voigt(x, a, p, 0.025, 0.03)
+    noise = 0.01 * float(wl.voigt(0.0, 1.0, 0.0, 0.025, 0.03))
+    y = y + rng.normal(0.0, noise, x.size)
+    res = wl.fit(x, y, pos + rng.normal(0.0, 0.005, pos.size), noise=noise)
+    assert len(res.params) > model_mod.STRUCTURED_MIN_VARS and sp.issparse(res.result.covar)
+    assert res.converged
+    t = res.table.sort_values("position")
+    pull = (t.position.to_numpy() - np.sort(pos)) / t.position_err.to_numpy()
+    assert np.all(np.abs(pull) < 5.0)
+    assert 0.7 < np.sqrt(np.mean(pull**2)) < 1.3  # error bars that mean what they say
+    apull = (t.area.to_numpy() - area[np.argsort(pos)]) / t.area_err.to_numpy()
+    assert 0.7 < np.sqrt(np.mean(apull**2)) < 1.3

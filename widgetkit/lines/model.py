@@ -128,7 +128,9 @@ class WindowedModel:
         self.pairs = pairs
 
     def set_wings(self, theta: np.ndarray) -> float:
-        """Fix the far-wing offset outside the windows from θ; return its largest change.
+        """Fix the far-wing offset outside the windows from θ; return the root-sum-square
+        of its change over the grid (the chi-square a fixed offset can move is at most
+        its square over the noise variance, whatever the number of points).
 
         Exact (every line on the whole grid) while ``n_lines × n`` is at most
         :data:`WINGS_EXACT_MAX`; beyond, each wing is summed out to
@@ -144,7 +146,7 @@ class WindowedModel:
                     w = self.shape.wing(self.x, *lp[:, i])
                     w[self.starts[i]:self.ends[i]] = 0.0
                     new += w
-        change = float(np.max(np.abs(new - self.wings))) if new.size else 0.0
+        change = float(np.sqrt(np.sum((new - self.wings) ** 2))) if new.size else 0.0
         self.wings = new
         return change
 
