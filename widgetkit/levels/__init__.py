@@ -18,6 +18,7 @@ from .candidates import (
     parse_label,
     rotational_partition,
 )
+from .joint import JointFit, fit_joint
 from .linear import Linear, LinearIsotopologue, as_linear, moment_of_inertia, rotational_constant
 from .linear_assign import KINDS as LINEAR_KINDS
 from .linear_assign import LinearAssignment, assign_linear
@@ -47,6 +48,6 @@ __all__ = [
     "rotational_partition",
     "BandFit", "fit_band", "combination_differences", "equilibrium_constants",
     "rotational_temperature",
-    "BandAssignment", "assign_rovibrational",
+    "BandAssignment", "assign_rovibrational", "JointFit", "fit_joint",
     "Progression", "fit_progression", "assign_progression", "birge_sponer",
 ]
