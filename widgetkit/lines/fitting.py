@@ -83,7 +83,9 @@ class LineFit:
         gamma_err as the shape has them); cm⁻¹ and y-units·cm⁻¹ for areas.
     result : lmfit.minimizer.MinimizerResult
         The lmfit result (values, stderr, correlations, chisqr, redchi, nfev,
-        success, message, covar).
+        success, message, covar). Above ``STRUCTURED_MIN_VARS`` (400) variables
+        ``covar`` is a sparse array of the computed entries only
+        (:func:`widgetkit.lines.structured.lmfit_result`).
     params : lmfit.Parameters
         Fitted parameters (``result.params``).
     chisqr, redchi : float
@@ -104,7 +106,8 @@ class LineFit:
         Model (windowed evaluation, as fitted), its baseline part, and
         ``y - model_y``.
     components : ndarray, shape (n_lines, n)
-        Each line alone, zero outside its window.
+        Each line alone, zero outside its window (a ``scipy.sparse`` array,
+        far wings left out, above 2·10⁷ lines × points).
     spec : dict
         JSON-able record of what was asked.
     baseline_params : pandas.DataFrame
