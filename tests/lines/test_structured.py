@@ -110,9 +110,12 @@ def _spy_model(monkeypatch, band, **kw):
     {}, {"shared_width": True}, {"baseline": "exponential"}, {"baseline": "none"},
     {"constraints": {"l2_area": "0.5 * l1_area", "l4_gamma": 0.08}},
     {"shared_width": {"a": [1, 2, 3], "b": [5, 6]}}, {"shape": "pseudo_voigt", "window": 20},
+    {"weights": "ramp"}, {"constraints": {"doppler": {"temperature": 296.0, "mass": 28.0}}},
 ])
 def test_structured_normal_equations_give_the_dense_step_and_covariance(kw, monkeypatch):
     b = simulate_band(n_lines=8, n_points=3000)
+    if kw.get("weights") == "ramp":
+        kw = {"weights": np.linspace(1.0, 2.0, b.x.size)}
     model, v, _ = _spy_model(monkeypatch, b, **kw)
     r = model.residual_vec(v)
     H, g = model.normal_equations(v, r)
