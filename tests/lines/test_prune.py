@@ -117,3 +117,21 @@ def test_a_clean_fit_has_nothing_to_remove_or_hold(band, starts):
     removals, flags, holds = prune.find_unsupported(
         res.table, res.params, ("sigma", "gamma"), starts, np.full(starts.size, 0.25), set())
     assert removals == [] and holds == {} and flags == {}
+
+
+def test_pruning_is_undone_when_the_data_needed_the_removed_lines():
+    from types import SimpleNamespace
+
+    from widgetkit.lines.fitting import _worse_without
+
+    def sol(chisqr, redchi):
+        return SimpleNamespace(result=SimpleNamespace(chisqr=chisqr, redchi=redchi))
+
+    def prob(n_vars):
+        return SimpleNamespace(tmap=SimpleNamespace(var_names=list(range(n_vars))))
+
+    # 4 parameters fewer: a rise of 5 reduced chi-squares is what they explain (chi-square
+    # with 4 degrees of freedom: mean 4, sd sqrt(8), textbook), a rise of 40 is not
+    assert _worse_without(sol(100.0, 1.0), sol(105.0, 1.1), prob(20), prob(16)) is None
+    why = _worse_without(sol(100.0, 1.0), sol(140.0, 1.4), prob(20), prob(16))
+    assert why.startswith("pruning undone") and "4 fewer parameters" in why

@@ -29,9 +29,9 @@ __all__ = ["Budget", "BudgetSpent", "DEFAULT_MAX_NFEV", "DEFAULT_TIME_LIMIT", "S
 #: 10 ms an evaluation on 15 lines and 300 points: some 10 s for this many)
 DEFAULT_MAX_NFEV = 1000
 #: default wall-time limit: ``"auto"``, :data:`AUTO_SECONDS` plus :data:`AUTO_PER_LINE`
-#: per line (10.2 s for 24 lines, 60 s for 5,000), for the whole fit
+#: per line (5.2 s for 24 lines, 55 s for 5,000), for the whole fit
 DEFAULT_TIME_LIMIT = "auto"
-AUTO_SECONDS = 10.0
+AUTO_SECONDS = 5.0
 AUTO_PER_LINE = 0.01
 #: a repeated fit (after pruning) gets at least this share of the limit
 REFIT_SHARE = 0.25

@@ -202,6 +202,24 @@ def _noise_scale(prob, sol) -> float:
     return float(min(1.0, prob.noise / np.sqrt(redchi)))
 
 
+def _worse_without(first, second, prob_first, prob_second) -> str | None:
+    """Why the repeated fit is rejected, or None: its chi-square rose by more than the
+    removed and held parameters can explain (the rise, in reduced chi-squares of the
+    first fit, above their number plus three standard deviations of a chi-square with
+    that many degrees of freedom): the data supported what pruning took away."""
+    r1, r2 = first.result, second.result
+    if not (np.isfinite(r1.chisqr) and np.isfinite(r2.chisqr) and r1.redchi > 0):
+        return None
+    k = max(len(prob_first.tmap.var_names) - len(prob_second.tmap.var_names), 1)
+    rise = (float(r2.chisqr) - float(r1.chisqr)) / float(r1.redchi)
+    allowed = k + 3.0 * np.sqrt(2.0 * k)
+    if rise <= allowed:
+        return None
+    return (f"pruning undone: without the lines it would remove chi-square rose by "
+            f"{rise:.3g} reduced chi-squares, more than the {allowed:.3g} that {k} fewer "
+            "parameters explain")
+
+
 def _subset(keep: list, ids: list, arrays: dict, shared_width):
     """Arguments of the repeated fit: the kept lines only (``arrays`` of per-line starts)."""
     mask = np.isin(np.array(ids, dtype=object), np.array(keep, dtype=object))
@@ -268,7 +286,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         Most model evaluations of one solve, over both solver stages (default
         :data:`DEFAULT_MAX_NFEV`; None: no cap).
     time_limit : float, "auto" or None
-        Most seconds of wall time (default ``"auto"``: 10 s plus 0.01 s per line;
+        Most seconds of wall time (default ``"auto"``: 5 s plus 0.01 s per line;
         None: no limit). Checked before each model evaluation, as the cap is. A
         fit repeated after pruning gets what the first solve left, at least a
         quarter of the limit (so the whole ends within 1.25 times it).
@@ -312,7 +330,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
                   extra_spec={"max_nfev": max_nfev, "time_limit": time_limit,
                               "prune": bool(prune),
                               "keep": None if keep is None else list(keep)})
-    spec = prob.spec
+    spec, prob_first = prob.spec, prob
     if time_limit == "auto":
         time_limit = auto_time_limit(len(prob.ids))
     budget = Budget(max_nfev, time_limit, progress, replays[0])
@@ -344,13 +362,19 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
             budget = Budget(max_nfev, left, progress, replays[1])
             budget.report(f"fitting again without {len(removals)} unsupported lines"
                           + (f", {len(held)} held" if held else ""), force=True)
+            first = (prob_first, fields)
             solves.append(solve(prob, budget, max_passes))
             fields = assemble(prob, solves[-1])
+            # a hold may raise chi-square on purpose (a line kept from swallowing a fringe)
+            worse = None if held else _worse_without(solves[0], solves[-1], prob_first, prob)
+            if worse is not None:  # the data supports what was removed: keep the first fit
+                (prob, fields), removals = first, []
+                kept_flags = {"fit": [worse]}
         flags = {k: list(v) for k, v in fields["flags"].items()}
         for lid, texts in kept_flags.items():
             flags.setdefault(lid, []).extend(texts)
         fields["flags"] = {k: tuple(v) for k, v in flags.items()}
-    sol = solves[-1]
+    sol = solves[-1] if prob is not prob_first else solves[0]
     fields.update(spec=spec, removed=removed_table(removals),
                   nfev=sum(s.nfev for s in solves), seconds=sum(s.seconds for s in solves),
                   solve_nfev=tuple(s.nfev for s in solves),

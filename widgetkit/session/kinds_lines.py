@@ -151,7 +151,7 @@ class FitLines(StepKind):
               doc="most model evaluations of one solve"),
         Param("time_limit", ("number", "choice"), "auto", choices=("auto",), above=0,
               maximum=86_400.0, unit="s",
-              doc="most seconds of wall time ('auto': 10 s + 0.01 s per line)"),
+              doc="most seconds of wall time ('auto': 5 s + 0.01 s per line)"),
         Param("prune", "boolean", True,
               doc="remove the lines the data cannot support and fit again once"),
         Param("strict", "boolean", False,

@@ -93,7 +93,7 @@ class StepMethods:
         """Fit every peak (inside ``region``) with a line shape; see :func:`widgetkit.lines.fit`.
 
         The fit always ends: at most ``max_nfev`` model evaluations per solve (default
-        1000) and ``time_limit`` seconds (default ``"auto"``: 10 s plus 0.01 s a line).
+        1000) and ``time_limit`` seconds (default ``"auto"``: 5 s plus 0.01 s a line).
         ``progress(fraction, text)`` is called during the fit and not recorded. With
         ``prune=True`` (default) the lines the data cannot support (area below 3
         standard errors, width on its lower bound, centre moved to where another line
