@@ -161,7 +161,7 @@ def large_one(n_lines: int, n_points: int) -> dict:
     v = model.variables(res.params)
     t = time.process_time()  # CPU time: the machine is shared, wall time is not ours
     r = model.residual_vec(v + 0.0)
-    model._last_values = model._last_normal = None
+    model._last_values = model._last_grad = model._last_normal = None
     hess, g = structured.normal_equations(model, v, r)
     hess.solve(g, np.ones(v.size, dtype=bool), 1e-3)
     one = time.process_time() - t

@@ -359,3 +359,19 @@ def test_a_fit_of_110_lines_goes_structured_by_itself_and_recovers_the_simulated
     assert 0.7 < np.sqrt(np.mean(pull**2)) < 1.3  # error bars that mean what they say
     apull = (t.area.to_numpy() - area[np.argsort(pos)]) / t.area_err.to_numpy()
     assert 0.7 < np.sqrt(np.mean(apull**2)) < 1.3
+
+
+def test_kept_shape_values_are_never_overwritten_by_later_evaluations(monkeypatch):
+    b = simulate_band(n_lines=6, n_points=2000)
+    model, v, _ = _spy_model(monkeypatch, b)
+    model.structured = True
+    model.set_windows(model.tmap.values(v))
+    thetas = [model.tmap.values(v * f) for f in (1.0, 1.0001, 0.9999, 1.0002)]
+    lps = [t[: 6 * 4].reshape(4, 6) for t in thetas]
+    fresh = [model.shape.gradient(model.X, *lp[:, model.seg]) for lp in lps]
+    # values at one point, derivatives at others, then values again: every answer is right
+    for k_val, k_grad in ((0, 1), (0, 2), (3, 2), (0, 3)):
+        assert np.array_equal(model.window_values(thetas[k_val]), fresh[k_val][0])
+        assert np.allclose(model.window_gradient(lps[k_grad]), fresh[k_grad][1:], rtol=1e-14,
+                           atol=0)
+        assert np.array_equal(model.window_values(thetas[k_val]), fresh[k_val][0])

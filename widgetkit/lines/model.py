@@ -105,8 +105,8 @@ class WindowedModel:
         """Fix the windows to index ranges ``[starts, ends)`` and precompute the layout."""
         n = self.x.size
         self.starts, self.ends = starts, ends
-        self._last_values = None
-        self._last_normal = None
+        self._last_values = self._last_grad = self._last_normal = None
+        self._pool = []
         lengths = ends - starts
         self.lengths = lengths
         total = int(lengths.sum())
@@ -198,30 +198,49 @@ class WindowedModel:
         total = self.X.size
         return [slice(a, min(a + CHUNK, total)) for a in range(0, total, CHUNK)]
 
-    def window_gradient(self, lp: np.ndarray) -> np.ndarray:
-        """d line / d (area, position, widths) on every window, (n_lp, total points),
-        written chunk by chunk into one buffer kept for the next call."""
-        shape = (self.n_lp, self.X.size)
-        buf = getattr(self, "_gbuf", None)
-        if buf is None or buf.shape != shape:
-            buf = np.empty(shape)
-        self._gbuf = None  # the caller owns it until it is handed back
+    def _full_on_windows(self, lp: np.ndarray) -> np.ndarray:
+        """Profile and its derivatives on every window, (1 + n_lp, total points), chunk by
+        chunk into a buffer that no kept result uses (at most three exist)."""
+        shape = (1 + self.n_lp, self.X.size)
+        held = [c[2] for c in (self._last_grad, self._last_values)
+                if c is not None and c[2] is not None]
+        free = [b for b in self._pool if b.shape == shape and all(b is not h for h in held)]
+        buf = free[0] if free else np.empty(shape)
+        self._pool = [buf] + [h for h in held if h is not buf]
         for sl in self._chunks():
-            buf[:, sl] = self.shape.gradient(self.X[sl], *lp[:, self.seg[sl]])[1:]
+            buf[:, sl] = self.shape.gradient(self.X[sl], *lp[:, self.seg[sl]])
         return buf
+
+    def _same(self, cached, lp) -> bool:
+        return cached is not None and cached[0].shape == lp.shape and np.array_equal(cached[0], lp)
+
+    def window_gradient(self, lp: np.ndarray) -> np.ndarray:
+        """d line / d (area, position, widths) on every window, (n_lp, total points).
+
+        A structured model evaluates the derivatives with every model value
+        (:meth:`window_values`), so the accepted point of a step has them ready."""
+        if self._same(self._last_grad, lp):
+            return self._last_grad[1]
+        full = self._full_on_windows(lp)
+        self._last_grad = (lp.copy(), full[1:], full)
+        return full[1:]
 
     def window_values(self, theta: np.ndarray) -> np.ndarray:
         """Every line on its window (concatenated); the last result is kept, so the
         model, its residual and the components at one θ evaluate the shapes once."""
         lp, _ = self._split(theta)
-        key = lp.copy()
-        last = self._last_values
-        if last is not None and last[0].shape == key.shape and np.array_equal(last[0], key):
-            return last[1]
-        vals = np.empty(self.X.size)
-        for sl in self._chunks():
-            vals[sl] = self.shape.profile(self.X[sl], *lp[:, self.seg[sl]])
-        self._last_values = (key, vals)
+        if self._same(self._last_values, lp):
+            return self._last_values[1]
+        full = None
+        if self.structured:  # the derivatives too: the next normal equations need them
+            full = self._full_on_windows(lp)
+            self._last_grad = (lp.copy(), full[1:], full)
+            vals = full[0]
+        else:
+            vals = np.empty(self.X.size)
+            for sl in self._chunks():
+                vals[sl] = self.shape.profile(self.X[sl], *lp[:, self.seg[sl]])
+        self._last_values = (lp.copy(), vals, full)
         return vals
 
     def evaluate(self, theta: np.ndarray) -> np.ndarray:
@@ -289,7 +308,7 @@ class WindowedModel:
         """
         lp, bc = self._split(theta)
         m, npar, nb = self.n_lines, self.n_lp, self.n_b
-        G = buf = self.window_gradient(lp)
+        G = self.window_gradient(lp)
         B = self.baseline.gradient(self.u, bc)[1:] if nb else np.zeros((0, self.x.size))
         if self.w is not None:
             G = G * self.w[self.rows]
@@ -316,7 +335,6 @@ class WindowedModel:
             lb[:, c] = np.concatenate([window_sums(a, b_at) for a in range(npar)])
         if nb:
             gt[m * npar:] = B @ r
-        self._gbuf = buf  # handed back for the next call
         return diag, pairs, lb, B @ B.T, gt
 
     def normal_equations(self, v: np.ndarray, r: np.ndarray):
