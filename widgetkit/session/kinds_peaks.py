@@ -82,7 +82,8 @@ class FindPeaks(StepKind):
         search = search_peaks(
             sp.x, sp.y, min_snr=params.get("min_snr"), min_separation=params.get("min_separation"),
             min_prominence=params.get("min_prominence"), context=context)
-        peaks = search.table.assign(origin="found")
+        found, cut = _without_cut_lines(search.table, sp.x)
+        peaks = found.assign(origin="found")
         peaks = peaks.drop(columns=["index"], errors="ignore").reset_index(drop=True)
         peaks = _renumber(peaks, state.next_peak_id)
         cols = [c for c in peaks.columns if c != "origin"]
@@ -93,12 +94,32 @@ class FindPeaks(StepKind):
         how = "automatic" if params.get("min_snr") is None else "given"
         summary = (f"found {plural(len(peaks), 'peak')} with SNR ≥ {search.min_snr:.3g} ({how}); "
                    f"{search.noise.describe()}")
+        if cut:  # recorded only when there are some, so earlier results stay as they were
+            result["cut_by_edge"] = cut
+            what = ("a line cut by the edge, whose position" if len(cut) == 1 else
+                    "lines cut by the edge, whose positions")
+            summary += (f"; left out {plural(len(cut), 'maximum', 'maxima')} within half a line "
+                        f"width of the end of the data (at {', '.join(f'{c:.6g}' for c in cut)} "
+                        f"cm-1: {what} cannot be measured)")
         return new, result, summary + cleared_text(cleared)
 
     def restore(self, state, params, result, ctx):
         peaks = _recorded_peaks(result.get("peaks"), state.next_peak_id)
         new, _ = drop_dependents(state, peaks=peaks.assign(origin="found"))
         return new.evolve(next_peak_id=state.next_peak_id + len(peaks))
+
+
+def _without_cut_lines(table: pd.DataFrame, x: np.ndarray) -> tuple[pd.DataFrame, list[float]]:
+    """The peaks whose top lies at least half their FWHM inside the data, and the positions of
+    the others: a maximum within half a line width of the first or last point is a line cut by
+    the edge of the data (by a crop through it, say) or the rising wing of one outside it; its
+    position, and anything fitted or assigned from it, would measure the edge, not the line."""
+    if len(table) == 0 or "fwhm" not in table:
+        return table, []
+    pos = table["position"].to_numpy(float)
+    half = 0.5 * np.nan_to_num(table["fwhm"].to_numpy(float), nan=0.0)
+    cut = (pos - x[0] < half) | (x[-1] - pos < half)
+    return table[~cut], [float(p) for p in pos[cut]]
 
 
 def _renumber(peaks: pd.DataFrame, first: int) -> pd.DataFrame:
