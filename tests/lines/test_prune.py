@@ -135,3 +135,27 @@ def test_pruning_is_undone_when_the_data_needed_the_removed_lines():
     assert _worse_without(sol(100.0, 1.0), sol(105.0, 1.1), prob(20), prob(16)) is None
     why = _worse_without(sol(100.0, 1.0), sol(140.0, 1.4), prob(20), prob(16))
     assert why.startswith("pruning undone") and "4 fewer parameters" in why
+
+
+def test_a_fit_with_many_unsupported_lines_is_not_pruned_and_says_why(band, starts):
+    # twelve real lines and eight starts on noise between them: 8 of 20 would go (over
+    # 30 %), or the fit does not come near its minimum; either way every line stays
+    between = 0.5 * (band.positions[:-1] + band.positions[1:])[:8]
+    res = wl.fit(band.x, band.y, np.r_[starts, between], line_ids=list(range(1, 21)))
+    assert len(res.table) == 20 and res.removed.empty
+    assert any(f.startswith("not pruned: ") for f in res.flags["fit"])
+
+
+def test_more_than_a_third_of_the_lines_failing_is_not_pruned(monkeypatch, band, starts):
+    from widgetkit.lines import fitting
+
+    def all_but_one(table, *args, **kw):
+        ids = table["line_id"].tolist()[1:]
+        return [prune.Removal(i, "insignificant", "test", None, 0.0, 0.0, 0.0, 1.0, 1.0)
+                for i in ids], {}, {}
+
+    monkeypatch.setattr(fitting, "find_unsupported", all_but_one)
+    res = wl.fit(band.x, band.y, starts)
+    assert len(res.table) == 12 and res.removed.empty
+    assert any("11 of 12 lines failed" in f and "every line is kept" in f
+               for f in res.flags["fit"])

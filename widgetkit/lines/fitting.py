@@ -69,6 +69,12 @@ __all__ = ["fit", "LineFit", "DEFAULT_WINDOW", "CONVERGENCE_TOL", "DEFAULT_MAX_N
 DEFAULT_WINDOW = 100.0
 #: converged when the remaining Gauss–Newton reduction is below this many reduced chi-squares
 CONVERGENCE_TOL = solver.CONVERGENCE_TOL
+#: lines are judged for pruning only on a first fit this close to its minimum (reduced
+#: chi-squares of remaining reduction: its values are then within a standard error)
+PRUNE_CRIT = 1.0
+#: pruning that would remove more than this share of the lines (and more than two) is not
+#: done (flagged)
+MAX_PRUNED = 0.3
 
 
 @dataclass(frozen=True)
@@ -191,6 +197,16 @@ def _replays(replay_nfev) -> list:
         return [int(replay_nfev), None]
     out = [None if n is None else int(n) for n in list(replay_nfev)[:2]]
     return out + [None] * (2 - len(out))
+
+
+def _not_judged(sol) -> str | None:
+    """Why the lines of a first fit cannot be judged for pruning, or None."""
+    if sol.stopped == "failed":
+        return "not pruned: the fit failed"
+    if not sol.converged and not sol.crit < PRUNE_CRIT:
+        return (f"not pruned: the fit stopped {sol.crit:.3g} reduced chi-squares short of its "
+                "minimum, too far to judge its lines")
+    return None
 
 
 def _noise_scale(prob, sol) -> float:
@@ -338,7 +354,10 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     solves = [solve(prob, budget, max_passes)]
     fields = assemble(prob, solves[0])
     removals: list = []
-    if prune and solves[0].stopped != "failed":
+    unjudged = _not_judged(solves[0]) if prune else None
+    if unjudged is not None:
+        fields["flags"] = {**fields["flags"], "fit": fields["flags"].get("fit", ()) + (unjudged,)}
+    elif prune:
         named = {"ci": [conf_interval] if isinstance(conf_interval, str)
                  else list(conf_interval or [])}
         protected = (set(keep or ()) | protected_by_constraints(prob.ids, constraints)
@@ -346,6 +365,12 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         removals, kept_flags, restarts = find_unsupported(
             fields["table"], solves[0].result.params, prob.shape.widths, prob.positions,
             prob.starts.fwhm, protected, _noise_scale(prob, solves[0]))
+        if len(removals) > max(2, MAX_PRUNED * len(prob.ids)):
+            kept_flags = {"fit": [
+                f"not pruned: {len(removals)} of {len(prob.ids)} lines failed a test of what "
+                f"the data can support (more than {MAX_PRUNED:.0%}): the line shape, the "
+                "baseline or the peaks do not suit this spectrum; every line is kept"]}
+            removals, restarts = [], {}
         if removals or restarts:
             gone = {r.line_id for r in removals}
             kept = [i for i in prob.ids if i not in gone]
