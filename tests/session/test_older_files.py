@@ -11,6 +11,7 @@ import pytest
 
 import widgetkit as wk
 from widgetkit.cli import main
+from widgetkit.session.steps import Step
 
 WAVE1 = Path(__file__).resolve().parents[1] / "data" / "sessions" / "wave1_hcl.session.json"
 
@@ -96,3 +97,20 @@ def test_a_step_that_cannot_run_again_stops_the_migration_keeping_what_ran(old, 
     assert [st.kind for st in report.session.history][-1] == "note"
     assert "stopped at step 4" in report.session.history[-1].params["text"]
     assert main(["migrate", str(old), str(tmp_path / "part.json")]) == 1
+
+
+def test_verify_of_an_unedited_file_whose_results_moved_points_to_the_migration(tmp_path, capsys):
+    path = tmp_path / "s.json"
+    wk.Session.migrate(WAVE1).session.save(path)
+    doc = json.loads(path.read_text())
+    step = doc["steps"][3]                     # find_peaks, as if an earlier version gave 12
+    step["summary"] = step["summary"].replace("found 11 peaks", "found 12 peaks")
+    step["sha256"] = Step(**{k: v for k, v in step.items() if k != "sha256"}).seal()
+    path.write_text(json.dumps(doc))
+    assert main(["verify", str(path)]) == 1
+    out = capsys.readouterr().out
+    assert "Every seal holds" in out and f"widgetkit migrate {path} NEW.json" in out
+    doc["steps"][2]["params"]["lam"] = 2e6     # an edit: the seal breaks, no such advice
+    path.write_text(json.dumps(doc))
+    assert main(["verify", str(path)]) == 1
+    assert "Every seal holds" not in capsys.readouterr().out
