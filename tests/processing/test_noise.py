@@ -130,3 +130,16 @@ def test_line_free_mask_leaves_out_the_lines_and_keeps_the_gaps():
         line_core |= np.abs(x - p) < 2 * 1.7  # within two sigma of each simulated centre
     assert not np.any(free & line_core)
     assert free.sum() > 20
+
+
+def test_a_fringe_of_a_few_dozen_points_is_not_taken_for_noise_shared_by_neighbours():
+    # invented demo data: unit white noise plus a fringe of amplitude 30 and period 49 points,
+    # whose differences keep growing with the lag; noise shared by neighbours would level off.
+    # Before lag 1 was kept for such data, sigma came out near 10 (lag 8); the rest of the
+    # fringe's slope left by the 31-point trend removal still adds about half a sigma
+    rng = np.random.default_rng(26)
+    i = np.arange(20_000)
+    y = rng.normal(0.0, 1.0, i.size) + 30.0 * np.sin(2 * np.pi * i / 49.0)
+    est = measure_noise(None, y)
+    assert est.lag == 1
+    assert 1.0 <= est.sigma < 2.0

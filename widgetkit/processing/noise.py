@@ -27,7 +27,9 @@ automatically, in four parts.
    left in the line-free set also make longer-lag differences grow; they are
    told apart by the heavy tails they give the lag-1 differences (clipped
    RMS more than 15 % away from the core), and then lag 1 is kept, as it is
-   for digitised data.
+   for digitised data. Noise shared by neighbours levels off within a few lags; a core
+   still growing at lag 8 is a smooth signal (a fringe, a broad band) and lag 1 is
+   kept.
 4. **Iteration from below.** The mask needs σ and σ needs the mask. The
    iteration starts low (the 10th percentile of σ over short segments, so
    that the quiet stretches between lines set it), and alternates mask and
@@ -281,6 +283,10 @@ def _walk_lags(rms: list[float], core: list[float], n: int, quantised: bool
         if not math.isfinite(core[j]) or core[j] <= tol * core[k]:
             break
         k = j
+    if k == len(LAGS) - 1:
+        # still growing at the longest lag: a smooth signal (a fringe, a broad band), not
+        # noise shared by a few neighbours, which levels off within a few lags
+        return rms[0], LAGS[0]
     return rms[k], LAGS[k]
 
 
