@@ -100,3 +100,16 @@ def test_a_bad_budget_is_refused_and_nothing_changes(peaked, kw, words):
     with pytest.raises(wk.FitError, match=words):
         peaked.fit_lines(**kw)
     assert len(peaked._steps) == n
+
+
+def test_the_size_check_counts_what_a_large_fit_holds_on_its_windows():
+    from widgetkit.session.kinds_lines import MAX_FIT_CELLS, _held_cells
+
+    # 5,000 narrow lines (FWHM 0.1 cm-1) on 1e6 points 0.01 cm-1 apart: each line is held
+    # on its window of 100 half widths either side (1,001 points), not on every point
+    held = _held_cells(np.full(5000, 0.1), 1_000_000, 0.01, 100.0)
+    assert held == 5000 * 1001 and held < MAX_FIT_CELLS < 5000 * 1_000_000
+    # broad lines whose windows cover the spectrum hold every point: still refused
+    assert _held_cells(np.full(2000, 50.0), 100_000, 0.01, 100.0) == 2000 * 100_000
+    # small fits are dense (every line on every point), and a missing width is the median
+    assert _held_cells([0.1, np.nan], 1000, 0.01, 100.0) == 2000

@@ -79,6 +79,9 @@ MAX_CONF_INTERVAL = 8
 #: most model values (lines × points) one fit may hold: its components alone are 8 bytes each
 #: (800 MB at this bound), whether fitted or rebuilt from a record
 MAX_FIT_CELLS = 100_000_000
+#: up to this many line × point pairs a fit's components are dense (beyond, each line is
+#: held on its window only: widgetkit.lines.model)
+DENSE_PAIRS = 20_000_000
 #: the registered line shapes with their width parameters, and the baselines (a test keeps
 #: these equal to the registries of widgetkit.lines, which this module must not import)
 #: how a summary names each line shape ("fitted 12 Voigt lines")
@@ -193,7 +196,8 @@ class FitLines(StepKind):
             where = "" if region is None else f" inside the region {region}"
             raise SessionStateError(
                 f"fit_lines: there are no peaks{where} to fit; run find_peaks() or add_peak() first")
-        _check_fit_size(len(peaks), sp, region)
+        _check_fit_size(peaks["fwhm"].to_numpy(dtype=float) if "fwhm" in peaks
+                        else np.full(len(peaks), np.nan), sp, region, opts.get("window", 100.0))
         strict = bool(opts.pop("strict", False))
         fit = lines.fit(sp.x, sp.y, peaks["position"].to_numpy(dtype=float),
                         line_ids=[int(i) for i in peaks["peak_id"]], progress=_PROGRESS.get(),
@@ -244,7 +248,8 @@ class FitLines(StepKind):
             raise RecordMismatch("the line fit record lacks its settings or line ids")
         _check_fit_record(state, table, spec)
         sp = state.require_spectrum()
-        _check_fit_size(len(table), sp, spec.get("region"))
+        _check_fit_size(table["fwhm"].to_numpy(dtype=float), sp, spec.get("region"),
+                        spec.get("window"))
         curves: dict = {}
 
         def curve(name):
@@ -296,13 +301,29 @@ def _timeless(message: str) -> str:
     return re.sub(r"\s*\(\d+ evaluations?, [0-9.]+ s\)$", "", text)
 
 
-def _check_fit_size(n_lines: int, sp, region) -> None:
-    n = sp.x.size if region is None else int(np.count_nonzero(
-        (sp.x >= min(region)) & (sp.x <= max(region))))
-    if n_lines * n > MAX_FIT_CELLS:
-        raise FitError(f"fit_lines: {n_lines:,} lines on {n:,} points is more than one fit can "
-                       f"hold ({MAX_FIT_CELLS:,} model values); fit a region at a time "
-                       "(region=(lo, hi)) or remove peaks")
+def _held_cells(fwhm, n: int, dx: float, window) -> int:
+    """Model values a fit of lines of FWHM ``fwhm`` on ``n`` points holds: every line on
+    every point up to :data:`DENSE_PAIRS` pairs, beyond that each line on its window
+    (``window`` half widths each side; the components are then sparse)."""
+    m = len(fwhm)
+    if m * n <= DENSE_PAIRS or window is None:
+        return m * n
+    f = np.asarray(fwhm, dtype=float)
+    fill = np.nanmedian(f) if np.any(np.isfinite(f)) else 20.0 * dx
+    f = np.where(np.isfinite(f) & (f > 0), f, fill)
+    return int(np.sum(np.minimum(n, np.ceil(float(window) * f / max(dx, 1e-300)) + 1)))
+
+
+def _check_fit_size(fwhm, sp, region, window=100.0) -> None:
+    keep = np.ones(sp.x.size, dtype=bool) if region is None else (
+        (sp.x >= min(region)) & (sp.x <= max(region)))
+    n = int(np.count_nonzero(keep))
+    dx = float(np.median(np.diff(sp.x[keep]))) if n > 1 else 1.0
+    held = _held_cells(fwhm, n, dx, window)
+    if held > MAX_FIT_CELLS:
+        raise FitError(f"fit_lines: {len(fwhm):,} lines on {n:,} points is more than one fit "
+                       f"can hold (about {held:,} model values, at most {MAX_FIT_CELLS:,}); "
+                       "fit a region at a time (region=(lo, hi)) or remove peaks")
 
 
 def _check_fit_record(state: State, table, spec: dict) -> None:
