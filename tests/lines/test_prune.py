@@ -137,15 +137,6 @@ def test_pruning_is_undone_when_the_data_needed_the_removed_lines():
     assert why.startswith("pruning undone") and "4 fewer parameters" in why
 
 
-def test_a_fit_with_many_unsupported_lines_is_not_pruned_and_says_why(band, starts):
-    # twelve real lines and eight starts on noise between them: 8 of 20 would go (over
-    # 30 %), or the fit does not come near its minimum; either way every line stays
-    between = 0.5 * (band.positions[:-1] + band.positions[1:])[:8]
-    res = wl.fit(band.x, band.y, np.r_[starts, between], line_ids=list(range(1, 21)))
-    assert len(res.table) == 20 and res.removed.empty
-    assert any(f.startswith("not pruned: ") for f in res.flags["fit"])
-
-
 def test_more_than_a_third_of_the_lines_failing_is_not_pruned(monkeypatch, band, starts):
     from widgetkit.lines import fitting
 
