@@ -48,6 +48,12 @@ def test_verify_replays_the_fit_and_a_saved_session_reopens(fitted, tmp_path):
     assert again.constants["value"].tolist() == pytest.approx(fitted.constants["value"].tolist(),
                                                               rel=1e-6)
     assert again.verify().ok
+    # the fixed temperature is marked the same way after reopening (stderr NaN, note)
+    t_rot = again.constants[again.constants["name"] == "T_rot"].iloc[0]
+    assert np.isnan(t_rot["stderr"]) and t_rot["note"] == "fixed (not fitted)"
+    # the recorded result keeps what the fit gave (stderr 0), so older files still verify
+    rec = fitted.history[-1].result["constants"]
+    assert 0.0 in rec["stderr"] and "note" not in rec
 
 
 def test_restore_rebuilds_the_fit_from_the_record_without_fitting(fitted):

@@ -37,6 +37,15 @@ def test_fit_band_at_four_wavenumbers_records_one_step_and_shows_everything(co_4
     assert "B_e" in panel.parameter_table.value and "held" in panel.parameter_table.value
     assert "wk-band-constants" in panel.constant_table.value
     assert fit.status in panel.status.value or "fitted" in panel.status.value
+    # T was fixed by the user: T_rot is no measurement, neither in the panel nor in s.constants
+    t_row = [r for r in panel.constant_table.value.split("<tr") if "T_rot" in r][0]
+    assert "fixed (not fitted)" in t_row and "(0)" not in t_row
+    k = s.constants
+    t_rot = k[k["name"] == "T_rot"].iloc[0]
+    assert t_rot["value"] == 296.0 and np.isnan(t_rot["stderr"])
+    assert t_rot["note"] == "fixed (not fitted)"
+    b_e = k[k["name"] == "B_e"]
+    assert (b_e["note"] == "").all() and (b_e["stderr"] > 0).all()  # fitted: no note
     assert panel.fit_button.description == "Fit band" and not panel.fit_button.disabled
 
 

@@ -12,7 +12,8 @@ from ..spectrum import Spectrum
 from .steps import Step
 
 __all__ = ["StateViews", "LINE_COLUMNS", "ASSIGNMENT_COLUMNS", "CONSTANT_COLUMNS",
-           "constants_table", "METHOD_LINE_POSITIONS", "METHOD_BAND_MODEL"]
+           "constants_table", "mark_fixed", "METHOD_LINE_POSITIONS", "METHOD_BAND_MODEL",
+           "FIXED_NOTE", "HELD_NOTE"]
 
 LINE_COLUMNS = ["line_id", "position", "position_err", "area", "area_err", "height", "fwhm",
                 "fwhm_err"]
@@ -22,22 +23,65 @@ CONSTANT_COLUMNS = ["isotopologue", "name", "value", "stderr", "unit", "method"]
 #: the ``method`` of each source of constants
 METHOD_LINE_POSITIONS = "line positions"
 METHOD_BAND_MODEL = "band model"
+#: the ``note`` of a band-model constant that was not fitted: set by the user (or a default) ...
+FIXED_NOTE = "fixed (not fitted)"
+#: ... or held by the fit because the data do not determine it
+HELD_NOTE = "held (not determined by the data)"
+
+
+def mark_fixed(constants: pd.DataFrame, parameters: pd.DataFrame) -> pd.DataFrame:
+    """Band-model constants with those that were not fitted marked, so they never read as
+    exact measurements: ``stderr`` NaN and a ``note`` column (:data:`FIXED_NOTE`,
+    :data:`HELD_NOTE`, else empty).
+
+    ``T_rot`` takes the status of the parameter ``temperature`` (``fix={"temperature": 296}``
+    makes it "fixed"); any other constant whose propagated standard error is exactly 0 depends
+    on fixed parameters only. The recorded fit keeps its numbers as they were (stderr 0), so
+    sessions saved before still verify; this is how the session and its reports show them.
+
+    Parameters
+    ----------
+    constants : DataFrame
+        ``BandFit.constants`` (``isotopologue, name, value, stderr, unit, method``).
+    parameters : DataFrame
+        ``BandFit.parameters`` (``name, status``, ...).
+
+    Returns
+    -------
+    DataFrame
+        A copy with ``note`` as its last column.
+    """
+    out = constants.copy()
+    status = {}
+    if {"name", "status"} <= set(parameters.columns):
+        status = dict(zip(parameters["name"].astype(str), parameters["status"].astype(str)))
+    notes = []
+    for name, err in zip(out["name"].astype(str), pd.to_numeric(out["stderr"], errors="coerce")):
+        st = status.get("temperature") if name == "T_rot" else ("fixed" if err == 0 else "free")
+        notes.append(FIXED_NOTE if st == "fixed" else HELD_NOTE if st == "held" else "")
+    out["note"] = notes
+    out.loc[out["note"] != "", "stderr"] = float("nan")
+    return out
 
 
 def constants_table(state) -> pd.DataFrame:
     """The constants of a state: those of the assignment (``method`` "line positions") and
     of the band-model fit (``method`` "band model"), in that order; further columns a
-    result adds follow :data:`CONSTANT_COLUMNS`."""
+    result adds follow :data:`CONSTANT_COLUMNS`. Band-model constants that were not fitted
+    (fixed by the user, or held) have ``stderr`` NaN and say so in ``note``
+    (:func:`mark_fixed`)."""
     parts = []
     a = state.assignment
     if a is not None and len(a.constants):
         parts.append(a.constants.assign(method=METHOD_LINE_POSITIONS))
     b = getattr(state, "band_model", None)
     if b is not None and len(b.constants):
-        parts.append(b.constants.assign(method=METHOD_BAND_MODEL))
+        parts.append(mark_fixed(b.constants, b.parameters).assign(method=METHOD_BAND_MODEL))
     if not parts:
         return pd.DataFrame(columns=CONSTANT_COLUMNS)
     out = pd.concat(parts, ignore_index=True)
+    if "note" in out:
+        out["note"] = out["note"].fillna("")
     return out[CONSTANT_COLUMNS + [c for c in out.columns if c not in CONSTANT_COLUMNS]]
 
 

@@ -17,6 +17,7 @@ import numpy as np
 
 from ..errors import FitError
 from ..formatting import plural
+from ..session.views import mark_fixed
 from ._base import PlotPanel, row
 from ._plot import COLORS, SpectrumFigure
 from ._tables import html_table
@@ -30,7 +31,7 @@ INSTRUMENT_CHOICES = [("Gaussian (FWHM = resolution)", "gaussian"),
 BASELINE_CHOICES = [("none", None), ("constant", "constant"), ("linear", "linear"),
                     ("quadratic", "poly2"), ("cubic", "poly3")]
 PARAMETER_COLUMNS = ["name", "value", "status", "unit", "note"]
-CONSTANT_COLUMNS = ["isotopologue", "name", "value", "unit"]
+CONSTANT_COLUMNS = ["isotopologue", "name", "value", "unit", "note"]
 #: correlations at or above this magnitude are listed
 SHOWN_CORRELATION = 0.9
 
@@ -179,7 +180,9 @@ class BandModelPanel(PlotPanel):
             ptab, name="band-parameters", columns=PARAMETER_COLUMNS,
             headers={"name": "parameter", "status": "free / fixed / held"},
             row_class=lambda r: "wk-outlier" if r["status"] == "held" else "")
-        self.constant_table.value = html_table(fit.constants, name="band-constants",
+        # a constant that was fixed or held shows no standard error and says so (not "± 0")
+        self.constant_table.value = html_table(mark_fixed(fit.constants, fit.parameters),
+                                               name="band-constants",
                                                columns=CONSTANT_COLUMNS,
                                                empty="no constants")
         self.correlations.value = self._correlation_html(fit)
