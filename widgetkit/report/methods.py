@@ -7,7 +7,8 @@ being step 0), how the lines were fitted (profile, baseline, which parameters
 were free, fixed or tied, what the weights were, how the standard errors were
 obtained), how the constants were fitted (model, weights, free and fixed
 constants, covariance scaling, outlier rule, locks) and, when present, a
-band-model fit. Only what the session holds is stated; a result another part
+band-model fit (with :mod:`.constant_methods`: the joint isotopologue fit, the instrument and
+what was fixed or held). Only what the session holds is stated; a result another part
 of widgetkit adds later is described from its step when its details are unknown.
 
 Text is plain Unicode (cm⁻¹, σ, ν₀); the renderers escape it for their format.
@@ -28,6 +29,7 @@ from ..formatting import (
     summary_text,
     tidy_text,
 )
+from .constant_methods import JOINT_KEY, band_model_paragraph, joint_facts, joint_sentences
 from .fit_methods import line_fit_paragraph
 from .flags import known
 from .phrases import join_and as _and
@@ -157,7 +159,8 @@ def _assignment_paragraph(session, state) -> str | None:
     kind = p.get("kind", "rovibrational")
     a = asg.assignments
     free = free_constants(asg)
-    isos = [k for k in free] or sorted({str(v) for v in a.get("isotopologue", []) if pd.notna(v)})
+    isos = [k for k in free if k != JOINT_KEY] or sorted(
+        {str(v) for v in a.get("isotopologue", []) if pd.notna(v)})
     names = _and([display_isotopologue(k) for k in isos if k]) or "the molecule"
     has_err = "position_err" in a and a["position_err"].notna().any()
     if kind == "rovibrational":
@@ -177,6 +180,9 @@ def _assignment_paragraph(session, state) -> str | None:
                  "fitted to their positions by weighted linear least squares.")
         rule = None
     out = [model]
+    facts = joint_facts(asg) if kind == "rovibrational" else None
+    if facts is not None:
+        out += joint_sentences(facts)
     if has_err:
         out.append("The weights are w = 1/σ², σ the standard error of each line position from the "
                    "line fit (the weight column of the assignment table, in cm²; 0 for lines left "
@@ -192,6 +198,10 @@ def _assignment_paragraph(session, state) -> str | None:
     for iso, names_ in free.items():
         chi = _chi2_text(a, iso, len(names_))
         label = display_isotopologue(iso) if iso else "all lines"
+        if facts is not None:  # the first, separate fits; then the joint one
+            label = "the joint fit" if iso == JOINT_KEY else f"the separate fit of {label}"
+            if iso == JOINT_KEY:
+                chi = f"{plural(facts.n_lines, 'line')}" if facts.n_lines else None
         consts = ", ".join(f"{_CONSTANT_NAMES.get(c, c)} ({c})" if c in _CONSTANT_NAMES else c
                            for c in names_)
         out.append(f"Free for {label}: {consts}" + (f" ({chi})" if chi else "") + ".")
@@ -236,27 +246,7 @@ def latest_constants(session) -> pd.DataFrame:
 
 
 def _band_model_paragraph(session, state) -> str | None:
-    consts = latest_constants(session)
-    if "method" not in consts or not (consts["method"] == "band model").any():
-        return None
-    i = next((j for j in range(len(session.history) - 1, -1, -1)
-              if "band_model" in session.history[j].kind), None)
-    bm = consts[consts["method"] == "band model"]
-    free = bm[bm["stderr"].notna()]["name"].tolist()
-    where = f" (step {i})" if i is not None else ""
-    out = [f"Band model{where}. The spectrum was fitted with a band simulated from the term "
-           "values (line intensities from Hönl–London factors and Boltzmann populations, "
-           "convolved with the instrument function) by non-linear least squares; standard errors "
-           "from the covariance matrix of the fit scaled by the reduced chi-square."]
-    out.append("Free: " + (", ".join(dict.fromkeys(free)) or "none") + ".")
-    fix = (session.history[i].params.get("fix") if i is not None else None) or {}
-    if isinstance(fix, dict) and fix:
-        out.append("Fixed: " + "; ".join(f"{k} at {v}" for k, v in fix.items()) + ".")
-    elif isinstance(fix, (list, tuple)) and fix:
-        out.append("Fixed at their starting values: " + ", ".join(map(str, fix)) + ".")
-    else:
-        out.append("Fixed: none.")
-    return " ".join(out)
+    return band_model_paragraph(session, state, latest_constants(session))
 
 
 def describe_methods(session) -> list[str]:
