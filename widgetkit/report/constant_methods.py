@@ -1,6 +1,6 @@
 """How the constants were obtained, per ``method``: the joint isotopologue fit of an
-assignment and the band-model fit (private to :mod:`widgetkit.report`; the Levels panel
-reads :func:`joint_facts` too).
+assignment (facts from :mod:`widgetkit.session.joint_view`) and the band-model fit (private
+to :mod:`widgetkit.report`).
 
 The joint paragraph names the isotope relations used (those of the Dunham expansion,
 ρᵢ = (μ_ref/μᵢ)^½), the isotopologues fitted together, the reference and how the
@@ -12,12 +12,10 @@ recorded steps and results (also for a session reopened from its file).
 
 from __future__ import annotations
 
-import re
-from dataclasses import dataclass
-
 import pandas as pd
 
 from ..formatting import display_isotopologue, plural
+from ..session.joint_view import JOINT_KEY, JointFacts, joint_facts
 from .flags import known
 from .phrases import join_and as _and
 from .phrases import number_text as _num
@@ -25,14 +23,9 @@ from .phrases import number_text as _num
 __all__ = ["JointFacts", "joint_facts", "joint_sentences", "band_model_paragraph",
            "JOINT_KEY", "JOINT_RELATIONS"]
 
-#: the ``isotopologue`` of the mass-independent rows (``widgetkit.levels.joint.JOINT_KEY``;
-#: repeated here so that reports and panels import nothing of the levels package)
-JOINT_KEY = "mass-independent"
 #: the isotope relations of the joint fit, as a sentence writes them
 JOINT_RELATIONS = ("ωe,i = ρᵢ ωe, ωexe,i = ρᵢ² ωexe, Be,i = ρᵢ² Be, αe,i = ρᵢ³ αe and "
                    "D_i = ρᵢ⁴ D, with ρᵢ = (μ_ref/μᵢ)^½")
-_MESSAGE = re.compile(r"joint isotopologue fit of (\d+) lines of (.+?) \(reference (\S+), "
-                      r"centrifugal='(\w+)'\): (.+)$")
 _CENTRIFUGAL = {"separate": "D′ and D″ fitted separately", "shared": "one D for both levels",
                 "none": "no centrifugal distortion"}
 _INSTRUMENT_NAMES = {"gaussian": "a Gaussian instrument function (FWHM = resolution)",
@@ -40,54 +33,6 @@ _INSTRUMENT_NAMES = {"gaussian": "a Gaussian instrument function (FWHM = resolut
                      "sinc2": "triangular apodisation (sinc² instrument function)",
                      "boxcar": "no apodisation (boxcar, sinc instrument function)",
                      "sinc": "no apodisation (boxcar, sinc instrument function)"}
-
-
-@dataclass(frozen=True)
-class JointFacts:
-    """What a joint isotopologue fit was made of (from its assignment result).
-
-    Attributes
-    ----------
-    isotopologues : tuple of str
-        Keys of the isotopologues fitted together (the reference first).
-    reference : str
-        The isotopologue whose constants are the fitted set (ρ = 1).
-    centrifugal : str or None
-        ``"separate"``, ``"shared"`` or ``"none"`` as finally fitted.
-    n_lines : int or None
-        Lines in the joint fit.
-    scatter : str or None
-        Its Birge ratio or rms residual, as the assignment wrote it.
-    names : tuple of str
-        The mass-independent rows (``U_10``, ..., ``r_e``).
-    """
-
-    isotopologues: tuple
-    reference: str
-    centrifugal: str | None = None
-    n_lines: int | None = None
-    scatter: str | None = None
-    names: tuple = ()
-
-
-def joint_facts(assignment) -> JointFacts | None:
-    """The facts of the joint isotopologue fit in ``assignment``; None when its constants
-    have no mass-independent rows (no joint fit)."""
-    consts = known(assignment, "constants")
-    if not isinstance(consts, pd.DataFrame) or "isotopologue" not in consts:
-        return None
-    rows = consts[consts["isotopologue"] == JOINT_KEY]
-    if not len(rows):
-        return None
-    names = tuple(str(n) for n in rows["name"])
-    for msg in known(assignment, "messages") or []:
-        m = _MESSAGE.search(str(msg))
-        if m:
-            isos = tuple(i.strip() for i in m[2].split(","))
-            return JointFacts(isos, m[3], m[4], int(m[1]), m[5], names)
-    isos = tuple(dict.fromkeys(str(i) for i in consts["isotopologue"] if i != JOINT_KEY
-                               and pd.notna(i)))
-    return JointFacts(isos, isos[0] if isos else "", names=names)
 
 
 def joint_sentences(facts: JointFacts) -> list[str]:

@@ -1,5 +1,6 @@
 """What the Levels panel computes and writes apart from widgets: the running number of the
-Fortrat plot, the verdict above the plots, the lines cut by the edge of the data."""
+Fortrat plot, the verdict above the plots, the lines cut by the edge of the data, the
+isotopologues a joint fit could use and the heading of the mass-independent constants."""
 
 from __future__ import annotations
 
@@ -9,7 +10,11 @@ import re
 import numpy as np
 import pandas as pd
 
-__all__ = ["fortrat_m", "edge_lines", "verdict_html"]
+from ..session.joint_view import JOINT_KEY
+
+__all__ = ["fortrat_m", "edge_lines", "verdict_html", "assigned_isotopologues", "joint_offer",
+           "joint_heading",
+           "JOINT_KEY"]
 
 
 def fortrat_m(J_upper, J_lower) -> np.ndarray:
@@ -58,3 +63,36 @@ def verdict_html(assignment, edge: pd.DataFrame | None = None) -> str:
                 "they are marked in red; crop wider (or remove the peak) and fit again"
                 f"<ul>{items}</ul></div>")
     return out
+
+
+def assigned_isotopologues(assignments: pd.DataFrame) -> list[str]:
+    """The isotopologues with assigned lines in an assignment table, in order of appearance
+    (a joint isotopologue fit needs two or more)."""
+    if not {"isotopologue", "label"} <= set(assignments.columns):
+        return []
+    a = assignments[assignments["label"].notna() & assignments["isotopologue"].notna()]
+    return [str(i) for i in dict.fromkeys(a["isotopologue"].tolist()) if str(i) != JOINT_KEY]
+
+
+def joint_offer(kind: str, assignments: pd.DataFrame | None) -> tuple[str, list[str]]:
+    """(why a joint isotopologue fit is not offered, "" when it is; the assigned
+    isotopologues): it is for a rovibrational band whose assignment has lines of two or more."""
+    isos = assigned_isotopologues(assignments) if assignments is not None else []
+    if kind != "rovibrational":
+        return "only for a rovibrational band", isos
+    if len(isos) < 2:
+        return ("needs lines of two or more isotopologues in the assignment "
+                f"(now {len(isos)}): press Assign first"), isos
+    return "", isos
+
+
+def joint_heading(facts, show) -> str:
+    """The heading of the mass-independent constants: which isotopologues were fitted together
+    and the reference (``facts``: :class:`widgetkit.session.joint_view.JointFacts`;
+    ``show``: how an isotopologue key is written)."""
+    isos = ", ".join(show(i) for i in facts.isotopologues)
+    scatter = f"; {facts.scatter}" if facts.scatter else ""
+    return ('<div class="wk-joint-heading"><b>Mass-independent constants</b> (joint fit of '
+            f"{html.escape(isos)}, reference {html.escape(show(facts.reference))}{html.escape(scatter)}):"
+            " mass-reduced Dunham coefficients U<sub>kl</sub> and r<sub>e</sub>; the constants "
+            "of each isotopologue above are derived from them</div>")

@@ -11,8 +11,9 @@ import numpy as np
 import pandas as pd
 
 from ..formatting import column_label, display_isotopologue, unicode_units
+from ..session.joint_view import joint_facts
 from ._base import Panel, row
-from ._levels_text import edge_lines, fortrat_m, verdict_html
+from ._levels_text import JOINT_KEY, edge_lines, fortrat_m, joint_heading, joint_offer, verdict_html
 from ._plot import COLORS
 from ._tables import html_table
 
@@ -95,6 +96,10 @@ class LevelsPanel(Panel):
                                                 description="T / K",
                                                 tooltip="0 = not given",
                                                 layout=ipw.Layout(width="160px"))
+        self.joint = ipw.Checkbox(value=False, indent=False, disabled=True,
+                                  description="joint isotopologue fit",
+                                  layout=ipw.Layout(width="auto"))
+        self.joint.add_class("wk-joint")
         self.assign_button = ipw.Button(description="Assign", icon="tags", button_style="primary")
         self.assign_button.add_class("wk-assign")
         self.assign_button.on_click(self._on_assign_click)
@@ -139,9 +144,11 @@ class LevelsPanel(Panel):
         self.plot_legend = ipw.HTML()
         self.assignment_table = ipw.HTML()
         self.constants_table = ipw.HTML()
-        self._actions(self.assign_button, self.lock_button, self.clear_button, self.unlock_button)
+        self._actions(self.assign_button, self.joint, self.lock_button, self.clear_button,
+                      self.unlock_button)
         self.children = [
-            row(self.molecule, self.kind, self.temperature, self.detector, self.assign_button),
+            row(self.molecule, self.kind, self.temperature, self.detector, self.joint,
+                self.assign_button),
             self.status,
             self.verdict,
             ipw.HBox([self.fortrat_fig, self.residual_fig]),  # two half-width plots share a line
@@ -163,6 +170,7 @@ class LevelsPanel(Panel):
             self._shown_key = None
             return
         state = s.state
+        self._update_joint()
         key = (s, state.line_fit, state.assignment, state.locks)
         if self._shown_key is not None and all(a is b for a, b in zip(key, self._shown_key)):
             return  # nothing this panel shows has changed (e.g. a peak was added)
@@ -196,9 +204,14 @@ class LevelsPanel(Panel):
         consts = s.constants
         cols = [c for c in CONSTANT_COLUMNS[:1] + ["band"] + CONSTANT_COLUMNS[1:]
                 if c in consts.columns or c in CONSTANT_COLUMNS]
-        self.constants_table.value = html_table(consts, name="constants",
-                                                columns=cols, converters=CONVERTERS,
-                                                empty="no constants yet")
+        joint = consts["isotopologue"] == JOINT_KEY if "isotopologue" in consts else None
+        facts = joint_facts(s.assignment) if joint is not None and joint.any() else None
+        self.constants_table.value = html_table(
+            consts[~joint] if facts is not None else consts, name="constants", columns=cols,
+            converters=CONVERTERS, empty="no constants yet")
+        if facts is not None:  # the mass-independent set of a joint fit: a table of its own
+            self.constants_table.value += joint_heading(facts, display_isotopologue) + html_table(
+                consts[joint], name="joint-constants", columns=cols[1:], converters=CONVERTERS)
         if s.assignment is not self._shown_assignment:
             self._shown_assignment = s.assignment
             self._show_spec(state.assign_spec)
@@ -219,6 +232,7 @@ class LevelsPanel(Panel):
             self.kind.value = spec["kind"]
         if spec.get("detector") in [v for _, v in DETECTOR_CHOICES]:
             self.detector.value = spec.get("detector")
+        self.joint.value = bool(spec.get("joint", False)) and not self._joint_why_not()[0]
         t = spec.get("temperature")
         self.temperature.value = float(t) if isinstance(t, (int, float)) and t > 0 else 0.0
 
@@ -279,6 +293,23 @@ class LevelsPanel(Panel):
 
     def _on_kind_change(self, change) -> None:
         self.detector.layout.display = "" if str(change["new"]).startswith("raman") else "none"
+        self._update_joint()
+
+    def _joint_why_not(self) -> tuple[str, list[str]]:
+        """(why the joint fit is not offered, "" when it is; the assigned isotopologues)."""
+        return joint_offer(self.kind.value, self.session.assignments if self.session else None)
+
+    def _update_joint(self) -> None:
+        """The joint isotopologue fit is offered for a rovibrational band whose assignment has
+        lines of two or more isotopologues (assign once, then fit them together)."""
+        why, isos = self._joint_why_not()
+        self.joint.tooltip = why or ("fit the lines of " + ", ".join(
+            display_isotopologue(i) for i in isos) + " with one set of mass-independent "
+            "constants (isotope relations of the Dunham expansion)")
+        # the other actions' state (no session, an earlier step shown, read-only, busy) holds too
+        self.joint.disabled = bool(why) or self.assign_button.disabled
+        if why:
+            self.joint.value = False
 
     # ------------------------------------------------------------------ actions
     def assign_options(self) -> dict:
@@ -288,6 +319,8 @@ class LevelsPanel(Panel):
                "temperature": t if t > 0 else None}
         if self.kind.value.startswith("raman") and self.detector.value is not None:
             out["detector"] = self.detector.value
+        if self.joint.value and not self.joint.disabled:
+            out["joint"] = True
         return out
 
     def _on_assign_click(self, _button) -> None:
