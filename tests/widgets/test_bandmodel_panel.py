@@ -111,3 +111,30 @@ def test_the_app_has_a_band_model_tab_that_follows_the_session(co_4cm):
     assert app.bandmodel_panel.constant_table.value == ""  # a new spectrum clears the fit
     ro = AnalysisApp(s, read_only=True)
     assert ro.bandmodel_panel.fit_button.disabled
+
+
+def test_a_linear_molecule_typed_as_its_atoms_along_the_axis_is_fitted(tmp_path):
+    """CO2 ν3 (a parallel band), simulated from widgetkit.simulate.LINEAR_HANDBOOK (HITRAN-based
+    level constants; self-consistency only)."""
+    oco = wk.Linear("OCO")
+    sp = wk.simulate.linear_spectrum(oco, wk.simulate.LINEAR_HANDBOOK["16O-12C-16O"],
+                                     bands=[("00^01", "00^00")], x_range=(2250, 2420), step=0.5,
+                                     resolution=2.0, noise=0.002, seed=3, temperature=296.0,
+                                     lorentz_hwhm=0.05)
+    s = wk.Session(sp)
+    panel = BandModelPanel(s)
+    panel.molecule.value = "CO2"  # a formula: not the order of the atoms along the axis
+    panel.fit_button.click()
+    assert isinstance(panel.last_error, FitError) and "OCO" in panel.status.value
+    assert len(s.history) == 1
+    panel.molecule.value = "OCO"
+    panel.resolution.value = 2.0
+    panel.fit_button.click()
+    assert panel.last_error is None, panel.status.value
+    assert s.history[-1].params["molecule"] == "OCO"
+    assert "16O-12C-16O" in set(s.constants["isotopologue"])
+    assert "band_origin" in panel.constant_table.value
+    assert s.verify().ok  # the formula is read the same way on replay
+    s.save(tmp_path / "co2.json")
+    again = wk.Session.load(tmp_path / "co2.json")  # and on reopening (from the record)
+    assert again.constants["value"].tolist() == s.constants["value"].tolist()

@@ -13,7 +13,7 @@ import contextlib
 import contextvars
 from collections.abc import Callable, Iterator
 
-from ..errors import FitError, WidgetkitError
+from ..errors import AssignmentError, FitError, WidgetkitError
 from ..formatting import plural
 from .kinds_analysis import molecule_from_param
 from .params import Param
@@ -59,6 +59,26 @@ def _result(fit) -> dict:
     }
 
 
+def band_molecule(value):
+    """The molecule of a band-model step: a formula is a diatomic ("CO", "HCl", "H35Cl") or,
+    when it is none and names three or more atoms in their order along the axis ("OCO",
+    "HCN"), a :class:`~widgetkit.Linear`; a molecule's ``to_dict()`` as for the assignment.
+    A formula that is neither is a :class:`FitError` saying how to write both."""
+    if not isinstance(value, str):
+        return molecule_from_param(value)
+    try:
+        return molecule_from_param(value)
+    except AssignmentError as diatomic:
+        try:
+            linear = molecule_from_param(value, "parallel")
+        except AssignmentError as exc:
+            raise FitError(f"molecule {value!r}: {diatomic}; nor is it a linear molecule: {exc}"
+                           ) from None
+        if len(linear.atoms) < 3:
+            raise FitError(f"molecule {value!r}: {diatomic}") from None
+        return linear
+
+
 _INSTRUMENTS = ("gaussian", "triangular", "boxcar", "sinc", "sinc2")
 
 
@@ -100,7 +120,7 @@ class FitBandModel(StepKind):
 
         sp = state.require_spectrum()
         opts = dict(params)
-        molecule = molecule_from_param(opts.pop("molecule"))
+        molecule = band_molecule(opts.pop("molecule"))
         fit = bandmodel.fit_spectrum(sp, molecule, progress=_PROGRESS.get(), **opts)
         summary = (f"band model of {' '.join(molecule.atoms)}: {fit.status}, "
                    f"{plural(int((fit.parameters['status'] == 'free').sum()), 'parameter')} fitted, "
@@ -114,7 +134,7 @@ class FitBandModel(StepKind):
 
         opts = dict(params)
         try:
-            molecule = molecule_from_param(opts.pop("molecule"))
+            molecule = band_molecule(opts.pop("molecule"))
             fit = bandmodel.restore_fit(state.require_spectrum(), molecule, opts, result)
         except (WidgetkitError, KeyError, ValueError, TypeError, IndexError) as exc:
             raise RecordMismatch(f"fit_band_model: {exc}") from None

@@ -100,7 +100,9 @@ class BandModelPanel(PlotPanel):
 
         small = ipw.Layout(width="190px")
         self.molecule = ipw.Text(value="CO", description="molecule", layout=small,
-                                 placeholder="formula, e.g. CO or HCl")
+                                 placeholder="e.g. CO, HCl, or OCO (atoms along the axis)",
+                                 tooltip="a diatomic formula (CO, HCl, H35Cl) or a linear "
+                                         "molecule's atoms in order along its axis (OCO, HCN)")
         self.band = ipw.Text(value="1-0", description="band", layout=ipw.Layout(width="140px"))
         self.instrument = ipw.Dropdown(options=INSTRUMENT_CHOICES, value="gaussian",
                                        description="instrument", layout=ipw.Layout(width="330px"))
