@@ -24,8 +24,8 @@ __all__ = ["JointFacts", "joint_facts", "joint_sentences", "band_model_paragraph
            "JOINT_KEY", "JOINT_RELATIONS"]
 
 #: the isotope relations of the joint fit, as a sentence writes them
-JOINT_RELATIONS = ("ωe,i = ρᵢ ωe, ωexe,i = ρᵢ² ωexe, Be,i = ρᵢ² Be, αe,i = ρᵢ³ αe and "
-                   "D_i = ρᵢ⁴ D, with ρᵢ = (μ_ref/μᵢ)^½")
+JOINT_RELATIONS = ("ωe × ρ, ωexe × ρ², Be × ρ², αe × ρ³ and D × ρ⁴, with ρ = √(μ_ref/μ) and μ "
+                   "the isotopologue's reduced mass")
 _CENTRIFUGAL = {"separate": "D′ and D″ fitted separately", "shared": "one D for both levels",
                 "none": "no centrifugal distortion"}
 _INSTRUMENT_NAMES = {"gaussian": "a Gaussian instrument function (FWHM = resolution)",
@@ -42,14 +42,14 @@ def joint_sentences(facts: JointFacts) -> list[str]:
     lines = f" ({plural(facts.n_lines, 'line')})" if facts.n_lines else ""
     out = [f"The constants of {isos} come from one joint fit of all their assigned lines"
            f"{lines} with one set of mass-independent constants: the equilibrium constants of "
-           f"the reference {ref} (ωe, ωexe, Be, αe and D), scaled to each isotopologue i by the "
+           f"the reference {ref} (ωe, ωexe, Be, αe and D), scaled to each isotopologue by the "
            f"isotope relations of the Dunham expansion, {JOINT_RELATIONS}."]
     if facts.centrifugal in _CENTRIFUGAL:
         out.append(f"Centrifugal distortion: {_CENTRIFUGAL[facts.centrifugal]}.")
     out.append("The band and equilibrium constants of each isotopologue in the table are derived "
                "from that set, their standard errors from its covariance; the rows of "
                f"“{JOINT_KEY}” are the mass-reduced Dunham coefficients "
-               "(U₁₀ = ωe μ^½, U₂₀ = −ωexe μ, U₀₁ = Be μ, U₁₁ = −αe μ^{3/2}, μ in u, of the "
+               "(U₁₀ = ωe √μ, U₂₀ = −ωexe μ, U₀₁ = Be μ, U₁₁ = −αe μ √μ, μ in u, of the "
                "reference) and r_e.")
     if facts.scatter:
         out.append(f"Joint fit: {facts.scatter}.")
