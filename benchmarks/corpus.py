@@ -26,9 +26,11 @@ own line list.
 **The truth to meet.** A line counts when its height above the baseline, in the data's own
 units (absorbance, or the depth of a transmittance dip), is at least 6 noise σ (σ including
 the rounding of digitised data), when no other line (band, isotopologue or impurity) of at
-least a quarter of its height lies within 1.5 of the larger of their FWHM, and when it is at
-least two FWHM from the ends of the spectrum. Lines closer than that are one feature at the
-spectrum's resolution and cannot be asked of a peak search.
+least a tenth of its height lies within twice the larger of their FWHM, and when it is at
+least two FWHM from the ends of the spectrum. Closer lines are one feature at the spectrum's
+resolution, or pull its apparent centre by more than its error (a hot-band line of a fifth
+of the height one FWHM away moves the top by about a tenth of a FWHM), and cannot be asked of
+a peak search.
 
 **The default analysis** (:func:`analyse`): a session on the spectrum; transmittance is
 converted to absorbance (where that is refused because noise on saturated lines reaches
@@ -236,9 +238,9 @@ def _counted(x, pos, hd, fv, imp_pos, imp_hd, imp_fv, sigma) -> np.ndarray:
     all_fv = np.concatenate([fv, imp_fv])
     ok = (hd >= COUNT_SIGMAS * sigma) & (pos - x[0] >= 2 * fv) & (x[-1] - pos >= 2 * fv)
     for i in np.flatnonzero(ok):
-        near = np.abs(all_pos - pos[i]) < 1.5 * np.maximum(all_fv, fv[i])
+        near = np.abs(all_pos - pos[i]) < 2.0 * np.maximum(all_fv, fv[i])
         near[i] = False
-        if np.any(near & (all_h >= 0.25 * hd[i])):
+        if np.any(near & (all_h >= 0.1 * hd[i])):
             ok[i] = False
     return ok
 
