@@ -82,3 +82,18 @@ def test_a_read_only_panel_and_a_reopened_session_keep_the_control_right(fitted_
     again = LevelsPanel(wk.Session.load(tmp_path / "joint.json"))
     assert again.joint.value is True and not again.joint.disabled
     assert "wk-joint-constants" in again.constants_table.value
+
+
+def test_the_constants_view_follows_a_band_model_and_shows_method_and_fixed_note(session):
+    session.find_peaks(min_snr=10.0)
+    session.fit_lines(shape="lorentzian")
+    hcl = wk.Diatomic("1H", "35Cl")
+    session.assign_band(hcl, temperature=296.0)
+    panel = LevelsPanel(session)
+    assert "band model" not in panel.constants_table.value
+    assert "<th>method</th>" not in panel.constants_table.value  # one route: no column for it
+    session.fit_band_model(hcl, resolution=0.5, isotopologues="main", fix={"temperature": 296.0})
+    html = panel.constants_table.value  # re-rendered although lines and assignment are unchanged
+    assert "<th>method</th>" in html and "<td>band model</td>" in html
+    t_rot = [r for r in html.split("<tr") if "T_rot" in r and "band model" in r]
+    assert len(t_rot) == 1 and "fixed (not fitted)" in t_rot[0] and "296" in t_rot[0]

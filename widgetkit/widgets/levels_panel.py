@@ -171,7 +171,7 @@ class LevelsPanel(Panel):
             return
         state = s.state
         self._update_joint()
-        key = (s, state.line_fit, state.assignment, state.locks)
+        key = (s, state.line_fit, state.assignment, state.locks, state.band_model)
         if self._shown_key is not None and all(a is b for a, b in zip(key, self._shown_key)):
             return  # nothing this panel shows has changed (e.g. a peak was added)
         self._shown_key = key
@@ -204,6 +204,9 @@ class LevelsPanel(Panel):
         consts = s.constants
         cols = [c for c in CONSTANT_COLUMNS[:1] + ["band"] + CONSTANT_COLUMNS[1:]
                 if c in consts.columns or c in CONSTANT_COLUMNS]
+        # with a band model beside the assignment: which route gave each number, what was fixed
+        cols += [c for c in ("method", "note") if c in consts and (
+            consts[c].nunique() > 1 if c == "method" else (consts[c].astype(str) != "").any())]
         joint = consts["isotopologue"] == JOINT_KEY if "isotopologue" in consts else None
         facts = joint_facts(s.assignment) if joint is not None and joint.any() else None
         self.constants_table.value = html_table(
