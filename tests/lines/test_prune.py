@@ -122,7 +122,7 @@ def test_a_clean_fit_has_nothing_to_remove_or_hold(band, starts):
 def test_pruning_is_undone_when_the_data_needed_the_removed_lines():
     from types import SimpleNamespace
 
-    from widgetkit.lines.fitting import _worse_without
+    from widgetkit.lines.prune import worse_without as _worse_without
 
     def sol(chisqr, redchi):
         return SimpleNamespace(result=SimpleNamespace(chisqr=chisqr, redchi=redchi))

@@ -21,6 +21,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..errors import FitError
+
 __all__ = ["Budget", "BudgetSpent", "DEFAULT_MAX_NFEV", "DEFAULT_TIME_LIMIT", "STOP_REASONS",
            "auto_time_limit"]
 
@@ -194,3 +196,24 @@ class Counted:
 
     def residual(self, params) -> np.ndarray:
         return self.residual_vec(self._model.variables(params))
+
+
+def budget_number(value, name: str, *, integer: bool):
+    if value is None:
+        return None
+    ok = (not isinstance(value, bool) and isinstance(value, (int, float, np.number))
+          and value > 0 and (not integer or float(value).is_integer()))
+    if not ok:
+        kind = "a whole number" if integer else "a number of seconds"
+        raise FitError(f"{name} must be {kind} above 0 or None, got {value!r}")
+    return int(value) if integer else float(value)
+
+
+def replay_counts(replay_nfev) -> list:
+    """``replay_nfev`` for each of the (at most two) solves."""
+    if replay_nfev is None:
+        return [None, None]
+    if isinstance(replay_nfev, (int, np.integer)):
+        return [int(replay_nfev), None]
+    out = [None if n is None else int(n) for n in list(replay_nfev)[:2]]
+    return out + [None] * (2 - len(out))

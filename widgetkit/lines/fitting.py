@@ -59,8 +59,25 @@ from . import solver
 from ._assemble import assemble
 from ._setup import set_up
 from ._solve import solve, verdict
-from .budget import DEFAULT_MAX_NFEV, DEFAULT_TIME_LIMIT, REFIT_SHARE, Budget, auto_time_limit
-from .prune import find_unsupported, protected_by_constraints, removed_table
+from .budget import (
+    DEFAULT_MAX_NFEV,
+    DEFAULT_TIME_LIMIT,
+    REFIT_SHARE,
+    Budget,
+    auto_time_limit,
+    budget_number,
+    replay_counts,
+)
+from .prune import (
+    MAX_PRUNED,
+    find_unsupported,
+    noise_scale,
+    not_judged,
+    protected_by_constraints,
+    removed_table,
+    subset_args,
+    worse_without,
+)
 
 __all__ = ["fit", "LineFit", "DEFAULT_WINDOW", "CONVERGENCE_TOL", "DEFAULT_MAX_NFEV",
            "DEFAULT_TIME_LIMIT"]
@@ -69,12 +86,6 @@ __all__ = ["fit", "LineFit", "DEFAULT_WINDOW", "CONVERGENCE_TOL", "DEFAULT_MAX_N
 DEFAULT_WINDOW = 100.0
 #: converged when the remaining Gauss–Newton reduction is below this many reduced chi-squares
 CONVERGENCE_TOL = solver.CONVERGENCE_TOL
-#: lines are judged for pruning only on a first fit this close to its minimum (reduced
-#: chi-squares of remaining reduction: its values are then within a standard error)
-PRUNE_CRIT = 1.0
-#: pruning that would remove more than this share of the lines (and more than two) is not
-#: done (flagged)
-MAX_PRUNED = 0.3
 
 
 @dataclass(frozen=True)
@@ -178,76 +189,6 @@ def _one_blas_thread(func):
     return wrapper
 
 
-def _budget_number(value, name: str, *, integer: bool):
-    if value is None:
-        return None
-    ok = (not isinstance(value, bool) and isinstance(value, (int, float, np.number))
-          and value > 0 and (not integer or float(value).is_integer()))
-    if not ok:
-        kind = "a whole number" if integer else "a number of seconds"
-        raise FitError(f"{name} must be {kind} above 0 or None, got {value!r}")
-    return int(value) if integer else float(value)
-
-
-def _replays(replay_nfev) -> list:
-    """``replay_nfev`` for each of the (at most two) solves."""
-    if replay_nfev is None:
-        return [None, None]
-    if isinstance(replay_nfev, (int, np.integer)):
-        return [int(replay_nfev), None]
-    out = [None if n is None else int(n) for n in list(replay_nfev)[:2]]
-    return out + [None] * (2 - len(out))
-
-
-def _not_judged(sol) -> str | None:
-    """Why the lines of a first fit cannot be judged for pruning, or None."""
-    if sol.stopped == "failed":
-        return "not pruned: the fit failed"
-    if not sol.converged and not sol.crit < PRUNE_CRIT:
-        return (f"not pruned: the fit stopped {sol.crit:.3g} reduced chi-squares short of its "
-                "minimum, too far to judge its lines")
-    return None
-
-
-def _noise_scale(prob, sol) -> float:
-    """Noise over the residual spread (at most 1): areas' errors scaled by the reduced
-    chi-square are judged against the noise instead (:func:`.prune.find_unsupported`)."""
-    redchi = float(getattr(sol.result, "redchi", np.nan))
-    if prob.ws is not None or not prob.noise > 0 or not np.isfinite(redchi) or redchi <= 0:
-        return 1.0
-    return float(min(1.0, prob.noise / np.sqrt(redchi)))
-
-
-def _worse_without(first, second, prob_first, prob_second) -> str | None:
-    """Why the repeated fit is rejected, or None: its chi-square rose by more than the
-    removed and held parameters can explain (the rise, in reduced chi-squares of the
-    first fit, above their number plus three standard deviations of a chi-square with
-    that many degrees of freedom): the data supported what pruning took away."""
-    r1, r2 = first.result, second.result
-    if not (np.isfinite(r1.chisqr) and np.isfinite(r2.chisqr) and r1.redchi > 0):
-        return None
-    k = max(len(prob_first.tmap.var_names) - len(prob_second.tmap.var_names), 1)
-    rise = (float(r2.chisqr) - float(r1.chisqr)) / float(r1.redchi)
-    allowed = k + 3.0 * np.sqrt(2.0 * k)
-    if rise <= allowed:
-        return None
-    return (f"pruning undone: without the lines it would remove chi-square rose by "
-            f"{rise:.3g} reduced chi-squares, more than the {allowed:.3g} that {k} fewer "
-            "parameters explain")
-
-
-def _subset(keep: list, ids: list, arrays: dict, shared_width):
-    """Arguments of the repeated fit: the kept lines only (``arrays`` of per-line starts)."""
-    mask = np.isin(np.array(ids, dtype=object), np.array(keep, dtype=object))
-    out = {k: (None if v is None else [a for a, m in zip(np.asarray(v, dtype=float).tolist(),
-                                                            mask) if m])
-           for k, v in arrays.items()}
-    if isinstance(shared_width, Mapping):
-        groups = {g: [i for i in members if i in keep] for g, members in shared_width.items()}
-        shared_width = {g: m for g, m in groups.items() if m}
-    return mask, out, shared_width
-
-
 @_one_blas_thread
 def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         baseline: str | None = "linear", region: Sequence[float] | None = None,
@@ -335,10 +276,10 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         outside the data, bad ids, a bad constraint, a bad budget. A fit that
         fails is returned with ``converged=False``.
     """
-    max_nfev = _budget_number(max_nfev, "max_nfev", integer=True)
+    max_nfev = budget_number(max_nfev, "max_nfev", integer=True)
     if not (isinstance(time_limit, str) and time_limit == "auto"):
-        time_limit = _budget_number(time_limit, "time_limit", integer=False)
-    replays = _replays(replay_nfev)
+        time_limit = budget_number(time_limit, "time_limit", integer=False)
+    replays = replay_counts(replay_nfev)
     args = dict(shape=shape, baseline=baseline, region=region, window=window,
                 constraints=constraints, weights=weights)
     prob = set_up(x, y, positions, shared_width=shared_width, line_ids=line_ids,
@@ -354,7 +295,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     solves = [solve(prob, budget, max_passes)]
     fields = assemble(prob, solves[0])
     removals: list = []
-    unjudged = _not_judged(solves[0]) if prune else None
+    unjudged = not_judged(solves[0]) if prune else None
     if unjudged is not None:
         fields["flags"] = {**fields["flags"], "fit": fields["flags"].get("fit", ()) + (unjudged,)}
     elif prune:
@@ -364,7 +305,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
                      | protected_by_constraints(prob.ids, named))
         removals, kept_flags, restarts = find_unsupported(
             fields["table"], solves[0].result.params, prob.shape.widths, prob.positions,
-            prob.starts.fwhm, protected, _noise_scale(prob, solves[0]))
+            prob.starts.fwhm, protected, noise_scale(prob, solves[0]))
         if len(removals) > max(2, MAX_PRUNED * len(prob.ids)):
             kept_flags = {"fit": [
                 f"not pruned: {len(removals)} of {len(prob.ids)} lines failed a test of what "
@@ -374,7 +315,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         if removals or restarts:
             gone = {r.line_id for r in removals}
             kept = [i for i in prob.ids if i not in gone]
-            mask, sub, shared = _subset(kept, prob.ids, {"heights": heights, "widths": widths},
+            mask, sub, shared = subset_args(kept, prob.ids, {"heights": heights, "widths": widths},
                                         shared_width)
             starts = np.array([restarts.get(i, {}).get("start", p)
                                for i, p in zip(prob.ids, prob.positions)])
@@ -391,7 +332,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
             solves.append(solve(prob, budget, max_passes))
             fields = assemble(prob, solves[-1])
             # a hold may raise chi-square on purpose (a line kept from swallowing a fringe)
-            worse = None if held else _worse_without(solves[0], solves[-1], prob_first, prob)
+            worse = None if held else worse_without(solves[0], solves[-1], prob_first, prob)
             if worse is not None:  # the data supports what was removed: keep the first fit
                 (prob, fields), removals = first, []
                 kept_flags = {"fit": [worse]}

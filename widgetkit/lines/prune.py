@@ -37,6 +37,13 @@ import pandas as pd
 
 from .params import line_prefix
 
+#: lines are judged for pruning only on a first fit this close to its minimum (reduced
+#: chi-squares of remaining reduction: its values are then within a standard error)
+PRUNE_CRIT = 1.0
+#: pruning that would remove more than this share of the lines (and more than two) is not
+#: done (flagged)
+MAX_PRUNED = 0.3
+
 __all__ = ["Removal", "find_unsupported", "removed_table", "protected_by_constraints",
            "AREA_SIGMAS", "MOVE_WIDTHS", "MERGE_WIDTHS", "REMOVED_COLUMNS"]
 
@@ -280,3 +287,52 @@ def find_unsupported(table: pd.DataFrame, params, widths: tuple, starts, start_f
         return [], {"fit": ["every line failed a test of what the data can support; none "
                             "was removed"]}, {}
     return removals, flags, restarts
+
+
+def not_judged(sol) -> str | None:
+    """Why the lines of a first fit cannot be judged for pruning, or None."""
+    if sol.stopped == "failed":
+        return "not pruned: the fit failed"
+    if not sol.converged and not sol.crit < PRUNE_CRIT:
+        return (f"not pruned: the fit stopped {sol.crit:.3g} reduced chi-squares short of its "
+                "minimum, too far to judge its lines")
+    return None
+
+
+def noise_scale(prob, sol) -> float:
+    """Noise over the residual spread (at most 1): areas' errors scaled by the reduced
+    chi-square are judged against the noise instead (:func:`.prune.find_unsupported`)."""
+    redchi = float(getattr(sol.result, "redchi", np.nan))
+    if prob.ws is not None or not prob.noise > 0 or not np.isfinite(redchi) or redchi <= 0:
+        return 1.0
+    return float(min(1.0, prob.noise / np.sqrt(redchi)))
+
+
+def worse_without(first, second, prob_first, prob_second) -> str | None:
+    """Why the repeated fit is rejected, or None: its chi-square rose by more than the
+    removed and held parameters can explain (the rise, in reduced chi-squares of the
+    first fit, above their number plus three standard deviations of a chi-square with
+    that many degrees of freedom): the data supported what pruning took away."""
+    r1, r2 = first.result, second.result
+    if not (np.isfinite(r1.chisqr) and np.isfinite(r2.chisqr) and r1.redchi > 0):
+        return None
+    k = max(len(prob_first.tmap.var_names) - len(prob_second.tmap.var_names), 1)
+    rise = (float(r2.chisqr) - float(r1.chisqr)) / float(r1.redchi)
+    allowed = k + 3.0 * np.sqrt(2.0 * k)
+    if rise <= allowed:
+        return None
+    return (f"pruning undone: without the lines it would remove chi-square rose by "
+            f"{rise:.3g} reduced chi-squares, more than the {allowed:.3g} that {k} fewer "
+            "parameters explain")
+
+
+def subset_args(keep: list, ids: list, arrays: dict, shared_width):
+    """Arguments of the repeated fit: the kept lines only (``arrays`` of per-line starts)."""
+    mask = np.isin(np.array(ids, dtype=object), np.array(keep, dtype=object))
+    out = {k: (None if v is None else [a for a, m in zip(np.asarray(v, dtype=float).tolist(),
+                                                            mask) if m])
+           for k, v in arrays.items()}
+    if isinstance(shared_width, Mapping):
+        groups = {g: [i for i in members if i in keep] for g, members in shared_width.items()}
+        shared_width = {g: m for g, m in groups.items() if m}
+    return mask, out, shared_width
