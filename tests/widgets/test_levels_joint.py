@@ -53,6 +53,7 @@ def test_assign_with_the_joint_fit_records_it_and_shows_the_mass_independent_set
     assert panel.last_error is None, panel.status.value
     step = fitted_pair.history[-1]
     assert step.kind == "assign_band" and step.params["joint"] is True
+    assert "(joint isotopologue fit)" in panel.status.value
     html = panel.constants_table.value
     main, _, joint = html.partition("wk-joint-heading")
     assert "mass-independent" not in main and "wk-joint-constants" in joint

@@ -333,8 +333,9 @@ class LevelsPanel(Panel):
         if self.last_error is None:
             n = int(self.session.assignments["label"].notna().sum())
             doubtful = getattr(self.session.assignment, "status", "ok") != "ok"
+            joint = " (joint isotopologue fit)" if opts.get("joint") else ""
             self.show_status("warning" if doubtful else "ok",
-                             f"assigned {n} of {len(self.session.assignments)} lines"
+                             f"assigned {n} of {len(self.session.assignments)} lines{joint}"
                              + ("; the result is DOUBTFUL (reasons below)" if doubtful else ""))
 
     def _show_step_summary(self) -> None:
