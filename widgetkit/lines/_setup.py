@@ -35,6 +35,10 @@ MIN_WIDTH = 0.1
 #: not the line that was found (it is spreading over a blend or the baseline); its
 #: width then ends on the bound, where it is flagged and pruned
 MAX_WIDTH_GROWTH = 10.0
+#: the solver keeps every line area within this many times (largest |y|) x (span of x):
+#: no line of the data can have more, and an area the data do not constrain (a line
+#: narrowed between two samples) would otherwise run off to 1e200 and beyond
+AREA_LIMIT = 1e3
 MIN_MAX_WIDTH = 20.0
 
 
@@ -203,7 +207,17 @@ def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, li
     model.set_windows(tmap.values(model.variables(params)))
     lo = np.array([params[n].min for n in tmap.var_names], dtype=float)
     hi = np.array([params[n].max for n in tmap.var_names], dtype=float)
+    _limit_areas(tmap.var_names, lo, hi, ys, span)
     return Problem(xs=xs, ys=ys, ws=ws, shape=shp, baseline=bl, ids=ids, positions=pos,
                    noise=sigma_n, x_ref=x_ref, starts=st, params=params, tmap=tmap, model=model,
                    lo=lo, hi=hi, dx=dx, nfree=xs.size - len(tmap.var_names), spec=spec,
                    flags=flags)
+
+
+def _limit_areas(names, lo, hi, ys, span: float) -> None:
+    """Finite solver bounds on the areas (:data:`AREA_LIMIT`), in place; the lmfit
+    parameters keep theirs, so a fit that never comes near the limit is unchanged."""
+    amax = AREA_LIMIT * max(float(np.max(np.abs(ys))), 1e-300) * max(span, 1e-300)
+    for k, n in enumerate(names):
+        if n.endswith("_area"):
+            lo[k], hi[k] = max(lo[k], -amax), min(hi[k], amax)
