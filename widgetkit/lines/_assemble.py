@@ -49,7 +49,8 @@ def assemble(prob: Problem, sol: Solution) -> dict:
         bcov = cov_all[np.ix_(k, k)]
     bvals, berrs = bl.public(bc, bcov, prob.x_ref)
     _line_flags(prob, sol, table, flags)
-    model_y = model.evaluate(theta)
+    bg = 0.0 if prob.background is None else prob.background.values
+    model_y = model.evaluate(theta) + bg
     if prob.ws is None and prob.noise > 0 and res.nfree > 0:
         ratio = res.redchi / prob.noise**2
         if ratio > CHI_FLAG:
@@ -60,8 +61,9 @@ def assemble(prob: Problem, sol: Solution) -> dict:
         table=table, result=res, params=res.params, chisqr=float(res.chisqr),
         redchi=float(res.redchi), nfev=sol.nfev, converged=sol.converged,
         flags={k: tuple(f) for k, f in flags.items()}, x=prob.xs, y=prob.ys, model_y=model_y,
-        baseline_y=bl.evaluate(model.u, bc), components=model.components(theta),
+        baseline_y=bl.evaluate(model.u, bc) + bg, components=model.components(theta),
         residual=prob.ys - model_y, spec=prob.spec,
         baseline_params=pd.DataFrame({"name": list(bl.public_names), "value": bvals,
                                       "stderr": berrs}),
-        noise=prob.noise, njev=sol.njev, stopped=sol.stopped, seconds=sol.seconds)
+        noise=prob.noise, background=prob.background, njev=sol.njev, stopped=sol.stopped,
+        seconds=sol.seconds)

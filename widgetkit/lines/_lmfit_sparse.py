@@ -30,7 +30,7 @@ from lmfit.minimizer import AbortFitException
 from numpy.linalg import LinAlgError
 from scipy.optimize import least_squares as _scipy_least_squares
 
-__all__ = ["SparseMinimizer", "DEFAULT_LSQ_OPTIONS", "DENSE_COVAR_MAX"]
+__all__ = ["SparseMinimizer", "DEFAULT_LSQ_OPTIONS", "DENSE_COVAR_MAX", "inverse_normal"]
 
 #: above this many variables no dense covariance is formed here (``covar`` None; the
 #: refits of :func:`lmfit.conf_interval` need only chi-square, and a fit's own
@@ -41,6 +41,53 @@ DENSE_COVAR_MAX = 2000
 #: ``x_scale=1.0`` windowed fits stopped early with chi-square too high)
 DEFAULT_LSQ_OPTIONS = dict(method="trf", tr_solver="lsmr", x_scale="jac",
                            ftol=1e-8, xtol=1e-8, gtol=1e-8)
+
+
+#: eigenvalues of the scaled normal matrix below this fraction of the largest are null
+NULL_EIGEN = 1e-13
+#: a variable loading a null direction by more than this (squared component) is undetermined
+NULL_LOAD = 1e-2
+
+
+def inverse_normal(hess) -> np.ndarray:
+    """The inverse of the normal matrix ``J.T @ J``, also where it is singular.
+
+    A fit stopped early can hold a line whose Jacobian columns are zero or collinear (a
+    width on its bound, an area of 0): the whole inverse then fails or is meaningless, and
+    every standard error would be lost. Here the matrix is scaled to unit diagonal and
+    split into eigenvectors; directions with eigenvalue below :data:`NULL_EIGEN` of the
+    largest are not determined by the data, and every variable that loads one of them by
+    more than :data:`NULL_LOAD` gets the variance of the weakest direction the data could
+    still resolve, ``1 / (NULL_EIGEN · (J.T J)_ii)`` (an enormous error that says "not
+    determined", and that the pruning rules read as such) and no covariance with the
+    others; the other variables get the inverse of their own block, so their errors stay
+    as they are.
+    """
+    h = np.asarray(hess.toarray() if sp.issparse(hess) else hess, dtype=np.float64)
+    n = h.shape[0]
+    d = np.sqrt(np.clip(np.diag(h), 0.0, None))
+    ok = np.isfinite(d) & (d > 0)
+    if ok.all():
+        try:
+            with np.errstate(all="ignore"):
+                scaled = h / np.outer(d, d)
+                w, v = np.linalg.eigh(scaled)
+        except (LinAlgError, ValueError):
+            w = None
+        if w is not None and np.all(np.isfinite(w)) and w[0] > NULL_EIGEN * w[-1]:
+            return (v / w) @ v.T / np.outer(d, d)
+        if w is not None and np.all(np.isfinite(w)):
+            null = w <= NULL_EIGEN * max(w[-1], 0.0)
+            ok &= np.sum(v[:, null] ** 2, axis=1) <= NULL_LOAD
+    out = np.zeros((n, n))
+    with np.errstate(divide="ignore"):
+        floor = 1.0 / (NULL_EIGEN * np.where(d > 0, d, np.min(d[d > 0], initial=1.0)) ** 2)
+    out[~ok, ~ok] = floor[~ok]
+    k = np.flatnonzero(ok)
+    if k.size:
+        sub = h[np.ix_(k, k)] / np.outer(d[k], d[k])
+        out[np.ix_(k, k)] = np.linalg.pinv(sub, hermitian=True) / np.outer(d[k], d[k])
+    return out
 
 
 class SparseMinimizer(Minimizer):
@@ -156,7 +203,7 @@ class SparseMinimizer(Minimizer):
             if result.nvarys <= DENSE_COVAR_MAX:  # beyond, lines.structured gives them
                 hess = (jac.T @ jac).toarray() if sp.issparse(jac) else jac.T @ jac
                 try:
-                    result.covar = np.linalg.inv(np.asarray(hess))
+                    result.covar = inverse_normal(hess)
                     self._calculate_uncertainties_correlations()
                 except (LinAlgError, ValueError):
                     result.covar = None

@@ -18,6 +18,7 @@ import numpy as np
 
 from ..errors import FitError
 from ..processing.noise import estimate_noise
+from .background import Background, smooth_background
 from .baselines import Baseline, get_baseline
 from .model import WindowedModel
 from .params import ThetaMap, build_params, line_prefix, theta_names
@@ -70,6 +71,12 @@ class Problem:
     nfree: int
     spec: dict
     flags: dict
+    background: Background | None = None
+
+    @property
+    def yfit(self) -> np.ndarray:
+        """The data the lines and the fitted baseline are fitted to (minus the background)."""
+        return self.ys if self.background is None else self.ys - self.background.values
 
 
 def _as_1d(a, name: str) -> np.ndarray:
@@ -156,13 +163,16 @@ def _check_lines(xs, positions, line_ids, heights, widths, region):
 
 def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, line_ids,
            heights, widths, noise, constraints, weights, extra_spec: Mapping,
-           holds: Mapping | None = None) -> Problem:
+           holds: Mapping | None = None, background: Background | None = None) -> Problem:
     """Check everything and build the :class:`Problem` (arguments as :func:`~.fitting.fit`;
     ``extra_spec`` joins the settings record; ``holds`` maps line ids to
     ``{"position": (lo, hi), "width_max": w}``, either optional: bounds of a line's
-    centre and widths, within the usual ones)."""
-    shp, bl = get_shape(shape), get_baseline(baseline)
-    spec = _spec(shape=shp.name, shared_width=shared_width, baseline=bl.name, region=(
+    centre and widths, within the usual ones; ``background`` one already estimated, for
+    the repeated fit of ``baseline="auto"``)."""
+    auto = isinstance(baseline, str) and baseline == "auto"
+    shp, bl = get_shape(shape), get_baseline("linear" if auto else baseline)
+    spec = _spec(shape=shp.name, shared_width=shared_width,
+                 baseline="auto" if auto else bl.name, region=(
         None if region is None else [float(r) for r in region]), window=window,
         constraints=dict(constraints or {}), positions=_as_1d(positions, "positions").tolist(),
         line_ids=None if line_ids is None else list(line_ids),
@@ -179,6 +189,11 @@ def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, li
     x_ref = 0.5 * (xs[0] + xs[-1])
     st = starting_values(xs, ys, pos, bl, x_ref, heights, widths)
     flags: dict = {}
+    if auto and background is None:
+        background = smooth_background(xs, ys, pos, st.fwhm, st.heights, sigma_n)
+    if background is not None:
+        st = starting_values(xs, ys - background.values, pos, bl, x_ref, heights, widths)
+        flags["fit"] = [background.describe()]
     for i, h in zip(ids, st.heights):
         if abs(h) < BELOW_NOISE * sigma_n:
             flags.setdefault(i, []).append(
@@ -203,7 +218,8 @@ def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, li
             bounds[p + wname] = (MIN_WIDTH * dx, wmax)
     params = build_params(shp, bl, ids, theta0, bounds, plain(shared_width), plain(constraints))
     tmap = ThetaMap(params, names)
-    model = WindowedModel(xs, ys, ws, shp, bl, x_ref, len(ids), tmap, window)
+    yfit = ys if background is None else ys - background.values
+    model = WindowedModel(xs, yfit, ws, shp, bl, x_ref, len(ids), tmap, window)
     model.set_windows(tmap.values(model.variables(params)))
     lo = np.array([params[n].min for n in tmap.var_names], dtype=float)
     hi = np.array([params[n].max for n in tmap.var_names], dtype=float)
@@ -211,7 +227,7 @@ def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, li
     return Problem(xs=xs, ys=ys, ws=ws, shape=shp, baseline=bl, ids=ids, positions=pos,
                    noise=sigma_n, x_ref=x_ref, starts=st, params=params, tmap=tmap, model=model,
                    lo=lo, hi=hi, dx=dx, nfree=xs.size - len(tmap.var_names), spec=spec,
-                   flags=flags)
+                   flags=flags, background=background)
 
 
 def _limit_areas(names, lo, hi, ys, span: float) -> None:

@@ -21,7 +21,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from . import solver, structured
-from ._lmfit_sparse import SparseMinimizer
+from ._lmfit_sparse import SparseMinimizer, inverse_normal
 from ._setup import Problem
 from .budget import Budget, BudgetSpent, Counted
 from .derived import parameter_covariance
@@ -84,7 +84,7 @@ def _result_at(mini: SparseMinimizer, prob: Problem, v: np.ndarray):
     try:
         hess = jac.T @ jac
         hess = hess.toarray() if sp.issparse(hess) else np.asarray(hess)
-        res.covar = np.linalg.inv(hess)
+        res.covar = inverse_normal(hess)
         mini._calculate_uncertainties_correlations()
     except (np.linalg.LinAlgError, ValueError):
         res.covar = None

@@ -146,6 +146,10 @@ class LineFit:
     solve_nfev, solve_stopped : tuple
         Evaluations used and how it stopped, for each solve (two when lines were
         removed and the fit repeated).
+    background : Background or None
+        The smooth background subtracted before the fit (``baseline="auto"`` on a
+        spectrum whose baseline a straight line cannot follow; :mod:`.background`);
+        it is part of ``model_y`` and ``baseline_y``.
     """
 
     table: pd.DataFrame
@@ -173,6 +177,7 @@ class LineFit:
     removed: pd.DataFrame = field(default_factory=lambda: removed_table([]))
     solve_nfev: tuple = ()
     solve_stopped: tuple = ()
+    background: Any = None
 
 
 def _one_blas_thread(func):
@@ -191,7 +196,7 @@ def _one_blas_thread(func):
 
 @_one_blas_thread
 def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
-        baseline: str | None = "linear", region: Sequence[float] | None = None,
+        baseline: str | None = "auto", region: Sequence[float] | None = None,
         window: float | None = DEFAULT_WINDOW, line_ids: Sequence | None = None,
         heights=None, widths=None, noise: float | None = None,
         constraints: Mapping | None = None, weights=None,
@@ -214,8 +219,11 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         False: every line its own widths; True: one set of widths for all;
         ``"sigma"``/``"gamma"``: share only that width; mapping group name ->
         list of line ids: one width set per group.
-    baseline : {"linear", None, "none", "constant", "poly2", "exponential"}
-        Baseline fitted with the lines (:mod:`.baselines`).
+    baseline : {"auto", "linear", None, "none", "constant", "poly2", "exponential"}
+        Baseline fitted with the lines (:mod:`.baselines`). ``"auto"`` (default) is
+        ``"linear"`` on top of a smooth background estimated from the line-free points
+        and subtracted first, when they show that a straight line cannot follow the
+        baseline (:mod:`.background`; ``LineFit.background``).
     region : (lo, hi), optional
         Only data with lo ≤ x ≤ hi is used.
     window : float or None
@@ -322,6 +330,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
             held = {i: h for i, h in restarts.items() if len(h) > 1}
             prob = set_up(prob.xs, prob.ys, starts[mask], shared_width=shared,
                           line_ids=kept, noise=prob.noise, **sub, holds=held,
+                          background=prob.background,
                           **{**args, "region": None, "weights": prob.ws}, extra_spec={})
             left = None if time_limit is None else max(time_limit - solves[0].seconds,
                                                        REFIT_SHARE * time_limit)

@@ -15,6 +15,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 import pandas as pd
 
+from .background import Background
 from .baselines import get_baseline
 from .model import WindowedModel
 from .shapes import get_shape
@@ -24,7 +25,8 @@ __all__ = ["model_curves"]
 
 def model_curves(x, y, table: pd.DataFrame, *, shape: str, baseline: str | None,
                  baseline_values: Sequence[float], window: float | None,
-                 region: Sequence[float] | None = None) -> Mapping[str, np.ndarray]:
+                 region: Sequence[float] | None = None,
+                 background: Mapping | None = None) -> Mapping[str, np.ndarray]:
     """Model, baseline, components and residual of a fit from its recorded values.
 
     Parameters
@@ -44,6 +46,9 @@ def model_curves(x, y, table: pd.DataFrame, *, shape: str, baseline: str | None,
         Evaluation window in half widths, as the fit used.
     region : (lo, hi), optional
         The fit's region; only data with ``lo <= x <= hi`` is used.
+    background : mapping, optional
+        The recorded smooth background (:meth:`.background.Background.to_json`) of a
+        fit with ``baseline="auto"``.
 
     Returns
     -------
@@ -51,7 +56,7 @@ def model_curves(x, y, table: pd.DataFrame, *, shape: str, baseline: str | None,
         ``x, y, model_y, baseline_y, residual`` (shape (n_used,)) and ``components``
         (shape (n_lines, n_used)), as the :class:`~widgetkit.lines.LineFit` fields.
     """
-    shp, bl = get_shape(shape), get_baseline(baseline)
+    shp, bl = get_shape(shape), get_baseline("linear" if baseline == "auto" else baseline)
     xs, ys = np.asarray(x, dtype=float), np.asarray(y, dtype=float)
     if region is not None:
         lo, hi = sorted(float(r) for r in region)
@@ -64,6 +69,7 @@ def model_curves(x, y, table: pd.DataFrame, *, shape: str, baseline: str | None,
     model = WindowedModel(xs, ys, None, shp, bl, 0.0, m, None, window)
     model.set_windows(theta)
     model.set_wings(theta)
-    model_y = model.evaluate(theta)
-    return {"x": xs, "y": ys, "model_y": model_y, "baseline_y": bl.evaluate(xs, bc),
+    bg = 0.0 if background is None else Background.from_json(background, xs).values
+    model_y = model.evaluate(theta) + bg
+    return {"x": xs, "y": ys, "model_y": model_y, "baseline_y": bl.evaluate(xs, bc) + bg,
             "components": model.components(theta), "residual": ys - model_y}

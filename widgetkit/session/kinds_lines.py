@@ -33,7 +33,7 @@ import pandas as pd
 from ..errors import FitError, SessionStateError
 from ..formatting import plural
 from .params import Param, ParamProblem, show
-from .records import Restored, decode, encode_fields, table_from_json
+from .records import Restored, decode, encode, encode_fields, table_from_json
 from .steps import (
     RecordMismatch,
     State,
@@ -67,7 +67,8 @@ def progress_to(callback: Callable | None) -> Iterator[None]:
 #: the arrays are rebuilt from the spectrum (:func:`widgetkit.lines.record.model_curves`),
 #: the lmfit objects and evaluation counts come from running the fit again when asked for
 _LINEFIT_NOT_RECORDED = ("table", "chisqr", "redchi", "converged", "result", "params", "nfev",
-                         "njev", "x", "y", "model_y", "baseline_y", "components", "residual")
+                         "njev", "x", "y", "model_y", "baseline_y", "components", "residual",
+                         "background")
 _CURVES = ("x", "y", "model_y", "baseline_y", "components", "residual")
 #: columns of LineFit.removed (a test keeps them equal to widgetkit.lines.prune's, which
 #: this module must not import: reopening a session imports no fitting code)
@@ -90,7 +91,7 @@ SHAPE_WORDS = {"gaussian": "Gaussian", "lorentzian": "Lorentzian", "voigt": "Voi
 SHAPE_WIDTHS = {"gaussian": ("sigma",), "lorentzian": ("gamma",), "voigt": ("sigma", "gamma"),
                 "pseudo_voigt": ("sigma", "gamma")}
 SHAPE_NAMES = tuple(SHAPE_WIDTHS)
-BASELINE_NAMES = ("none", "constant", "linear", "poly2", "exponential")
+BASELINE_NAMES = ("auto", "none", "constant", "linear", "poly2", "exponential")
 _CONSTRAINT_KEYS = ("value", "min", "max", "vary", "expr")
 
 
@@ -134,7 +135,8 @@ class FitLines(StepKind):
         Param("shared_width", ("boolean", "choice", "mapping"), False, choices=("sigma", "gamma"),
               doc="one width for all lines, one width kind, or groups of line ids"),
         Param("baseline", "choice", "linear", choices=BASELINE_NAMES, nullable=True,
-              doc="baseline fitted with the lines"),
+              doc="baseline fitted with the lines ('auto': linear on a smooth background "
+                  "when the line-free points need one; absent in a record: linear)"),
         Param("region", "range", None, nullable=True, unit="cm-1", doc="fit only lo <= x <= hi"),
         Param("window", "number", 100.0, above=1, nullable=True,
               doc="evaluation window, in half widths"),
@@ -213,7 +215,7 @@ class FitLines(StepKind):
             raise err
         result = {"lines": table_to_json(fit.table), "chisqr": float(fit.chisqr),
                   "redchi": float(fit.redchi), "converged": bool(fit.converged),
-                  "record": encode_fields(fit, skip=_LINEFIT_NOT_RECORDED),
+                  "record": _record(fit),
                   "budget": {"max_nfev": fit.spec.get("max_nfev"),
                              "time_limit": fit.spec.get("time_limit"), "nfev": int(fit.nfev),
                              "seconds": float(fit.seconds), "stopped": fit.stopped,
@@ -251,6 +253,7 @@ class FitLines(StepKind):
         _check_fit_size(table["fwhm"].to_numpy(dtype=float), sp, spec.get("region"),
                         spec.get("window"))
         curves: dict = {}
+        background = fields.pop("background", None)
 
         def curve(name):
             def compute():
@@ -261,7 +264,8 @@ class FitLines(StepKind):
                     curves.update(model_curves(
                         sp.x, sp.y, table, shape=spec["shape"], baseline=spec["baseline"],
                         baseline_values=[] if bp is None else bp["value"].tolist(),
-                        window=spec.get("window"), region=spec.get("region")))
+                        window=spec.get("window"), region=spec.get("region"),
+                        background=background))
                 return curves[name]
             return compute
 
@@ -272,9 +276,27 @@ class FitLines(StepKind):
         fields.setdefault("stopped", "converged" if converged else "tolerance")
         fields.setdefault("removed", pd.DataFrame({c: [] for c in REMOVED_COLUMNS}))
         fields.setdefault("seconds", budget.get("seconds"))
-        restored = Restored("LineFit", fields, lazy={n: curve(n) for n in _CURVES},
+        lazy = {n: curve(n) for n in _CURVES}
+        lazy["background"] = lambda: None if background is None else _background(
+            background, curve("x")())
+        restored = Restored("LineFit", fields, lazy=lazy,
                             real=lambda: self.replay(state, params, result, ctx)[0].line_fit)
         return state.evolve(line_fit=restored, assignment=None)
+
+
+def _record(fit) -> dict:
+    """The record of a LineFit: its fields but the curves, and the smooth background
+    (``baseline="auto"``) as its spline."""
+    rec = encode_fields(fit, skip=_LINEFIT_NOT_RECORDED)
+    if fit.background is not None:
+        rec["fields"]["background"] = encode(fit.background.to_json())
+    return rec
+
+
+def _background(d, x):
+    from ..lines.background import Background
+
+    return Background.from_json(d, x)
 
 
 def _by_hand(peaks) -> list[int] | None:

@@ -86,7 +86,7 @@ class StepMethods:
         """Remove the peak ``peak_id``."""
         self._run("remove_peak", {"peak_id": peak_id})
 
-    def fit_lines(self, *, shape: str = "voigt", shared_width=False, baseline: str | None = "linear",
+    def fit_lines(self, *, shape: str = "voigt", shared_width=False, baseline: str | None = "auto",
                   region=None, strict: bool = False, max_nfev: int | None = None,
                   time_limit: float | None = None, prune: bool = True, progress=None,
                   **options) -> pd.DataFrame:
