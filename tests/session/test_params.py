@@ -98,4 +98,5 @@ def test_the_declared_shapes_and_baselines_are_the_registered_ones():
     from widgetkit.session import kinds_lines
 
     assert {k: v.widths for k, v in SHAPES.items()} == kinds_lines.SHAPE_WIDTHS
-    assert set(kinds_lines.BASELINE_NAMES) == {k for k in BASELINES if k is not None}
+    # "auto": the linear baseline on a smooth background where one is needed (lines.background)
+    assert set(kinds_lines.BASELINE_NAMES) == {k for k in BASELINES if k is not None} | {"auto"}

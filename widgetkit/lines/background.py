@@ -13,13 +13,16 @@ and subtracts it before the fit, which then adds a straight-line correction as u
 1. **Line-free points**: every point further than :data:`REACH` starting FWHM from every line
    (at least two samples), and for a strong line further than where a Lorentzian wing of its
    height falls to the noise, ``½·FWHM·√(h/σ)`` (at most :data:`MAX_REACH` FWHM): wings
-   left among the free points would look like a curved baseline.
+   left among the free points would look like a curved baseline. A starting FWHM above
+   :data:`WIDE` times the typical one (the median FWHM of the strongest quarter of the
+   lines) counts as that: on a curved baseline the starting widths of weak lines are
+   measured against the wrong level and come out far too wide.
 2. **Does a straight line do?** A straight line is fitted to the line-free points. When their
    scatter about it is within :data:`CURVED` times the noise variance, or not significantly
    above it (5 standard deviations of a chi-square), the background is zero and the fit is
    the plain straight-line fit.
 3. **Otherwise a penalised cubic spline** (B-splines with knots every :data:`KNOT_FWHM`
-   times the median FWHM of the stronger half of the lines, at least :data:`KNOT_STEPS` samples, and a small second-difference
+   typical FWHM, at least :data:`KNOT_STEPS` samples, and a small second-difference
    penalty; P-spline in the terms of Eilers & Marx, *Statistical Science* 11 (1996) 89) is
    fitted to the line-free points. Under a line, where no point is used, the penalty makes
    it the smoothest curve that joins the two sides in value and slope, so it bridges a
@@ -51,6 +54,8 @@ __all__ = ["Background", "smooth_background", "line_free", "REACH", "CURVED", "K
 
 #: a point closer than this many starting FWHM to a line is not line-free
 REACH = 3.0
+#: starting FWHM above this many typical FWHM count as this many
+WIDE = 3.0
 #: the reach of a strong line's wings, at most this many FWHM
 MAX_REACH = 30.0
 #: line-free scatter about a straight line below this many noise variances: no background
@@ -182,20 +187,20 @@ def smooth_background(x, y, positions, fwhm, heights, sigma: float) -> Backgroun
     """
     x, y = np.asarray(x, float), np.asarray(y, float)
     pos = np.asarray(positions, float)
-    f = np.asarray(fwhm, float)
+    f, h = np.abs(np.asarray(fwhm, float)), np.abs(np.asarray(heights, float))
     if x.size < 4 * KNOT_STEPS or not (sigma > 0 and math.isfinite(sigma)) or pos.size == 0:
         return None
     dx = float(np.median(np.diff(x)))
-    free = line_free(x, pos, f, heights, sigma, dx)
+    good = np.isfinite(f) & (f > 0) & np.isfinite(h)
+    strong = good & (h >= np.quantile(h[good], 0.75)) if good.any() else good
+    width = float(np.median(f[strong])) if strong.any() else KNOT_STEPS * dx
+    f = np.minimum(f, WIDE * width)
+    free = line_free(x, pos, f, h, sigma, dx)
     if free.sum() < max(MIN_FREE, 0.1 * x.size):
         return None
     ratio, curved = _straight_ratio(x, y, free, sigma)
     if not curved:
         return None
-    h = np.abs(np.asarray(heights, dtype=float))
-    good = np.isfinite(f) & (f > 0) & np.isfinite(h)
-    strong = good & (h >= np.median(h[good])) if good.any() else good
-    width = float(np.median(f[strong])) if strong.any() else KNOT_STEPS * dx
     spacing = max(KNOT_FWHM * width, KNOT_STEPS * dx)
     use = free.copy()
     for _ in range(3):
