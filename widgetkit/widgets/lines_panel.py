@@ -16,7 +16,8 @@ __all__ = ["LinesPanel"]
 
 SHAPE_CHOICES = [("Voigt", "voigt"), ("Gaussian", "gaussian"), ("Lorentzian", "lorentzian"),
                  ("pseudo-Voigt", "pseudo_voigt")]
-BASELINE_CHOICES = [("none", None), ("constant", "constant"), ("linear", "linear"),
+BASELINE_CHOICES = [("automatic", "auto"), ("none", None), ("constant", "constant"),
+                    ("linear", "linear"),
                     ("quadratic", "poly2"), ("exponential", "exponential")]
 LINE_COLUMNS = ["line_id", "position", "position_err", "area", "area_err", "height", "height_err",
                 "fwhm", "fwhm_err", "sigma", "sigma_err", "gamma", "gamma_err"]
@@ -57,7 +58,7 @@ class LinesPanel(PlotPanel):
 
         self.shape = ipw.Dropdown(options=SHAPE_CHOICES, value="voigt", description="shape")
         self.shared_width = ipw.Checkbox(value=False, description="shared width", indent=False)
-        self.baseline = ipw.Dropdown(options=BASELINE_CHOICES, value="linear",
+        self.baseline = ipw.Dropdown(options=BASELINE_CHOICES, value="auto",
                                      description="baseline")
         self.use_region = ipw.Checkbox(value=False, description="fit region only", indent=False)
         self.region_lo = ipw.FloatText(description="from", layout=ipw.Layout(width="160px"))
