@@ -258,7 +258,15 @@ class ArrowCovariance:
         gl = ~la & ~lb
         if np.any(gl):
             out[gl] = self.sinv[pa[gl] - nl, pb[gl] - nl]
-        return out / (self.d[pa] * self.d[pb])
+        # a variable the data hardly touch (a zero Jacobian column at a stopped fit) has a
+        # scale near 0: its variance overflows; it is kept enormous and its covariances 0,
+        # as in lines._lmfit_sparse.inverse_normal
+        with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+            out = np.asarray(out / (self.d[pa] * self.d[pb]))
+        bad = np.isinf(out)  # NaN stays: "not computed"
+        if np.any(bad):
+            out = np.where(bad, np.where(np.asarray(pa) == np.asarray(pb), 1e300, 0.0), out)
+        return out[()] if out.ndim == 0 else out
 
     def diagonal(self) -> np.ndarray:
         """Variances, variables in their own order."""
