@@ -85,6 +85,10 @@ class BandModel:
         self.basis = (np.column_stack([t**j for j in range(baseline_degree + 1)])
                       if baseline_degree is not None else np.zeros((self.x.size, 0)))
         self.base_names = [f"baseline_{j}" for j in range(self.basis.shape[1])]
+        self.basis_t = np.ascontiguousarray(self.basis.T)
+        #: (key, grid) of the value kept by the renderer (absorbance domain) and its cache
+        self._value_key: tuple | None = None
+        self._value_cache: dict = {}
         self.iso_names = [f"abundance_ratio({n})" for n in system.isotopologues[1:]]
         self.nfev = 0
         self.njev = 0
@@ -233,66 +237,85 @@ class BandModel:
     def _evaluate(self, theta, free: list[int] | None = None, *, jac: bool = True):
         """y_model at the data points and ∂y/∂θ for the ``free`` parameters (N, len(free)).
 
-        Columns of baseline coefficients are the basis functions; all others go through
-        the line list and the renderer. Re-grids when the lines became narrower than the
-        working grid resolves.
+        Columns of baseline coefficients are the basis functions; in the absorbance domain
+        the band area's column is the band over the area (the band is linear in it); all
+        others go through the line list and the renderer. Re-grids when the lines became
+        narrower than the working grid resolves. The Jacobian is returned as the transpose
+        of a C-ordered (len(free), N) array (fast Jᵀ J).
         """
         theta = np.asarray(theta, dtype=float)
         free = list(range(self.P)) if free is None else list(free)
         self._regrid(theta)
         base_idx = [self.index[n] for n in self.base_names]
         lin = [k for k in free if k not in base_idx] if jac else []
-        pos, area, sig, d_pos, d_area, d_sig, _ = self.lines(theta, lin)
+        k_area = self.index.get("band_area")
+        by_area = (self.domain == "absorbance" and k_area in lin and theta[k_area] > 0)
+        rlin = [k for k in lin if not (by_area and k == k_area)]
+        pos, area, sig, d_pos, d_area, d_sig, _ = self.lines(theta, rlin)
         keep = self.keep
         kern = self.kernel(theta)
         kw = {}
-        if lin:
+        if rlin:
             kw = dict(d_area=d_area[keep], d_pos=d_pos[keep], d_sigma=d_sig[keep],
-                      d_gamma=lin.index(self.index["lorentz_hwhm"])
-                      if self.index.get("lorentz_hwhm") in lin else None,
-                      d_resolution=lin.index(self.index["resolution"])
-                      if self.index.get("resolution") in lin else None)
+                      d_gamma=rlin.index(self.index["lorentz_hwhm"])
+                      if self.index.get("lorentz_hwhm") in rlin else None,
+                      d_resolution=rlin.index(self.index["resolution"])
+                      if self.index.get("resolution") in rlin else None)
+        if self.domain == "absorbance":
+            key = (theta.tobytes(), self.smoothing, self.tau_l)
+            if self._value_key is None or self._value_key[0] != key or \
+                    self._value_key[1] is not self.grid:
+                self._value_key, self._value_cache = (key, self.grid), {}
+            kw["cache"] = self._value_cache
         band, dband = render(self.grid, pos[keep], area[keep], sig[keep], kern, **kw)
         self.nfev += 1
+        drows = None  # ∂band/∂θ of the ``lin`` parameters, rows (len(lin), N)
+        if lin:
+            drows = np.empty((len(lin), self.x.size))
+            for j, k in enumerate(lin):
+                drows[j] = band / theta[k_area] if by_area and k == k_area \
+                    else dband[:, rlin.index(k)]
         b = np.array([theta[k] for k in base_idx])
         base = self.basis @ b if b.size else np.zeros_like(self.x)
         J = None
         if self.y_kind == "absorbance":
             if self.domain == "absorbance":
                 y = band + base
-                dA = dband
+                dA = drows
             else:
                 tb = np.maximum(band, 1e-12)
                 y = -np.log10(tb) + base
-                dA = None if dband is None else -dband / (LN10 * tb[:, None])
+                dA = None if drows is None else -drows / (LN10 * tb[None, :])
             if jac:
-                J = self._assemble(free, lin, base_idx, dA, self.basis)
+                J = self._assemble(free, lin, base_idx, dA, self.basis_t)
         else:
             att = 10.0 ** (-base)
             if self.domain == "absorbance":
                 y = 10.0 ** (-(band + base))
                 if jac:
                     J = self._assemble(free, lin, base_idx,
-                                       None if dband is None else -LN10 * y[:, None] * dband,
-                                       -LN10 * y[:, None] * self.basis)
+                                       None if drows is None else -LN10 * y[None, :] * drows,
+                                       -LN10 * y[None, :] * self.basis_t)
             else:
                 y = band * att
                 if jac:
                     J = self._assemble(free, lin, base_idx,
-                                       None if dband is None else dband * att[:, None],
-                                       -LN10 * y[:, None] * self.basis)
+                                       None if drows is None else drows * att[None, :],
+                                       -LN10 * y[None, :] * self.basis_t)
         if jac:
             self.njev += 1
         return y, J
 
     def _assemble(self, free, lin, base_idx, d_lin, d_base) -> np.ndarray:
-        J = np.empty((self.x.size, len(free)))
+        """J (N, len(free)) from rows of derivatives (``d_lin`` for ``lin``, ``d_base`` for the
+        baseline coefficients), as the transpose of a C-ordered array."""
+        Jt = np.empty((len(free), self.x.size))
         for j, k in enumerate(free):
             if k in base_idx:
-                J[:, j] = d_base[:, base_idx.index(k)]
+                Jt[j] = d_base[base_idx.index(k)]
             else:
-                J[:, j] = d_lin[:, lin.index(k)]
-        return J
+                Jt[j] = d_lin[lin.index(k)]
+        return Jt.T
 
     def components(self, theta) -> dict[str, np.ndarray]:
         """The model's parts at the data points: ``model``, ``baseline`` (in y units: the

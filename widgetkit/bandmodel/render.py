@@ -178,21 +178,37 @@ def auxiliary_tau(instrument: str, resolution: float) -> float:
 
 
 def _sample(grid: Grid, rows: np.ndarray) -> np.ndarray:
-    """Rows on the grid -> rows at the data points (shape (n, N))."""
+    """Rows on the grid -> rows at the data points (shape (n, N)); a view when the grid is
+    aligned with the data."""
     if grid.index is not None:
-        return rows[:, grid.index]
+        i = grid.index
+        step = int(i[1] - i[0]) if i.size > 1 else 1
+        return rows[:, int(i[0]):int(i[-1]) + 1:step]
     return CubicSpline(grid.u, rows, axis=1)(grid.x)
 
 
 class _Spectra:
     """Rows on the grid in Fourier space: the value in float64, derivatives in float32
-    (their precision, 1e-7, is ample for a Jacobian and halves the transform time)."""
+    (their precision, 1e-7, is ample for a Jacobian and halves the transform time).
+    Derivative rows whose deposit is zero (``live`` false) are not transformed: their
+    spectrum is zero until a kernel term is added."""
 
-    def __init__(self, grid: Grid, rows: np.ndarray):
+    def __init__(self, grid: Grid, rows: np.ndarray, live: np.ndarray | None = None):
+        """``rows``: the value row, then the derivative rows whose ``live`` flag is true
+        (all of them when ``live`` is None)."""
         self.grid = grid
         self.v = sfft.rfft(rows[0], n=grid.n_fft, workers=1)
-        self.d = (sfft.rfft(rows[1:].astype(np.float32), n=grid.n_fft, axis=-1, workers=1)
-                  if rows.shape[0] > 1 else None)
+        self.d = None
+        if live is None:
+            if rows.shape[0] > 1:
+                self.d = sfft.rfft(rows[1:].astype(np.float32), n=grid.n_fft, axis=-1, workers=1)
+            return
+        live = np.asarray(live, dtype=bool)
+        if live.size:
+            self.d = np.zeros((live.size, self.v.size), dtype=np.complex64)
+            if live.any():
+                self.d[live] = sfft.rfft(rows[1:].astype(np.float32), n=grid.n_fft, axis=-1,
+                                         workers=1)
 
     def times(self, k: np.ndarray) -> _Spectra:
         out = object.__new__(_Spectra)
@@ -211,8 +227,10 @@ class _Spectra:
         v = sfft.irfft(self.v, n=n, workers=1)[:M]
         if self.d is None:
             return v[None, :]
-        d = sfft.irfft(self.d, n=n, axis=-1, workers=1)[:, :M]
-        return np.vstack([v[None, :], d.astype(np.float64)])
+        out = np.empty((1 + self.d.shape[0], M))
+        out[0] = v
+        out[1:] = sfft.irfft(self.d, n=n, axis=-1, workers=1)[:, :M]
+        return out
 
 
 def render(grid: Grid, *args, **kwargs) -> tuple[np.ndarray, np.ndarray | None]:
@@ -233,6 +251,11 @@ def render(grid: Grid, *args, **kwargs) -> tuple[np.ndarray, np.ndarray | None]:
         ∂area/∂p, ∂ν/∂p, ∂σ/∂p of the P parameters whose columns are wanted.
     d_gamma, d_resolution : int, optional
         The column that is ∂/∂γ, ∂/∂Δ (their kernel terms are added to it).
+    cache : dict, optional
+        Absorbance domain: a dict kept by the caller for one set of lines and kernel (the
+        same ``pos, area, sigma, kernel`` and grid); the value and its spectrum are kept in
+        it, so that the Jacobian at the point of the last value costs only its columns.
+        Ignored in the transmittance domain.
 
     Returns
     -------
@@ -251,12 +274,14 @@ def render(grid: Grid, *args, **kwargs) -> tuple[np.ndarray, np.ndarray | None]:
 def _render(grid: Grid, pos: np.ndarray, area: np.ndarray, sigma: np.ndarray, kernel: Kernel, *,
            d_area: np.ndarray | None = None, d_pos: np.ndarray | None = None,
            d_sigma: np.ndarray | None = None, d_gamma: int | None = None,
-           d_resolution: int | None = None) -> tuple[np.ndarray, np.ndarray | None]:
+           d_resolution: int | None = None,
+           cache: dict | None = None) -> tuple[np.ndarray, np.ndarray | None]:
     """The computation of :func:`render`."""
     extra = deposit_extra(kernel)
     s = np.sqrt(sigma * sigma + extra * extra)
     n_par = 0 if d_area is None else d_area.shape[1]
-    weights = [(area, None, None)]
+    weights = []
+    live = np.zeros(n_par, dtype=bool)  # columns with a non-zero deposit
     if n_par:
         ds = d_sigma * (sigma / s)[:, None]  # ∂s/∂p = (σ/s) ∂σ/∂p
         ds_extra = None
@@ -267,27 +292,18 @@ def _render(grid: Grid, pos: np.ndarray, area: np.ndarray, sigma: np.ndarray, ke
             c = area * ds[:, p]
             if ds_extra is not None and p == d_resolution:
                 c = c + area * ds_extra
-            weights.append((d_area[:, p], area * d_pos[:, p], c))
-    dep = _deposit(grid, pos, s, weights)
-    t = grid.t
-    F = _Spectra(grid, dep)
-    lor = np.exp(-2.0 * math.pi * kernel.gamma * t)
-    dt = 1.0 / (grid.n_fft * grid.h)
+            w = (d_area[:, p], area * d_pos[:, p], c)
+            live[p] = bool(w[0].any() or w[1].any() or w[2].any())
+            if live[p]:
+                weights.append(w)
     if kernel.domain == "absorbance":
-        k = lor * transfer(kernel.instrument, kernel.resolution, t, dt=dt) \
-            if kernel.instrument != "gaussian" else lor
-        if kernel.tau > 0 and kernel.instrument != "gaussian":
-            k = k * np.exp(2.0 * math.pi**2 * kernel.tau**2 * t * t)
-        R = F.times(k)
-        if d_gamma is not None:
-            R.add(d_gamma, F.v * (-2.0 * math.pi * t) * k)
-        if d_resolution is not None and kernel.instrument != "gaussian":
-            dk = lor * transfer_derivative(kernel.instrument, kernel.resolution, t, dt=dt) * \
-                np.exp(2.0 * math.pi**2 * kernel.tau**2 * t * t)
-            R.add(d_resolution, F.v * dk)
-        res = _sample(grid, R.back())
-        return res[0], (res[1:].T if n_par else None)
+        return _render_absorbance(grid, pos, s, area, weights, live, kernel, d_gamma,
+                                  d_resolution, {} if cache is None else cache)
     # transmittance domain: resolve A_mono, exponentiate, then the instrument
+    t = grid.t
+    F = _Spectra(grid, _deposit(grid, pos, s, [(area, None, None)] + weights), live)
+    dt = 1.0 / (grid.n_fft * grid.h)
+    lor = np.exp(-2.0 * math.pi * kernel.gamma * t)
     kl = lor * np.exp(2.0 * math.pi**2 * kernel.tau**2 * t * t) if kernel.tau > 0 else lor
     R = F.times(kl)
     if d_gamma is not None:
@@ -306,3 +322,50 @@ def _render(grid: Grid, pos: np.ndarray, area: np.ndarray, sigma: np.ndarray, ke
     res = _sample(grid, R2.back())
     res[0] += 1.0
     return res[0], (res[1:].T if n_par else None)
+
+
+def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, d_gamma,
+                       d_resolution, cache: dict) -> tuple[np.ndarray, np.ndarray | None]:
+    """The absorbance domain: A_obs = ILS ⊛ A_mono, linear in the deposits.
+
+    ``cache`` holds the kernel transform, the value's spectrum and the value at the data
+    points of these lines (the caller passes the same dict only for the same lines and
+    kernel): a Jacobian asked for at the point of the last value (the solver's accepted
+    step) transforms only its derivative columns."""
+    t = grid.t
+    n, M = grid.n_fft, grid.M
+    if "k" not in cache:
+        lor = np.exp(-2.0 * math.pi * kernel.gamma * t)
+        dt = 1.0 / (n * grid.h)
+        k = lor * transfer(kernel.instrument, kernel.resolution, t, dt=dt) \
+            if kernel.instrument != "gaussian" else lor
+        if kernel.tau > 0 and kernel.instrument != "gaussian":
+            k = k * np.exp(2.0 * math.pi**2 * kernel.tau**2 * t * t)
+        cache["k"], cache["lor"] = k, lor
+    k = cache["k"]
+    if "v" not in cache:
+        fv = sfft.rfft(_deposit(grid, pos, s, [(area, None, None)])[0], n=n, workers=1)
+        cache["v"] = fv
+        cache["y"] = _sample(grid, sfft.irfft(fv * k, n=n, workers=1)[None, :M])[0]
+    fv, y = cache["v"], cache["y"]
+    n_par = live.size
+    if not n_par:
+        return y, None
+    d = np.zeros((n_par, fv.size), dtype=np.complex64)
+    if live.any():
+        dep = _deposit(grid, pos, s, weights).astype(np.float32)
+        d[live] = sfft.rfft(dep, n=n, axis=-1, workers=1) * k.astype(np.complex64)[None, :]
+    out_rows = live.copy()
+    if d_gamma is not None:
+        d[d_gamma] += (fv * (-2.0 * math.pi * t) * k).astype(np.complex64)
+        out_rows[d_gamma] = True
+    if d_resolution is not None and kernel.instrument != "gaussian":
+        dt = 1.0 / (n * grid.h)
+        dk = cache["lor"] * transfer_derivative(kernel.instrument, kernel.resolution, t, dt=dt) * \
+            np.exp(2.0 * math.pi**2 * kernel.tau**2 * t * t)
+        d[d_resolution] += (fv * dk).astype(np.complex64)
+        out_rows[d_resolution] = True
+    jac = np.zeros((n_par, y.size))
+    if out_rows.any():
+        jac[out_rows] = _sample(grid, sfft.irfft(d[out_rows], n=n, axis=-1, workers=1)[:, :M])
+    return y, jac.T
