@@ -12,6 +12,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
+from scipy import fft as sfft
 from scipy.ndimage import gaussian_filter1d
 
 from ..errors import FitError
@@ -24,7 +25,7 @@ from ..levels.contour import (
 
 __all__ = ["PR_COEFFICIENT", "PR_COEFFICIENT_PRINTED", "PRSeparation", "pr_separation",
            "rotational_constant_from_separation", "temperature_from_separation", "line_spacing",
-           "strong_peaks", "quick_estimate_text"]
+           "strong_peaks", "quick_estimate_text", "smooth"]
 
 @dataclass(frozen=True)
 class PRSeparation:
@@ -66,6 +67,23 @@ class PRSeparation:
 
     def to_dict(self) -> dict:
         return {k: getattr(self, k) for k in self.__dataclass_fields__}
+
+
+def smooth(a: np.ndarray, sigma: float) -> np.ndarray:
+    """``gaussian_filter1d(a, sigma, mode="nearest")`` (same kernel: the Gaussian sampled to
+    4σ and normalised; the ends continued by their values), convolved by FFT when the kernel
+    is long (the direct sum costs points × kernel length)."""
+    a = np.asarray(a, dtype=float)
+    radius = int(4.0 * float(sigma) + 0.5)
+    if radius < 32:
+        return gaussian_filter1d(a, sigma, mode="nearest")
+    k = np.arange(-radius, radius + 1, dtype=float)
+    w = np.exp(-0.5 / float(sigma) ** 2 * k * k)
+    w /= w.sum()
+    p = np.pad(a, radius, mode="edge")
+    n = sfft.next_fast_len(p.size + w.size - 1, real=True)
+    c = sfft.irfft(sfft.rfft(p, n, workers=1) * sfft.rfft(w, n, workers=1), n, workers=1)
+    return c[2 * radius:2 * radius + a.size]
 
 
 #: the contour analysis runs on at most this many points (longer spectra are binned)
@@ -119,9 +137,9 @@ def baseline_line(x: np.ndarray, a: np.ndarray) -> tuple[float, float]:
     return float(c0), float(c1)
 
 
-def _detrend(x: np.ndarray, a: np.ndarray) -> np.ndarray:
-    """``a`` minus its :func:`baseline_line`."""
-    c0, c1 = baseline_line(x, a)
+def _detrend(x: np.ndarray, a: np.ndarray, coef: tuple[float, float] | None = None) -> np.ndarray:
+    """``a`` minus its :func:`baseline_line` (``coef`` when already known)."""
+    c0, c1 = baseline_line(x, a) if coef is None else coef
     mid, half = 0.5 * (x[0] + x[-1]), 0.5 * (x[-1] - x[0])
     return a - (c0 + c1 * (x - mid) / half)
 
@@ -162,10 +180,10 @@ def line_spacing(x: np.ndarray, a: np.ndarray, *, min_period: float, max_period:
     the strongest peaks of the contour must be spaced by about that period.
     """
     step = x[1] - x[0]
-    env = gaussian_filter1d(a, max_period / step / 2.0, mode="nearest")
+    env = smooth(a, max_period / step / 2.0)
     hp = (a - env) * np.hanning(a.size)
     n = 1 << int(math.ceil(math.log2(4 * a.size)))
-    p = np.abs(np.fft.rfft(hp, n=n)) ** 2
+    p = np.abs(sfft.rfft(hp, n=n, workers=1)) ** 2
     f = np.fft.rfftfreq(n, d=step)
     band = (f >= 1.0 / max_period) & (f <= 1.0 / min_period)
     if band.sum() < 5:
@@ -209,6 +227,13 @@ def pr_separation(x, y, *, y_kind: str = "absorbance", smoothing: float | None =
         order = np.argsort(x)
         x, y = x[order], y[order]
     xu, yu, step = _uniform(x, _detrend(x, _absorbance_like(y, y_kind)))
+    return _pr_from_uniform(xu, yu, step, smoothing=smoothing, resolution=resolution)
+
+
+def _pr_from_uniform(xu: np.ndarray, yu: np.ndarray, step: float, *,
+                     smoothing: float | None = None,
+                     resolution: float | None = None) -> PRSeparation:
+    """:func:`pr_separation` on the detrended absorbance on a uniform grid (:func:`_uniform`)."""
     span = xu[-1] - xu[0]
     spacing = line_spacing(xu, yu, min_period=max(4 * step, 1.5 * (resolution or 0.0)),
                            max_period=span / 12.0)
@@ -216,7 +241,7 @@ def pr_separation(x, y, *, y_kind: str = "absorbance", smoothing: float | None =
         smoothing = (1.2 * spacing if spacing is not None
                      else max(3.0 * step, 0.5 * (resolution or 0.0)))
     sig_pts = max(smoothing / step / 2.3548, 0.5)
-    sm = gaussian_filter1d(yu, sig_pts, mode="nearest")
+    sm = smooth(yu, sig_pts)
     # maxima closer to the ends than the smoothing are edge effects of a cropped band
     edge = int(math.ceil(1.5 * sig_pts)) + 1
     inner = slice(edge, sm.size - edge)

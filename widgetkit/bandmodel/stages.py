@@ -154,8 +154,7 @@ class Run:
         """Resolved lines without indexed start values: fit the contour smoothed (data and
         model alike) to a Gaussian FWHM of one line spacing, then of a third of it, so that
         the band constants come into the basin of the full fit."""
-        from scipy.ndimage import gaussian_filter1d
-
+        from .quick import smooth
         from .render import uniform_step
 
         dx = uniform_step(self.x)
@@ -169,7 +168,7 @@ class Run:
         for fwhm in (spacing, spacing / 3.0):
             sigma = fwhm / 2.3548
             self.model.smoothing = sigma
-            f.y = gaussian_filter1d(y0, sigma / dx, mode="nearest")
+            f.y = smooth(y0, sigma / dx)
             f.run(names, stage=f"coarse {fwhm:.3g} cm-1", max_nfev=25, tol=1e-2)
         # the J numbering: the band origin one line further either way
         best = (f.chisqr(), f.theta.copy())

@@ -30,9 +30,9 @@ from .quick import (
     PRSeparation,
     _absorbance_like,
     _detrend,
+    _pr_from_uniform,
     _uniform,
     baseline_line,
-    pr_separation,
     strong_peaks,
 )
 
@@ -148,10 +148,10 @@ def estimate_starts(x, y, *, y_kind: str, band, temperature: float | None,
     x = np.asarray(x, dtype=float)
     a = _absorbance_like(np.asarray(y, dtype=float), y_kind)
     b0, b1 = baseline_line(x, a)
-    xu, au, step = _uniform(x, _detrend(x, a))
+    xu, au, step = _uniform(x, _detrend(x, a, (b0, b1)))
     src: dict[str, str] = {}
-    try:
-        pr = pr_separation(x, y, y_kind=y_kind, resolution=resolution)
+    try:  # pr_separation(x, y, ...) on the grid made above
+        pr = _pr_from_uniform(xu, au, step, resolution=resolution)
     except FitError:
         pr = None
     T0 = float(temperature) if temperature is not None else DEFAULT_TEMPERATURE
