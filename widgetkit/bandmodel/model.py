@@ -269,52 +269,53 @@ class BandModel:
             kw["cache"] = self._value_cache
         band, dband = render(self.grid, pos[keep], area[keep], sig[keep], kern, **kw)
         self.nfev += 1
-        drows = None  # ∂band/∂θ of the ``lin`` parameters, rows (len(lin), N)
-        if lin:
-            drows = np.empty((len(lin), self.x.size))
-            for j, k in enumerate(lin):
-                drows[j] = band / theta[k_area] if by_area and k == k_area \
-                    else dband[:, rlin.index(k)]
         b = np.array([theta[k] for k in base_idx])
         base = self.basis @ b if b.size else np.zeros_like(self.x)
-        J = None
+        # y, and the factor f and baseline rows of J: J = f · ∂band/∂θ, or the baseline rows
         if self.y_kind == "absorbance":
             if self.domain == "absorbance":
                 y = band + base
-                dA = drows
+                factor = None
             else:
                 tb = np.maximum(band, 1e-12)
                 y = -np.log10(tb) + base
-                dA = None if drows is None else -drows / (LN10 * tb[None, :])
-            if jac:
-                J = self._assemble(free, lin, base_idx, dA, self.basis_t)
+                factor = -1.0 / (LN10 * tb)
+            base_rows = self.basis_t
         else:
             att = 10.0 ** (-base)
             if self.domain == "absorbance":
                 y = 10.0 ** (-(band + base))
-                if jac:
-                    J = self._assemble(free, lin, base_idx,
-                                       None if drows is None else -LN10 * y[None, :] * drows,
-                                       -LN10 * y[None, :] * self.basis_t)
+                factor = -LN10 * y
             else:
                 y = band * att
-                if jac:
-                    J = self._assemble(free, lin, base_idx,
-                                       None if drows is None else drows * att[None, :],
-                                       -LN10 * y[None, :] * self.basis_t)
+                factor = att
+            base_rows = None
+        J = None
         if jac:
+            J = self._assemble(theta, free, rlin, base_idx, band, dband, factor, base_rows, y,
+                               k_area if by_area else None)
             self.njev += 1
         return y, J
 
-    def _assemble(self, free, lin, base_idx, d_lin, d_base) -> np.ndarray:
-        """J (N, len(free)) from rows of derivatives (``d_lin`` for ``lin``, ``d_base`` for the
-        baseline coefficients), as the transpose of a C-ordered array."""
+    def _assemble(self, theta, free, rlin, base_idx, band, dband, factor, base_rows, y,
+                  k_area) -> np.ndarray:
+        """J (N, len(free)), the transpose of a C-ordered array (fast Jᵀ J): rows
+        factor · ∂band/∂θ (∂band/∂S = band/S for ``k_area``), and the baseline rows
+        (``base_rows``, or −ln10 · y · basis for transmittance data)."""
         Jt = np.empty((len(free), self.x.size))
         for j, k in enumerate(free):
             if k in base_idx:
-                Jt[j] = d_base[base_idx.index(k)]
+                i = base_idx.index(k)
+                if base_rows is not None:
+                    Jt[j] = base_rows[i]
+                else:
+                    np.multiply(-LN10 * y, self.basis_t[i], out=Jt[j])
+                continue
+            row = band / theta[k] if k == k_area else dband[:, rlin.index(k)]
+            if factor is None:
+                Jt[j] = row
             else:
-                Jt[j] = d_lin[lin.index(k)]
+                np.multiply(row, factor, out=Jt[j])
         return Jt.T
 
     def components(self, theta) -> dict[str, np.ndarray]:
