@@ -22,7 +22,7 @@ import numpy as np
 
 from .model import BandModel
 from .params import Param
-from .solver import Solution, levenberg_marquardt, normal_solve
+from .solver import Solution, levenberg_marquardt, normal_inverse
 
 __all__ = ["Fitter", "error_scale"]
 
@@ -64,6 +64,7 @@ class Fitter:
         self.njev = 0
         self.last: Solution | None = None
         self._cache: tuple | None = None  # (θ, free indices, J, data − model) of the last run
+        self._cov_memo: tuple | None = None  # (the _cache it belongs to, covariance() of it)
         self.messages: list[str] = []
 
     def index(self, name: str) -> int:
@@ -126,6 +127,9 @@ class Fitter:
         idx = self.free()
         c = self._cache
         if c is not None and c[1] == idx and np.array_equal(c[0], self.theta):
+            if self._cov_memo is not None and self._cov_memo[0] is c:
+                cov, r, chi2, f, ix = self._cov_memo[1]
+                return cov.copy(), r, chi2, f, ix.copy()
             J, r = c[2], c[3]
         else:
             y, J = self.model.evaluate(self.theta, idx, jac=True)
@@ -138,8 +142,10 @@ class Fitter:
         f = error_scale(r)
         A = J.T @ J
         P = len(idx)
-        inv = np.column_stack([-normal_solve(A, e) for e in np.eye(P)]) if P else np.zeros((0, 0))
+        inv = normal_inverse(A) if P else np.zeros((0, 0))
         cov = np.zeros((self.theta.size, self.theta.size))
         if P:
             cov[np.ix_(idx, idx)] = inv * (chi2 / dof) * f * f
-        return cov, r, chi2, f, np.array(idx, dtype=int)
+        ix = np.array(idx, dtype=int)
+        self._cov_memo = (self._cache, (cov, r, chi2, f, ix))
+        return cov.copy(), r, chi2, f, ix.copy()

@@ -137,18 +137,22 @@ def _deposit(grid: Grid, pos, s, weights: list[np.ndarray]) -> np.ndarray:
     z = d / s2
     g = np.exp(-0.5 * z * z) / (s2 * _SQRT2PI)
     g = np.where(valid, g, 0.0)
-    g_nu = g * z / s2  # ∂g/∂ν
-    g_s = g * (z * z - 1.0) / s2  # ∂g/∂s
-    flat = idx.ravel()
-    out = np.empty((len(weights), grid.M))
+    derivs = any(b is not None or c is not None for _, b, c in weights)
+    if derivs:
+        g_nu = g * z / s2  # ∂g/∂ν
+        g_s = g * (z * z - 1.0) / s2  # ∂g/∂s
+    n = len(weights)
+    v = np.empty((n,) + g.shape)
     for j, (a, b, c) in enumerate(weights):
-        v = g * a[:, None]
+        vj = g * a[:, None]
         if b is not None:
-            v = v + g_nu * b[:, None]
+            vj = vj + g_nu * b[:, None]
         if c is not None:
-            v = v + g_s * c[:, None]
-        out[j] = np.bincount(flat, weights=v.ravel(), minlength=grid.M)
-    return out
+            vj = vj + g_s * c[:, None]
+        v[j] = vj
+    # one histogram for all columns: column j's grid index i goes to bin j·M + i
+    flat = (idx[None, :, :] + (grid.M * np.arange(n))[:, None, None]).ravel()
+    return np.bincount(flat, weights=v.ravel(), minlength=n * grid.M).reshape(n, grid.M)
 
 
 @dataclass(frozen=True)

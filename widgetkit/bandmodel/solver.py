@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Solution", "levenberg_marquardt", "normal_solve"]
+__all__ = ["Solution", "levenberg_marquardt", "normal_inverse", "normal_solve"]
 
 
 @dataclass(frozen=True)
@@ -46,6 +46,21 @@ def normal_solve(A: np.ndarray, g: np.ndarray, lam: float = 0.0, rcond: float = 
     z = V.T @ (g / d)
     z = np.where(keep, z / np.where(keep, w, 1.0), 0.0)
     return -(V @ z) / d
+
+
+def normal_inverse(A: np.ndarray, rcond: float = 1e-13) -> np.ndarray:
+    """The pseudo-inverse of A as :func:`normal_solve` gives it column by column (its
+    columns are −normal_solve(A, e_j)), from one eigen-decomposition."""
+    P = A.shape[0]
+    if not np.all(np.isfinite(A)):
+        return np.zeros((P, P))
+    d = np.sqrt(np.maximum(np.diag(A), 1e-300))
+    As = A / np.outer(d, d)
+    w, V = np.linalg.eigh(As)
+    keep = w > rcond * max(w.max(), 1e-300)
+    Z = V.T @ (np.eye(P) / d[:, None])
+    Z = np.where(keep[:, None], Z / np.where(keep, w, 1.0)[:, None], 0.0)
+    return (V @ Z) / d[:, None]
 
 
 def _held(theta, g, lower, upper) -> np.ndarray:
@@ -93,11 +108,14 @@ def levenberg_marquardt(fun: Callable, theta0: np.ndarray, lower: np.ndarray, up
     message, converged = "", False
     stall = 0
     while True:
-        if not (np.all(np.isfinite(J)) and np.all(np.isfinite(r))):
+        with np.errstate(all="ignore"):
+            A = J.T @ J
+            g = J.T @ r
+        # (non-finite J or r make A, g or χ² non-finite: the full check only then)
+        if not (np.isfinite(chi2) and np.isfinite(A).all() and np.isfinite(g).all()) and \
+                not (np.all(np.isfinite(J)) and np.all(np.isfinite(r))):
             message = "stopped: the model or its derivatives are not finite at these parameters"
             break
-        A = J.T @ J
-        g = J.T @ r
         redchi = max(chi2 / max(dof, 1), 1e-300)
         free = ~_held(theta, g, lower, upper)
         gn = _solve_free(A, g, free)
