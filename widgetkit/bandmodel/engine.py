@@ -84,10 +84,14 @@ class Fitter:
         n_left, t_left = self.budget_left()
         cap = max(3, n_left if max_nfev is None else min(max_nfev, n_left))
 
+        # one array for all Jacobians of this run: the solver needs only the latest (and
+        # the run's last one stays valid in the cache below)
+        jbuf = np.empty((len(idx), self.y.size))
+
         def fun(v, jac):
             th = base.copy()
             th[idx] = v
-            y, J = self.model.evaluate(th, idx, jac=jac)
+            y, J = self.model.evaluate(th, idx, jac=jac, out=jbuf)
             return y - self.y, J
 
         sol = levenberg_marquardt(fun, self.theta[idx], self.lower[idx], self.upper[idx],

@@ -89,6 +89,8 @@ class BandModel:
         #: (key, grid) of the value kept by the renderer (absorbance domain) and its cache
         self._value_key: tuple | None = None
         self._value_cache: dict = {}
+        #: the renderer's work arrays (absorbance domain), kept between evaluations
+        self._work: dict = {}
         self.iso_names = [f"abundance_ratio({n})" for n in system.isotopologues[1:]]
         self.nfev = 0
         self.njev = 0
@@ -225,16 +227,20 @@ class BandModel:
         return pos, area, sig, d_pos, d_area, d_sig, w
 
     # ------------------------------------------------------------------ spectrum
-    def evaluate(self, theta, free: list[int] | None = None, *, jac: bool = True):
+    def evaluate(self, theta, free: list[int] | None = None, *, jac: bool = True,
+                 out: np.ndarray | None = None):
         """y_model at the data points and ∂y/∂θ for the ``free`` parameters (N, len(free)).
 
         A solver's trial θ may be absurd (T near 0, say): floating-point overflow is then
-        allowed, the result is non-finite and the solver rejects the step.
+        allowed, the result is non-finite and the solver rejects the step. ``out``: a
+        C-ordered float array (len(free), N) the Jacobian is written into (returned as its
+        transpose), so that a solver reuses one array for all its Jacobians.
         """
         with np.errstate(over="ignore", invalid="ignore", divide="ignore", under="ignore"):
-            return self._evaluate(theta, free, jac=jac)
+            return self._evaluate(theta, free, jac=jac, out=out)
 
-    def _evaluate(self, theta, free: list[int] | None = None, *, jac: bool = True):
+    def _evaluate(self, theta, free: list[int] | None = None, *, jac: bool = True,
+                  out: np.ndarray | None = None):
         """y_model at the data points and ∂y/∂θ for the ``free`` parameters (N, len(free)).
 
         Columns of baseline coefficients are the basis functions; in the absorbance domain
@@ -267,6 +273,7 @@ class BandModel:
                     self._value_key[1] is not self.grid:
                 self._value_key, self._value_cache = (key, self.grid), {}
             kw["cache"] = self._value_cache
+            kw["work"] = self._work
         band, dband = render(self.grid, pos[keep], area[keep], sig[keep], kern, **kw)
         self.nfev += 1
         b = np.array([theta[k] for k in base_idx])
@@ -293,16 +300,18 @@ class BandModel:
         J = None
         if jac:
             J = self._assemble(theta, free, rlin, base_idx, band, dband, factor, base_rows, y,
-                               k_area if by_area else None)
+                               k_area if by_area else None, out)
             self.njev += 1
         return y, J
 
     def _assemble(self, theta, free, rlin, base_idx, band, dband, factor, base_rows, y,
-                  k_area) -> np.ndarray:
+                  k_area, out=None) -> np.ndarray:
         """J (N, len(free)), the transpose of a C-ordered array (fast Jᵀ J): rows
         factor · ∂band/∂θ (∂band/∂S = band/S for ``k_area``), and the baseline rows
         (``base_rows``, or −ln10 · y · basis for transmittance data)."""
-        Jt = np.empty((len(free), self.x.size))
+        shape = (len(free), self.x.size)
+        Jt = out if out is not None and out.shape == shape and out.flags.c_contiguous \
+            else np.empty(shape)
         for j, k in enumerate(free):
             if k in base_idx:
                 i = base_idx.index(k)

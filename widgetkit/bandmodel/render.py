@@ -117,10 +117,12 @@ def make_grid(x: np.ndarray, h_max: float, margin: float, *, wrap: float = 0.0) 
     return Grid(u0=u0, h=h, M=M, n_fft=n_fft, index=index, x=x)
 
 
-def _deposit(grid: Grid, pos, s, weights: list[np.ndarray]) -> np.ndarray:
+def _deposit(grid: Grid, pos, s, weights: list[np.ndarray],
+             out: np.ndarray | None = None) -> np.ndarray:
     """Columns Σ_k a_k g(u − ν_k; s_k) + b_k ∂g/∂ν + c_k ∂g/∂s on the grid.
 
-    ``weights`` is a list of (a, b, c) triples of arrays (L,) or None; returns (n_cols, M).
+    ``weights`` is a list of (a, b, c) triples of arrays (L,) or None; returns (n_cols, M),
+    in ``out`` (float, n_cols · M elements) when given.
     """
     h = grid.h
     if s.size and not float(np.max(s)) * _WINDOW < 0.5 * grid.M * h:
@@ -152,7 +154,12 @@ def _deposit(grid: Grid, pos, s, weights: list[np.ndarray]) -> np.ndarray:
         v[j] = vj
     # one histogram for all columns: column j's grid index i goes to bin j·M + i
     flat = (idx[None, :, :] + (grid.M * np.arange(n))[:, None, None]).ravel()
-    return np.bincount(flat, weights=v.ravel(), minlength=n * grid.M).reshape(n, grid.M)
+    if out is None:
+        return np.bincount(flat, weights=v.ravel(), minlength=n * grid.M).reshape(n, grid.M)
+    out = out.reshape(-1)[:n * grid.M]
+    out.fill(0.0)
+    np.add.at(out, flat, v.ravel())  # (the same sums, in the same order, as bincount)
+    return out.reshape(n, grid.M)
 
 
 @dataclass(frozen=True)
@@ -260,6 +267,10 @@ def render(grid: Grid, *args, **kwargs) -> tuple[np.ndarray, np.ndarray | None]:
         same ``pos, area, sigma, kernel`` and grid); the value and its spectrum are kept in
         it, so that the Jacobian at the point of the last value costs only its columns.
         Ignored in the transmittance domain.
+    work : dict, optional
+        Absorbance domain: a dict the caller keeps for this grid, where the large work
+        arrays stay between calls (no fresh memory for every evaluation); the returned
+        Jacobian is then one of them, valid until the next call with this dict.
 
     Returns
     -------
@@ -279,8 +290,8 @@ def render(grid: Grid, *args, **kwargs) -> tuple[np.ndarray, np.ndarray | None]:
 def _render(grid: Grid, pos: np.ndarray, area: np.ndarray, sigma: np.ndarray, kernel: Kernel, *,
            d_area: np.ndarray | None = None, d_pos: np.ndarray | None = None,
            d_sigma: np.ndarray | None = None, d_gamma: int | None = None,
-           d_resolution: int | None = None,
-           cache: dict | None = None) -> tuple[np.ndarray, np.ndarray | None]:
+           d_resolution: int | None = None, cache: dict | None = None,
+           work: dict | None = None) -> tuple[np.ndarray, np.ndarray | None]:
     """The computation of :func:`render`."""
     extra = deposit_extra(kernel)
     s = np.sqrt(sigma * sigma + extra * extra)
@@ -303,7 +314,7 @@ def _render(grid: Grid, pos: np.ndarray, area: np.ndarray, sigma: np.ndarray, ke
                 weights.append(w)
     if kernel.domain == "absorbance":
         return _render_absorbance(grid, pos, s, area, weights, live, kernel, d_gamma,
-                                  d_resolution, {} if cache is None else cache)
+                                  d_resolution, {} if cache is None else cache, work)
     # transmittance domain: resolve A_mono, exponentiate, then the instrument
     t = grid.t
     F = _Spectra(grid, _deposit(grid, pos, s, [(area, None, None)] + weights), live)
@@ -329,15 +340,31 @@ def _render(grid: Grid, pos: np.ndarray, area: np.ndarray, sigma: np.ndarray, ke
     return res[0], (res[1:].T if n_par else None)
 
 
+def _scratch(work: dict, name: str, shape: tuple, dtype) -> np.ndarray:
+    """A work array kept in ``work`` between calls (zeros when new)."""
+    a = work.get(name)
+    if a is None or a.shape != shape or a.dtype != dtype:
+        a = work[name] = np.zeros(shape, dtype=dtype)
+    return a
+
+
 def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, d_gamma,
-                       d_resolution, cache: dict) -> tuple[np.ndarray, np.ndarray | None]:
+                       d_resolution, cache: dict,
+                       work: dict | None = None) -> tuple[np.ndarray, np.ndarray | None]:
     """The absorbance domain: A_obs = ILS ⊛ A_mono, linear in the deposits.
 
     ``cache`` holds the kernel transform, the value's spectrum and the value at the data
     points of these lines (the caller passes the same dict only for the same lines and
     kernel): a Jacobian asked for at the point of the last value (the solver's accepted
-    step) transforms only its derivative columns."""
-    t = grid.t
+    step) transforms only its derivative columns. ``work`` keeps the large work arrays
+    between calls (the returned Jacobian is one of them: valid until the next call)."""
+    if work is None:
+        work = {}
+    if work.get("grid") is not grid:
+        work.clear()
+        work["grid"] = grid
+        work["t"] = grid.t
+    t = work["t"]
     n, M = grid.n_fft, grid.M
     if "k" not in cache:
         lor = np.exp(-2.0 * math.pi * kernel.gamma * t)
@@ -349,9 +376,13 @@ def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, 
         cache["k"], cache["lor"] = k, lor
     k = cache["k"]
     if "v" not in cache:
-        fv = sfft.rfft(_deposit(grid, pos, s, [(area, None, None)])[0], n=n, workers=1)
+        padded = _scratch(work, "value", (n,), np.float64)  # zeros beyond M
+        _deposit(grid, pos, s, [(area, None, None)], out=padded)
+        fv = sfft.rfft(padded, workers=1)
         cache["v"] = fv
-        cache["y"] = _sample(grid, sfft.irfft(fv * k, n=n, workers=1)[None, :M])[0]
+        prod = _scratch(work, "product", fv.shape, fv.dtype)
+        np.multiply(fv, k, out=prod)
+        cache["y"] = _sample(grid, sfft.irfft(prod, n=n, workers=1)[None, :M])[0]
     fv, y = cache["v"], cache["y"]
     n_par = live.size
     if not n_par:
@@ -359,7 +390,9 @@ def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, 
     # rows to transform back: the live deposits, then kernel-only columns (γ, Δ)
     kern_terms = {}
     if d_gamma is not None:
-        kern_terms[d_gamma] = fv * (-2.0 * math.pi * t) * k
+        term = _scratch(work, "term", fv.shape, fv.dtype)
+        np.multiply(fv, -2.0 * math.pi * t, out=term)
+        kern_terms[d_gamma] = np.multiply(term, k, out=term)
     if d_resolution is not None and kernel.instrument != "gaussian":
         dt = 1.0 / (n * grid.h)
         dk = cache["lor"] * transfer_derivative(kernel.instrument, kernel.resolution, t, dt=dt) * \
@@ -368,13 +401,17 @@ def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, 
     order = [p for p in range(n_par) if live[p]]
     n_live = len(order)
     order += [p for p in kern_terms if not live[p]]
-    jac = np.zeros((n_par, y.size), dtype=np.float32)
+    jac = _scratch(work, "jac", (n_par, y.size), np.float32)
+    jac.fill(0.0)
     if not order:
         return y, jac.T
-    d = np.empty((len(order), fv.size), dtype=np.complex64)
+    d = _scratch(work, "spectra", (len(order), fv.size), np.complex64)
     if n_live:
-        dep = _deposit(grid, pos, s, weights).astype(np.float32)
-        np.multiply(sfft.rfft(dep, n=n, axis=-1, workers=1), k.astype(np.complex64)[None, :],
+        dep = _deposit(grid, pos, s, weights, out=_scratch(work, "deposit", (n_live * M,),
+                                                              np.float64))
+        padded = _scratch(work, "padded", (n_live, n), np.float32)  # zeros beyond M
+        padded[:, :M] = dep
+        np.multiply(sfft.rfft(padded, axis=-1, workers=1), k.astype(np.complex64)[None, :],
                     out=d[:n_live])
     for p, term in kern_terms.items():
         r = order.index(p)

@@ -85,7 +85,8 @@ def levenberg_marquardt(fun: Callable, theta0: np.ndarray, lower: np.ndarray, up
     Parameters
     ----------
     fun : callable
-        Residuals (N,) and, when ``jac`` is true, their Jacobian (N, P).
+        Residuals (N,) and, when ``jac`` is true, their Jacobian (N, P). It may return the
+        same array for every Jacobian: only the latest one is used (and returned).
     theta0, lower, upper : ndarray (P,)
     dof : int
         Degrees of freedom, for the reduced chi-square of the convergence test.
