@@ -66,6 +66,7 @@ class Run:
         self.resolution, self.lorentz = resolution, lorentz
         self.max_nfev, self.max_time, self.progress, self.t0 = max_nfev, max_time, progress, t0
         self.messages = list(messages or [])
+        self.step = float(np.median(np.diff(x)))  # the median data step (cm⁻¹)
         self.model, self.params = build_model(x, mol, opts, st, structure_temperature=t_struct)
         self._configure()
         left = max(max_time - (time.perf_counter() - t0), 1.0)
@@ -143,7 +144,7 @@ class Run:
         res = self.params[f.index("resolution")]
         if res.vary and res.source == "scanned":
             B = self.st["B_lower"]
-            step = float(np.median(np.diff(self.x)))
+            step = self.step
             cands = np.geomspace(max(2 * step, 0.02 * B), max(8 * B, 4 * step), 9)
             best = f.scan("resolution", cands, linear)
             res.value = best
@@ -199,7 +200,7 @@ class Run:
         f = self.fitter
         cov, *_ = f.covariance()
         B = self._b_scale()
-        step = float(np.median(np.diff(self.x)))
+        step = self.step
         newly = []
         for k, p in enumerate(self.params):
             if not (p.vary and p.secondary) or p.name.startswith("baseline_"):
@@ -255,7 +256,7 @@ class Run:
         C = self._constant_map()
         # a held parameter's start is a guess: its scale enters the derived constants that
         # depend on it directly (e.g. a minor isotopologue's band origin on ω_e x_e)
-        B, step = self._b_scale(), float(np.median(np.diff(self.x)))
+        B, step = self._b_scale(), self.step
         prior = np.array([relevance(p.name, theta[k], p.value, B, step) ** 2
                           if p.name in self.held else 0.0 for k, p in enumerate(self.params)])
         prior[~np.isfinite(prior)] = 0.0

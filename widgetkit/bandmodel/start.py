@@ -42,6 +42,13 @@ DEFAULT_TEMPERATURE = 296.0  # K, room temperature (common practice)
 DEFAULT_LORENTZ = 0.05  # cm-1 HWHM, a small molecule near 1 atm (common practice, order of magnitude)
 
 
+def _median(v: list[float]) -> float:
+    """np.median of a short list (the same value, without the array overhead)."""
+    v = sorted(float(a) for a in v)
+    n = len(v)
+    return v[n // 2] if n % 2 else (v[n // 2 - 1] + v[n // 2]) / 2.0
+
+
 def index_comb(xu: np.ndarray, au: np.ndarray, spacing: float, centre: float):
     """Index the strongest peaks of a resolved band by their running number m.
 
@@ -57,7 +64,7 @@ def index_comb(xu: np.ndarray, au: np.ndarray, spacing: float, centre: float):
     best, best_d = None, math.inf
     for i in range(sp.size):
         nb = [sp[j] for j in (i - 2, i - 1, i + 1, i + 2) if 0 <= j < sp.size]
-        local = float(np.median(nb)) if nb else spacing
+        local = _median(nb) if nb else spacing
         if 1.5 * local < sp[i] < 2.6 * local:
             mid = 0.5 * (p[i] + p[i + 1])
             if abs(mid - centre) < best_d:
