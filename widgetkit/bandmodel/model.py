@@ -86,7 +86,8 @@ class BandModel:
                       if baseline_degree is not None else np.zeros((self.x.size, 0)))
         self.base_names = [f"baseline_{j}" for j in range(self.basis.shape[1])]
         self.basis_t = np.ascontiguousarray(self.basis.T)
-        #: (key, grid) of the value kept by the renderer (absorbance domain) and its cache
+        #: (key, grid, band area) of the value kept by the renderer (absorbance domain), and
+        #: the renderer's cache of it
         self._value_key: tuple | None = None
         self._value_cache: dict = {}
         #: the renderer's work arrays (absorbance domain), kept between evaluations
@@ -257,24 +258,24 @@ class BandModel:
         k_area = self.index.get("band_area")
         by_area = (self.domain == "absorbance" and k_area in lin and theta[k_area] > 0)
         rlin = [k for k in lin if not (by_area and k == k_area)]
-        pos, area, sig, d_pos, d_area, d_sig, _ = self.lines(theta, rlin)
+        th_lines, scale = theta, 1.0
+        kw = {}
+        if self.domain == "absorbance":
+            th_lines, scale = self._use_value_cache(theta, k_area, base_idx)
+            kw["cache"] = self._value_cache
+            kw["work"] = self._work
+        pos, area, sig, d_pos, d_area, d_sig, _ = self.lines(th_lines, rlin)
         keep = self.keep
         kern = self.kernel(theta)
-        kw = {}
         if rlin:
-            kw = dict(d_area=d_area[keep], d_pos=d_pos[keep], d_sigma=d_sig[keep],
+            kw.update(d_area=d_area[keep], d_pos=d_pos[keep], d_sigma=d_sig[keep],
                       d_gamma=rlin.index(self.index["lorentz_hwhm"])
                       if self.index.get("lorentz_hwhm") in rlin else None,
                       d_resolution=rlin.index(self.index["resolution"])
                       if self.index.get("resolution") in rlin else None)
-        if self.domain == "absorbance":
-            key = (theta.tobytes(), self.smoothing, self.tau_l)
-            if self._value_key is None or self._value_key[0] != key or \
-                    self._value_key[1] is not self.grid:
-                self._value_key, self._value_cache = (key, self.grid), {}
-            kw["cache"] = self._value_cache
-            kw["work"] = self._work
         band, dband = render(self.grid, pos[keep], area[keep], sig[keep], kern, **kw)
+        if scale != 1.0:
+            band = band * scale
         self.nfev += 1
         b = np.array([theta[k] for k in base_idx])
         base = self.basis @ b if b.size else np.zeros_like(self.x)
@@ -300,12 +301,38 @@ class BandModel:
         J = None
         if jac:
             J = self._assemble(theta, free, rlin, base_idx, band, dband, factor, base_rows, y,
-                               k_area if by_area else None, out)
+                               k_area if by_area else None, out, scale)
             self.njev += 1
         return y, J
 
+    def _use_value_cache(self, theta, k_area, base_idx) -> tuple[np.ndarray, float]:
+        """Absorbance domain: choose the renderer's cache for θ; returns the θ to compute
+        the lines at and the factor on the band and its derivatives.
+
+        The band does not depend on the baseline and is proportional to the band area S
+        (so are its derivatives, the band area's own column aside, which is band/S): a θ
+        that differs from the kept one only there uses the kept band times S/S_kept (the
+        linear stages of a fit evaluate the band once)."""
+        shape = theta.copy()
+        shape[base_idx] = 0.0
+        S = None
+        if k_area is not None:
+            S, shape[k_area] = float(theta[k_area]), 0.0
+        key = (shape.tobytes(), self.smoothing, self.tau_l)
+        kept = self._value_key
+        if kept is not None and kept[0] == key and kept[1] is self.grid:
+            S_kept = kept[2]
+            if S == S_kept:
+                return theta, 1.0
+            if S is not None and S > 0 and S_kept > 0:
+                th = theta.copy()
+                th[k_area] = S_kept
+                return th, S / S_kept
+        self._value_key, self._value_cache = (key, self.grid, S), {}
+        return theta, 1.0
+
     def _assemble(self, theta, free, rlin, base_idx, band, dband, factor, base_rows, y,
-                  k_area, out=None) -> np.ndarray:
+                  k_area, out=None, scale: float = 1.0) -> np.ndarray:
         """J (N, len(free)), the transpose of a C-ordered array (fast Jᵀ J): rows
         factor · ∂band/∂θ (∂band/∂S = band/S for ``k_area``), and the baseline rows
         (``base_rows``, or −ln10 · y · basis for transmittance data)."""
@@ -320,7 +347,12 @@ class BandModel:
                 else:
                     np.multiply(-LN10 * y, self.basis_t[i], out=Jt[j])
                 continue
-            row = band / theta[k] if k == k_area else dband[:, rlin.index(k)]
+            if k == k_area:
+                row = band / theta[k]
+            else:
+                row = dband[:, rlin.index(k)]
+                if scale != 1.0:
+                    row = row * scale
             if factor is None:
                 Jt[j] = row
             else:
