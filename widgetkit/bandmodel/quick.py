@@ -100,7 +100,10 @@ def _uniform(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray, floa
     b = int(math.ceil(n / MAX_POINTS))
     if b > 1:
         m = n // b
-        yu = yu[: m * b].reshape(m, b).max(axis=1)
+        top = yu[0: m * b: b].copy()  # the largest of each bin of b (as max(axis=1), faster)
+        for j in range(1, b):
+            np.maximum(top, yu[j: m * b: b], out=top)
+        yu = top
         xu = xu[: m * b].reshape(m, b).mean(axis=1)
         step *= b
     return xu, yu, step
