@@ -30,7 +30,14 @@ Derivatives: for every parameter p, the deposit of
 Σ_k (∂I_k/∂p g_k + I_k ∂ν_k/∂p ∂g_k/∂ν + I_k ∂s_k/∂p ∂g_k/∂s) goes through the same
 transforms; γ and the resolution act on the kernel (∂K/∂γ = −2π|t| K, ∂A/∂Δ).
 The circular convolution is padded by at least half the grid so wrapped wings are
-negligible.
+negligible (the period is part of the model: a quarter of the grid moved fitted values and
+standard errors by up to 4e-5 relative on the benchmark band).
+
+Cost (absorbance domain, what a fit repeats): one forward and one inverse transform for a
+value; a Jacobian at the point of the last value (the solver's accepted step) reuses the
+value's transform (``cache``) and transforms only the columns with a non-zero deposit
+(a batch in float32), and back those and the kernel-only columns (γ, Δ); large work
+arrays stay with the caller between calls (``work``).
 """
 
 from __future__ import annotations
