@@ -30,8 +30,9 @@ Derivatives: for every parameter p, the deposit of
 Σ_k (∂I_k/∂p g_k + I_k ∂ν_k/∂p ∂g_k/∂ν + I_k ∂s_k/∂p ∂g_k/∂s) goes through the same
 transforms; γ and the resolution act on the kernel (∂K/∂γ = −2π|t| K, ∂A/∂Δ).
 The circular convolution is padded by at least half the grid so wrapped wings are
-negligible (the period is part of the model: a quarter of the grid moved fitted values and
-standard errors by up to 4e-5 relative on the benchmark band).
+negligible (the period is part of the model: with a quarter of the grid, the benchmark
+band's baseline moved by 0.09 and its constants by 0.0014 standard errors, 4e-5 relative;
+an unapodised instrument's fit by far more).
 
 Cost (absorbance domain, what a fit repeats): one forward and one inverse transform for a
 value; a Jacobian at the point of the last value (the solver's accepted step) reuses the
