@@ -409,10 +409,8 @@ def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, 
     order = [p for p in range(n_par) if live[p]]
     n_live = len(order)
     order += [p for p in kern_terms if not live[p]]
-    jac = _scratch(work, "jac", (n_par, y.size), np.float32)
-    jac.fill(0.0)
     if not order:
-        return y, jac.T
+        return y, np.zeros((y.size, n_par), dtype=np.float32)
     d = _scratch(work, "spectra", (len(order), fv.size), np.complex64)
     if n_live:
         dep = _deposit(grid, pos, s, weights, out=_scratch(work, "deposit", (n_live * M,),
@@ -427,5 +425,10 @@ def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, 
             d[r] += term.astype(np.complex64)
         else:
             d[r] = term  # (a zero deposit plus the kernel term)
-    jac[order] = _sample(grid, sfft.irfft(d, n=n, axis=-1, workers=1)[:, :M])
+    back = _sample(grid, sfft.irfft(d, n=n, axis=-1, workers=1)[:, :M])
+    if order == list(range(n_par)):
+        return y, back.T  # (the usual case: every column in order, no copy)
+    jac = _scratch(work, "jac", (n_par, y.size), np.float32)
+    jac.fill(0.0)
+    jac[order] = back
     return y, jac.T
