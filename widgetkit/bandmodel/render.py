@@ -135,7 +135,11 @@ def _deposit(grid: Grid, pos, s, weights: list[np.ndarray],
     h = grid.h
     if s.size and not float(np.max(s)) * _WINDOW < 0.5 * grid.M * h:
         # lines wider than the spectrum (a solver's absurd trial step): no model
-        return np.full((len(weights), grid.M), np.nan)
+        if out is None:
+            return np.full((len(weights), grid.M), np.nan)
+        out = out.reshape(-1)[:len(weights) * grid.M]
+        out.fill(np.nan)
+        return out.reshape(len(weights), grid.M)
     w = int(math.ceil(_WINDOW * float(np.max(s)) / h)) if s.size else 0
     offs = np.arange(-w, w + 1)
     centre = np.rint((pos - grid.u0) / h).astype(np.int64)
