@@ -48,9 +48,11 @@ from dataclasses import dataclass
 
 import numpy as np
 from scipy import fft as sfft
-from scipy.interpolate import CubicSpline
 
 from ..errors import FitError
+from .deposit import deposit as _deposit
+from .deposit import sample as _sample
+from .deposit import scratch as _scratch
 from .instrument import SIGMA_PER_FWHM, transfer, transfer_derivative
 
 __all__ = ["Grid", "make_grid", "render", "MAX_GRID"]
@@ -58,8 +60,6 @@ __all__ = ["Grid", "make_grid", "render", "MAX_GRID"]
 LN10 = math.log(10.0)
 #: largest working grid (points) before the fit refuses and asks for a narrower range
 MAX_GRID = 4_000_000
-_SQRT2PI = math.sqrt(2.0 * math.pi)
-_WINDOW = 7.0  # deposit half-window in units of s_k
 
 
 @dataclass(frozen=True)
@@ -125,55 +125,6 @@ def make_grid(x: np.ndarray, h_max: float, margin: float, *, wrap: float = 0.0) 
     return Grid(u0=u0, h=h, M=M, n_fft=n_fft, index=index, x=x)
 
 
-def _deposit(grid: Grid, pos, s, weights: list[np.ndarray],
-             out: np.ndarray | None = None) -> np.ndarray:
-    """Columns Σ_k a_k g(u − ν_k; s_k) + b_k ∂g/∂ν + c_k ∂g/∂s on the grid.
-
-    ``weights`` is a list of (a, b, c) triples of arrays (L,) or None; returns (n_cols, M),
-    in ``out`` (float, n_cols · M elements) when given.
-    """
-    h = grid.h
-    if s.size and not float(np.max(s)) * _WINDOW < 0.5 * grid.M * h:
-        # lines wider than the spectrum (a solver's absurd trial step): no model
-        if out is None:
-            return np.full((len(weights), grid.M), np.nan)
-        out = out.reshape(-1)[:len(weights) * grid.M]
-        out.fill(np.nan)
-        return out.reshape(len(weights), grid.M)
-    w = int(math.ceil(_WINDOW * float(np.max(s)) / h)) if s.size else 0
-    offs = np.arange(-w, w + 1)
-    centre = np.rint((pos - grid.u0) / h).astype(np.int64)
-    idx = centre[:, None] + offs[None, :]
-    valid = (idx >= 0) & (idx < grid.M)
-    idx = np.clip(idx, 0, grid.M - 1)
-    d = grid.u0 + h * idx - pos[:, None]
-    s2 = s[:, None]
-    z = d / s2
-    g = np.exp(-0.5 * z * z) / (s2 * _SQRT2PI)
-    g = np.where(valid, g, 0.0)
-    derivs = any(b is not None or c is not None for _, b, c in weights)
-    if derivs:
-        g_nu = g * z / s2  # ∂g/∂ν
-        g_s = g * (z * z - 1.0) / s2  # ∂g/∂s
-    n = len(weights)
-    v = np.empty((n,) + g.shape)
-    for j, (a, b, c) in enumerate(weights):
-        vj = g * a[:, None]
-        if b is not None:
-            vj = vj + g_nu * b[:, None]
-        if c is not None:
-            vj = vj + g_s * c[:, None]
-        v[j] = vj
-    # one histogram for all columns: column j's grid index i goes to bin j·M + i
-    flat = (idx[None, :, :] + (grid.M * np.arange(n))[:, None, None]).ravel()
-    if out is None:
-        return np.bincount(flat, weights=v.ravel(), minlength=n * grid.M).reshape(n, grid.M)
-    out = out.reshape(-1)[:n * grid.M]
-    out.fill(0.0)
-    np.add.at(out, flat, v.ravel())  # (the same sums, in the same order, as bincount)
-    return out.reshape(n, grid.M)
-
-
 @dataclass(frozen=True)
 class Kernel:
     """What acts in Fourier space: Lorentz HWHM, instrument kind and resolution, τ, domain."""
@@ -198,16 +149,6 @@ def deposit_extra(kernel: Kernel) -> float:
 def auxiliary_tau(instrument: str, resolution: float) -> float:
     """τ of a band-limited instrument: 0.3 L⁻¹ = 0.3 Δ (keeps exp(2π²τ²t²) ≤ e^{1.8})."""
     return 0.3 * resolution if instrument != "gaussian" and resolution > 0 else 0.0
-
-
-def _sample(grid: Grid, rows: np.ndarray) -> np.ndarray:
-    """Rows on the grid -> rows at the data points (shape (n, N)); a view when the grid is
-    aligned with the data."""
-    if grid.index is not None:
-        i = grid.index
-        step = int(i[1] - i[0]) if i.size > 1 else 1
-        return rows[:, int(i[0]):int(i[-1]) + 1:step]
-    return CubicSpline(grid.u, rows, axis=1)(grid.x)
 
 
 class _Spectra:
@@ -350,14 +291,6 @@ def _render(grid: Grid, pos: np.ndarray, area: np.ndarray, sigma: np.ndarray, ke
     res = _sample(grid, R2.back())
     res[0] += 1.0
     return res[0], (res[1:].T if n_par else None)
-
-
-def _scratch(work: dict, name: str, shape: tuple, dtype) -> np.ndarray:
-    """A work array kept in ``work`` between calls (zeros when new)."""
-    a = work.get(name)
-    if a is None or a.shape != shape or a.dtype != dtype:
-        a = work[name] = np.zeros(shape, dtype=dtype)
-    return a
 
 
 def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, d_gamma,

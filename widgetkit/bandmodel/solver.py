@@ -63,6 +63,17 @@ def normal_inverse(A: np.ndarray, rcond: float = 1e-13) -> np.ndarray:
     return (V @ Z) / d[:, None]
 
 
+def _normal_equations(J, r, chi2) -> tuple[np.ndarray, np.ndarray, bool]:
+    """(JᵀJ, Jᵀr, whether J and r are finite); non-finite J or r make JᵀJ, Jᵀr or χ²
+    non-finite, so the elementwise check runs only then."""
+    with np.errstate(all="ignore"):
+        A = J.T @ J
+        g = J.T @ r
+    finite = (np.isfinite(chi2) and np.isfinite(A).all() and np.isfinite(g).all()) or \
+        (np.all(np.isfinite(J)) and np.all(np.isfinite(r)))
+    return A, g, bool(finite)
+
+
 def _held(theta, g, lower, upper) -> np.ndarray:
     """Variables at a bound whose descent direction −g points out of the box."""
     scale = np.maximum(np.abs(theta), 1e-12)
@@ -109,12 +120,8 @@ def levenberg_marquardt(fun: Callable, theta0: np.ndarray, lower: np.ndarray, up
     message, converged = "", False
     stall = 0
     while True:
-        with np.errstate(all="ignore"):
-            A = J.T @ J
-            g = J.T @ r
-        # (non-finite J or r make A, g or χ² non-finite: the full check only then)
-        if not (np.isfinite(chi2) and np.isfinite(A).all() and np.isfinite(g).all()) and \
-                not (np.all(np.isfinite(J)) and np.all(np.isfinite(r))):
+        A, g, finite = _normal_equations(J, r, chi2)
+        if not finite:
             message = "stopped: the model or its derivatives are not finite at these parameters"
             break
         redchi = max(chi2 / max(dof, 1), 1e-300)
