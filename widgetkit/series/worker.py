@@ -34,6 +34,7 @@ from ..errors import WidgetkitError
 from ..session.recipe import Recipe, line_hints
 from ..session.steps import table_to_json
 from ..spectrum import Spectrum
+from .alloc import task_thresholds
 
 __all__ = ["run_one", "verify_one", "analysis_status", "warm_adjuster", "STATUS_RANK"]
 
@@ -226,7 +227,7 @@ def run_one(task: dict) -> dict:
     and for a warm start ``hints`` and ``warm_meta``.
     """
     t0, c0 = time.perf_counter(), time.process_time()
-    with threadpool_limits(limits=1):
+    with threadpool_limits(limits=1), task_thresholds():
         recipe: Recipe = task["recipe"]
         opts = recipe.read_options if task.get("read_options") is None else task["read_options"]
         sp = task.get("spectrum")
@@ -284,7 +285,7 @@ def verify_one(task: dict) -> dict:
     out = {"index": task["index"], "name": task["name"], "ok": False, "mismatches": [],
            "steps_checked": 0}
     mism = out["mismatches"]
-    with threadpool_limits(limits=1):
+    with threadpool_limits(limits=1), task_thresholds():
         try:
             if file_sha256(task["path"]) != task["session_sha256"]:
                 mism.append(f"session file {task['path']}: its sha256 differs from the one in "
