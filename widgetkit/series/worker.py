@@ -2,11 +2,12 @@
 
 :func:`run_one` reads one spectrum, runs the recipe on it in a new session
 (one BLAS thread, so serial, process-pool and cluster runs compute the same
-numbers), judges the outcome and returns plain data: status and reasons, the
-constants, the session document as JSON text (the caller writes it), the
-series variable and the lines for warm starts. :func:`verify_one` replays one
-saved session of a series. Both catch every error of their spectrum: one bad
-spectrum never stops a series.
+numbers; and the allocator's adaptive thresholds, :mod:`.alloc`, so that a
+Dask worker computes as quickly as a pool worker), judges the outcome and
+returns plain data: status and reasons, the constants, the session document
+as JSON text (the caller writes it), the series variable and the lines for
+warm starts. :func:`verify_one` replays one saved session of a series. Both
+catch every error of their spectrum: one bad spectrum never stops a series.
 
 Status of a spectrum:
 
