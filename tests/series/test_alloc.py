@@ -17,6 +17,16 @@ GLIBC_DEFAULT = 128 * 1024
 DASK_TRIM = 65536
 
 
+def test_the_environment_the_process_started_with_is_read():
+    out = subprocess.run(
+        [sys.executable, "-c", "import os; os.environ['MALLOC_TRIM_THRESHOLD_'] = '1'\n"
+         "from widgetkit.series import alloc\n"
+         "print(alloc._start_environ().get('MALLOC_TRIM_THRESHOLD_'))"],
+        env={**os.environ, "MALLOC_TRIM_THRESHOLD_": str(DASK_TRIM)}, capture_output=True,
+        text=True, check=True).stdout.strip()
+    assert out == str(DASK_TRIM)
+
+
 def test_thresholds_are_read_from_the_environment_and_glibc_tunables():
     assert alloc.fixed_thresholds({}) is None
     assert alloc.fixed_thresholds({"PATH": "/bin"}) is None
@@ -27,6 +37,9 @@ def test_thresholds_are_read_from_the_environment_and_glibc_tunables():
     tun = {"GLIBC_TUNABLES": "glibc.malloc.arena_max=2:glibc.malloc.mmap_threshold=0x100000"}
     assert alloc.fixed_thresholds(tun) == (GLIBC_DEFAULT, 0x100000)
     assert alloc.fixed_thresholds({"GLIBC_TUNABLES": "glibc.malloc.arena_max=2"}) is None
+    # glibc refuses an mmap threshold above half its largest heap, 32 MiB on 64-bit systems
+    # (malloc.c, do_set_mmap_threshold and HEAP_MAX_SIZE): nothing is fixed then
+    assert alloc.fixed_thresholds({"MALLOC_MMAP_THRESHOLD_": str(64 * 2**20)}) is None
     with pytest.raises(ValueError):
         alloc.fixed_thresholds({"MALLOC_TRIM_THRESHOLD_": "lots"})
     with pytest.raises(ValueError):
@@ -53,22 +66,24 @@ def fake_libc(monkeypatch):
     return lib
 
 
+def _started_with(monkeypatch, environ: dict) -> None:
+    monkeypatch.setattr(alloc, "_start_environ", lambda: environ)
+
+
 def test_nothing_is_changed_where_glibc_adapts_the_thresholds_itself(fake_libc, monkeypatch):
-    for name in ("MALLOC_TRIM_THRESHOLD_", "MALLOC_MMAP_THRESHOLD_", "GLIBC_TUNABLES"):
-        monkeypatch.delenv(name, raising=False)
+    _started_with(monkeypatch, {"PATH": "/bin"})
+    monkeypatch.setenv("MALLOC_TRIM_THRESHOLD_", str(DASK_TRIM))  # set too late for glibc
     with alloc.task_thresholds():
         pass
     assert fake_libc.calls == []
-    monkeypatch.setenv("MALLOC_TRIM_THRESHOLD_", "not a number")  # glibc ignores it: so do we
+    _started_with(monkeypatch, {"MALLOC_TRIM_THRESHOLD_": "not a number"})  # glibc ignores it
     with alloc.task_thresholds():
         pass
     assert fake_libc.calls == []
 
 
 def test_fixed_thresholds_are_raised_for_the_task_and_restored_after_it(fake_libc, monkeypatch):
-    monkeypatch.delenv("GLIBC_TUNABLES", raising=False)
-    monkeypatch.delenv("MALLOC_MMAP_THRESHOLD_", raising=False)
-    monkeypatch.setenv("MALLOC_TRIM_THRESHOLD_", str(DASK_TRIM))
+    _started_with(monkeypatch, {"MALLOC_TRIM_THRESHOLD_": str(DASK_TRIM)})
     raised = [("mallopt", alloc._M_MMAP_THRESHOLD, alloc.TASK_MMAP),
               ("mallopt", alloc._M_TRIM_THRESHOLD, alloc.TASK_TRIM)]
     restored = [("mallopt", alloc._M_MMAP_THRESHOLD, GLIBC_DEFAULT),

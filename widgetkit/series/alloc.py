@@ -23,6 +23,8 @@ and afterwards the process's own settings, then gives free memory back
 (``malloc_trim``), so between tasks the worker holds what its configuration
 asks for. Where no threshold is fixed (a process pool, a serial run, most
 programs), where the values cannot be read, or off glibc, it does nothing.
+The environment that counts is the one the process started with (what glibc
+read; ``/proc/self/environ``), not later changes to ``os.environ``.
 Tasks that overlap in the threads of one process share one raise: the first
 to start raises, the last to end restores.
 """
@@ -50,6 +52,7 @@ TASK_TRIM = 2 * TASK_MMAP
 _lock = threading.Lock()
 _active = 0
 _libc = None
+_environ = None
 
 
 def _number(text: str | None) -> int | None:
@@ -65,9 +68,10 @@ def _number(text: str | None) -> int | None:
 
 
 def fixed_thresholds(environ=None) -> tuple[int, int] | None:
-    """(trim, mmap) thresholds when the environment fixes either (the other at glibc's
-    default), else None: glibc adapts them itself. Raises ValueError for a value that is
-    not a whole number >= 0 (glibc would ignore it; so do we)."""
+    """(trim, mmap) thresholds when ``environ`` (default ``os.environ``) fixes either (the other at glibc's
+    default), else None: glibc adapts them itself. An mmap threshold above glibc's ceiling
+    (:data:`TASK_MMAP`) fixes nothing, as glibc ignores it. Raises ValueError for a value
+    that is not a whole number >= 0 (glibc would ignore it; so do we)."""
     env = os.environ if environ is None else environ
     trim = _number(env.get("MALLOC_TRIM_THRESHOLD_"))
     mmap = _number(env.get("MALLOC_MMAP_THRESHOLD_"))
@@ -77,9 +81,24 @@ def fixed_thresholds(environ=None) -> tuple[int, int] | None:
             trim = _number(value)
         elif name.strip() == "glibc.malloc.mmap_threshold":
             mmap = _number(value)
+    if mmap is not None and mmap > TASK_MMAP:
+        mmap = None  # above glibc's ceiling: glibc ignores it and keeps adapting
     if trim is None and mmap is None:
         return None
     return (_DEFAULT if trim is None else trim), (_DEFAULT if mmap is None else mmap)
+
+
+def _start_environ() -> dict:
+    """The environment this process started with (what glibc read), else ``os.environ``."""
+    global _environ
+    if _environ is None:
+        try:
+            with open("/proc/self/environ", "rb") as fh:
+                items = fh.read().split(b"\0")
+            _environ = dict(i.decode("utf-8", "replace").partition("=")[::2] for i in items if i)
+        except OSError:
+            _environ = dict(os.environ)
+    return _environ
 
 
 def _glibc():
@@ -109,7 +128,7 @@ def task_thresholds():
     (module notes); restore them and trim afterwards."""
     global _active
     try:
-        own = fixed_thresholds()
+        own = fixed_thresholds(_start_environ())
     except ValueError:
         own = None
     lib = _glibc() if own is not None else None
