@@ -14,8 +14,11 @@ Setting either threshold in the environment (``MALLOC_TRIM_THRESHOLD_``,
 worker processes are started that way (its nanny sets
 ``MALLOC_TRIM_THRESHOLD_=65536`` so that workers give memory back promptly):
 every large array then costs fresh pages from the system, each touched page a
-fault, and a spectrum took about a third longer on a Dask worker than in a
-process pool (benchmarks/bench_series.py).
+fault. A spectrum of benchmarks/bench_series.py took 245 instead of 207 ms
+of processor time in a serial run with that variable set; on Dask workers
+this was most of their extra cost (292 ms per spectrum against 223 in the
+process pool before, 247 against 215 with the thresholds of a task; the rest
+is the workers' first imports and their own threads).
 
 :func:`task_thresholds` restores for the duration of a task the thresholds
 glibc itself would reach (32 MiB, its ceiling, and twice that for trimming),
