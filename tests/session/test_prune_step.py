@@ -63,3 +63,6 @@ def test_the_removed_columns_match_the_fit_code():
     from widgetkit.lines import prune
 
     assert kinds_lines.REMOVED_COLUMNS == prune.REMOVED_COLUMNS
+    from widgetkit.lines import missed
+
+    assert kinds_lines.ADDED_COLUMNS == missed.ADDED_COLUMNS

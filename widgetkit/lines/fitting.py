@@ -68,6 +68,7 @@ from .budget import (
     budget_number,
     replay_counts,
 )
+from .missed import added_table, refit_with_missed
 from .prune import (
     MAX_PRUNED,
     find_unsupported,
@@ -146,6 +147,9 @@ class LineFit:
     solve_nfev, solve_stopped : tuple
         Evaluations used and how it stopped, for each solve (two when lines were
         removed and the fit repeated).
+    added : pandas.DataFrame
+        Lines added from the residual (``add_missed``; :mod:`.missed`), one row each:
+        line_id, position, height, snr, reason. Empty when none was added.
     background : Background or None
         The smooth background subtracted before the fit (``baseline="auto"`` on a
         spectrum whose baseline a straight line cannot follow; :mod:`.background`);
@@ -178,6 +182,7 @@ class LineFit:
     solve_nfev: tuple = ()
     solve_stopped: tuple = ()
     background: Any = None
+    added: pd.DataFrame = field(default_factory=lambda: added_table([]))
 
 
 def _one_blas_thread(func):
@@ -204,7 +209,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         max_nfev: int | None = DEFAULT_MAX_NFEV,
         time_limit: float | str | None = DEFAULT_TIME_LIMIT,
         progress: Callable[[float, str], Any] | None = None, prune: bool = True,
-        keep: Sequence | None = None, replay_nfev=None) -> LineFit:
+        keep: Sequence | None = None, replay_nfev=None, add_missed: bool = False) -> LineFit:
     """Fit lines of one shape plus a baseline to ``y(x)``.
 
     Parameters
@@ -266,6 +271,12 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     keep : sequence, optional
         Line ids never removed (lines added by hand); one that fails a test is
         kept and flagged. Lines named in ``constraints`` are kept too.
+    add_missed : bool
+        Look for lines the peak search missed in the residual of the fit (weak lines on
+        the flank of strong ones), fit again with them, and keep that fit when chi-square
+        fell by more than the added parameters explain (:mod:`.missed`); each added line
+        is listed in ``LineFit.added``. Default False here; ``Session.fit_lines`` turns it
+        on.
     replay_nfev : int or sequence, optional
         For replaying a recorded fit that ran out of time: per solve, the time
         limit counts as reached before evaluation ``n + 1``, whatever the clock
@@ -303,10 +314,13 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     solves = [solve(prob, budget, max_passes)]
     fields = assemble(prob, solves[0])
     removals: list = []
-    unjudged = not_judged(solves[0]) if prune else None
+    shared_now, held_now = shared_width, {}
+    unjudged = not_judged(solves[0]) if prune or add_missed else None
+    if unjudged is not None and not prune:
+        unjudged = unjudged.replace("not pruned", "no line added from the residual")
     if unjudged is not None:
         fields["flags"] = {**fields["flags"], "fit": fields["flags"].get("fit", ()) + (unjudged,)}
-    elif prune:
+    if unjudged is None and prune:
         named = {"ci": [conf_interval] if isinstance(conf_interval, str)
                  else list(conf_interval or [])}
         protected = (set(keep or ()) | protected_by_constraints(prob.ids, constraints)
@@ -345,12 +359,27 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
             if worse is not None:  # the data supports what was removed: keep the first fit
                 (prob, fields), removals = first, []
                 kept_flags = {"fit": [worse]}
+            else:
+                shared_now, held_now = shared, held
         flags = {k: list(v) for k, v in fields["flags"].items()}
         for lid, texts in kept_flags.items():
             flags.setdefault(lid, []).extend(texts)
         fields["flags"] = {k: tuple(v) for k, v in flags.items()}
     sol = solves[-1] if prob is not prob_first else solves[0]
-    fields.update(spec=spec, removed=removed_table(removals),
+    added: list = []
+    if unjudged is None and add_missed:
+        stage = refit_with_missed(
+            prob, fields, sol, shared_width=shared_now, holds=held_now, args=args,
+            max_nfev=max_nfev, time_limit=time_limit, used=sum(s.seconds for s in solves),
+            progress=progress, replay=replays[len(solves)], max_passes=max_passes)
+        if stage.solution is not None:
+            solves.append(stage.solution)
+        if stage.added:
+            prob, fields, sol, added = stage.prob, stage.fields, stage.solution, stage.added
+        elif stage.flag:
+            fields["flags"] = {**fields["flags"],
+                               "fit": fields["flags"].get("fit", ()) + (stage.flag,)}
+    fields.update(spec=spec, removed=removed_table(removals), added=added_table(added),
                   nfev=sum(s.nfev for s in solves), seconds=sum(s.seconds for s in solves),
                   solve_nfev=tuple(s.nfev for s in solves),
                   solve_stopped=tuple(s.stopped for s in solves))

@@ -74,6 +74,8 @@ _CURVES = ("x", "y", "model_y", "baseline_y", "components", "residual")
 #: this module must not import: reopening a session imports no fitting code)
 REMOVED_COLUMNS = ("line_id", "rule", "reason", "merged_into", "start", "position", "area",
                    "area_err", "fwhm")
+#: columns of LineFit.added (kept equal to widgetkit.lines.missed's by a test, as above)
+ADDED_COLUMNS = ("line_id", "position", "height", "snr", "reason")
 
 #: most parameters given confidence intervals in one fit (each costs many refits)
 MAX_CONF_INTERVAL = 8
@@ -159,6 +161,9 @@ class FitLines(StepKind):
               doc="most seconds of wall time ('auto': 5 s + 0.01 s per line)"),
         Param("prune", "boolean", True,
               doc="remove the lines the data cannot support and fit again once"),
+        Param("add_missed", "boolean", False,
+              doc="add the lines found in the residual and fit again (absent in a record: "
+                  "off; Session.fit_lines turns it on)"),
         Param("strict", "boolean", False,
               doc="refuse a fit that has not converged instead of keeping it"),
     )
@@ -181,7 +186,7 @@ class FitLines(StepKind):
         stops = budget.get("stopped_by_solve") or [budget.get("stopped")]
         caps = [n if (s == "time" and isinstance(n, int) and not isinstance(n, bool)
                       and n >= 0) else None
-                for n, s in zip(list(counts)[:2], list(stops)[:2])]
+                for n, s in zip(list(counts)[:3], list(stops)[:3])]
         return self._fit(state, params, caps if any(c is not None for c in caps) else None)
 
     def _fit(self, state: State, params: dict, replay_nfev: list | None):
@@ -231,6 +236,9 @@ class FitLines(StepKind):
                    f"reduced chi-square {fit.redchi:.3g}")
         if len(fit.removed):
             summary += "; " + _removed_text(fit.removed)
+        if len(fit.added):
+            summary += (f"; added {plural(len(fit.added), 'line')} found in the residual at "
+                        + ", ".join(f"{p:.6g}" for p in fit.added["position"]) + " cm-1")
         if not fit.converged:
             summary += f"; NOT converged ({_timeless(fit.message)})"
         summary += cleared_text(cleared)
@@ -248,7 +256,7 @@ class FitLines(StepKind):
         spec = fields.get("spec")
         if not isinstance(spec, dict) or "line_id" not in table:
             raise RecordMismatch("the line fit record lacks its settings or line ids")
-        _check_fit_record(state, table, spec)
+        _check_fit_record(state, table, spec, fields.get("added"))
         sp = state.require_spectrum()
         _check_fit_size(table["fwhm"].to_numpy(dtype=float), sp, spec.get("region"),
                         spec.get("window"))
@@ -275,6 +283,7 @@ class FitLines(StepKind):
                       converged=converged, nfev=budget.get("nfev"), njev=None)
         fields.setdefault("stopped", "converged" if converged else "tolerance")
         fields.setdefault("removed", pd.DataFrame({c: [] for c in REMOVED_COLUMNS}))
+        fields.setdefault("added", pd.DataFrame({c: [] for c in ADDED_COLUMNS}))
         fields.setdefault("seconds", budget.get("seconds"))
         lazy = {n: curve(n) for n in _CURVES}
         lazy["background"] = lambda: None if background is None else _background(
@@ -348,15 +357,18 @@ def _check_fit_size(fwhm, sp, region, window=100.0) -> None:
                        "fit a region at a time (region=(lo, hi)) or remove peaks")
 
 
-def _check_fit_record(state: State, table, spec: dict) -> None:
-    """The recorded fit must be of the peaks this state holds (ids and positions)."""
+def _check_fit_record(state: State, table, spec: dict, added=None) -> None:
+    """The recorded fit must be of the peaks this state holds (ids and positions), plus
+    the lines it added from its residual (``added``, a table with ``line_id``)."""
     peaks = state.peaks
     ids = [int(i) for i in spec.get("line_ids") or []]
     by_id = dict(zip(peaks["peak_id"].tolist(), peaks["position"].tolist()))
     positions = spec.get("positions") or []
     if len(ids) != len(positions) or any(by_id.get(i) != p for i, p in zip(ids, positions)):
         raise RecordMismatch("the recorded fit was made from peaks this state does not hold")
-    if not set(table["line_id"].tolist()) <= set(ids):
+    extra = set() if added is None or "line_id" not in added else {
+        int(i) for i in added["line_id"].tolist()}
+    if not set(table["line_id"].tolist()) <= set(ids) | extra:
         raise RecordMismatch("the recorded lines are not among the fitted peaks")
     needed = ["area", "position", *SHAPE_WIDTHS.get(spec.get("shape"), ("?",))]
     if not set(needed + ["height", "fwhm"]) <= set(table.columns) or not np.all(

@@ -88,8 +88,8 @@ class StepMethods:
 
     def fit_lines(self, *, shape: str = "voigt", shared_width=False, baseline: str | None = "auto",
                   region=None, strict: bool = False, max_nfev: int | None = None,
-                  time_limit: float | None = None, prune: bool = True, progress=None,
-                  **options) -> pd.DataFrame:
+                  time_limit: float | None = None, prune: bool = True,
+                  add_missed: bool = True, progress=None, **options) -> pd.DataFrame:
         """Fit every peak (inside ``region``) with a line shape; see :func:`widgetkit.lines.fit`.
 
         The fit always ends: at most ``max_nfev`` model evaluations per solve (default
@@ -101,7 +101,10 @@ class StepMethods:
         (width, centre), and the fit is repeated once; ``s.line_fit.removed`` and the
         step's summary list the removed lines with their reasons. The peaks stay as
         they are (a later fit starts from all of them again); peaks added by hand are
-        never removed, only flagged. A fit that stops
+        never removed, only flagged. With ``add_missed=True`` (default) the residual is
+        searched for lines the peak search missed (a weak line on the flank of a strong
+        one) and the fit repeated with them, kept only if chi-square fell by more than
+        the added parameters explain; ``s.line_fit.added`` lists them. A fit that stops
         before it has converged (on the budget or a solver's tolerance) is kept and
         recorded with ``converged`` False and the reason (``s.line_fit.message``,
         ``s.line_fit.stopped``); with ``strict=True`` it is refused instead
@@ -122,6 +125,7 @@ class StepMethods:
             params["time_limit"] = time_limit
         if prune is not True:
             params["prune"] = prune
+        params["add_missed"] = bool(add_missed)
         with progress_to(progress):
             self._run("fit_lines", params)
         return self.lines
