@@ -131,3 +131,39 @@ def test_a_regular_normal_matrix_gives_the_plain_inverse(seed):
     jac = np.random.default_rng(seed).normal(size=(40, 6))  # reference: numpy.linalg.inv
     np.testing.assert_allclose(inverse_normal(jac.T @ jac), np.linalg.inv(jac.T @ jac),
                                rtol=1e-10)
+
+
+def test_a_background_that_rises_above_the_lines_of_a_dense_band_is_not_used():
+    # stress-corpus case (benchmarks/corpus.py, our simulator, invented scene): CO 1-0 with its
+    # hot band at 0.24 cm-1 steps and SNR 24, lines everywhere; the spline through the few
+    # line-free points rose above lines, which then started (and stayed) negative
+    import sys
+    from pathlib import Path
+
+    sys.path.insert(0, str(Path(__file__).resolve().parents[2] / "benchmarks"))
+    from corpus import make_case, render
+
+    r = render(make_case(72, seed=2026))
+    res = wl.fit(r.spectrum.x, r.spectrum.y, _positions(r.spectrum.x, r.spectrum.y))
+    assert res.background is None
+    assert any("not used" in f for f in res.flags["fit"])
+    assert np.all(res.table["area"] > 0)
+
+
+def test_a_line_that_starts_with_the_wrong_sign_takes_the_sign_of_the_others():
+    from widgetkit.lines._setup import _one_sign
+    from widgetkit.lines.start import Starts
+
+    st = Starts(baseline=np.zeros(2), heights=np.array([1.0, 0.8, 1.2, 0.9, -0.05]),
+                fwhm=np.ones(5))
+    flags: dict = {}
+    out = _one_sign(st, [1, 2, 3, 4, 5], 0.02, None, flags)
+    assert out.heights[4] > 0 and list(flags) == [5]
+    np.testing.assert_array_equal(out.heights[:4], st.heights[:4])
+    # a height the caller gave is the caller's
+    assert _one_sign(st, [1, 2, 3, 4, 5], 0.02, [np.nan] * 4 + [-0.05], {}).heights[4] < 0
+    # mixed signs (emission and absorption): nothing changes
+    mixed = Starts(baseline=np.zeros(2), heights=np.array([1.0, -1.0, 1.0, -1.0]),
+                   fwhm=np.ones(4))
+    np.testing.assert_array_equal(_one_sign(mixed, [1, 2, 3, 4], 0.02, None, {}).heights,
+                                  mixed.heights)

@@ -9,6 +9,7 @@ fitted.
 from __future__ import annotations
 
 import copy
+import dataclasses
 import json
 from collections.abc import Mapping
 from dataclasses import dataclass
@@ -41,6 +42,10 @@ MAX_WIDTH_GROWTH = 10.0
 #: narrowed between two samples) would otherwise run off to 1e200 and beyond
 AREA_LIMIT = 1e3
 MIN_MAX_WIDTH = 20.0
+#: a background under which more than this fraction of the lines change sign is not used
+MAX_FLIPPED = 0.05
+#: when this fraction of the starting heights has one sign, every line takes it
+ONE_SIGN = 0.8
 
 
 @dataclass
@@ -191,9 +196,17 @@ def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, li
     flags: dict = {}
     if auto and background is None:
         background = smooth_background(xs, ys, pos, st.fwhm, st.heights, sigma_n)
+        if background is not None:
+            on_bg = starting_values(xs, ys - background.values, pos, bl, x_ref, heights, widths)
+            flipped = np.mean(np.sign(on_bg.heights) != np.sign(st.heights))
+            if flipped > MAX_FLIPPED:  # it rose above lines: a dense band, not a baseline
+                flags["fit"] = [f"a smooth background was estimated and not used: it rose "
+                                f"above {flipped:.0%} of the lines"]
+                background = None
     if background is not None:
         st = starting_values(xs, ys - background.values, pos, bl, x_ref, heights, widths)
         flags["fit"] = [background.describe()]
+    st = _one_sign(st, ids, sigma_n, heights, flags)
     for i, h in zip(ids, st.heights):
         if abs(h) < BELOW_NOISE * sigma_n:
             flags.setdefault(i, []).append(
@@ -228,6 +241,28 @@ def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, li
                    noise=sigma_n, x_ref=x_ref, starts=st, params=params, tmap=tmap, model=model,
                    lo=lo, hi=hi, dx=dx, nfree=xs.size - len(tmap.var_names), spec=spec,
                    flags=flags, background=background)
+
+
+def _one_sign(st: Starts, ids, sigma: float, given, flags: dict) -> Starts:
+    """Lines all of one sign when at least :data:`ONE_SIGN` of the starting heights are:
+    a line that starts with the other sign (its starting baseline sat above it, in a dense
+    band with no line-free point) would otherwise be held to that sign for the whole fit.
+    Heights the caller gave are left as they are."""
+    h = np.asarray(st.heights, dtype=float)
+    if h.size < 3:
+        return st
+    up = float(np.mean(h > 0))
+    sign = 1.0 if up >= ONE_SIGN else -1.0 if up <= 1.0 - ONE_SIGN else 0.0
+    fixed = np.asarray(given, dtype=float) if given is not None else np.full(h.size, np.nan)
+    wrong = (np.sign(h) != sign) & ~np.isfinite(fixed) if sign else np.zeros(h.size, bool)
+    if not wrong.any():
+        return st
+    new = np.where(wrong, sign * np.maximum(np.abs(h), BELOW_NOISE * sigma), h)
+    for i in np.asarray(ids, dtype=object)[wrong]:
+        flags.setdefault(i, []).append(
+            "its starting height had the sign of no other line (the starting baseline sat "
+            "above it); it starts with the sign of the others")
+    return dataclasses.replace(st, heights=new)
 
 
 def _limit_areas(names, lo, hi, ys, span: float) -> None:
