@@ -17,11 +17,12 @@ from corpus_run import classify, run_budgeted, run_corpus, summary  # noqa: E402
 
 #: the CI subset: 20 cases of their own seed, at most 3,000 points each, 8 s per analysis
 CI_COUNT, CI_SEED, CI_POINTS, CI_BUDGET = 20, 11, 3_000, 8.0
-#: success floor of the CI subset. On main at a65b89d the default analysis reached 15 of 20
-#: (4 of them with no line that can be counted): 4 ended with wrong lines (the fit moved or lost
-#: lines the peak search had right) and 1 ran over the 8 s budget on a loaded machine. The floor
-#: leaves room for a few more over the budget under load; raise it as the fits improve.
-CI_FLOOR = 0.55
+#: success floor of the CI subset. With the smooth background, the residual search and
+#: standard errors beside undetermined lines (rb10b, 2026-12-03) the default analysis reached
+#: 16 of 20 on a loaded machine (4 with wrong lines: a fringe of 15 line widths, a time limit
+#: reached); it was 15 of 20 before. The floor leaves room for fits cut short by the time
+#: limit under load; raise it as the fits improve.
+CI_FLOOR = 0.65
 
 
 def test_a_case_is_drawn_the_same_way_from_its_seed_and_index():
