@@ -39,6 +39,9 @@ def test_a_weak_line_on_a_flank_is_found_in_the_residual_and_fitted():
     line = s.lines.set_index("line_id").loc[added["line_id"].iloc[0]]
     assert abs(line["position"] - 100.55) <= 4 * line["position_err"]
     assert "found in the residual" in s._steps[-1].summary
+    # its id is the session's next peak id, and no later peak will get it
+    assert added["line_id"].iloc[0] not in set(s.peaks["peak_id"])
+    assert s.state.next_peak_id > added["line_id"].iloc[0]
     # and the strong line next to it is where it was simulated
     strong = s.lines.iloc[np.argmin(np.abs(s.lines["position"] - 100.0))]
     assert abs(strong["position"] - 100.0) <= 4 * strong["position_err"]
@@ -77,3 +80,5 @@ def test_a_session_with_an_added_line_is_saved_reopened_and_verified(tmp_path):
 def test_new_ids_follow_the_integers_or_are_named():
     assert missed._new_ids([3, 7, 5], 2) == [8, 9]
     assert missed._new_ids(["a", "r1"], 2) == ["r2", "r3"]
+    assert missed._new_ids([3, 7, 5], 2, first=12) == [12, 13]
+    assert missed._new_ids([3, 7, 5], 1, first=4) == [8]

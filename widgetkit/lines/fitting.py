@@ -209,7 +209,8 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         max_nfev: int | None = DEFAULT_MAX_NFEV,
         time_limit: float | str | None = DEFAULT_TIME_LIMIT,
         progress: Callable[[float, str], Any] | None = None, prune: bool = True,
-        keep: Sequence | None = None, replay_nfev=None, add_missed: bool = False) -> LineFit:
+        keep: Sequence | None = None, replay_nfev=None, add_missed: bool = False,
+        added_ids_from: int | None = None) -> LineFit:
     """Fit lines of one shape plus a baseline to ``y(x)``.
 
     Parameters
@@ -277,6 +278,9 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         fell by more than the added parameters explain (:mod:`.missed`); each added line
         is listed in ``LineFit.added``. Default False here; ``Session.fit_lines`` turns it
         on.
+    added_ids_from : int, optional
+        The first id of an added line (integer ids; default the next after the largest):
+        a session gives its next peak id, so that no later peak gets the same id.
     replay_nfev : int or sequence, optional
         For replaying a recorded fit that ran out of time: per solve, the time
         limit counts as reached before evaluation ``n + 1``, whatever the clock
@@ -371,7 +375,8 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         stage = refit_with_missed(
             prob, fields, sol, shared_width=shared_now, holds=held_now, args=args,
             max_nfev=max_nfev, time_limit=time_limit, used=sum(s.seconds for s in solves),
-            progress=progress, replay=replays[len(solves)], max_passes=max_passes)
+            progress=progress, replay=replays[len(solves)], max_passes=max_passes,
+            first_id=added_ids_from)
         if stage.solution is not None:
             solves.append(stage.solution)
         if stage.added:

@@ -114,11 +114,13 @@ def find_missed(x, residual, table: pd.DataFrame, noise: float) -> list[Missed]:
     return out[:max(3, int(MAX_ADDED * int(ok.sum())))]
 
 
-def _new_ids(ids: list, n: int) -> list:
-    """``n`` line ids not among ``ids``: the next integers when the ids are integers."""
+def _new_ids(ids: list, n: int, first: int | None = None) -> list:
+    """``n`` line ids not among ``ids``: integers from ``first`` (default the next after the
+    largest) when the ids are integers."""
     if all(isinstance(i, (int, np.integer)) and not isinstance(i, bool) for i in ids):
         top = max((int(i) for i in ids), default=0)
-        return list(range(top + 1, top + 1 + n))
+        start = top + 1 if first is None else max(int(first), top + 1)
+        return list(range(start, start + n))
     taken = {str(i) for i in ids}
     out, k = [], 1
     while len(out) < n:
@@ -141,7 +143,8 @@ class MissedStage:
 
 
 def refit_with_missed(prob, fields, sol, *, shared_width, holds, args, max_nfev,
-                      time_limit, used, progress, replay, max_passes) -> MissedStage:
+                      time_limit, used, progress, replay, max_passes,
+                      first_id: int | None = None) -> MissedStage:
     """Fit again with the lines :func:`find_missed` finds in ``fields``' residual; keep that
     fit only if chi-square fell by more than the added parameters explain."""
     from ._assemble import assemble
@@ -153,7 +156,7 @@ def refit_with_missed(prob, fields, sol, *, shared_width, holds, args, max_nfev,
     if not cands:
         return MissedStage()
     t = fields["table"]
-    new = _new_ids(list(prob.ids), len(cands))
+    new = _new_ids(list(prob.ids), len(cands), first_id)
     prob2 = set_up(prob.xs, prob.ys, np.r_[t["position"].to_numpy(float),
                                            [c.position for c in cands]],
                    shared_width=shared_width, line_ids=list(prob.ids) + new,

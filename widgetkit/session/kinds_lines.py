@@ -208,7 +208,8 @@ class FitLines(StepKind):
         strict = bool(opts.pop("strict", False))
         fit = lines.fit(sp.x, sp.y, peaks["position"].to_numpy(dtype=float),
                         line_ids=[int(i) for i in peaks["peak_id"]], progress=_PROGRESS.get(),
-                        keep=_by_hand(peaks), replay_nfev=replay_nfev, **opts)
+                        keep=_by_hand(peaks), replay_nfev=replay_nfev,
+                        added_ids_from=int(state.next_peak_id), **opts)
         usable = np.all(np.isfinite(fit.table["position"])) and np.isfinite(fit.chisqr)
         if not fit.converged and (strict or not usable):
             why = "strict=True asks for a converged fit" if usable else "the result holds " \
@@ -242,7 +243,10 @@ class FitLines(StepKind):
         if not fit.converged:
             summary += f"; NOT converged ({_timeless(fit.message)})"
         summary += cleared_text(cleared)
-        return state.evolve(line_fit=fit, assignment=None), result, summary
+        # ids of lines added from the residual are never given to a later peak
+        next_id = max([int(state.next_peak_id)] + [int(i) + 1 for i in fit.added["line_id"]])
+        return (state.evolve(line_fit=fit, assignment=None, next_peak_id=next_id), result,
+                summary)
 
     #: diagnostics that legitimately differ between machines (the solver's last step size)
     volatile = ("record.fields.message", "record.fields.seconds", "budget.seconds")
@@ -290,7 +294,10 @@ class FitLines(StepKind):
             background, curve("x")())
         restored = Restored("LineFit", fields, lazy=lazy,
                             real=lambda: self.replay(state, params, result, ctx)[0].line_fit)
-        return state.evolve(line_fit=restored, assignment=None)
+        added = fields.get("added")
+        next_id = max([int(state.next_peak_id)] + [int(i) + 1 for i in (
+            [] if added is None or "line_id" not in added else added["line_id"])])
+        return state.evolve(line_fit=restored, assignment=None, next_peak_id=next_id)
 
 
 def _record(fit) -> dict:
