@@ -210,10 +210,10 @@ def budget_number(value, name: str, *, integer: bool):
 
 
 def replay_counts(replay_nfev) -> list:
-    """``replay_nfev`` for each of the (at most three) solves."""
+    """``replay_nfev`` for each of the (at most four) solves."""
     if replay_nfev is None:
-        return [None, None, None]
+        return [None] * 4
     if isinstance(replay_nfev, (int, np.integer)):
-        return [int(replay_nfev), None, None]
-    out = [None if n is None else int(n) for n in list(replay_nfev)[:3]]
-    return out + [None] * (3 - len(out))
+        return [int(replay_nfev), None, None, None]
+    out = [None if n is None else int(n) for n in list(replay_nfev)[:4]]
+    return out + [None] * (4 - len(out))

@@ -69,6 +69,7 @@ from .budget import (
     replay_counts,
 )
 from .missed import added_table, refit_with_missed
+from .reweight import FROM_TRANSMITTANCE, refit_weighted
 from .prune import (
     MAX_PRUNED,
     find_unsupported,
@@ -246,8 +247,10 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         (:func:`widgetkit.processing.estimate_noise`).
     constraints : mapping, optional
         Ties, fixed values, bounds and ``"doppler"`` (:mod:`.params`).
-    weights : array_like, optional
+    weights : array_like or "from_transmittance", optional
         Residual weights, ``residual = (model - y) * weights`` (1/sigma_i).
+        ``"from_transmittance"``: y is absorbance computed from transmittance, whose noise
+        grows as 1/T; the fit ends with a solve weighted for it (:mod:`.reweight`).
     conf_interval : str or list of str, optional
         Parameter names for :func:`lmfit.conf_interval` (1 and 2 sigma); only
         for a converged fit, outside the budget.
@@ -303,13 +306,18 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     if not (isinstance(time_limit, str) and time_limit == "auto"):
         time_limit = budget_number(time_limit, "time_limit", integer=False)
     replays = replay_counts(replay_nfev)
+    from_t = isinstance(weights, str) and weights == FROM_TRANSMITTANCE
+    if isinstance(weights, str) and not from_t:
+        raise FitError(f"weights must be numbers or {FROM_TRANSMITTANCE!r}, got {weights!r}")
+    weights = None if from_t else weights
     args = dict(shape=shape, baseline=baseline, region=region, window=window,
                 constraints=constraints, weights=weights)
     prob = set_up(x, y, positions, shared_width=shared_width, line_ids=line_ids,
                   heights=heights, widths=widths, noise=noise, **args,
                   extra_spec={"max_nfev": max_nfev, "time_limit": time_limit,
-                              "prune": bool(prune),
-                              "keep": None if keep is None else list(keep)})
+                              "prune": bool(prune), "add_missed": bool(add_missed),
+                              "keep": None if keep is None else list(keep),
+                              **({"weights": FROM_TRANSMITTANCE} if from_t else {})})
     spec, prob_first = prob.spec, prob
     if time_limit == "auto":
         time_limit = auto_time_limit(len(prob.ids))
@@ -384,6 +392,14 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         elif stage.flag:
             fields["flags"] = {**fields["flags"],
                                "fit": fields["flags"].get("fit", ()) + (stage.flag,)}
+    if from_t and not_judged(sol) is None:  # weights from a fit far from its end mislead
+        last = refit_weighted(
+            prob, fields, shared_width=shared_now, holds=held_now, args=args,
+            max_nfev=max_nfev, time_limit=time_limit, used=sum(s.seconds for s in solves),
+            progress=progress, replay=replays[len(solves)], max_passes=max_passes)
+        solves.append(last.solution)
+        if last.prob is not None:
+            prob, fields, sol = last.prob, last.fields, last.solution
     fields.update(spec=spec, removed=removed_table(removals), added=added_table(added),
                   nfev=sum(s.nfev for s in solves), seconds=sum(s.seconds for s in solves),
                   solve_nfev=tuple(s.nfev for s in solves),

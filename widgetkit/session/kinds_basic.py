@@ -114,6 +114,7 @@ class ToAbsorbance(StepKind):
 
         sp = to_absorbance(state.require_spectrum())
         new, cleared = drop_dependents(state, spectrum=sp, baseline=None, peaks=_no_peaks(state))
+        new = new.evolve(from_transmittance=True)
         return (new, _with_cleared(_spectrum_result(sp), cleared),
                 "converted to absorbance" + cleared_text(cleared))
 
@@ -121,7 +122,8 @@ class ToAbsorbance(StepKind):
         from ..processing import to_absorbance
 
         sp = to_absorbance(state.require_spectrum())  # the same state, without hashing it
-        return drop_dependents(state, spectrum=sp, baseline=None, peaks=_no_peaks(state))[0]
+        new = drop_dependents(state, spectrum=sp, baseline=None, peaks=_no_peaks(state))[0]
+        return new.evolve(from_transmittance=True)
 
 
 @register_step

@@ -161,6 +161,9 @@ class FitLines(StepKind):
               doc="most seconds of wall time ('auto': 5 s + 0.01 s per line)"),
         Param("prune", "boolean", True,
               doc="remove the lines the data cannot support and fit again once"),
+        Param("weighting", "choice", "none", choices=("none", "auto"),
+              doc="'auto': weight for the noise of absorbance computed from transmittance "
+                  "when the spectrum was converted (absent in a record: none)"),
         Param("add_missed", "boolean", False,
               doc="add the lines found in the residual and fit again (absent in a record: "
                   "off; Session.fit_lines turns it on)"),
@@ -186,7 +189,7 @@ class FitLines(StepKind):
         stops = budget.get("stopped_by_solve") or [budget.get("stopped")]
         caps = [n if (s == "time" and isinstance(n, int) and not isinstance(n, bool)
                       and n >= 0) else None
-                for n, s in zip(list(counts)[:3], list(stops)[:3])]
+                for n, s in zip(list(counts)[:4], list(stops)[:4])]
         return self._fit(state, params, caps if any(c is not None for c in caps) else None)
 
     def _fit(self, state: State, params: dict, replay_nfev: list | None):
@@ -206,6 +209,9 @@ class FitLines(StepKind):
         _check_fit_size(peaks["fwhm"].to_numpy(dtype=float) if "fwhm" in peaks
                         else np.full(len(peaks), np.nan), sp, region, opts.get("window", 100.0))
         strict = bool(opts.pop("strict", False))
+        if opts.pop("weighting", "none") == "auto" and state.from_transmittance \
+                and opts.get("weights") is None:
+            opts["weights"] = "from_transmittance"
         fit = lines.fit(sp.x, sp.y, peaks["position"].to_numpy(dtype=float),
                         line_ids=[int(i) for i in peaks["peak_id"]], progress=_PROGRESS.get(),
                         keep=_by_hand(peaks), replay_nfev=replay_nfev,

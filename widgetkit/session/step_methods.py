@@ -89,7 +89,8 @@ class StepMethods:
     def fit_lines(self, *, shape: str = "voigt", shared_width=False, baseline: str | None = "auto",
                   region=None, strict: bool = False, max_nfev: int | None = None,
                   time_limit: float | None = None, prune: bool = True,
-                  add_missed: bool = True, progress=None, **options) -> pd.DataFrame:
+                  add_missed: bool = True, weighting: str = "auto", progress=None,
+                  **options) -> pd.DataFrame:
         """Fit every peak (inside ``region``) with a line shape; see :func:`widgetkit.lines.fit`.
 
         The fit always ends: at most ``max_nfev`` model evaluations per solve (default
@@ -104,7 +105,10 @@ class StepMethods:
         never removed, only flagged. With ``add_missed=True`` (default) the residual is
         searched for lines the peak search missed (a weak line on the flank of a strong
         one) and the fit repeated with them, kept only if chi-square fell by more than
-        the added parameters explain; ``s.line_fit.added`` lists them. A fit that stops
+        the added parameters explain; ``s.line_fit.added`` lists them. With
+        ``weighting="auto"`` (default) a spectrum converted from transmittance
+        (``to_absorbance``) is fitted once more weighted for the noise of absorbance, which
+        grows as 1/T (:mod:`widgetkit.lines.reweight`); ``"none"`` does not. A fit that stops
         before it has converged (on the budget or a solver's tolerance) is kept and
         recorded with ``converged`` False and the reason (``s.line_fit.message``,
         ``s.line_fit.stopped``); with ``strict=True`` it is refused instead
@@ -126,6 +130,7 @@ class StepMethods:
         if prune is not True:
             params["prune"] = prune
         params["add_missed"] = bool(add_missed)
+        params["weighting"] = weighting
         with progress_to(progress):
             self._run("fit_lines", params)
         return self.lines

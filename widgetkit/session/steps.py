@@ -163,6 +163,9 @@ class State:
     band_model : BandFit or None
         The last band-model fit (:mod:`widgetkit.bandmodel`); a step that changes the
         spectrum clears it.
+    from_transmittance : bool
+        The spectrum is absorbance computed from transmittance (``to_absorbance``): its
+        noise grows as 1/T, and a line fit weights for it (``weighting="auto"``).
     """
 
     spectrum: Spectrum | None = None
@@ -174,6 +177,7 @@ class State:
     locks: Mapping[int, dict] = field(default_factory=dict)
     next_peak_id: int = 1
     band_model: Any = None
+    from_transmittance: bool = False
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     def evolve(self, **changes) -> State:
