@@ -23,7 +23,9 @@ def cut_band(tmp_path_factory):
     s.crop(2550.0, 3073.2)
     s.subtract_baseline("als", lam=1e6, p=0.01)
     s.find_peaks(min_snr=8)
-    s.fit_lines(shape="voigt", baseline="linear")
+    # the plain fit: weighted for transmittance noise the cut line's position error grows to
+    # cm-1 and the assignment leaves it out, which is right but not what this test is about
+    s.fit_lines(shape="voigt", baseline="linear", weighting="none", add_missed=False)
     path = tmp_path_factory.mktemp("edge") / "cut.session.json"
     s.save(path)
     return path
@@ -66,7 +68,7 @@ def test_the_levels_panel_marks_the_cut_line_in_red_and_says_why(cut_band):
 def test_an_uncut_band_shows_no_edge_note(cut_band):
     s = wk.Session.load(cut_band)
     s.crop(2550.0, 3065.0)                       # the cut line is gone
-    s.fit_lines(shape="voigt", baseline="linear")
+    s.fit_lines(shape="voigt", baseline="linear")   # defaults: nothing added at the edge
     app = AnalysisApp(s)
     app.levels_panel.assign_button.click()
     assert edge_lines(s.line_fit) == set()

@@ -10,7 +10,8 @@ spectroscopist looks at the residual for exactly this; :func:`find_missed` does 
    noise σ of the fit, the typical FWHM of the fitted lines as the known width).
 2. A candidate closer than :data:`CLEAR` FWHM to a fitted line is not taken: there the
    residual is what a line shape that is not quite right leaves (symmetric lobes, a flat
-   top), not a new line.
+   top), not a new line. Nor is one within :data:`EDGE` FWHM of either end of the data
+   (what a crop through a line leaves).
 3. The candidate must also stand :data:`LOCAL_SIGMAS` times above the scatter of the residual
    around it (:data:`AROUND` FWHM on each side, the candidate itself left out), so that where
    the model misses everywhere (a saturated band, a baseline it cannot follow) nothing is
@@ -36,6 +37,8 @@ __all__ = ["Missed", "find_missed", "added_table", "ADDED_COLUMNS", "CLEAR", "LO
 
 #: a candidate must lie further than this many FWHM from every fitted line
 CLEAR = 1.5
+#: ... and further than this many FWHM from the ends of the data
+EDGE = 3.0
 #: ... and stand this many times above the residual's local scatter
 LOCAL_SIGMAS = 5.0
 #: the local scatter is taken over this many FWHM on each side
@@ -101,7 +104,7 @@ def find_missed(x, residual, table: pd.DataFrame, noise: float) -> list[Missed]:
         p, h = float(row["position"]), float(row["height"])
         f = float(row["fwhm"]) if np.isfinite(row["fwhm"]) and row["fwhm"] > 0 else typical
         gap = np.abs(pos[ok] - p) / np.maximum(fwhm[ok], f)
-        if np.min(gap) <= CLEAR:
+        if np.min(gap) <= CLEAR or min(p - x[0], x[-1] - p) <= EDGE * max(f, typical):
             continue
         scatter = _local_scatter(r, x, p, max(f, typical))
         if abs(h) < LOCAL_SIGMAS * max(scatter, float(noise)):
