@@ -16,12 +16,14 @@ spectroscopist looks at the residual for exactly this; :func:`find_missed` does 
    around it (:data:`AROUND` FWHM on each side, the candidate itself left out), so that where
    the model misses everywhere (a saturated band, a baseline it cannot follow) nothing is
    added.
-4. At most :data:`MAX_ADDED` (a fifth of the fitted lines, at least 3) are added, the most
-   significant first.
+4. Of candidates closer than :data:`CLEAR` FWHM to each other only the most significant is
+   taken, and at most :data:`MAX_ADDED` (a fifth of the fitted lines, at least 3) are added,
+   the most significant first.
 
 The fit driver (:func:`~.fitting.fit`) fits again with the added lines, starting the old
 ones where they ended, and keeps the result only if chi-square fell by more than the added
-parameters explain (their number plus three standard deviations, in reduced chi-squares);
+parameters explain (their number plus three standard deviations, in reduced chi-squares)
+and every added line's area is at least three of its standard errors;
 ``LineFit.added`` lists what was added and why. ``add_missed=False`` turns this off.
 """
 
@@ -114,7 +116,11 @@ def find_missed(x, residual, table: pd.DataFrame, noise: float) -> list[Missed]:
                           reason=f"found in the residual, {abs(h) / float(noise):.3g} σ high "
                                  f"and {np.min(gap):.3g} FWHM from the nearest line"))
     out.sort(key=lambda m: -m.snr)
-    return out[:max(3, int(MAX_ADDED * int(ok.sum())))]
+    kept: list[Missed] = []
+    for m in out:
+        if all(abs(m.position - k.position) > CLEAR * max(m.fwhm, k.fwhm) for k in kept):
+            kept.append(m)
+    return kept[:max(3, int(MAX_ADDED * int(ok.sum())))]
 
 
 def _new_ids(ids: list, n: int, first: int | None = None) -> list:
@@ -176,9 +182,14 @@ def refit_with_missed(prob, fields, sol, *, shared_width, holds, args, max_nfev,
     need = k + 3.0 * np.sqrt(2.0 * k)
     fell = ((float(r1.chisqr) - float(r2.chisqr)) / float(r1.redchi)
             if np.isfinite(r2.chisqr) and r1.redchi > 0 else -np.inf)
-    if sol2.error is None and fell > need:
-        return MissedStage(sol2, prob2, assemble(prob2, sol2), list(zip(new, cands)))
-    return MissedStage(sol2, flag=(
-        f"{len(cands)} lines found in the residual were not kept: with them chi-square fell "
-        f"by {fell:.3g} reduced chi-squares, not more than the {need:.3g} that {k} more "
-        "parameters explain"))
+    fields2 = assemble(prob2, sol2) if sol2.error is None else None
+    weak = [] if fields2 is None else [
+        i for i, a, e in zip(fields2["table"]["line_id"], fields2["table"]["area"],
+                             fields2["table"]["area_err"]) if i in new and not abs(a) >= 3 * e]
+    if fields2 is not None and fell > need and not weak:
+        return MissedStage(sol2, prob2, fields2, list(zip(new, cands)))
+    why = (f"line {weak[0]} among them was not significant" if fields2 is not None and weak
+           else f"with them chi-square fell by {fell:.3g} reduced chi-squares, not more than "
+                f"the {need:.3g} that {k} more parameters explain")
+    return MissedStage(sol2, flag=f"{len(cands)} lines found in the residual were not kept: "
+                                  + why)
