@@ -142,14 +142,14 @@ def test_pruning_is_undone_when_the_data_needed_the_removed_lines():
 
 
 def test_more_than_a_third_of_the_lines_failing_is_not_pruned(monkeypatch, band, starts):
-    from widgetkit.lines import fitting
+    from widgetkit.lines import _stages
 
     def all_but_one(table, *args, **kw):
         ids = table["line_id"].tolist()[1:]
         return [prune.Removal(i, "insignificant", "test", None, 0.0, 0.0, 0.0, 1.0, 1.0)
                 for i in ids], {}, {}
 
-    monkeypatch.setattr(fitting, "find_unsupported", all_but_one)
+    monkeypatch.setattr(_stages, "find_unsupported", all_but_one)
     res = wl.fit(band.x, band.y, starts)
     assert len(res.table) == 12 and res.removed.empty
     assert any("11 of 12 lines failed" in f and "every line is kept" in f

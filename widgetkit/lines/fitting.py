@@ -59,27 +59,18 @@ from . import solver
 from ._assemble import assemble
 from ._setup import set_up
 from ._solve import solve, verdict
+from ._stages import Run, missed_stage, prune_stage, weighted_stage
 from .budget import (
     DEFAULT_MAX_NFEV,
     DEFAULT_TIME_LIMIT,
-    REFIT_SHARE,
     Budget,
     auto_time_limit,
     budget_number,
     replay_counts,
 )
-from .missed import added_table, refit_with_missed
-from .reweight import FROM_TRANSMITTANCE, refit_weighted
-from .prune import (
-    MAX_PRUNED,
-    find_unsupported,
-    noise_scale,
-    not_judged,
-    protected_by_constraints,
-    removed_table,
-    subset_args,
-    worse_without,
-)
+from .missed import added_table
+from .prune import not_judged, removed_table
+from .reweight import FROM_TRANSMITTANCE
 
 __all__ = ["fit", "LineFit", "DEFAULT_WINDOW", "CONVERGENCE_TOL", "DEFAULT_MAX_NFEV",
            "DEFAULT_TIME_LIMIT"]
@@ -318,88 +309,29 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
                               "prune": bool(prune), "add_missed": bool(add_missed),
                               "keep": None if keep is None else list(keep),
                               **({"weights": FROM_TRANSMITTANCE} if from_t else {})})
-    spec, prob_first = prob.spec, prob
+    spec = prob.spec
     if time_limit == "auto":
         time_limit = auto_time_limit(len(prob.ids))
     budget = Budget(max_nfev, time_limit, progress, replays[0])
     budget.report(f"fitting {len(prob.ids)} lines", force=True)
-    solves = [solve(prob, budget, max_passes)]
-    fields = assemble(prob, solves[0])
-    removals: list = []
-    shared_now, held_now = shared_width, {}
-    unjudged = not_judged(solves[0]) if prune or add_missed else None
-    if unjudged is not None and not prune:
-        unjudged = unjudged.replace("not pruned", "no line added from the residual")
+    first = solve(prob, budget, max_passes)
+    run = Run(prob=prob, fields=assemble(prob, first), solves=[first], shared=shared_width,
+              args=args, max_nfev=max_nfev, time_limit=time_limit, progress=progress,
+              replays=replays, max_passes=max_passes)
+    removals, added = [], []
+    unjudged = not_judged(first) if prune or add_missed else None
     if unjudged is not None:
-        fields["flags"] = {**fields["flags"], "fit": fields["flags"].get("fit", ()) + (unjudged,)}
-    if unjudged is None and prune:
-        named = {"ci": [conf_interval] if isinstance(conf_interval, str)
-                 else list(conf_interval or [])}
-        protected = (set(keep or ()) | protected_by_constraints(prob.ids, constraints)
-                     | protected_by_constraints(prob.ids, named))
-        removals, kept_flags, restarts = find_unsupported(
-            fields["table"], solves[0].result.params, prob.shape.widths, prob.positions,
-            prob.starts.fwhm, protected, noise_scale(prob, solves[0]))
-        if len(removals) > max(2, MAX_PRUNED * len(prob.ids)):
-            kept_flags = {"fit": [
-                f"not pruned: {len(removals)} of {len(prob.ids)} lines failed a test of what "
-                f"the data can support (more than {MAX_PRUNED:.0%}): the line shape, the "
-                "baseline or the peaks do not suit this spectrum; every line is kept"]}
-            removals, restarts = [], {}
-        if removals or restarts:
-            gone = {r.line_id for r in removals}
-            kept = [i for i in prob.ids if i not in gone]
-            mask, sub, shared = subset_args(kept, prob.ids, {"heights": heights, "widths": widths},
-                                        shared_width)
-            starts = np.array([restarts.get(i, {}).get("start", p)
-                               for i, p in zip(prob.ids, prob.positions)])
-            held = {i: h for i, h in restarts.items() if len(h) > 1}
-            prob = set_up(prob.xs, prob.ys, starts[mask], shared_width=shared,
-                          line_ids=kept, noise=prob.noise, **sub, holds=held,
-                          background=prob.background,
-                          **{**args, "region": None, "weights": prob.ws}, extra_spec={})
-            left = None if time_limit is None else max(time_limit - solves[0].seconds,
-                                                       REFIT_SHARE * time_limit)
-            budget = Budget(max_nfev, left, progress, replays[1])
-            budget.report(f"fitting again without {len(removals)} unsupported lines"
-                          + (f", {len(held)} held" if held else ""), force=True)
-            first = (prob_first, fields)
-            solves.append(solve(prob, budget, max_passes))
-            fields = assemble(prob, solves[-1])
-            # a hold may raise chi-square on purpose (a line kept from swallowing a fringe)
-            worse = None if held else worse_without(solves[0], solves[-1], prob_first, prob)
-            if worse is not None:  # the data supports what was removed: keep the first fit
-                (prob, fields), removals = first, []
-                kept_flags = {"fit": [worse]}
-            else:
-                shared_now, held_now = shared, held
-        flags = {k: list(v) for k, v in fields["flags"].items()}
-        for lid, texts in kept_flags.items():
-            flags.setdefault(lid, []).extend(texts)
-        fields["flags"] = {k: tuple(v) for k, v in flags.items()}
-    sol = solves[-1] if prob is not prob_first else solves[0]
-    added: list = []
-    if unjudged is None and add_missed:
-        stage = refit_with_missed(
-            prob, fields, sol, shared_width=shared_now, holds=held_now, args=args,
-            max_nfev=max_nfev, time_limit=time_limit, used=sum(s.seconds for s in solves),
-            progress=progress, replay=replays[len(solves)], max_passes=max_passes,
-            first_id=added_ids_from)
-        if stage.solution is not None:
-            solves.append(stage.solution)
-        if stage.added:
-            prob, fields, sol, added = stage.prob, stage.fields, stage.solution, stage.added
-        elif stage.flag:
-            fields["flags"] = {**fields["flags"],
-                               "fit": fields["flags"].get("fit", ()) + (stage.flag,)}
-    if from_t and not_judged(sol) is None:  # weights from a fit far from its end mislead
-        last = refit_weighted(
-            prob, fields, shared_width=shared_now, holds=held_now, args=args,
-            max_nfev=max_nfev, time_limit=time_limit, used=sum(s.seconds for s in solves),
-            progress=progress, replay=replays[len(solves)], max_passes=max_passes)
-        solves.append(last.solution)
-        if last.prob is not None:
-            prob, fields, sol = last.prob, last.fields, last.solution
+        run.flag("fit", unjudged if prune else
+                 unjudged.replace("not pruned", "no line added from the residual"))
+    else:
+        if prune:
+            removals = prune_stage(run, heights=heights, widths=widths, keep=keep,
+                                   constraints=constraints, conf_interval=conf_interval)
+        if add_missed:
+            added = missed_stage(run, added_ids_from)
+    if from_t and not_judged(run.sol) is None:  # weights from a fit far from its end mislead
+        weighted_stage(run)
+    sol, fields, solves = run.sol, run.fields, run.solves
     fields.update(spec=spec, removed=removed_table(removals), added=added_table(added),
                   nfev=sum(s.nfev for s in solves), seconds=sum(s.seconds for s in solves),
                   solve_nfev=tuple(s.nfev for s in solves),

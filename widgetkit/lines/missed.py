@@ -84,8 +84,8 @@ def _local_scatter(r: np.ndarray, x: np.ndarray, at: float, fwhm: float) -> floa
 def find_missed(x, residual, table: pd.DataFrame, noise: float) -> list[Missed]:
     """Lines the fit lacks, from its residual (module docstring). ``table`` is the fit's
     line table (position, height, fwhm); ``noise`` its σ."""
-    from ..processing.peaks import search_peaks
     from ..processing._common import ProcessingError
+    from ..processing.peaks import search_peaks
 
     x, r = np.asarray(x, dtype=float), np.asarray(residual, dtype=float)
     pos = table["position"].to_numpy(dtype=float)
