@@ -42,7 +42,8 @@ MAX_WIDTH_GROWTH = 10.0
 #: narrowed between two samples) would otherwise run off to 1e200 and beyond
 AREA_LIMIT = 1e3
 MIN_MAX_WIDTH = 20.0
-#: a background under which more than this fraction of the lines change sign is not used
+#: a background on which this fraction more of the lines start against the majority sign
+#: is not used
 MAX_FLIPPED = 0.05
 #: when this fraction of the starting heights has one sign, every line takes it
 ONE_SIGN = 0.8
@@ -198,10 +199,12 @@ def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, li
         background = smooth_background(xs, ys, pos, st.fwhm, st.heights, sigma_n)
         if background is not None:
             on_bg = starting_values(xs, ys - background.values, pos, bl, x_ref, heights, widths)
-            flipped = np.mean(np.sign(on_bg.heights) != np.sign(st.heights))
-            if flipped > MAX_FLIPPED:  # it rose above lines: a dense band, not a baseline
-                flags["fit"] = [f"a smooth background was estimated and not used: it rose "
-                                f"above {flipped:.0%} of the lines"]
+            sign = 1.0 if np.mean(st.heights > 0) >= 0.5 else -1.0
+            against = np.mean(np.sign(on_bg.heights) != sign) - np.mean(np.sign(st.heights) != sign)
+            if against > MAX_FLIPPED:  # it rose above lines: a dense band, not a baseline
+                flags["fit"] = [f"a smooth background was estimated and not used: on it "
+                                f"{against:.0%} more of the lines would start with the sign "
+                                "of no other line"]
                 background = None
     if background is not None:
         st = starting_values(xs, ys - background.values, pos, bl, x_ref, heights, widths)
