@@ -108,3 +108,16 @@ def test_a_bad_budget_is_refused_before_fitting(band, starts, kw):
 def test_a_budget_of_none_means_no_cap(band, starts):
     res = wl.fit(band.x, band.y, starts, max_nfev=None, time_limit=None)
     assert res.converged and res.spec["max_nfev"] is None and res.spec["time_limit"] is None
+
+
+def test_the_stages_after_the_first_solve_share_what_the_limit_left():
+    from widgetkit.lines.budget import LATE_SHARE, REFIT_SHARE, stage_seconds
+
+    # the repeat after pruning: what is left of the limit, at least a quarter of it
+    assert stage_seconds(8.0, 2.0, late=False) == 6.0
+    assert stage_seconds(8.0, 8.0, late=False) == REFIT_SHARE * 8.0
+    # later stages: what is left of 1.25 times the limit, at least a tenth of it, so that
+    # first solve + repeat + two later stages end within (1 + 0.25 + 2 x 0.1) x the limit
+    assert stage_seconds(8.0, 8.0, late=True) == 2.0
+    assert stage_seconds(8.0, 10.0, late=True) == LATE_SHARE * 8.0
+    assert stage_seconds(None, 3.0, late=True) is None

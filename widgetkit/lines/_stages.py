@@ -1,8 +1,8 @@
 """The stages of a line fit after its first solve (:func:`~.fitting.fit`): pruning the lines
 the data cannot support (:mod:`.prune`), adding the lines found in the residual
 (:mod:`.missed`) and the last solve weighted for absorbance from transmittance
-(:mod:`.reweight`). Each stage that fits again gets what the time budget left, at least a
-quarter of the limit, and its own replay count."""
+(:mod:`.reweight`). Each stage that fits again gets its share of the time limit
+(:func:`.budget.stage_seconds`) and its own replay count."""
 
 from __future__ import annotations
 
@@ -13,7 +13,7 @@ import numpy as np
 from ._assemble import assemble
 from ._setup import Problem, set_up
 from ._solve import solve
-from .budget import REFIT_SHARE, Budget
+from .budget import Budget, stage_seconds
 from .missed import refit_with_missed
 from .prune import (
     MAX_PRUNED,
@@ -54,10 +54,10 @@ class Run:
     def used(self) -> float:
         return float(sum(s.seconds for s in self.solves))
 
-    def budget(self, text: str) -> Budget:
-        """The budget of the next solve, with its progress line."""
-        left = None if self.time_limit is None else max(self.time_limit - self.used(),
-                                                        REFIT_SHARE * self.time_limit)
+    def budget(self, text: str, late: bool = False) -> Budget:
+        """The budget of the next solve (:func:`.budget.stage_seconds`), with its progress
+        line."""
+        left = stage_seconds(self.time_limit, self.used(), late)
         b = Budget(self.max_nfev, left, self.progress, self.replays[len(self.solves)])
         b.report(text, force=True)
         return b
@@ -120,9 +120,8 @@ def missed_stage(run: Run, first_id) -> list:
     (id, Missed) pairs."""
     stage = refit_with_missed(
         run.prob, run.fields, run.sol, shared_width=run.shared, holds=run.held, args=run.args,
-        max_nfev=run.max_nfev, time_limit=run.time_limit, used=run.used(),
-        progress=run.progress, replay=run.replays[len(run.solves)],
-        max_passes=run.max_passes, first_id=first_id)
+        budget=lambda text: run.budget(text, late=True), max_passes=run.max_passes,
+        first_id=first_id)
     if stage.solution is not None:
         run.solves.append(stage.solution)
     if stage.added:
@@ -137,9 +136,8 @@ def weighted_stage(run: Run) -> None:
     """The last solve, weighted for absorbance computed from transmittance."""
     last = refit_weighted(
         run.prob, run.fields, shared_width=run.shared, holds=run.held, args=run.args,
-        max_nfev=run.max_nfev, time_limit=run.time_limit, used=run.used(),
-        progress=run.progress, replay=run.replays[len(run.solves)],
-        max_passes=run.max_passes)
+        budget=run.budget("fitting again with the noise of absorbance from transmittance",
+                          late=True), max_passes=run.max_passes)
     run.solves.append(last.solution)
     if last.prob is not None:
         run.keep(last.prob, last.fields)

@@ -37,6 +37,21 @@ AUTO_SECONDS = 5.0
 AUTO_PER_LINE = 0.01
 #: a repeated fit (after pruning) gets at least this share of the limit
 REFIT_SHARE = 0.25
+#: a later stage (lines from the residual, the weighted solve) gets what is left of
+#: (1 + REFIT_SHARE) times the limit, and at least this share of it
+LATE_SHARE = 0.1
+
+
+def stage_seconds(time_limit: float | None, used: float, late: bool) -> float | None:
+    """Seconds a solve after the first may use (None: no limit): the repeat after pruning
+    what the limit left, at least :data:`REFIT_SHARE` of it; a later stage what
+    ``(1 + REFIT_SHARE)`` times the limit left, at least :data:`LATE_SHARE` of it (a whole
+    fit ends within about 1.45 times its limit)."""
+    if time_limit is None:
+        return None
+    if late:
+        return max((1.0 + REFIT_SHARE) * time_limit - used, LATE_SHARE * time_limit)
+    return max(time_limit - used, REFIT_SHARE * time_limit)
 
 
 def auto_time_limit(n_lines: int) -> float:

@@ -151,15 +151,14 @@ class MissedStage:
     flag: str = ""
 
 
-def refit_with_missed(prob, fields, sol, *, shared_width, holds, args, max_nfev,
-                      time_limit, used, progress, replay, max_passes,
+def refit_with_missed(prob, fields, sol, *, shared_width, holds, args, budget, max_passes,
                       first_id: int | None = None) -> MissedStage:
     """Fit again with the lines :func:`find_missed` finds in ``fields``' residual; keep that
-    fit only if chi-square fell by more than the added parameters explain."""
+    fit only if chi-square fell by more than the added parameters explain. ``budget(text)``
+    gives the solve's budget."""
     from ._assemble import assemble
     from ._setup import set_up
     from ._solve import solve
-    from .budget import REFIT_SHARE, Budget
 
     cands = find_missed(prob.xs, fields["residual"], fields["table"], prob.noise)
     if not cands:
@@ -173,10 +172,8 @@ def refit_with_missed(prob, fields, sol, *, shared_width, holds, args, max_nfev,
                    widths=np.r_[t["fwhm"].to_numpy(float), [c.fwhm for c in cands]],
                    noise=prob.noise, holds=holds or None, background=prob.background,
                    **{**args, "region": None, "weights": prob.ws}, extra_spec={})
-    left = None if time_limit is None else max(time_limit - used, REFIT_SHARE * time_limit)
-    budget = Budget(max_nfev, left, progress, replay)
-    budget.report(f"fitting again with {len(cands)} lines found in the residual", force=True)
-    sol2 = solve(prob2, budget, max_passes)
+    sol2 = solve(prob2, budget(f"fitting again with {len(cands)} lines found in the residual"),
+                 max_passes)
     r1, r2 = sol.result, sol2.result
     k = max(len(prob2.tmap.var_names) - len(prob.tmap.var_names), 1)
     need = k + 3.0 * np.sqrt(2.0 * k)

@@ -47,13 +47,13 @@ class WeightedStage:
     fields: dict | None = None
 
 
-def refit_weighted(prob, fields, *, shared_width, holds, args, max_nfev, time_limit, used,
-                   progress, replay, max_passes) -> WeightedStage:
-    """Fit once more from ``fields``' values with :func:`transmittance_weights`."""
+def refit_weighted(prob, fields, *, shared_width, holds, args, budget, max_passes
+                   ) -> WeightedStage:
+    """Fit once more from ``fields``' values with :func:`transmittance_weights`, within
+    ``budget``."""
     from ._assemble import assemble
     from ._setup import set_up
     from ._solve import solve
-    from .budget import REFIT_SHARE, Budget
 
     t = fields["table"]
     w = transmittance_weights(fields["model_y"] - fields["baseline_y"], prob.noise)
@@ -62,9 +62,6 @@ def refit_weighted(prob, fields, *, shared_width, holds, args, max_nfev, time_li
                    widths=t["fwhm"].to_numpy(float), noise=prob.noise, holds=holds or None,
                    background=prob.background,
                    **{**args, "region": None, "weights": w}, extra_spec={})
-    left = None if time_limit is None else max(time_limit - used, REFIT_SHARE * time_limit)
-    budget = Budget(max_nfev, left, progress, replay)
-    budget.report("fitting again with the noise of absorbance from transmittance", force=True)
     sol = solve(prob2, budget, max_passes)
     if sol.error is not None or not np.isfinite(sol.result.chisqr):
         return WeightedStage(sol)
