@@ -82,3 +82,15 @@ def test_new_ids_follow_the_integers_or_are_named():
     assert missed._new_ids(["a", "r1"], 2) == ["r2", "r3"]
     assert missed._new_ids([3, 7, 5], 2, first=12) == [12, 13]
     assert missed._new_ids([3, 7, 5], 1, first=4) == [8]
+
+
+def test_a_line_weaker_than_the_peaks_asked_for_is_not_added():
+    x, y, _ = _shoulder()
+    s = wk.Session(wk.Spectrum(x, y, y_kind="absorbance"))
+    s.find_peaks(min_snr=60)  # the flank line stands about 33 σ in the residual
+    assert s.peaks["snr"].min() >= 60
+    s.fit_lines()
+    assert s.line_fit.added.empty
+    s.find_peaks(min_snr=20)
+    s.fit_lines()
+    assert len(s.line_fit.added) == 1

@@ -115,13 +115,13 @@ def prune_stage(run: Run, *, heights, widths, keep, constraints, conf_interval) 
     return removals
 
 
-def missed_stage(run: Run, first_id) -> list:
+def missed_stage(run: Run, first_id, min_snr=None) -> list:
     """Add the lines found in the residual when the data asks for them; returns the added
     (id, Missed) pairs."""
     stage = refit_with_missed(
         run.prob, run.fields, run.sol, shared_width=run.shared, holds=run.held, args=run.args,
         budget=lambda text: run.budget(text, late=True), max_passes=run.max_passes,
-        first_id=first_id)
+        first_id=first_id, min_snr=min_snr)
     if stage.solution is not None:
         run.solves.append(stage.solution)
     if stage.added:

@@ -202,7 +202,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         time_limit: float | str | None = DEFAULT_TIME_LIMIT,
         progress: Callable[[float, str], Any] | None = None, prune: bool = True,
         keep: Sequence | None = None, replay_nfev=None, add_missed: bool = False,
-        added_ids_from: int | None = None) -> LineFit:
+        added_ids_from: int | None = None, added_min_snr: float | None = None) -> LineFit:
     """Fit lines of one shape plus a baseline to ``y(x)``.
 
     Parameters
@@ -274,6 +274,9 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         fell by more than the added parameters explain (:mod:`.missed`); each added line
         is listed in ``LineFit.added``. Default False here; ``Session.fit_lines`` turns it
         on.
+    added_min_snr : float, optional
+        The least significance (height / σ) of a line added from the residual, when above
+        the automatic threshold: a session gives the ``min_snr`` its peaks were found with.
     added_ids_from : int, optional
         The first id of an added line (integer ids; default the next after the largest):
         a session gives its next peak id, so that no later peak gets the same id.
@@ -330,7 +333,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
             removals = prune_stage(run, heights=heights, widths=widths, keep=keep,
                                    constraints=constraints, conf_interval=conf_interval)
         if add_missed:
-            added = missed_stage(run, added_ids_from)
+            added = missed_stage(run, added_ids_from, added_min_snr)
     if from_t and not_judged(run.sol) is None:  # weights from a fit far from its end mislead
         weighted_stage(run)
     sol, fields, solves = run.sol, run.fields, run.solves

@@ -7,7 +7,9 @@ spectroscopist looks at the residual for exactly this; :func:`find_missed` does 
 
 1. The residual ``y − model`` is searched for peaks of the sign of the fitted lines with the
    peak search's own false-alarm threshold (:func:`widgetkit.processing.search_peaks`, the
-   noise σ of the fit, the typical FWHM of the fitted lines as the known width).
+   noise σ of the fit, the typical FWHM of the fitted lines as the known width), or with the
+   threshold the peaks were found with when that was higher (``min_snr``: a user who asked
+   for lines above 10 σ gets no 6 σ line from the residual).
 2. A candidate closer than :data:`CLEAR` FWHM to a fitted line is not taken: there the
    residual is what a line shape that is not quite right leaves (symmetric lobes, a flat
    top), not a new line. Nor is one within :data:`EDGE` FWHM of either end of the data
@@ -81,9 +83,11 @@ def _local_scatter(r: np.ndarray, x: np.ndarray, at: float, fwhm: float) -> floa
     return float(np.sqrt(np.mean(r[use] ** 2)))
 
 
-def find_missed(x, residual, table: pd.DataFrame, noise: float) -> list[Missed]:
+def find_missed(x, residual, table: pd.DataFrame, noise: float,
+                min_snr: float | None = None) -> list[Missed]:
     """Lines the fit lacks, from its residual (module docstring). ``table`` is the fit's
-    line table (position, height, fwhm); ``noise`` its σ."""
+    line table (position, height, fwhm); ``noise`` its σ; ``min_snr`` the threshold the peaks
+    were found with (None: the automatic one)."""
     from ..processing._common import ProcessingError
     from ..processing.peaks import search_peaks
 
@@ -99,6 +103,8 @@ def find_missed(x, residual, table: pd.DataFrame, noise: float) -> list[Missed]:
     try:
         found = search_peaks(x, r, noise=float(noise), width=typical,
                              direction="up" if sign > 0 else "down").table
+        if min_snr is not None and np.isfinite(min_snr):
+            found = found[found["snr"] >= float(min_snr)]
     except ProcessingError:
         return []
     out = []
@@ -152,7 +158,8 @@ class MissedStage:
 
 
 def refit_with_missed(prob, fields, sol, *, shared_width, holds, args, budget, max_passes,
-                      first_id: int | None = None) -> MissedStage:
+                      first_id: int | None = None, min_snr: float | None = None
+                      ) -> MissedStage:
     """Fit again with the lines :func:`find_missed` finds in ``fields``' residual; keep that
     fit only if chi-square fell by more than the added parameters explain. ``budget(text)``
     gives the solve's budget."""
@@ -160,7 +167,7 @@ def refit_with_missed(prob, fields, sol, *, shared_width, holds, args, budget, m
     from ._setup import set_up
     from ._solve import solve
 
-    cands = find_missed(prob.xs, fields["residual"], fields["table"], prob.noise)
+    cands = find_missed(prob.xs, fields["residual"], fields["table"], prob.noise, min_snr)
     if not cands:
         return MissedStage()
     t = fields["table"]

@@ -88,7 +88,8 @@ class FindPeaks(StepKind):
         peaks = _renumber(peaks, state.next_peak_id)
         cols = [c for c in peaks.columns if c != "origin"]
         new, cleared = drop_dependents(state, peaks=peaks)
-        new = new.evolve(next_peak_id=state.next_peak_id + len(peaks))
+        new = new.evolve(next_peak_id=state.next_peak_id + len(peaks),
+                         peak_min_snr=params.get("min_snr"))
         result = _with_cleared({"noise": search.noise.sigma, "search": search.to_json(),
                                 "peaks": table_to_json(peaks[cols])}, cleared)
         how = "automatic" if params.get("min_snr") is None else "given"
@@ -106,7 +107,8 @@ class FindPeaks(StepKind):
     def restore(self, state, params, result, ctx):
         peaks = _recorded_peaks(result.get("peaks"), state.next_peak_id)
         new, _ = drop_dependents(state, peaks=peaks.assign(origin="found"))
-        return new.evolve(next_peak_id=state.next_peak_id + len(peaks))
+        return new.evolve(next_peak_id=state.next_peak_id + len(peaks),
+                          peak_min_snr=params.get("min_snr"))
 
 
 def _without_cut_lines(table: pd.DataFrame, x: np.ndarray) -> tuple[pd.DataFrame, list[float]]:

@@ -166,6 +166,9 @@ class State:
     from_transmittance : bool
         The spectrum is absorbance computed from transmittance (``to_absorbance``): its
         noise grows as 1/T, and a line fit weights for it (``weighting="auto"``).
+    peak_min_snr : float or None
+        The ``min_snr`` the last peak search was asked for (None: automatic); lines a fit
+        adds from its residual must stand out as much.
     """
 
     spectrum: Spectrum | None = None
@@ -178,6 +181,7 @@ class State:
     next_peak_id: int = 1
     band_model: Any = None
     from_transmittance: bool = False
+    peak_min_snr: float | None = None
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     def evolve(self, **changes) -> State:
