@@ -214,8 +214,8 @@ def test_components_are_sparse_beyond_the_dense_limit(monkeypatch):
                        atol=1e-9 * np.abs(res.components).max())
 
 
-def test_points_far_from_lines_match_the_direct_test_including_the_edges():
-    from widgetkit.lines.start import _far_from_lines
+def test_pointsfar_from_lines_match_the_direct_test_including_the_edges():
+    from widgetkit.lines.start import far_from_lines
 
     rng = np.random.default_rng(5)
     for _ in range(100):
@@ -223,9 +223,9 @@ def test_points_far_from_lines_match_the_direct_test_including_the_edges():
         p = rng.uniform(-1.0, 11.0, rng.integers(1, 20))
         reach = rng.uniform(0.0, 2.0, p.size)
         direct = np.all(np.abs(x[:, None] - p[None, :]) > reach[None, :], axis=1)
-        assert np.array_equal(_far_from_lines(x, p, reach), direct)
+        assert np.array_equal(far_from_lines(x, p, reach), direct)
     x = np.arange(10.0)
-    assert _far_from_lines(x, np.array([5.0]), np.array([2.0])).tolist() == [
+    assert far_from_lines(x, np.array([5.0]), np.array([2.0])).tolist() == [
         True, True, True, False, False, False, False, False, True, True]  # |x - 5| > 2
 
 

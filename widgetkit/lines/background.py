@@ -50,6 +50,8 @@ from scipy import sparse
 from scipy.interpolate import BSpline
 from scipy.sparse.linalg import spsolve
 
+from .start import far_from_lines
+
 __all__ = ["Background", "smooth_background", "line_free", "REACH", "CURVED", "KNOT_FWHM"]
 
 #: a point closer than this many starting FWHM to a line is not line-free
@@ -131,12 +133,7 @@ def line_free(x: np.ndarray, positions: np.ndarray, fwhm: np.ndarray, heights: n
     ok = np.isfinite(f) & (f > 0)
     wings = 0.5 * np.sqrt(np.abs(np.asarray(heights, dtype=float)[ok]) / sigma)
     reach = np.maximum(np.clip(np.nan_to_num(wings), REACH, MAX_REACH) * f[ok], 2.0 * dx)
-    lo = np.searchsorted(x, positions[ok] - reach, side="left")
-    hi = np.searchsorted(x, positions[ok] + reach, side="right")
-    cover = np.zeros(x.size + 1, dtype=np.int64)
-    np.add.at(cover, lo, 1)
-    np.add.at(cover, np.maximum(hi, lo), -1)
-    return np.cumsum(cover[:-1]) == 0
+    return far_from_lines(x, np.asarray(positions, dtype=float)[ok], reach)
 
 
 def _straight_ratio(x: np.ndarray, y: np.ndarray, free: np.ndarray, sigma: float

@@ -47,7 +47,7 @@ def _half_width(yb: np.ndarray, x: np.ndarray, i0: int, h: float, lo: int, hi: i
     return abs(xc - x[i0])
 
 
-def _far_from_lines(x: np.ndarray, positions: np.ndarray, reach: np.ndarray) -> np.ndarray:
+def far_from_lines(x: np.ndarray, positions: np.ndarray, reach: np.ndarray) -> np.ndarray:
     """Points further than ``reach`` from every line (linear in lines + points)."""
     lo = np.searchsorted(x, positions - reach, side="left")  # covered: [lo, hi)
     hi = np.searchsorted(x, positions + reach, side="right")
@@ -115,7 +115,7 @@ def starting_values(x: np.ndarray, y: np.ndarray, positions: np.ndarray, baselin
             given = np.asarray(fwhm, dtype=float)
             f_est = np.where(np.isfinite(given), given, f_est)
         # refit the baseline on the points far from every line
-        far = _far_from_lines(x, positions, 5.0 * f_est)
+        far = far_from_lines(x, positions, 5.0 * f_est)
         if far.sum() >= max(5, 2 * len(baseline.params) + 2):
             coef = baseline.start(u[far], y[far])
         else:
