@@ -193,22 +193,9 @@ def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, li
     pos, ids = _check_lines(xs, positions, line_ids, heights, widths, region)
     sigma_n = estimate_noise(ys) if noise is None else float(noise)
     x_ref = 0.5 * (xs[0] + xs[-1])
-    st = starting_values(xs, ys, pos, bl, x_ref, heights, widths)
-    flags: dict = {}
-    if auto and background is None:
-        background = smooth_background(xs, ys, pos, st.fwhm, st.heights, sigma_n)
-        if background is not None:
-            on_bg = starting_values(xs, ys - background.values, pos, bl, x_ref, heights, widths)
-            sign = 1.0 if np.mean(st.heights > 0) >= 0.5 else -1.0
-            against = np.mean(np.sign(on_bg.heights) != sign) - np.mean(np.sign(st.heights) != sign)
-            if against > MAX_FLIPPED:  # it rose above lines: a dense band, not a baseline
-                flags["fit"] = [f"a smooth background was estimated and not used: on it "
-                                f"{against:.0%} more of the lines would start with the sign "
-                                "of no other line"]
-                background = None
-    if background is not None:
-        st = starting_values(xs, ys - background.values, pos, bl, x_ref, heights, widths)
-        flags["fit"] = [background.describe()]
+    st, background, bg_flags = _starts(xs, ys, pos, bl, x_ref, heights, widths, sigma_n,
+                                       auto, background)
+    flags: dict = {"fit": bg_flags} if bg_flags else {}
     st = _one_sign(st, ids, sigma_n, heights, flags)
     for i, h in zip(ids, st.heights):
         if abs(h) < BELOW_NOISE * sigma_n:
@@ -244,6 +231,27 @@ def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, li
                    noise=sigma_n, x_ref=x_ref, starts=st, params=params, tmap=tmap, model=model,
                    lo=lo, hi=hi, dx=dx, nfree=xs.size - len(tmap.var_names), spec=spec,
                    flags=flags, background=background)
+
+
+def _starts(xs, ys, pos, bl, x_ref, heights, widths, sigma, auto: bool,
+            background: Background | None) -> tuple[Starts, Background | None, list]:
+    """Starting values, on the smooth background when there is one (given, or estimated for
+    ``baseline="auto"`` and not refused), the background, and the fit's flags about it."""
+    if background is not None:
+        on_bg = starting_values(xs, ys - background.values, pos, bl, x_ref, heights, widths)
+        return on_bg, background, [background.describe()]
+    st = starting_values(xs, ys, pos, bl, x_ref, heights, widths)
+    bg = smooth_background(xs, ys, pos, st.fwhm, st.heights, sigma) if auto else None
+    if bg is None:
+        return st, None, []
+    on_bg = starting_values(xs, ys - bg.values, pos, bl, x_ref, heights, widths)
+    sign = 1.0 if np.mean(st.heights > 0) >= 0.5 else -1.0
+    against = np.mean(np.sign(on_bg.heights) != sign) - np.mean(np.sign(st.heights) != sign)
+    if against > MAX_FLIPPED:  # it rose above lines: a dense band, not a baseline
+        return st, None, [f"a smooth background was estimated and not used: on it "
+                          f"{against:.0%} more of the lines would start with the sign of no "
+                          "other line"]
+    return on_bg, bg, [bg.describe()]
 
 
 def _one_sign(st: Starts, ids, sigma: float, given, flags: dict) -> Starts:
