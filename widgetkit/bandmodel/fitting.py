@@ -360,5 +360,7 @@ def restore_fit(spectrum: Spectrum, molecule, options: Mapping, recorded: Mappin
         converged=bool(recorded["converged"]), message="restored", nfev=1, njev=0,
         elapsed=time.perf_counter() - t0, chisqr=float(resid @ resid),
         redchi=float(resid @ resid) / dof, error_scale=float(recorded.get("error_scale", 1.0)),
+        error_factors={str(k): float(v) for k, v in dict(recorded.get("error_factors") or {}).items()},
+        structured_residual=bool(recorded.get("structured_residual", False)),
         domain=model_opts.domain, lines=model.line_table(vec), quick=None,
         spec={**o["spec"], "structure_temperature": t_struct}, theta=theta)

@@ -61,7 +61,14 @@ class BandFit:
     chisqr, redchi : float
         Σ residual², χ²/(N − P_free) in y units squared.
     error_scale : float
-        Factor (≥ 1) applied to the standard errors for correlated residuals.
+        The largest factor (≥ 1) by which a standard error was widened because the residual
+        is structured (1: not widened).
+    error_factors : dict
+        Free parameter name -> factor its standard error was widened by
+        (:mod:`widgetkit.bandmodel.structure`); empty when the residual looks like noise.
+    structured_residual : bool
+        True when the residual's points were found correlated (the model misses something)
+        and the standard errors were widened (see ``error_factors`` and the messages).
     domain : str
         Convolution domain used, "absorbance" (approximation) or "transmittance".
     lines : DataFrame
@@ -95,6 +102,8 @@ class BandFit:
     chisqr: float = float("nan")
     redchi: float = float("nan")
     error_scale: float = 1.0
+    error_factors: dict = field(default_factory=dict)
+    structured_residual: bool = False
     domain: str = "absorbance"
     lines: pd.DataFrame = field(default=None, repr=False)
     quick: PRSeparation | None = None

@@ -25,6 +25,7 @@ from .engine import Fitter
 from .params import PRIMARY
 from .quick import PRSeparation
 from .result import PARAMETER_COLUMNS, BandFit, derived_constants
+from .structure import widen
 
 __all__ = ["Run", "relevance"]
 
@@ -237,6 +238,7 @@ class Run:
         cov, r, chi2, scale, idx = f.covariance()
         theta = f.theta
         names = model.names
+        cov, factors = self._widened(cov, r, scale, idx)
         se = np.sqrt(np.clip(np.diag(cov), 0.0, None))
         status = ["free" if p.vary else ("held" if p.name in self.held else "fixed")
                   for p in self.params]
@@ -245,6 +247,11 @@ class Run:
             "unit": [p.unit for p in self.params], "start": [p.value for p in self.params],
             "source": [p.source for p in self.params], "note": [p.note for p in self.params]},
             columns=PARAMETER_COLUMNS)
+        for n, h in factors.items():
+            if h > 1.0:
+                k = names.index(n)
+                ptab.loc[k, "note"] = "; ".join(filter(None, [
+                    ptab.loc[k, "note"], f"standard error widened ×{h:.2g} (structured residual)"]))
         free_names = [names[k] for k in idx]
         sub = cov[np.ix_(idx, idx)]
         d = np.sqrt(np.clip(np.diag(sub), 1e-300, None))
@@ -282,9 +289,37 @@ class Run:
             messages=self.messages + self._start_messages(), converged=converged,
             message=sol.message if sol else "", nfev=f.nfev, njev=f.njev,
             elapsed=time.perf_counter() - self.t0, chisqr=chi2, redchi=chi2 / dof,
-            error_scale=scale, domain=self.opts.domain, lines=model.line_table(theta), quick=pr,
+            error_scale=max((h for n, h in factors.items() if not n.startswith("baseline_")),
+                            default=1.0), error_factors=factors,
+            structured_residual=bool(factors), domain=self.opts.domain,
+            lines=model.line_table(theta), quick=pr,
             spec={**spec, "structure_temperature": self.t_struct},
             theta={n: float(v) for n, v in zip(names, theta, strict=True)})
+
+    def _widened(self, cov, r, scale, idx) -> tuple[np.ndarray, dict[str, float]]:
+        """The covariance with standard errors widened for a structured residual
+        (:mod:`.structure`), and the factor of each free parameter ({} when not widened)."""
+        if not scale > 1.0 or len(idx) == 0:
+            return cov, {}
+        _, J = self.model.evaluate(self.fitter.theta, list(idx), jac=True)
+        self.fitter.nfev += 1
+        self.fitter.njev += 1
+        cov, factors = widen(cov, idx, scale, np.asarray(J), r, self.model.names)
+        if factors:
+            top = sorted(factors.items(), key=lambda kv: -kv[1])
+            top = [(n, h) for n, h in top if not n.startswith("baseline_")] or top
+            shown = ", ".join(f"{n} ×{h:.2g}" for n, h in top)
+            self.messages.append(
+                "the residual is structured, not noise (neighbouring points move together: "
+                "the model misses something); the standard errors were widened by up to "
+                f"×{top[0][1]:.2g} to allow for it ({shown})")
+            k_res = self.model.index.get("resolution")
+            if k_res is not None and not self.params[k_res].vary and self.resolution is not None:
+                self.messages.append(
+                    "the resolution was given and held: a spectrum smoothed after it was "
+                    "recorded (digitised from a plot, resampled) is wider than its nominal "
+                    "resolution; refit with resolution=None to let the fit find it")
+        return cov, factors
 
     def _constant_map(self) -> np.ndarray:
         from .params import constant_map
@@ -329,7 +364,7 @@ class Run:
                        + " rotational numbering comes from the contour only; check B against the line "
                        "spacing, or give start values (start={'band_origin': ..., 'B_lower': ...})")
         if scale > 3.0:
-            out.append(f"the residuals are strongly correlated (errors scaled by {scale:.1f}): "
+            out.append(f"the residuals are strongly correlated (noise scale ×{scale:.1f}): "
                        "the model misses structure (other bands, impurity lines, baseline, "
                        "line shape)")
         return out

@@ -51,6 +51,8 @@ def _result(fit) -> dict:
     return {
         "status": fit.status, "reasons": list(fit.reasons), "converged": bool(fit.converged),
         "domain": fit.domain, "redchi": float(fit.redchi), "error_scale": float(fit.error_scale),
+        "structured_residual": bool(fit.structured_residual),
+        "error_factors": {str(k): float(v) for k, v in fit.error_factors.items()},
         "parameters": table_to_json(fit.parameters[["name", "value", "stderr", "status", "unit"]]),
         "constants": table_to_json(fit.constants),
         "correlation": {"names": list(corr.columns), "matrix": corr.to_numpy().tolist()},

@@ -201,8 +201,9 @@ class BandModelPanel(PlotPanel):
         parts = [f'<span style="color:{color}"><b>{head}</b></span>',
                  f"reduced χ² {format_value(fit.redchi, 4)}",
                  f"instrument convolved in {html.escape(fit.domain)}"]
-        if fit.error_scale > 1.0:
-            parts.append(f"errors × {format_value(fit.error_scale, 3)} for correlated residuals")
+        if fit.structured_residual:
+            parts.append("structured residual: errors widened up to "
+                         f"× {format_value(fit.error_scale, 3)}")
         if fit.quick is not None:
             parts.append(f"P–R maxima {format_value(fit.quick.separation, 4)} cm⁻¹ apart")
         reasons = "".join(f"<li>{html.escape(r)}</li>" for r in fit.reasons)

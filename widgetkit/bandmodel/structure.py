@@ -1,0 +1,86 @@
+"""Standard errors when the residual is structured rather than noise (private).
+
+A band model that misses something (a digitiser's extra smoothing, a wrong instrument
+shape or width, a Lorentzian width held wrong) leaves a residual whose neighbouring points
+move together. The points are then not independent, and s²(JᵀJ)⁻¹ understates the
+uncertainty. Two corrections are applied, both only when the engine's autocorrelation test
+(:func:`.engine.error_scale`) finds the residual correlated, so that white-noise residuals
+keep their plain standard errors:
+
+* the scalar factor f of the engine: the residual's long-run variance over its variance
+  (an effective number of independent points N/f²), the same for every parameter;
+* a per-parameter factor g_j from the heteroskedasticity-and-autocorrelation-consistent
+  ("sandwich") covariance of Newey and West (1987), Econometrica 55, 703–708,
+  C = (JᵀJ)⁻¹ S (JᵀJ)⁻¹ · N/(N − P) with S = Σ_{|k|<L} (1 − |k|/L) Σ_i s_i s_{i+k}ᵀ the
+  Bartlett-weighted autocovariance of the scores s_i = J_i r_i. The Bartlett sum equals
+  the overlapping block sums of the scores, S = (1/L) Σ_t m_t m_tᵀ with m_t the sum of
+  s over the window t … t+L−1 (zero outside the data), which is how it is computed here
+  (O(N P²) for one L). The block length L is not guessed: as in the blocking analysis of
+  correlated data of Flyvbjerg and Petersen (1989), J. Chem. Phys. 91, 461–466, the
+  variance is computed for L = 1, 2, 4, … up to N/8 (at least eight blocks) and the
+  largest value is taken: it grows with L until the blocks outlast the correlation and
+  then levels off or falls (the scores of a least-squares fit sum to zero over the whole
+  data, so at L ≈ N every estimate goes to zero).
+
+Each free parameter's standard error is multiplied by h_j = max(f, g_j) (never below the
+plain error); the correlation matrix is kept. The result says so (``BandFit.error_factors``,
+``structured_residual`` and a message). What the widening cannot see: the part of a model
+mismatch that the fit absorbed into the parameters themselves (the scores sum to zero);
+a strongly structured residual still makes the result doubtful.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .solver import normal_inverse
+
+__all__ = ["block_variances", "widen"]
+
+
+def block_variances(J: np.ndarray, r: np.ndarray) -> np.ndarray:
+    """The largest Newey–West variance of each parameter over block lengths 1, 2, 4, …, N/8
+    (the module notes). ``J`` (N, P) the Jacobian of the free parameters, ``r`` (N,) the
+    residual at the solution."""
+    J = np.asarray(J, dtype=float)
+    r = np.asarray(r, dtype=float)
+    N, P = J.shape
+    if P == 0 or N < 16:
+        return np.zeros(P)
+    bread = normal_inverse(J.T @ J)
+    c = np.zeros((N + 1, P))
+    np.cumsum(J * r[:, None], axis=0, out=c[1:])
+    best = np.zeros(P)
+    dof = N / max(N - P, 1)
+    L = 1
+    while L <= N // 8:
+        start = np.arange(-(L - 1), N)
+        m = c[np.minimum(start + L, N)] - c[np.maximum(start, 0)]  # window sums (N+L−1, P)
+        u = m @ bread
+        best = np.maximum(best, np.einsum("ij,ij->j", u, u) * (dof / L))
+        L *= 2
+    return best
+
+
+def widen(cov: np.ndarray, idx: np.ndarray, f: float, J: np.ndarray | None, r: np.ndarray,
+          names: list[str]) -> tuple[np.ndarray, dict[str, float]]:
+    """Widen the covariance ``cov`` (P_all, P_all; already scaled by f²) of the free
+    parameters ``idx``: returns (covariance, {name: factor}) with factor h_j of the module
+    notes for every free parameter, or ``cov`` unchanged and {} when f = 1 (residual not
+    found correlated) or there is no Jacobian."""
+    if not f > 1.0 or J is None or len(idx) == 0:
+        return cov, {}
+    idx = np.asarray(idx, dtype=int)
+    plain = np.diag(cov)[idx] / (f * f)  # s² (JᵀJ)⁻¹, the white-noise variances
+    var = block_variances(J, r)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        g = np.sqrt(np.where(plain > 0, var / plain, 0.0))
+    g = np.where(np.isfinite(g), g, 0.0)
+    h = np.maximum(g, f)
+    # rescale rows and columns: each error × h_j / f (cov already holds f), correlations kept
+    d = np.ones(cov.shape[0])
+    d[idx] = h / f
+    out = cov * np.outer(d, d)
+    return out, {names[k]: float(v) for k, v in zip(idx, h, strict=True) if math.isfinite(v)}
