@@ -29,7 +29,7 @@ from .checks import (
 from .domain import exact_for_transmittance, guess_y_kind, note_approximation
 from .instrument import fwhm_factor
 from .linear import check_kind, check_linear_options, is_linear_polyatomic, spacing_in_B
-from .result import PARAMETER_COLUMNS, BandFit
+from .result import PARAMETER_COLUMNS, BandFit, mark_not_fitted
 from .stages import Run
 from .start import estimate_starts
 
@@ -351,7 +351,8 @@ def restore_fit(spectrum: Spectrum, molecule, options: Mapping, recorded: Mappin
     table["source"] = "recorded"
     table["note"] = ""
     return BandFit(
-        parameters=table, constants=pd.DataFrame(dict(recorded["constants"])),
+        parameters=table,
+        constants=mark_not_fitted(pd.DataFrame(dict(recorded["constants"])), table),
         correlation=pd.DataFrame(corr, index=names, columns=names),
         covariance=pd.DataFrame(corr * np.outer(sd, sd), index=names, columns=names),
         x=o["x"], y=o["y"], model_y=comp["model"], baseline_y=comp["baseline"], residual=resid,

@@ -24,11 +24,52 @@ from ..levels.bandfit import R_E_CONSTANT
 from ..simulate.linesystem import BAND_NAMES, DunhamMap
 from .quick import PRSeparation
 
-__all__ = ["BandFit", "derived_constants", "CONSTANT_COLUMNS", "PARAMETER_COLUMNS"]
+__all__ = ["BandFit", "derived_constants", "CONSTANT_COLUMNS", "PARAMETER_COLUMNS", "FIXED_NOTE",
+           "HELD_NOTE", "mark_not_fitted", "unmarked"]
 
 CONSTANT_COLUMNS = ["isotopologue", "name", "value", "stderr", "unit", "method"]
 PARAMETER_COLUMNS = ["name", "value", "stderr", "status", "unit", "start", "source", "note"]
 METHOD = "band model"
+#: the ``note`` of a constant that was not fitted: set by the user (or a default) ...
+FIXED_NOTE = "fixed (not fitted)"
+#: ... or held by the fit because the data do not determine it
+HELD_NOTE = "held (not determined by the data)"
+
+
+def mark_not_fitted(constants: pd.DataFrame, parameters: pd.DataFrame) -> pd.DataFrame:
+    """Constants with those that were not fitted marked, so they never read as exact
+    measurements: ``stderr`` NaN and a ``note`` column (:data:`FIXED_NOTE`, :data:`HELD_NOTE`,
+    else empty).
+
+    ``T_rot`` takes the status of the parameter ``temperature`` (``fix={"temperature": 296}``
+    makes it "fixed"); any other constant whose propagated standard error is exactly 0
+    depends on fixed parameters only. A table already marked keeps its notes.
+    """
+    out = constants.copy()
+    before = (out["note"].fillna("").astype(str).tolist() if "note" in out.columns
+              else [""] * len(out))
+    status = {}
+    if {"name", "status"} <= set(parameters.columns):
+        status = dict(zip(parameters["name"].astype(str), parameters["status"].astype(str),
+                          strict=True))
+    notes = []
+    for name, err, old in zip(out["name"].astype(str), pd.to_numeric(out["stderr"], errors="coerce"),
+                              before, strict=True):
+        st = status.get("temperature") if name == "T_rot" else ("fixed" if err == 0 else "free")
+        notes.append(old or (FIXED_NOTE if st == "fixed" else HELD_NOTE if st == "held" else ""))
+    out["note"] = notes
+    out.loc[out["note"] != "", "stderr"] = float("nan")
+    return out
+
+
+def unmarked(constants: pd.DataFrame) -> pd.DataFrame:
+    """The constants as a session records them (sessions saved before the marking verify
+    unchanged): ``stderr`` 0 where a constant was not fitted, and no ``note`` column."""
+    out = constants.copy()
+    if "note" in out.columns:
+        out.loc[out["note"].fillna("").astype(str) != "", "stderr"] = 0.0
+        out = out.drop(columns="note")
+    return out
 
 
 @dataclass(frozen=True)
@@ -41,7 +82,10 @@ class BandFit:
         ``name, value, stderr, status`` ("free", "fixed" or "held": fixed by the fit
         because the data do not determine it), ``unit, start, source, note``.
     constants : DataFrame
-        ``isotopologue, name, value, stderr, unit, method`` (method "band model").
+        ``isotopologue, name, value, stderr, unit, method, note`` (method "band model"). A
+        constant that was not fitted (``T_rot`` with the temperature fixed or held, B with
+        B_e and α_e fixed, ...) has ``stderr`` NaN and ``note`` :data:`FIXED_NOTE` or
+        :data:`HELD_NOTE` (:func:`mark_not_fitted`); ``note`` is empty otherwise.
     correlation, covariance : DataFrame
         Of the free parameters (covariance already scaled, see ``error_scale``).
     x, y, model_y, baseline_y, residual : ndarray (N,)
@@ -123,7 +167,8 @@ class BandFit:
         return float(row["stderr"].iloc[0])
 
     def constant(self, name: str, isotopologue: str | None = None) -> tuple[float, float]:
-        """(value, stderr) of a constant (of the main isotopologue unless named)."""
+        """(value, stderr) of a constant (of the main isotopologue unless named); stderr is
+        NaN for a constant that was not fitted (see ``constants``)."""
         c = self.constants[self.constants["name"] == name]
         if isotopologue is not None:
             c = c[c["isotopologue"] == isotopologue]

@@ -24,7 +24,7 @@ from .checks import check_mapping
 from .engine import Fitter
 from .params import PRIMARY
 from .quick import PRSeparation
-from .result import PARAMETER_COLUMNS, BandFit, derived_constants
+from .result import PARAMETER_COLUMNS, BandFit, derived_constants, mark_not_fitted
 from .structure import widen
 
 __all__ = ["Run", "relevance"]
@@ -272,6 +272,7 @@ class Run:
                                    rhos=rhos, reduced_masses=[self.mol.isotopologue(n).reduced_mass
                                                               for n in isos],
                                    band=self.opts.bands[0])
+        consts = mark_not_fitted(consts, ptab)
         comp = model.components(theta)
         dof = max(self.y.size - len(idx), 1)
         reasons = self._reasons(corr, free_names, theta, se, scale)

@@ -14,6 +14,7 @@ import contextvars
 from collections.abc import Callable, Iterator
 
 from ..errors import AssignmentError, FitError, WidgetkitError
+from ..bandmodel.result import unmarked
 from ..formatting import plural
 from .kinds_analysis import molecule_from_param
 from .params import Param
@@ -54,7 +55,7 @@ def _result(fit) -> dict:
         "structured_residual": bool(fit.structured_residual),
         "error_factors": {str(k): float(v) for k, v in fit.error_factors.items()},
         "parameters": table_to_json(fit.parameters[["name", "value", "stderr", "status", "unit"]]),
-        "constants": table_to_json(fit.constants),
+        "constants": table_to_json(unmarked(fit.constants)),
         "correlation": {"names": list(corr.columns), "matrix": corr.to_numpy().tolist()},
         "messages": [str(m) for m in fit.messages],
         "structure_temperature": float(fit.spec.get("structure_temperature", 0.0)),

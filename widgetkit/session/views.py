@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import pandas as pd
 
+from ..bandmodel.result import FIXED_NOTE, HELD_NOTE, mark_not_fitted
 from ..spectrum import Spectrum
 from .steps import Step
 
@@ -23,45 +24,14 @@ CONSTANT_COLUMNS = ["isotopologue", "name", "value", "stderr", "unit", "method"]
 #: the ``method`` of each source of constants
 METHOD_LINE_POSITIONS = "line positions"
 METHOD_BAND_MODEL = "band model"
-#: the ``note`` of a band-model constant that was not fitted: set by the user (or a default) ...
-FIXED_NOTE = "fixed (not fitted)"
-#: ... or held by the fit because the data do not determine it
-HELD_NOTE = "held (not determined by the data)"
 
 
 def mark_fixed(constants: pd.DataFrame, parameters: pd.DataFrame) -> pd.DataFrame:
-    """Band-model constants with those that were not fitted marked, so they never read as
-    exact measurements: ``stderr`` NaN and a ``note`` column (:data:`FIXED_NOTE`,
-    :data:`HELD_NOTE`, else empty).
-
-    ``T_rot`` takes the status of the parameter ``temperature`` (``fix={"temperature": 296}``
-    makes it "fixed"); any other constant whose propagated standard error is exactly 0 depends
-    on fixed parameters only. The recorded fit keeps its numbers as they were (stderr 0), so
-    sessions saved before still verify; this is how the session and its reports show them.
-
-    Parameters
-    ----------
-    constants : DataFrame
-        ``BandFit.constants`` (``isotopologue, name, value, stderr, unit, method``).
-    parameters : DataFrame
-        ``BandFit.parameters`` (``name, status``, ...).
-
-    Returns
-    -------
-    DataFrame
-        A copy with ``note`` as its last column.
-    """
-    out = constants.copy()
-    status = {}
-    if {"name", "status"} <= set(parameters.columns):
-        status = dict(zip(parameters["name"].astype(str), parameters["status"].astype(str)))
-    notes = []
-    for name, err in zip(out["name"].astype(str), pd.to_numeric(out["stderr"], errors="coerce")):
-        st = status.get("temperature") if name == "T_rot" else ("fixed" if err == 0 else "free")
-        notes.append(FIXED_NOTE if st == "fixed" else HELD_NOTE if st == "held" else "")
-    out["note"] = notes
-    out.loc[out["note"] != "", "stderr"] = float("nan")
-    return out
+    """Band-model constants with those that were not fitted marked (stderr NaN, ``note``
+    :data:`FIXED_NOTE` / :data:`HELD_NOTE`): :func:`widgetkit.bandmodel.result.mark_not_fitted`,
+    which :class:`~widgetkit.bandmodel.BandFit` applies itself; kept for constants read from
+    a record, whose stderr is 0 (so sessions saved before verify unchanged)."""
+    return mark_not_fitted(constants, parameters)
 
 
 def constants_table(state) -> pd.DataFrame:
