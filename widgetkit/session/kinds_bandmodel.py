@@ -13,8 +13,8 @@ import contextlib
 import contextvars
 from collections.abc import Callable, Iterator
 
-from ..errors import AssignmentError, FitError, WidgetkitError
 from ..bandmodel.result import unmarked
+from ..errors import AssignmentError, FitError, WidgetkitError
 from ..formatting import plural
 from .kinds_analysis import molecule_from_param
 from .params import Param
