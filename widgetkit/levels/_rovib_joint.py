@@ -16,7 +16,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import AssignmentError
-from .joint import JOINT_KEY, fit_joint
+from .joint import JOINT_KEY, JointSummary, TooFewIsotopologues, fit_joint
 
 __all__ = ["joint_constants", "JOINT_NAMES"]
 
@@ -34,10 +34,10 @@ def _fit(st, sel, data, rho, masses, reference, opts, msgs):
         try:
             jf = fit_joint(st.iso[sel], st.Ju[sel], st.Jl[sel], data.x[sel], sig, rho=rho,
                            masses=masses, reference=reference, band=opts["band"], centrifugal=mode)
+        except TooFewIsotopologues:
+            raise
         except AssignmentError as exc:
             err = err or exc
-            if "at least two isotopologues" in str(exc):
-                raise
             continue
         if mode != opts["centrifugal"]:
             msgs.append(f"joint isotopologue fit: too few lines for centrifugal="
@@ -47,8 +47,9 @@ def _fit(st, sel, data, rho, masses, reference, opts, msgs):
 
 
 def joint_constants(data, st, good, table: pd.DataFrame, consts: list, covs: dict, msgs: list,
-                    reasons: list, opts: dict, order: list) -> None:
-    """Replace the per-isotopologue constants by those of the joint fit (module docstring)."""
+                    reasons: list, opts: dict, order: list) -> JointSummary:
+    """Replace the per-isotopologue constants by those of the joint fit (module docstring);
+    returns what the joint fit was made of."""
     molecule = opts["molecule"]
     sel = np.nonzero(good & (st.iso != None))[0]  # noqa: E711
     reference = order[0]
@@ -84,9 +85,11 @@ def joint_constants(data, st, good, table: pd.DataFrame, consts: list, covs: dic
     s = data.sigma[rows] if data.sigma is not None else 1.0
     table.loc[rows, "normalised_residual"] = (data.x[rows] - calc) / (s * scatter)
     what = "Birge ratio" if data.sigma is not None else "rms residual (cm-1)"
+    summary = JointSummary(tuple(jf.rho), reference, jf.centrifugal, int(len(sel)), birge, what)
     msgs.append(f"joint isotopologue fit of {len(sel)} lines of {', '.join(jf.rho)} "
                 f"(reference {reference}, centrifugal={jf.centrifugal!r}): {what} {birge:.3g}")
     if data.sigma is not None and np.isfinite(birge) and birge > 3.0:
         reasons.append(f"the joint isotopologue fit scatters {birge:.1f} times the stated position "
                        "errors (more than 3): the sub-bands do not follow one set of mass-scaled "
                        "constants (labels, or a breakdown of the mass scaling); compare joint=False")
+    return summary

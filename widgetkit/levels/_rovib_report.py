@@ -154,8 +154,9 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
                             f"{'area lies' if t[3] == 1 else 'areas lie'} off the Boltzmann plot "
                             f"beyond {opts['outlier_sigma']:g} times the expected scatter "
                             "(a partly blended line?) and were left out")
+    joint = None
     if opts.get("joint"):
-        joint_constants(data, st, good, table, consts, covs, msgs, reasons, opts, order)
+        joint = joint_constants(data, st, good, table, consts, covs, msgs, reasons, opts, order)
     _abundance(data, st, good, molecule, order, trot, opts, consts, msgs, reasons)
     _temperature_reason(consts, order, opts, reasons)
     _report_flags(table, msgs, opts["outlier_sigma"])
@@ -172,7 +173,7 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
     reasons = list(dict.fromkeys(reasons))
     msgs += [f"DOUBTFUL: {r}" for r in reasons]
     return cls(table, cdf, covs, cd, st.rounds, msgs, band, "doubtful" if reasons else "ok",
-               reasons, opts["outlier_sigma"])
+               reasons, opts["outlier_sigma"], joint)
 
 
 def _abundance(data, st, good, molecule, order, trot, opts, consts, msgs, reasons):

@@ -32,6 +32,7 @@ mass-independent in the same approximation.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -40,7 +41,8 @@ from ..errors import AssignmentError
 from ._lsq import LinearFit, SingularDesign, propagate, weighted_lstsq
 from .bandfit import R_E_CONSTANT
 
-__all__ = ["JointFit", "fit_joint", "JOINT_PARAMETERS", "JOINT_KEY"]
+__all__ = ["JointFit", "JointSummary", "fit_joint", "JOINT_PARAMETERS", "JOINT_KEY",
+           "TooFewIsotopologues"]
 
 #: parameters of the reference isotopologue for each choice of ``centrifugal``
 JOINT_PARAMETERS = {
@@ -50,6 +52,52 @@ JOINT_PARAMETERS = {
 }
 #: the ``isotopologue`` of the mass-independent rows (and the key of their covariance)
 JOINT_KEY = "mass-independent"
+
+
+class TooFewIsotopologues(AssignmentError):
+    """The joint fit was given lines of fewer than two isotopologues (nothing to fit jointly)."""
+
+
+@dataclass(frozen=True)
+class JointSummary:
+    """What a joint isotopologue fit inside an assignment was made of
+    (``BandAssignment.joint``; plain values, so a session records it as they are).
+
+    Attributes
+    ----------
+    isotopologues : tuple of str
+        The isotopologues fitted together, the reference first.
+    reference : str
+        The isotopologue whose constants are the fitted set (ρ = 1).
+    centrifugal : str
+        ``"separate"``, ``"shared"`` or ``"none"`` as finally fitted.
+    n_lines : int
+        Lines in the joint fit.
+    scatter : float
+        The Birge ratio (lines with position errors) or the rms residual in cm⁻¹ (without);
+        NaN when the fit has no degrees of freedom.
+    scatter_kind : str
+        ``"Birge ratio"`` or ``"rms residual (cm-1)"``.
+    """
+
+    isotopologues: tuple
+    reference: str
+    centrifugal: str
+    n_lines: int
+    scatter: float
+    scatter_kind: str
+
+    def to_dict(self) -> dict:
+        return {"isotopologues": list(self.isotopologues), "reference": self.reference,
+                "centrifugal": self.centrifugal, "n_lines": int(self.n_lines),
+                "scatter": float(self.scatter), "scatter_kind": self.scatter_kind}
+
+    @classmethod
+    def from_dict(cls, d: Mapping) -> JointSummary:
+        return cls(tuple(str(i) for i in d["isotopologues"]), str(d["reference"]),
+                   str(d["centrifugal"]), int(d["n_lines"]),
+                   float(d["scatter"]) if d.get("scatter") is not None else float("nan"),
+                   str(d["scatter_kind"]))
 
 
 def _design(rho, Ju, Jl, band, centrifugal: str) -> np.ndarray:
@@ -198,7 +246,7 @@ def fit_joint(isotopologue, J_upper, J_lower, position, sigma, *, rho: dict, mas
     found = sorted(set(iso.tolist()), key=str)
     rhos = {float(rho[i]) for i in found}
     if len(rhos) < 2:
-        raise AssignmentError(
+        raise TooFewIsotopologues(
             f"the joint isotopologue fit needs assigned lines of at least two isotopologues "
             f"(found {', '.join(map(str, found)) or 'none'}); ωe and ωexe are told apart only by "
             "their band origins. Use joint=False for separate fits of each sub-band")

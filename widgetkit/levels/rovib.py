@@ -62,6 +62,7 @@ from ..errors import AssignmentError
 from ._rovib_core import prepare_lines
 from ._rovib_locks import parse_locks, solve
 from ._rovib_report import analyse, refuse_unresolved_lines
+from .joint import JointSummary
 from .molecule import Diatomic
 from .plausibility import refuse_unsuitable_spectrum
 
@@ -101,6 +102,11 @@ class BandAssignment:
     outlier_sigma : float
         The outlier threshold used: |obs − calc| > outlier_sigma × σ_eff, the
         expected scatter (column ``normalised_residual`` = (obs − calc)/σ_eff).
+    joint : JointSummary or None
+        With ``joint=True``: what the joint isotopologue fit was made of
+        (isotopologues, reference, centrifugal treatment, lines, scatter;
+        :class:`widgetkit.levels.joint.JointSummary`); None otherwise. A plain
+        dict of the same fields (as a session's record holds it) is converted.
     """
 
     assignments: pd.DataFrame
@@ -113,6 +119,11 @@ class BandAssignment:
     status: str = "ok"
     reasons: list = field(default_factory=list)
     outlier_sigma: float = 4.0
+    joint: JointSummary | None = None
+
+    def __post_init__(self):
+        if isinstance(self.joint, Mapping):
+            object.__setattr__(self, "joint", JointSummary.from_dict(self.joint))
 
     def constant(self, name: str, isotopologue: str | None = None) -> tuple[float, float]:
         """(value, stderr) of one constant (of the first isotopologue listed when not given)."""

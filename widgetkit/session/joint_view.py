@@ -2,13 +2,16 @@
 recomputing anything (the Levels panel and the reports show it; light: pandas only).
 
 An assignment made with ``joint=True`` (:mod:`widgetkit.levels.joint`) has constants rows of
-isotopologue :data:`JOINT_KEY` and a message naming the lines, isotopologues, reference and
-centrifugal treatment of the joint fit; :func:`joint_facts` collects them.
+isotopologue :data:`JOINT_KEY` and a typed field ``joint`` (``JointSummary``: lines,
+isotopologues, reference, centrifugal treatment and scatter of the joint fit; a plain dict of
+the same fields when restored from a session record); :func:`joint_facts` collects them.
+A result recorded before that field existed gives what its constants say (isotopologues
+and rows).
 """
 
 from __future__ import annotations
 
-import re
+from collections.abc import Mapping
 from dataclasses import dataclass
 
 import pandas as pd
@@ -18,8 +21,6 @@ __all__ = ["JointFacts", "joint_facts", "JOINT_KEY"]
 #: the ``isotopologue`` of the mass-independent rows (``widgetkit.levels.joint.JOINT_KEY``;
 #: repeated here so that panels and reports import nothing of the levels package)
 JOINT_KEY = "mass-independent"
-_MESSAGE = re.compile(r"joint isotopologue fit of (\d+) lines of (.+?) \(reference (\S+), "
-                      r"centrifugal='(\w+)'\): (.+)$")
 
 
 def _known(obj, name: str):
@@ -44,7 +45,7 @@ class JointFacts:
     n_lines : int or None
         Lines in the joint fit.
     scatter : str or None
-        Its Birge ratio or rms residual, as the assignment wrote it.
+        Its Birge ratio or rms residual with its kind ("Birge ratio 1.02").
     names : tuple of str
         The mass-independent rows (``U_10``, ..., ``r_e``).
     """
@@ -67,11 +68,15 @@ def joint_facts(assignment) -> JointFacts | None:
     if not len(rows):
         return None
     names = tuple(str(n) for n in rows["name"])
-    for msg in _known(assignment, "messages") or []:
-        m = _MESSAGE.search(str(msg))
-        if m:
-            isos = tuple(i.strip() for i in m[2].split(","))
-            return JointFacts(isos, m[3], m[4], int(m[1]), m[5], names)
+    joint = _known(assignment, "joint")
+    if joint is not None and not isinstance(joint, Mapping):
+        joint = joint.to_dict()
+    if isinstance(joint, Mapping):
+        scatter = joint.get("scatter")
+        shown = None if scatter is None or scatter != scatter else \
+            f"{joint['scatter_kind']} {float(scatter):.3g}"
+        return JointFacts(tuple(str(i) for i in joint["isotopologues"]), str(joint["reference"]),
+                          str(joint["centrifugal"]), int(joint["n_lines"]), shown, names)
     isos = tuple(dict.fromkeys(str(i) for i in consts["isotopologue"] if i != JOINT_KEY
                                and pd.notna(i)))
     return JointFacts(isos, isos[0] if isos else "", names=names)

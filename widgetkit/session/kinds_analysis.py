@@ -13,7 +13,15 @@ import numpy as np
 from ..errors import AssignmentError, SessionStateError
 from ..formatting import plural
 from .params import Param, ParamProblem, show
-from .records import RESULT_TYPES, Restored, decode, encode_fields, table_from_json, table_kinds
+from .records import (
+    RESULT_TYPES,
+    Restored,
+    decode,
+    encode,
+    encode_fields,
+    table_from_json,
+    table_kinds,
+)
 from .steps import RecordMismatch, State, StepKind, register_step, table_to_json
 
 __all__ = ["AssignBand", "molecule_from_param"]
@@ -139,9 +147,13 @@ def _check_molecule(value) -> None:
 
 
 def _assignment_result(out) -> dict:
+    record = encode_fields(out, skip=("assignments", "constants", "joint"))
+    joint = getattr(out, "joint", None)
+    if joint is not None:  # what a joint isotopologue fit was made of, as plain values
+        record["fields"]["joint"] = encode(joint.to_dict())
     return {"assignments": table_to_json(out.assignments), "constants": table_to_json(out.constants),
             "status": getattr(out, "status", "ok"), "reasons": list(getattr(out, "reasons", [])),
-            "record": encode_fields(out, skip=("assignments", "constants"))
+            "record": record
             | {"table_kinds": {"assignments": table_kinds(out.assignments),
                                "constants": table_kinds(out.constants)}}}
 
