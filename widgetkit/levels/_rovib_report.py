@@ -6,6 +6,7 @@ import numpy as np
 import pandas as pd
 
 from ._rovib_core import Lines, State
+from ._rovib_hidden import hidden_neighbours
 from ._rovib_joint import joint_constants
 from .bandfit import combination_differences, equilibrium_constants, rotational_temperature
 from .candidates import C2, format_label, honl_london, rotational_partition
@@ -95,6 +96,8 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
     reasons = list(st.reasons)
     consts, covs, cd_rows, trot = [], {}, [], {}
     order = [i.name for i in molecule.isotopologues if i.name in st.models]
+    hidden = hidden_neighbours(data, st, good, molecule, band, order,
+                               opts["temperature"] or 296.0, opts.get("resolution"))
     for name in order:
         mdl = st.models[name]
         iso = molecule.isotopologue(name)
@@ -140,12 +143,15 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
             r = data.x[sel] - st.calc[sel]
             add("n_lines", len(sel), np.nan, "1")
             add("rms", float(np.sqrt(np.mean(r**2))), np.nan)
-        E = rot_term(st.Jl[sel], mdl.values["B_lower"], mdl.values["D_lower"])
-        t = rotational_temperature(data.x[sel], data.area[sel],
-                                   None if data.area_err is None else data.area_err[sel],
-                                   st.Ju[sel], st.Jl[sel], E,
+        tsel = _clear_of(sel, hidden)
+        E = rot_term(st.Jl[tsel], mdl.values["B_lower"], mdl.values["D_lower"])
+        t = rotational_temperature(data.x[tsel], data.area[tsel],
+                                   None if data.area_err is None else data.area_err[tsel],
+                                   st.Ju[tsel], st.Jl[tsel], E,
                                    temperature_guess=opts["temperature"] or 300.0,
                                    outlier_sigma=opts["outlier_sigma"])
+        if len(tsel) < len(sel):
+            msgs.append(_hidden_message(name, sel, tsel, hidden, table))
         if t is not None:
             add("T_rot", t[0], t[1], "K")
             trot[name] = t[0]
@@ -157,7 +163,8 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
     joint = None
     if opts.get("joint"):
         joint = joint_constants(data, st, good, table, consts, covs, msgs, reasons, opts, order)
-    _abundance(data, st, good, molecule, order, trot, opts, consts, msgs, reasons)
+    _abundance(data, st, good & ~np.isin(np.arange(n), list(hidden)), molecule, order, trot, opts,
+               consts, msgs, reasons)
     _temperature_reason(consts, order, opts, reasons)
     _report_flags(table, msgs, opts["outlier_sigma"])
     cd = pd.DataFrame(cd_rows, columns=["isotopologue", "state", "J", "lines", "value", "stderr",
@@ -174,6 +181,22 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
     msgs += [f"DOUBTFUL: {r}" for r in reasons]
     return cls(table, cdf, covs, cd, st.rounds, msgs, band, "doubtful" if reasons else "ok",
                reasons, opts["outlier_sigma"], joint)
+
+
+def _clear_of(sel: np.ndarray, hidden: dict) -> np.ndarray:
+    """``sel`` without the lines another line may hide in (all of ``sel`` when fewer than
+    five would be left: the Boltzmann plot then keeps them, and says so)."""
+    clear = sel[~np.isin(sel, list(hidden))]
+    return clear if len(clear) >= 5 else sel
+
+
+def _hidden_message(name, sel, tsel, hidden, table) -> str:
+    out = [i for i in sel if i not in set(tsel.tolist())]
+    shown = ", ".join(f"{table['label'].iloc[i]} ({hidden[i]})" for i in out[:6])
+    more = f" and {len(out) - 6} more" if len(out) > 6 else ""
+    return (f"{name}: T_rot and the area ratios leave out {len(out)} "
+            f"{'line' if len(out) == 1 else 'lines'} that may hold an unresolved line of another "
+            f"sub-band in their area: {shown}{more}")
 
 
 def _abundance(data, st, good, molecule, order, trot, opts, consts, msgs, reasons):
