@@ -126,6 +126,18 @@ class Fitter:
         self.theta = best[2] if best[2] is not None else start
         return best[1]
 
+    def jacobian(self, idx) -> np.ndarray:
+        """J (N, len(idx)) at θ: the last run's when it was for these parameters at this θ
+        (the solver's final Jacobian), else evaluated."""
+        idx = [int(k) for k in idx]
+        c = self._cache
+        if c is not None and c[1] == idx and np.array_equal(c[0], self.theta):
+            return c[2]
+        _, J = self.model.evaluate(self.theta, idx, jac=True)
+        self.nfev += 1
+        self.njev += 1
+        return J
+
     def covariance(self) -> tuple[np.ndarray, np.ndarray, float, float, np.ndarray]:
         """(cov (P, P) with zeros where fixed, residual, χ², error scale, free indices)."""
         idx = self.free()

@@ -302,9 +302,7 @@ class Run:
         (:mod:`.structure`), and the factor of each free parameter ({} when not widened)."""
         if not scale > 1.0 or len(idx) == 0:
             return cov, {}
-        _, J = self.model.evaluate(self.fitter.theta, list(idx), jac=True)
-        self.fitter.nfev += 1
-        self.fitter.njev += 1
+        J = self.fitter.jacobian(idx)
         cov, factors = widen(cov, idx, scale, np.asarray(J), r, self.model.names)
         if factors:
             top = sorted(factors.items(), key=lambda kv: -kv[1])
