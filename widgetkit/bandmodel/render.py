@@ -306,7 +306,9 @@ def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, 
     if work is None:
         work = {}
     if work.get("grid") is not grid:
-        work.clear()
+        if work.get("size") != (grid.M, grid.n_fft):
+            work.clear()  # (the scratch arrays hold zeros beyond M: kept for the same M only)
+            work["size"] = (grid.M, grid.n_fft)
         work["grid"] = grid
         work["t"] = grid.t
     t = work["t"]
