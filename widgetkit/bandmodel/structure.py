@@ -46,6 +46,11 @@ def _dots(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return np.array([float(np.dot(u, v)) for u, v in zip(a, b, strict=True)])
 
 
+def _squares(a: np.ndarray) -> np.ndarray:
+    """Σ_i a[j, i]² for every row j of a short array (one call)."""
+    return np.einsum("ij,ij->i", a, a)
+
+
 def block_variances(J: np.ndarray, r: np.ndarray) -> np.ndarray:
     """The largest Newey–West variance of each parameter over block lengths 1, 2, 4, …, N/8
     (the module notes). ``J`` (N, P) the Jacobian of the free parameters, ``r`` (N,) the
@@ -75,12 +80,11 @@ def block_variances(J: np.ndarray, r: np.ndarray) -> np.ndarray:
     L = 1
     while L <= N // 8:
         first, last = w[:, :L], w[:, N + 1 - L:]
-        inside = (2.0 * total - _dots(first, first) - _dots(last, last)
+        inside = (2.0 * total - _squares(first) - _squares(last)
                   - 2.0 * _dots(w[:, L:], w[:, :N + 1 - L]))
         if L > 1:
-            head = w[:, 1:L] - w[:, :1]  # windows that begin before the data
-            tail = w[:, N:N + 1] - w[:, N - L + 1:N]  # and those that end after it
-            inside += _dots(head, head) + _dots(tail, tail)
+            inside += _squares(w[:, 1:L] - w[:, :1])  # windows that begin before the data
+            inside += _squares(w[:, N:N + 1] - w[:, N - L + 1:N])  # and that end after it
         best = np.maximum(best, inside * (dof / L))
         L *= 2
     return best
