@@ -1,9 +1,10 @@
 """Lines deposited on the working grid, and the grid sampled at the data points (private;
-the steps 1 and 3 of :mod:`.render`)."""
+the steps 1 and 3 of :mod:`.render`); the renderer's work arrays."""
 
 from __future__ import annotations
 
 import math
+import threading
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -12,7 +13,7 @@ from scipy.interpolate import CubicSpline
 if TYPE_CHECKING:
     from .render import Grid
 
-__all__ = ["deposit", "sample", "scratch", "WINDOW"]
+__all__ = ["deposit", "sample", "scratch", "thread_work", "WINDOW", "SHARED_WORK_MAX"]
 
 _SQRT2PI = math.sqrt(2.0 * math.pi)
 WINDOW = 7.0  # deposit half-window in units of s_k
@@ -83,3 +84,25 @@ def scratch(work: dict, name: str, shape: tuple, dtype) -> np.ndarray:
     if a is None or a.shape != shape or a.dtype != dtype:
         a = work[name] = np.zeros(shape, dtype=dtype)
     return a
+
+
+_LOCAL = threading.local()
+#: largest FFT length whose work arrays a thread keeps after its fits (a few MB)
+SHARED_WORK_MAX = 1 << 18
+
+
+def thread_work(n_fft: int, own: dict) -> dict:
+    """The renderer's work arrays: those of the calling thread for grids up to
+    :data:`SHARED_WORK_MAX` (a fit builds new models: stages, a rebuilt line list, the next
+    spectrum of a series; sharing the arrays spares each the first touch of fresh memory,
+    page faults worth a twentieth of a benchmark fit), else the model's own ``own`` (large
+    grids: their arrays go with the model). Safe because the renderer uses them only within
+    one call (the Jacobian it returns in one of them is copied by
+    :meth:`.model.BandModel._assemble` before the next call) and a thread makes one call at
+    a time."""
+    if n_fft > SHARED_WORK_MAX:
+        return own
+    work = getattr(_LOCAL, "work", None)
+    if work is None:
+        work = _LOCAL.work = {}
+    return work

@@ -24,7 +24,6 @@ y = 10^(−baseline) · T_band for transmittance data.
 from __future__ import annotations
 
 import math
-import threading
 
 import numpy as np
 import pandas as pd
@@ -33,28 +32,13 @@ import scipy.constants as sc
 from ..errors import FitError
 from ..oscillator import C2
 from ..simulate.linesystem import LineSystem
+from .deposit import thread_work
 from .instrument import SIGMA_PER_FWHM, fwhm_factor
 from .render import LN10, Kernel, auxiliary_tau, deposit_extra, make_grid, render
 
 __all__ = ["BandModel"]
 
 _KT_MC2 = sc.k / (sc.atomic_mass * sc.c**2)  # σ_D/ν = sqrt(T/M · this), M in u
-
-
-_LOCAL = threading.local()
-
-
-def _thread_work() -> dict:
-    """The renderer's work arrays of the calling thread. A fit builds new models (stages, a
-    rebuilt line list, the next spectrum of a series); sharing the arrays spares each the
-    first touch of fresh memory (page faults, a twentieth of a benchmark fit). Safe because
-    the renderer uses them only within one call (the Jacobian it returns in one of them is
-    copied by :meth:`BandModel._assemble` before the next call) and one thread makes one
-    call at a time."""
-    work = getattr(_LOCAL, "work", None)
-    if work is None:
-        work = _LOCAL.work = {}
-    return work
 
 
 class BandModel:
@@ -107,9 +91,9 @@ class BandModel:
         #: the renderer's cache of it
         self._value_key: tuple | None = None
         self._value_cache: dict = {}
-        #: the renderer's work arrays (absorbance domain), kept between evaluations and
-        #: shared by the models of this thread (see :func:`_thread_work`)
-        self._work: dict = _thread_work()
+        #: the renderer's work arrays (absorbance domain) for large grids, kept between
+        #: evaluations (small grids use the thread's, see :func:`.deposit.thread_work`)
+        self._work: dict = {}
         self.iso_names = [f"abundance_ratio({n})" for n in system.isotopologues[1:]]
         self.nfev = 0
         self.njev = 0
@@ -281,7 +265,7 @@ class BandModel:
         if self.domain == "absorbance":
             th_lines, scale = self._use_value_cache(theta, k_area, base_idx)
             kw["cache"] = self._value_cache
-            kw["work"] = self._work
+            kw["work"] = thread_work(self.grid.n_fft, self._work)
         pos, area, sig, d_pos, d_area, d_sig, _ = self.lines(th_lines, rlin)
         keep = self.keep
         kern = self.kernel(theta)

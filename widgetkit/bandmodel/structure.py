@@ -16,12 +16,13 @@ keep their plain standard errors:
   the overlapping block sums of the scores, S = (1/L) Σ_t m_t m_tᵀ with m_t the sum of
   s over the window t … t+L−1 (zero outside the data), which is how it is computed here
   (the window sums are differences of the running sum of the scores, projected once on
-  (JᵀJ)⁻¹: O(N P²) once, then O(N P) for each L; see :func:`block_variances`). The block length L is not guessed: as
-  in the blocking analysis of correlated data of Flyvbjerg and Petersen (1989), J. Chem.
-  Phys. 91, 461–466, the variance is computed for L = 1, 2, 4, … up to N/8 (at least eight
-  blocks) and the largest value is taken: it grows with L until the blocks outlast the correlation and
-  then levels off or falls (the scores of a least-squares fit sum to zero over the whole
-  data, so at L ≈ N every estimate goes to zero).
+  (JᵀJ)⁻¹: O(N P²) once, then O(N P) for each L; see :func:`block_variances`). The block
+  length L is not guessed: as in the blocking analysis of correlated data of Flyvbjerg and
+  Petersen (1989), J. Chem. Phys. 91, 461–466, the variance is computed for L = 1, 2, 4, …
+  up to N/8 (at least eight blocks) and the largest value is taken: it grows with L until
+  the blocks outlast the correlation and then levels off or falls (the scores of a
+  least-squares fit sum to zero over the whole data, so at L ≈ N every estimate goes to
+  zero).
 
 Each free parameter's standard error is multiplied by h_j = max(f, g_j) (never below the
 plain error); the correlation matrix is kept. The result says so (``BandFit.error_factors``,
