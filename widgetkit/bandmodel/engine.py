@@ -64,7 +64,7 @@ class Fitter:
         self.njev = 0
         self.last: Solution | None = None
         self._cache: tuple | None = None  # (θ, free indices, J, data − model) of the last run
-        self._cov_memo: tuple | None = None  # (the _cache it belongs to, covariance() of it)
+        self._cov_memo: tuple | None = None  # (the _cache it belongs to, covariance(), (JᵀJ)⁻¹)
         self.messages: list[str] = []
 
     def index(self, name: str) -> int:
@@ -163,5 +163,16 @@ class Fitter:
         if P:
             cov[np.ix_(idx, idx)] = inv * (chi2 / dof) * f * f
         ix = np.array(idx, dtype=int)
-        self._cov_memo = (self._cache, (cov, r, chi2, f, ix))
+        self._cov_memo = (self._cache, (cov, r, chi2, f, ix), inv)
         return cov.copy(), r, chi2, f, ix.copy()
+
+    def normal_inverse(self) -> np.ndarray | None:
+        """(JᵀJ)⁻¹ of the free parameters that the last :meth:`covariance` computed, while
+        θ and the free parameters are still those (else None)."""
+        m = self._cov_memo
+        if m is None or m[0] is not self._cache or self._cache is None:
+            return None
+        c = self._cache
+        if c[1] != self.free() or not np.array_equal(c[0], self.theta):
+            return None
+        return m[2]

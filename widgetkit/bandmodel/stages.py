@@ -303,7 +303,8 @@ class Run:
         if not scale > 1.0 or len(idx) == 0:
             return cov, {}
         J = self.fitter.jacobian(idx)
-        cov, factors = widen(cov, idx, scale, np.asarray(J), r, self.model.names)
+        cov, factors = widen(cov, idx, scale, np.asarray(J), r, self.model.names,
+                             bread=self.fitter.normal_inverse())
         if factors:
             top = sorted(factors.items(), key=lambda kv: -kv[1])
             top = [(n, h) for n, h in top if not n.startswith("baseline_")] or top

@@ -52,10 +52,10 @@ def _squares(a: np.ndarray) -> np.ndarray:
     return np.einsum("ij,ij->i", a, a)
 
 
-def block_variances(J: np.ndarray, r: np.ndarray) -> np.ndarray:
+def block_variances(J: np.ndarray, r: np.ndarray, bread: np.ndarray | None = None) -> np.ndarray:
     """The largest Newey–West variance of each parameter over block lengths 1, 2, 4, …, N/8
     (the module notes). ``J`` (N, P) the Jacobian of the free parameters, ``r`` (N,) the
-    residual at the solution.
+    residual at the solution; ``bread`` (JᵀJ)⁻¹ when the caller has it.
 
     With c the running sum of the scores (c_0 = 0, c_N their total) and w = c (JᵀJ)⁻¹, the
     window sums projected on (JᵀJ)⁻¹ are differences of w: w_{t+L} − w_t inside the data,
@@ -70,7 +70,7 @@ def block_variances(J: np.ndarray, r: np.ndarray) -> np.ndarray:
     N, P = J.shape
     if P == 0 or N < 16:
         return np.zeros(P)
-    bread = normal_inverse(J.T @ J)
+    bread = normal_inverse(J.T @ J) if bread is None else bread
     c = np.zeros((P, N + 1))
     np.cumsum((J * r[:, None]).T, axis=1, out=c[:, 1:])
     w = bread.T @ c  # (P, N + 1): row j is parameter j
@@ -92,16 +92,17 @@ def block_variances(J: np.ndarray, r: np.ndarray) -> np.ndarray:
 
 
 def widen(cov: np.ndarray, idx: np.ndarray, f: float, J: np.ndarray | None, r: np.ndarray,
-          names: list[str]) -> tuple[np.ndarray, dict[str, float]]:
+          names: list[str], bread: np.ndarray | None = None) -> tuple[np.ndarray, dict[str, float]]:
     """Widen the covariance ``cov`` (P_all, P_all; already scaled by f²) of the free
     parameters ``idx``: returns (covariance, {name: factor}) with factor h_j of the module
     notes for every free parameter, or ``cov`` unchanged and {} when f = 1 (residual not
-    found correlated) or there is no Jacobian."""
+    found correlated) or there is no Jacobian. ``bread``: (JᵀJ)⁻¹ of the free parameters
+    when the caller has it (else computed)."""
     if not f > 1.0 or J is None or len(idx) == 0:
         return cov, {}
     idx = np.asarray(idx, dtype=int)
     plain = np.diag(cov)[idx] / (f * f)  # s² (JᵀJ)⁻¹, the white-noise variances
-    var = block_variances(J, r)
+    var = block_variances(J, r, bread)
     with np.errstate(divide="ignore", invalid="ignore"):
         g = np.sqrt(np.where(plain > 0, var / plain, 0.0))
     g = np.where(np.isfinite(g), g, 0.0)
