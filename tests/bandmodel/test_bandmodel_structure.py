@@ -107,3 +107,14 @@ def test_the_session_records_the_widening_and_verifies():
     assert rec["error_factors"]["B_e"] == pytest.approx(s.band_model.error_factors["B_e"])
     assert rec["error_scale"] >= rec["error_factors"]["B_e"] > 1.0
     assert s.verify().ok
+    # restored from the record (no refit): the same flag and factors; a record from before
+    # the flag existed counts an error scale above 1 as structured
+    from widgetkit.session.steps import STEP_KINDS
+
+    step = s.history[-1]
+    kind = STEP_KINDS["fit_band_model"]
+    back = kind.restore(s.state_at(0), dict(step.params), step.result, s._ctx).band_model
+    assert back.structured_residual and back.error_factors == pytest.approx(rec["error_factors"])
+    old = {k: v for k, v in rec.items() if k not in ("structured_residual", "error_factors")}
+    older = kind.restore(s.state_at(0), dict(step.params), old, s._ctx).band_model
+    assert older.structured_residual and older.error_factors == {}

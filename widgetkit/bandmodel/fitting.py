@@ -362,6 +362,8 @@ def restore_fit(spectrum: Spectrum, molecule, options: Mapping, recorded: Mappin
         elapsed=time.perf_counter() - t0, chisqr=float(resid @ resid),
         redchi=float(resid @ resid) / dof, error_scale=float(recorded.get("error_scale", 1.0)),
         error_factors={str(k): float(v) for k, v in dict(recorded.get("error_factors") or {}).items()},
-        structured_residual=bool(recorded.get("structured_residual", False)),
+        # a record from before the flag: its error scale above 1 meant the same
+        structured_residual=bool(recorded.get("structured_residual",
+                                              float(recorded.get("error_scale", 1.0)) > 1.0)),
         domain=model_opts.domain, lines=model.line_table(vec), quick=None,
         spec={**o["spec"], "structure_temperature": t_struct}, theta=theta)
