@@ -242,16 +242,17 @@ class Run:
         se = np.sqrt(np.clip(np.diag(cov), 0.0, None))
         status = ["free" if p.vary else ("held" if p.name in self.held else "fixed")
                   for p in self.params]
-        ptab = pd.DataFrame({
-            "name": names, "value": theta, "stderr": se, "status": status,
-            "unit": [p.unit for p in self.params], "start": [p.value for p in self.params],
-            "source": [p.source for p in self.params], "note": [p.note for p in self.params]},
-            columns=PARAMETER_COLUMNS)
+        notes = [p.note for p in self.params]
         for n, h in factors.items():
             if h > 1.0:
                 k = names.index(n)
-                ptab.loc[k, "note"] = "; ".join(filter(None, [
-                    ptab.loc[k, "note"], f"standard error widened ×{h:.2g} (structured residual)"]))
+                notes[k] = "; ".join(filter(None, [
+                    notes[k], f"standard error widened ×{h:.2g} (structured residual)"]))
+        ptab = pd.DataFrame({
+            "name": names, "value": theta, "stderr": se, "status": status,
+            "unit": [p.unit for p in self.params], "start": [p.value for p in self.params],
+            "source": [p.source for p in self.params], "note": notes},
+            columns=PARAMETER_COLUMNS)
         free_names = [names[k] for k in idx]
         sub = cov[np.ix_(idx, idx)]
         d = np.sqrt(np.clip(np.diag(sub), 1e-300, None))
