@@ -7,7 +7,7 @@ BELOW_THE_FACES = [
     "widgetkit", "widgetkit.spectrum", "widgetkit.errors", "widgetkit.units", "widgetkit.io",
     "widgetkit.processing", "widgetkit.lines", "widgetkit.levels", "widgetkit.oscillator",
     "widgetkit.simulate", "widgetkit.bandmodel", "widgetkit.session", "widgetkit.cli",
-    "widgetkit.formatting",
+    "widgetkit.formatting", "widgetkit.fitmarks",
     "widgetkit.report",
 ]
 

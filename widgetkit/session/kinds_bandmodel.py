@@ -13,8 +13,8 @@ import contextlib
 import contextvars
 from collections.abc import Callable, Iterator
 
-from ..bandmodel.result import unmarked
 from ..errors import AssignmentError, FitError, WidgetkitError
+from ..fitmarks import unmarked
 from ..formatting import plural
 from .kinds_analysis import molecule_from_param
 from .params import Param

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import pandas as pd
 
-from ..bandmodel.result import FIXED_NOTE, HELD_NOTE, mark_not_fitted
+from ..fitmarks import FIXED_NOTE, HELD_NOTE, mark_not_fitted
 from ..spectrum import Spectrum
 from .steps import Step
 
