@@ -19,7 +19,8 @@ import numpy as np
 
 from ..errors import FitError
 from ..processing.noise import estimate_noise
-from .background import Background, smooth_background
+from ..processing.fringe import Fringe
+from .background import Background, fringe_background, smooth_background
 from .baselines import Baseline, get_baseline
 from .model import WindowedModel
 from .params import ThetaMap, build_params, line_prefix, theta_names
@@ -169,12 +170,14 @@ def _check_lines(xs, positions, line_ids, heights, widths, region):
 
 def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, line_ids,
            heights, widths, noise, constraints, weights, extra_spec: Mapping,
-           holds: Mapping | None = None, background: Background | None = None) -> Problem:
+           holds: Mapping | None = None, background: Background | None = None,
+           fringe: Fringe | None = None) -> Problem:
     """Check everything and build the :class:`Problem` (arguments as :func:`~.fitting.fit`;
     ``extra_spec`` joins the settings record; ``holds`` maps line ids to
     ``{"position": (lo, hi), "width_max": w}``, either optional: bounds of a line's
     centre and widths, within the usual ones; ``background`` one already estimated, for
-    the repeated fit of ``baseline="auto"``)."""
+    the repeated fit of ``baseline="auto"``; ``fringe`` an interference fringe to make part of
+    the background of ``baseline="auto"``)."""
     auto = isinstance(baseline, str) and baseline == "auto"
     shp, bl = get_shape(shape), get_baseline("linear" if auto else baseline)
     spec = _spec(shape=shp.name, shared_width=shared_width,
@@ -191,10 +194,14 @@ def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, li
         raise FitError(f"window must be a number of half widths above 1 or None, got {window!r}")
     xs, ys, ws = _prepare_data(x, y, weights, region)
     pos, ids = _check_lines(xs, positions, line_ids, heights, widths, region)
-    sigma_n = estimate_noise(ys) if noise is None else float(noise)
+    fringe = fringe if auto and background is None else None
+    if noise is not None:
+        sigma_n = float(noise)
+    else:
+        sigma_n = estimate_noise(ys if fringe is None else ys - fringe.at(xs))
     x_ref = 0.5 * (xs[0] + xs[-1])
     st, background, bg_flags = _starts(xs, ys, pos, bl, x_ref, heights, widths, sigma_n,
-                                       auto, background)
+                                       auto, background, fringe)
     flags: dict = {"fit": bg_flags} if bg_flags else {}
     st = _one_sign(st, ids, sigma_n, heights, flags)
     for i, h in zip(ids, st.heights):
@@ -234,23 +241,27 @@ def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, li
 
 
 def _starts(xs, ys, pos, bl, x_ref, heights, widths, sigma, auto: bool,
-            background: Background | None) -> tuple[Starts, Background | None, list]:
+            background: Background | None, fringe: Fringe | None = None
+            ) -> tuple[Starts, Background | None, list]:
     """Starting values, on the smooth background when there is one (given, or estimated for
     ``baseline="auto"`` and not refused), the background, and the fit's flags about it."""
     if background is not None:
         on_bg = starting_values(xs, ys - background.values, pos, bl, x_ref, heights, widths)
         return on_bg, background, [background.describe()]
-    st = starting_values(xs, ys, pos, bl, x_ref, heights, widths)
-    bg = smooth_background(xs, ys, pos, st.fwhm, st.heights, sigma) if auto else None
+    plain = ys if fringe is None else ys - fringe.at(xs)
+    st = starting_values(xs, plain, pos, bl, x_ref, heights, widths)
+    bg = (smooth_background(xs, ys, pos, st.fwhm, st.heights, sigma, fringe=fringe)
+          if auto else None)
     if bg is None:
         return st, None, []
     on_bg = starting_values(xs, ys - bg.values, pos, bl, x_ref, heights, widths)
     sign = 1.0 if np.mean(st.heights > 0) >= 0.5 else -1.0
     against = np.mean(np.sign(on_bg.heights) != sign) - np.mean(np.sign(st.heights) != sign)
     if against > MAX_FLIPPED:  # it rose above lines: a dense band, not a baseline
-        return st, None, [f"a smooth background was estimated and not used: on it "
-                          f"{against:.0%} more of the lines would start with the sign of no "
-                          "other line"]
+        why = (f"a smooth background was estimated and not used: on it {against:.0%} more of "
+               "the lines would start with the sign of no other line")
+        only = fringe_background(fringe, xs)
+        return (st, None, [why]) if only is None else (st, only, [why, only.describe()])
     return on_bg, bg, [bg.describe()]
 
 

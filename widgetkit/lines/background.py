@@ -30,6 +30,12 @@ and subtracts it before the fit, which then adds a straight-line correction as u
    than :data:`OUTLIER` σ from it (weak lines the peak search left out) are dropped and
    the spline fitted again (twice at most).
 
+4. **An interference fringe** found by the peak search (:mod:`widgetkit.processing.fringe`;
+   the session passes it on) is part of the background: its sinusoids, at the frequencies
+   the peak search measured, are fitted again to the line-free points together with the
+   spline (their coefficients unpenalised), and the background is estimated even when,
+   without the fringe, a straight line would do (then the spline is left out).
+
 The knots are set from the lines, so the background cannot make a line-shaped bump; it
 follows anything broader than a few line widths. The record says when a background was
 subtracted (:class:`Background` ``.describe()``).
@@ -48,11 +54,14 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import sparse
 from scipy.interpolate import BSpline
+from scipy.optimize import minimize_scalar
 from scipy.sparse.linalg import spsolve
 
+from ..errors import FitError
+from ..processing.fringe import Fringe
 from .start import far_from_lines
 
-__all__ = ["Background", "smooth_background", "line_free", "REACH", "CURVED", "KNOT_FWHM"]
+__all__ = ["Background", "smooth_background", "fringe_background", "as_fringe", "line_free", "REACH", "CURVED", "KNOT_FWHM"]
 
 #: a point closer than this many starting FWHM to a line is not line-free
 REACH = 3.0
@@ -91,6 +100,9 @@ class Background:
     straight_ratio : float
         Scatter of the line-free points about a straight line, in noise variances (what
         decided that a straight line would not do).
+    fringe : Fringe or None
+        The interference fringe in the background (refitted on the line-free points); no
+        knots then means no spline, only the fringe.
     """
 
     knots: np.ndarray = field(repr=False)
@@ -99,31 +111,50 @@ class Background:
     knot_spacing: float
     n_free: int
     straight_ratio: float
+    fringe: Fringe | None = None
 
     def at(self, x) -> np.ndarray:
-        """The background at ``x`` (cm⁻¹; 0 outside the knots)."""
-        spline = BSpline(self.knots, self.coefficients, 3, extrapolate=False)
-        return np.nan_to_num(spline(np.asarray(x, dtype=float)), nan=0.0)
+        """The background at ``x`` (cm⁻¹; the spline is 0 outside its knots)."""
+        xa = np.asarray(x, dtype=float)
+        out = np.zeros_like(xa)
+        if self.knots.size:
+            spline = BSpline(self.knots, self.coefficients, 3, extrapolate=False)
+            out += np.nan_to_num(spline(xa), nan=0.0)
+        if self.fringe is not None:
+            out += self.fringe.at(xa)
+        return out
 
     def to_json(self) -> dict:
-        return {"knots": self.knots.tolist(), "coefficients": self.coefficients.tolist(),
-                "knot_spacing": self.knot_spacing, "n_free": self.n_free,
-                "straight_ratio": self.straight_ratio}
+        out = {"knots": self.knots.tolist(), "coefficients": self.coefficients.tolist(),
+               "knot_spacing": self.knot_spacing, "n_free": self.n_free,
+               "straight_ratio": self.straight_ratio}
+        if self.fringe is not None:
+            out["fringe"] = self.fringe.to_json()
+        return out
 
     @classmethod
     def from_json(cls, d, x) -> Background:
         """The background of a record ``d`` (:meth:`to_json`), evaluated at ``x``."""
         knots = np.asarray(d["knots"], dtype=float)
         coefficients = np.asarray(d["coefficients"], dtype=float)
+        fringe = Fringe.from_json(d["fringe"]) if d.get("fringe") is not None else None
         tmp = cls(knots, coefficients, np.zeros(0), float(d["knot_spacing"]), int(d["n_free"]),
-                  float(d["straight_ratio"]))
+                  float(d["straight_ratio"]), fringe)
         return dataclasses.replace(tmp, values=tmp.at(x))
 
     def describe(self) -> str:
-        return (f"a smooth background (cubic spline, knots every {self.knot_spacing:.3g} "
-                f"cm-1, fitted to {self.n_free} line-free points) was subtracted before the "
-                f"fit: about a straight line those points scatter {self.straight_ratio:.3g} x "
-                "the noise variance")
+        parts = []
+        if self.knots.size:
+            parts.append(f"a smooth background (cubic spline, knots every "
+                         f"{self.knot_spacing:.3g} cm-1, fitted to {self.n_free} line-free "
+                         f"points) was subtracted before the fit: about a straight line those "
+                         f"points scatter {self.straight_ratio:.3g} x the noise variance")
+        if self.fringe is not None:
+            how = (f"refitted to {self.n_free} line-free points" if self.n_free else
+                   "as the peak search measured it: too few line-free points to refit it")
+            parts.append(self.fringe.describe().replace(
+                "was set aside", f"was subtracted before the fit ({how})"))
+        return "; ".join(parts)
 
 
 def line_free(x: np.ndarray, positions: np.ndarray, fwhm: np.ndarray, heights: np.ndarray,
@@ -149,27 +180,40 @@ def _straight_ratio(x: np.ndarray, y: np.ndarray, free: np.ndarray, sigma: float
     return ratio, ratio > CURVED and chi2 > dof + 5.0 * math.sqrt(2.0 * dof)
 
 
-def _pspline(x: np.ndarray, y: np.ndarray, use: np.ndarray, spacing: float
-             ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Penalised cubic B-spline through the ``use`` points: knots, coefficients and the
-    values at every x."""
+def _pspline(x: np.ndarray, y: np.ndarray, use: np.ndarray, spacing: float | None,
+             extra: np.ndarray | None = None
+             ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Penalised cubic B-spline (``spacing`` None: a straight line, unpenalised) plus the
+    unpenalised columns ``extra`` (n, m), fitted to the ``use`` points: knots (empty for
+    the straight line), spline coefficients, the coefficients of ``extra`` and the values of
+    the spline part at every x."""
     k = 3
-    n_int = max(1, int(math.ceil((x[-1] - x[0]) / spacing)))
-    inner = np.linspace(x[0], x[-1], n_int + 1)
-    t = np.concatenate([[x[0]] * k, inner, [x[-1]] * k])
-    b = BSpline.design_matrix(x, t, k).tocsr()
+    if spacing is None:
+        t = np.zeros(0)
+        b = sparse.csr_matrix(np.column_stack([np.ones_like(x), x - x.mean()]))
+        n_pen = 0
+    else:
+        n_int = max(1, int(math.ceil((x[-1] - x[0]) / spacing)))
+        inner = np.linspace(x[0], x[-1], n_int + 1)
+        t = np.concatenate([[x[0]] * k, inner, [x[-1]] * k])
+        b = BSpline.design_matrix(x, t, k).tocsr()
+        n_pen = b.shape[1]
+    nb = b.shape[1]
+    full = b if extra is None else sparse.hstack([b, sparse.csr_matrix(extra)]).tocsr()
+    nc = full.shape[1]
     w = sparse.diags(use.astype(float))
-    nc = b.shape[1]
-    d2 = sparse.diags([np.ones(nc - 2), -2.0 * np.ones(nc - 2), np.ones(nc - 2)], [0, 1, 2],
-                      shape=(nc - 2, nc))
-    per_knot = max(float(use.sum()) / nc, 1.0)
-    lhs = (b.T @ w @ b + PENALTY * per_knot * (d2.T @ d2)).tocsc()
-    rhs = b.T @ (use * y)
-    c = spsolve(lhs, rhs)
-    return t, c, b @ c
+    lhs = full.T @ w @ full
+    if n_pen > 2:
+        d2 = sparse.diags([np.ones(n_pen - 2), -2.0 * np.ones(n_pen - 2), np.ones(n_pen - 2)],
+                          [0, 1, 2], shape=(n_pen - 2, nc))
+        per_knot = max(float(use.sum()) / n_pen, 1.0)
+        lhs = lhs + PENALTY * per_knot * (d2.T @ d2)
+    c = np.atleast_1d(spsolve(lhs.tocsc(), full.T @ (use * y)))
+    return t, c[:nb], c[nb:], b @ c[:nb]
 
 
-def smooth_background(x, y, positions, fwhm, heights, sigma: float) -> Background | None:
+def smooth_background(x, y, positions, fwhm, heights, sigma: float,
+                      fringe: Fringe | None = None) -> Background | None:
     """The smooth background under the lines of ``y(x)``, or None when a straight line
     does (module docstring).
 
@@ -180,13 +224,16 @@ def smooth_background(x, y, positions, fwhm, heights, sigma: float) -> Backgroun
     positions, fwhm, heights : array_like
         Starting centres and FWHM of the lines (cm⁻¹) and their heights (y units).
     sigma : float
-        Noise σ of y.
+        Noise σ of y (without the fringe).
+    fringe : Fringe, optional
+        An interference fringe found by the peak search: always part of the background,
+        refitted to the line-free points (as given when there are too few).
     """
     x, y = np.asarray(x, float), np.asarray(y, float)
     pos = np.asarray(positions, float)
     f, h = np.abs(np.asarray(fwhm, float)), np.abs(np.asarray(heights, float))
     if x.size < 4 * KNOT_STEPS or not (sigma > 0 and math.isfinite(sigma)) or pos.size == 0:
-        return None
+        return fringe_background(fringe, x)
     dx = float(np.median(np.diff(x)))
     good = np.isfinite(f) & (f > 0) & np.isfinite(h)
     strong = good & (h >= np.quantile(h[good], 0.75)) if good.any() else good
@@ -194,17 +241,68 @@ def smooth_background(x, y, positions, fwhm, heights, sigma: float) -> Backgroun
     f = np.minimum(f, WIDE * width)
     free = line_free(x, pos, f, h, sigma, dx)
     if free.sum() < max(MIN_FREE, 0.1 * x.size):
+        return fringe_background(fringe, x)
+    ratio, curved = _straight_ratio(x, y if fringe is None else y - fringe.at(x), free, sigma)
+    if not curved and fringe is None:
         return None
-    ratio, curved = _straight_ratio(x, y, free, sigma)
-    if not curved:
-        return None
-    spacing = max(KNOT_FWHM * width, KNOT_STEPS * dx)
+    spacing = max(KNOT_FWHM * width, KNOT_STEPS * dx) if curved else None
+    if fringe is not None:
+        fringe = _retuned(fringe, x, y, free, spacing)
+    extra = None if fringe is None else fringe.columns(x)
     use = free.copy()
     for _ in range(3):
-        t, c, bg = _pspline(x, y, use, spacing)
-        far = use & (np.abs(y - bg) > OUTLIER * sigma)
+        t, c, cf, part = _pspline(x, y, use, spacing, extra)
+        rings = 0.0 if extra is None else extra @ cf
+        far = use & (np.abs(y - part - rings) > OUTLIER * sigma)
         if not far.any() or (use.sum() - far.sum()) < max(MIN_FREE, 0.05 * x.size):
             break
         use &= ~far
-    return Background(knots=t, coefficients=c, values=bg, knot_spacing=spacing, n_free=int(use.sum()),
-                      straight_ratio=ratio)
+    refitted = None if fringe is None else fringe.with_coefficients(cf)
+    if spacing is None:  # the straight line is the fit's own baseline: only the fringe stays
+        c, part = np.zeros(0), 0.0
+    return Background(knots=t, coefficients=c, values=part + rings,
+                      knot_spacing=0.0 if spacing is None else spacing, n_free=int(use.sum()),
+                      straight_ratio=ratio, fringe=refitted)
+
+
+def as_fringe(value) -> Fringe | None:
+    """A :class:`~widgetkit.processing.fringe.Fringe` from itself, its JSON or None."""
+    if value is None or isinstance(value, Fringe):
+        return value
+    try:
+        return Fringe.from_json(value)
+    except (TypeError, KeyError, ValueError) as exc:
+        raise FitError(f"fringe must be a Fringe (PeakSearch.context.fringe), its JSON or None, "
+                       f"got {type(value).__name__}: {exc}") from None
+
+
+def _retuned(fringe: Fringe, x, y, use, spacing) -> Fringe:
+    """The fringe with its frequencies tuned, one after the other, within one periodogram bin
+    of the data (1 / span) to the least residual of spline and fringe on the ``use`` points
+    (the peak search measured them with a rougher mask of the lines)."""
+    span = float(x[-1] - x[0])
+    freqs = np.array(fringe.frequency, dtype=float)
+
+    def rss(f: float, k: int) -> float:
+        trial = freqs.copy()
+        trial[k] = f
+        tuned = dataclasses.replace(fringe, frequency=trial)
+        _, _, cf, part = _pspline(x, y, use, spacing, tuned.columns(x))
+        r = (y - part - tuned.columns(x) @ cf)[use]
+        return float(r @ r)
+
+    for k, f0 in enumerate(freqs.copy()):
+        lo, hi = max(f0 - 1.0 / span, 0.5 * f0), f0 + 1.0 / span
+        best = minimize_scalar(rss, bounds=(lo, hi), args=(k,), method="bounded",
+                               options={"xatol": 1e-3 / span})
+        if best.fun < rss(f0, k):
+            freqs[k] = float(best.x)
+    return dataclasses.replace(fringe, frequency=freqs)
+
+
+def fringe_background(fringe: Fringe | None, x: np.ndarray) -> Background | None:
+    """The peak search's fringe as the whole background (too few line-free points to fit)."""
+    if fringe is None:
+        return None
+    return Background(knots=np.zeros(0), coefficients=np.zeros(0), values=fringe.at(x),
+                      knot_spacing=0.0, n_free=0, straight_ratio=0.0, fringe=fringe)

@@ -60,6 +60,7 @@ from ._assemble import assemble
 from ._setup import set_up
 from ._solve import solve, verdict
 from ._stages import Run, missed_stage, prune_stage, weighted_stage
+from .background import as_fringe
 from .budget import (
     DEFAULT_MAX_NFEV,
     DEFAULT_TIME_LIMIT,
@@ -202,7 +203,8 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         time_limit: float | str | None = DEFAULT_TIME_LIMIT,
         progress: Callable[[float, str], Any] | None = None, prune: bool = True,
         keep: Sequence | None = None, replay_nfev=None, add_missed: bool = False,
-        added_ids_from: int | None = None, added_min_snr: float | None = None) -> LineFit:
+        added_ids_from: int | None = None, added_min_snr: float | None = None,
+        fringe=None) -> LineFit:
     """Fit lines of one shape plus a baseline to ``y(x)``.
 
     Parameters
@@ -280,6 +282,11 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     added_ids_from : int, optional
         The first id of an added line (integer ids; default the next after the largest):
         a session gives its next peak id, so that no later peak gets the same id.
+    fringe : Fringe or its JSON, optional
+        An interference fringe of the baseline found by the peak search
+        (``PeakSearch.context.fringe``; a session passes its own): with ``baseline="auto"``
+        it is refitted to the line-free points with the smooth background and subtracted
+        (:mod:`.background`), and the noise is measured without it.
     replay_nfev : int or sequence, optional
         For replaying a recorded fit that ran out of time: per solve, the time
         limit counts as reached before evaluation ``n + 1``, whatever the clock
@@ -308,9 +315,11 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     weights = None if from_t else weights
     args = dict(shape=shape, baseline=baseline, region=region, window=window,
                 constraints=constraints, weights=weights)
+    fringe = as_fringe(fringe)
     prob = set_up(x, y, positions, shared_width=shared_width, line_ids=line_ids,
-                  heights=heights, widths=widths, noise=noise, **args,
-                  extra_spec={"max_nfev": max_nfev, "time_limit": time_limit,
+                  heights=heights, widths=widths, noise=noise, **args, fringe=fringe,
+                  extra_spec={**({"fringe": fringe.to_json()} if fringe is not None else {}),
+                              "max_nfev": max_nfev, "time_limit": time_limit,
                               "prune": bool(prune), "add_missed": bool(add_missed),
                               "keep": None if keep is None else list(keep),
                               **({"weights": FROM_TRANSMITTANCE} if from_t else {})})

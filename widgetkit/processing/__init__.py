@@ -8,7 +8,8 @@ session (:mod:`widgetkit.session`) calls them and records each call as a step.
 Modules: :mod:`.transform` (crop, to_absorbance, to_transmittance, to_raman_shift),
 :mod:`.baseline` (baseline_poly, baseline_als, subtract_baseline),
 :mod:`.noise` (measure_noise, estimate_noise: the one noise σ),
-:mod:`.envelope` (local baseline, typical width), :mod:`.threshold`
+:mod:`.envelope` (local baseline, typical width), :mod:`.fringe` (find_fringe, Fringe:
+interference fringes of the baseline), :mod:`.threshold`
 (default_threshold: the false-alarm rule), :mod:`.peak_data` (peak_context: what a
 search measures first), :mod:`.peaks` (search_peaks, find_peaks), :mod:`.peak_edit`
 (nearest_maximum, peak_row, peak_table: peaks placed by hand), :mod:`.decimate` (decimate_minmax).
@@ -42,6 +43,8 @@ __all__ = [
     "line_free_mask",
     "local_baseline",
     "typical_width",
+    "find_fringe",
+    "Fringe",
     "find_peaks",
     "search_peaks",
     "peak_context",
@@ -63,6 +66,7 @@ _WHERE = {
                                      "baseline_poly", "second_difference_penalty",
                                      "subtract_baseline")},
     **{name: "envelope" for name in ("local_baseline", "typical_width")},
+    **{name: "fringe" for name in ("Fringe", "find_fringe")},
     **{name: "noise" for name in ("NoiseEstimate", "estimate_noise", "line_free_mask",
                                   "measure_noise")},
     **{name: "peak_edit" for name in ("nearest_maximum", "peak_row", "peak_table")},

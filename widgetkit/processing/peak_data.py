@@ -12,6 +12,7 @@ from scipy import ndimage, signal
 
 from ._common import ProcessingError, as_xy
 from .envelope import NARROW, baseline_window, local_baseline, three_point_width, typical_width
+from .fringe import MIN_PERIOD_WIDTHS, Fringe, find_fringe
 from .noise import NoiseEstimate, measure_noise
 from .threshold import MIN_PROMINENCE, default_threshold
 
@@ -67,6 +68,9 @@ class PeakContext:
     rho, matched_rho : float or None
         Correlation of neighbouring noise samples in ``signal`` and ``matched``
         (None: not filtered), for the false-alarm rule (:func:`default_threshold`).
+    fringe : Fringe or None
+        An interference fringe found in the baseline (:mod:`.fringe`) and set aside: it is
+        part of ``baseline``, and the noise, widths and heights are measured without it.
     """
 
     noise: NoiseEstimate
@@ -83,6 +87,7 @@ class PeakContext:
     gentle: np.ndarray | None = field(default=None, repr=False)
     gentle_gain: float = 1.0
     baseline_variance: np.ndarray | None = field(default=None, repr=False)
+    fringe: Fringe | None = None
 
     @property
     def sign(self) -> float:
@@ -142,7 +147,7 @@ def _first_pass_width(s: np.ndarray, sigma: float, n: int) -> float:
 
 
 def peak_context(x, y, *, noise=None, noise_region=None, direction: str = "up",
-                 width: float | None = None) -> PeakContext:
+                 width: float | None = None, fringe: bool = True) -> PeakContext:
     """Noise, local baseline, typical width and smoothing of a spectrum (module docstring).
 
     Parameters
@@ -158,22 +163,45 @@ def peak_context(x, y, *, noise=None, noise_region=None, direction: str = "up",
     width : float, optional
         A known line FWHM in cm⁻¹ (for example the instrument resolution); used
         when no feature stands out enough to measure it.
+    fringe : bool, default True
+        Look for an interference fringe in the baseline (:func:`~.fringe.find_fringe`) and
+        set it aside: the noise is measured, and the peaks are sought, on the data without
+        it, and the local baseline follows it. A fringe whose period is under
+        :data:`~.fringe.MIN_PERIOD_WIDTHS` typical line widths is not set aside (such a
+        ripple cannot be told from lines).
     """
     xa, ya = as_xy(x, y)
     if direction not in ("up", "down"):
         raise ProcessingError(f"direction must be 'up' (peaks) or 'down' (dips), got "
                               f"{direction!r}")
+    wf = None
+    if width is not None:
+        wf = float(width)
+        if not (math.isfinite(wf) and wf > 0):
+            raise ProcessingError(f"width must be a positive FWHM in cm-1, got {width!r}")
+    found = None
+    if fringe:
+        est = _noise(xa, ya, noise, noise_region)
+        found = find_fringe(xa, ya, est.sigma)
+    if found is not None:
+        ctx = _context(xa, ya - found.at(xa), noise, noise_region, direction, wf, found)
+        dx = float(np.median(np.diff(xa)))
+        if not (math.isfinite(ctx.width)
+                and float(np.min(found.periods)) < MIN_PERIOD_WIDTHS * ctx.width * dx):
+            return ctx
+    return _context(xa, ya, est if fringe else noise, noise_region, direction, wf, None)
+
+
+def _context(xa, ya, noise, noise_region, direction: str, wf: float | None,
+             fringe: Fringe | None) -> PeakContext:
+    """:func:`peak_context` of data from which ``fringe`` (if any) was taken away."""
     est = _noise(xa, ya, noise, noise_region)
     sigma = est.sigma
     s0 = ya if direction == "up" else -ya
     w = typical_width(s0, sigma, min_prominence=WIDTH_PROMINENCE)
     dx = float(np.median(np.diff(xa)))
-    if width is not None:
-        wf = float(width)
-        if not (math.isfinite(wf) and wf > 0):
-            raise ProcessingError(f"width must be a positive FWHM in cm-1, got {width!r}")
-        if not math.isfinite(w):
-            w = wf / dx
+    if wf is not None and not math.isfinite(w):
+        w = wf / dx
     wb = w if math.isfinite(w) else 1.0
     base, _, base_var = local_baseline(s0, sigma, window=baseline_window(wb, ya.size), width=wb)
     above = s0 - base
@@ -187,10 +215,13 @@ def peak_context(x, y, *, noise=None, noise_region=None, direction: str = "up",
         gentle = ndimage.gaussian_filter1d(above, sd, mode="nearest")
         ggain = float(np.sqrt(np.sum(ndimage.gaussian_filter1d(_unit(int(8 * sd) + 1), sd,
                                                                  mode="constant") ** 2)))
-    return PeakContext(noise=est, direction=direction, baseline=base if direction == "up"
-                       else -base, width=w, smoothing=win, gain=gain, signal=sm, matched=mf,
-                       matched_gain=mgain, rho=rho, matched_rho=mrho, gentle=gentle,
-                       gentle_gain=ggain, baseline_variance=base_var)
+    baseline = base if direction == "up" else -base
+    if fringe is not None:
+        baseline = baseline + fringe.at(xa)
+    return PeakContext(noise=est, direction=direction, baseline=baseline, width=w,
+                       smoothing=win, gain=gain, signal=sm, matched=mf, matched_gain=mgain,
+                       rho=rho, matched_rho=mrho, gentle=gentle, gentle_gain=ggain,
+                       baseline_variance=base_var, fringe=fringe)
 
 
 def _unit(half: int) -> np.ndarray:

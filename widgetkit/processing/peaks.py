@@ -43,6 +43,10 @@ samples), with the false-alarm budget shared between the two searches; it
 adds the lines the first search missed. This finds undersampled weak lines
 (FWHM 2–5 samples) that a single sample cannot show.
 
+**Fringes.** An interference fringe in the baseline (a sinusoid of constant period,
+:mod:`.fringe`) is found first and set aside: its maxima are not reported as peaks, the
+noise is measured without it, and the local baseline (the ``baseline`` column) follows it.
+
 **Blends and noise on tops.** A maximum also needs a prominence (the depth
 of the valley that separates it from higher ground, :func:`scipy.signal.
 peak_prominences`, on the searched data) of at least ``min_prominence``
@@ -177,7 +181,8 @@ class PeakSearch:
         return {"noise": c.noise.to_json(), "direction": c.direction,
                 "min_snr": float(self.min_snr), "threshold": self.threshold,
                 "min_prominence": float(self.min_prominence), "smoothing": int(c.smoothing),
-                "width_points": None if not math.isfinite(c.width) else float(c.width)}
+                "width_points": None if not math.isfinite(c.width) else float(c.width),
+                **({"fringe": c.fringe.to_json()} if c.fringe is not None else {})}
 
 
 def _empty_table() -> pd.DataFrame:
@@ -260,7 +265,7 @@ def _plateau_merge(ctx: PeakContext, idx: np.ndarray, p_min: float) -> np.ndarra
 def search_peaks(x, y, *, min_snr: float | None = None, min_separation: float | None = None,
                  noise=None, noise_region=None, direction: str = "up",
                  min_prominence: float | None = None, width: float | None = None,
-                 context: PeakContext | None = None) -> PeakSearch:
+                 context: PeakContext | None = None, fringe: bool = True) -> PeakSearch:
     """Find the peaks of ``y`` that stand out of the noise (see the module docstring).
 
     Parameters
@@ -286,6 +291,9 @@ def search_peaks(x, y, *, min_snr: float | None = None, min_separation: float | 
         Known line FWHM in cm⁻¹, used when no line stands out enough to measure it.
     context : PeakContext, optional
         A context already computed for these data (:func:`peak_context`).
+    fringe : bool, default True
+        Set an interference fringe of the baseline aside before the search
+        (:mod:`.fringe`; its maxima are not lines). ``context.fringe`` holds it.
 
     Returns
     -------
@@ -300,7 +308,7 @@ def search_peaks(x, y, *, min_snr: float | None = None, min_separation: float | 
     """
     xa, ya = as_xy(x, y)
     ctx = context or peak_context(xa, ya, noise=noise, noise_region=noise_region,
-                                  direction=direction, width=width)
+                                  direction=direction, width=width, fringe=fringe)
     sigma = ctx.noise.sigma
     p_min = MIN_PROMINENCE if min_prominence is None else float(min_prominence)
     if not (math.isfinite(p_min) and p_min >= 0):
@@ -361,8 +369,9 @@ def search_peaks(x, y, *, min_snr: float | None = None, min_separation: float | 
 
 def find_peaks(x, y, *, min_snr: float | None = None, min_separation: float | None = None,
                noise=None, noise_region=None, direction: str = "up",
-               min_prominence: float | None = None, width: float | None = None) -> pd.DataFrame:
+               min_prominence: float | None = None, width: float | None = None,
+               fringe: bool = True) -> pd.DataFrame:
     """The peak table of :func:`search_peaks` (same parameters)."""
     return search_peaks(x, y, min_snr=min_snr, min_separation=min_separation, noise=noise,
                         noise_region=noise_region, direction=direction,
-                        min_prominence=min_prominence, width=width).table
+                        min_prominence=min_prominence, width=width, fringe=fringe).table

@@ -216,7 +216,7 @@ class FitLines(StepKind):
                         line_ids=[int(i) for i in peaks["peak_id"]], progress=_PROGRESS.get(),
                         keep=_by_hand(peaks), replay_nfev=replay_nfev,
                         added_ids_from=int(state.next_peak_id),
-                        added_min_snr=state.peak_min_snr, **opts)
+                        added_min_snr=state.peak_min_snr, fringe=state.fringe, **opts)
         usable = np.all(np.isfinite(fit.table["position"])) and np.isfinite(fit.chisqr)
         if not fit.converged and (strict or not usable):
             why = "strict=True asks for a converged fit" if usable else "the result holds " \

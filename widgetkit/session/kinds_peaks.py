@@ -44,17 +44,20 @@ def _resolution(sp) -> float | None:
     return r if np.isfinite(r) and r > 0 else None
 
 
-def peak_context(state: State, noise_region=None):
+def peak_context(state: State, noise_region=None, fringe: bool | None = None):
     """The peak-search context (noise, local baseline, width) of the state's spectrum,
-    computed once per spectrum and noise region."""
-    key = ("peak_context", None if noise_region is None else tuple(noise_region))
+    computed once per spectrum, noise region and fringe setting (None: look for a fringe
+    when the last peak search found one)."""
+    if fringe is None:
+        fringe = state.fringe is not None
+    key = ("peak_context", None if noise_region is None else tuple(noise_region), bool(fringe))
     if key not in state._cache:
         from .. import processing
 
         sp = state.require_spectrum()
         state._cache[key] = processing.peak_context(
             sp.x, sp.y, noise_region=noise_region, direction=_direction(sp),
-            width=_resolution(sp))
+            width=_resolution(sp), fringe=bool(fringe))
     return state._cache[key]
 
 
@@ -71,6 +74,9 @@ class FindPeaks(StepKind):
               doc="a flat stretch to measure the noise on"),
         Param("min_prominence", "number", None, minimum=0, maximum=1e9, nullable=True,
               doc="smallest prominence, in noise sigmas of the data searched"),
+        Param("fringe", "boolean", False,
+              doc="set an interference fringe of the baseline aside (absent in a record: "
+                  "off; Session.find_peaks turns it on)"),
     )
     argument_error = ProcessingError
 
@@ -78,7 +84,7 @@ class FindPeaks(StepKind):
         from ..processing import search_peaks
 
         sp = state.require_spectrum()
-        context = peak_context(state, params.get("noise_region"))
+        context = peak_context(state, params.get("noise_region"), bool(params.get("fringe")))
         search = search_peaks(
             sp.x, sp.y, min_snr=params.get("min_snr"), min_separation=params.get("min_separation"),
             min_prominence=params.get("min_prominence"), context=context)
@@ -89,12 +95,14 @@ class FindPeaks(StepKind):
         cols = [c for c in peaks.columns if c != "origin"]
         new, cleared = drop_dependents(state, peaks=peaks)
         new = new.evolve(next_peak_id=state.next_peak_id + len(peaks),
-                         peak_min_snr=params.get("min_snr"))
+                         peak_min_snr=params.get("min_snr"), fringe=context.fringe)
         result = _with_cleared({"noise": search.noise.sigma, "search": search.to_json(),
                                 "peaks": table_to_json(peaks[cols])}, cleared)
         how = "automatic" if params.get("min_snr") is None else "given"
         summary = (f"found {plural(len(peaks), 'peak')} with SNR ≥ {search.min_snr:.3g} ({how}); "
                    f"{search.noise.describe()}")
+        if context.fringe is not None:
+            summary += f"; {context.fringe.describe()}"
         if cut:  # recorded only when there are some, so earlier results stay as they were
             result["cut_by_edge"] = cut
             what = ("a line cut by the edge, whose position" if len(cut) == 1 else
@@ -108,7 +116,22 @@ class FindPeaks(StepKind):
         peaks = _recorded_peaks(result.get("peaks"), state.next_peak_id)
         new, _ = drop_dependents(state, peaks=peaks.assign(origin="found"))
         return new.evolve(next_peak_id=state.next_peak_id + len(peaks),
-                          peak_min_snr=params.get("min_snr"))
+                          peak_min_snr=params.get("min_snr"), fringe=_recorded_fringe(result))
+
+
+def _recorded_fringe(result):
+    """The fringe a recorded peak search set aside (None when it found none)."""
+    search = result.get("search") if isinstance(result, dict) else None
+    rec = search.get("fringe") if isinstance(search, dict) else None
+    if rec is None:
+        return None
+    from ..processing.fringe import Fringe
+
+    try:
+        return Fringe.from_json(rec)
+    except (TypeError, KeyError, ValueError) as exc:
+        raise RecordMismatch(f"the recorded fringe of the peak search is unreadable: {exc}") \
+            from None
 
 
 def _without_cut_lines(table: pd.DataFrame, x: np.ndarray) -> tuple[pd.DataFrame, list[float]]:

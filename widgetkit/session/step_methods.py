@@ -52,7 +52,8 @@ class StepMethods:
         self._run("subtract_baseline", {"method": method, **opts})
 
     def find_peaks(self, *, min_snr: float | None = None, min_separation: float | None = None,
-                   noise_region=None, min_prominence: float | None = None) -> pd.DataFrame:
+                   noise_region=None, min_prominence: float | None = None,
+                   fringe: bool = True) -> pd.DataFrame:
         """Find the peaks (dips for transmittance) that stand out of the noise; replaces the
         peak table and clears the line fit and assignment that rested on the old one.
 
@@ -61,9 +62,11 @@ class StepMethods:
         ``min_snr=None`` (default) sets the threshold from the length of the spectrum so
         that pure noise gives on average under 0.05 false peaks; see
         :func:`widgetkit.processing.search_peaks`. The step records σ, how it was measured
-        and the threshold used.
+        and the threshold used. With ``fringe=True`` (default) an interference fringe of
+        the baseline is found and set aside first (:mod:`widgetkit.processing.fringe`): its
+        maxima are not peaks, and a later ``fit_lines`` subtracts it with its background.
         """
-        params = {"min_snr": min_snr, "min_separation": min_separation}
+        params = {"min_snr": min_snr, "min_separation": min_separation, "fringe": bool(fringe)}
         if noise_region is not None:
             params["noise_region"] = noise_region
         if min_prominence is not None:

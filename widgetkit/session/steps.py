@@ -169,6 +169,10 @@ class State:
     peak_min_snr : float or None
         The ``min_snr`` the last peak search was asked for (None: automatic); lines a fit
         adds from its residual must stand out as much.
+    fringe : Fringe or None
+        The interference fringe the last peak search set aside
+        (:mod:`widgetkit.processing.fringe`); a line fit with ``baseline="auto"`` subtracts
+        it with its background. A new spectrum clears it.
     """
 
     spectrum: Spectrum | None = None
@@ -182,6 +186,7 @@ class State:
     band_model: Any = None
     from_transmittance: bool = False
     peak_min_snr: float | None = None
+    fringe: Any = None
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     def evolve(self, **changes) -> State:
@@ -190,6 +195,8 @@ class State:
         cache = self._cache if "spectrum" not in changes else {}
         if "spectrum" in changes and "band_model" not in changes:
             changes["band_model"] = None
+        if "spectrum" in changes and "fringe" not in changes:
+            changes["fringe"] = None
         return dataclasses.replace(self, **changes, _cache=cache)
 
     def noise(self) -> float:
