@@ -18,8 +18,8 @@ import lmfit
 import numpy as np
 
 from ..errors import FitError
-from ..processing.noise import estimate_noise
 from ..processing.fringe import Fringe
+from ..processing.noise import estimate_noise
 from .background import Background, fringe_background, smooth_background
 from .baselines import Baseline, get_baseline
 from .model import WindowedModel

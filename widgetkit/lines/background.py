@@ -61,7 +61,8 @@ from ..errors import FitError
 from ..processing.fringe import Fringe
 from .start import far_from_lines
 
-__all__ = ["Background", "smooth_background", "fringe_background", "as_fringe", "line_free", "REACH", "CURVED", "KNOT_FWHM"]
+__all__ = ["Background", "smooth_background", "fringe_background", "as_fringe", "line_free",
+           "REACH", "CURVED", "KNOT_FWHM"]
 
 #: a point closer than this many starting FWHM to a line is not line-free
 REACH = 3.0
