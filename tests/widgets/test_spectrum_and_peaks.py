@@ -104,7 +104,7 @@ def test_find_peaks_fills_the_markers_and_table_of_every_panel_on_the_session(se
     peaks.min_separation.value = 5.0
     peaks.find_button.click()
     assert session.history[-1].kind == "find_peaks"
-    assert session.history[-1].params == {"min_snr": 10.0, "min_separation": 5.0}
+    assert session.history[-1].params == {"min_snr": 10.0, "min_separation": 5.0, "fringe": True}
     n = len(session.peaks)
     assert n > 5
     assert peaks.markers.x.size == n
