@@ -63,7 +63,7 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
         y_kind: str | None = None, joint: bool = True, centrifugal: str = "shared",
         shape: str = "doppler", lorentz_hwhm: float | None = None, convolve: str = "auto",
         start: Mapping | None = None, free=None, kind: str | None = None,
-        max_nfev: int = 3000, max_time: float = 60.0,
+        max_nfev: int = 3000, max_time: float = 60.0, widen_errors: bool = True,
         progress: Callable | None = None, meta: Mapping | None = None) -> BandFit:
     """Fit the spectrum of a diatomic's band (or bands) to the data.
 
@@ -137,6 +137,13 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
     max_nfev, max_time : int, float
         Budget of model evaluations and seconds (the best result so far is kept and the
         fit is marked as not converged).
+    widen_errors : bool
+        True (default): when the residual is structured (neighbouring points move together:
+        the model misses something) each standard error is widened by its own factor
+        (:mod:`.structure`; ``error_factors``, a message and a note per parameter). False:
+        the standard errors are only scaled by the residual's single correlation factor
+        (``error_scale``), as fits did before the widening existed; a session step recorded
+        without this option replays that way.
     progress : callable, optional
         ``progress(stage, iteration, chisqr, elapsed)``.
     meta : dict, optional
@@ -154,6 +161,8 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
         Bad input (names the argument and value), or no band found in the data.
     """
     t0 = time.perf_counter()
+    if not isinstance(widen_errors, bool | np.bool_):
+        raise FitError(f"widen_errors must be True or False, got {widen_errors!r}")
     o = _options(x, y, molecule, band=band, temperature=temperature, resolution=resolution,
                  instrument=instrument, isotopologues=isotopologues, fix=fix, baseline=baseline,
                  y_kind=y_kind, joint=joint, centrifugal=centrifugal, shape=shape,
@@ -195,7 +204,7 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
     elif convolve == "auto":
         run = (exact_for_transmittance(run) if y_kind == "transmittance" and not simulated
                else note_approximation(run, simulated))
-    return run.result(spec, pr)
+    return run.result(spec, pr, widen=bool(widen_errors))
 
 
 def _options(x, y, molecule, *, band, temperature, resolution, instrument, isotopologues, fix,
@@ -311,7 +320,7 @@ def restore_fit(spectrum: Spectrum, molecule, options: Mapping, recorded: Mappin
         raise FitError(f"restore_fit needs a widgetkit Spectrum, got {type(spectrum).__name__}")
     t0 = time.perf_counter()
     opts = {"y_kind": spectrum.y_kind, "meta": spectrum.meta, **dict(options)}
-    for k in ("max_nfev", "max_time", "progress"):
+    for k in ("max_nfev", "max_time", "progress", "widen_errors"):  # the record holds their effect
         opts.pop(k, None)
     keys = ("band", "temperature", "resolution", "instrument", "isotopologues", "fix", "baseline",
             "y_kind", "joint", "centrifugal", "shape", "lorentz_hwhm", "convolve", "start", "free",

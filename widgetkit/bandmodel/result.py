@@ -65,13 +65,16 @@ class BandFit:
         Σ residual², χ²/(N − P_free) in y units squared.
     error_scale : float
         The largest factor (≥ 1) by which a standard error was widened because the residual
-        is structured (1: not widened).
+        is structured (1: not widened); with ``widen_errors=False`` the residual's single
+        correlation factor that scaled every standard error.
     error_factors : dict
         Free parameter name -> factor its standard error was widened by
-        (:mod:`widgetkit.bandmodel.structure`); empty when the residual looks like noise.
+        (:mod:`widgetkit.bandmodel.structure`); empty when the residual looks like noise
+        or with ``widen_errors=False``.
     structured_residual : bool
         True when the residual's points were found correlated (the model misses something)
-        and the standard errors were widened (see ``error_factors`` and the messages).
+        and the standard errors were widened (see ``error_factors`` and the messages; with
+        ``widen_errors=False`` only scaled by ``error_scale``).
     domain : str
         Convolution domain used, "absorbance" (approximation) or "transmittance".
     lines : DataFrame

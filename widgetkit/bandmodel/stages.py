@@ -232,13 +232,22 @@ class Run:
         return float(th.get("B_lower", th.get("B_e", 1.0)))
 
     # -------------------------------------------------------------- result
-    def result(self, spec: dict, pr: PRSeparation | None) -> BandFit:
+    def result(self, spec: dict, pr: PRSeparation | None, widen: bool = True) -> BandFit:
+        """The fit's result; ``widen``: standard errors widened for a structured residual
+        (:mod:`.structure`), else only scaled by the engine's factor f as before the
+        widening existed (what a session record without ``widen_errors`` replays)."""
         f = self.fitter
         model = self.model
         cov, r, chi2, scale, idx = f.covariance()
         theta = f.theta
         names = model.names
-        cov, factors = self._widened(cov, r, scale, idx)
+        if widen:
+            cov, factors = self._widened(cov, r, scale, idx)
+            error_scale = max((h for n, h in factors.items() if not n.startswith("baseline_")),
+                              default=1.0)
+            structured = bool(factors)
+        else:
+            factors, error_scale, structured = {}, float(scale), bool(scale > 1.0)
         se = np.sqrt(np.clip(np.diag(cov), 0.0, None))
         status = ["free" if p.vary else ("held" if p.name in self.held else "fixed")
                   for p in self.params]
@@ -276,7 +285,7 @@ class Run:
         consts = mark_not_fitted(consts, ptab)
         comp = model.components(theta)
         dof = max(self.y.size - len(idx), 1)
-        reasons = self._reasons(corr, free_names, theta, se, scale)
+        reasons = self._reasons(corr, free_names, theta, se, scale, widen)
         sol = f.last
         converged = bool(sol.converged) if sol is not None else False
         if not converged:
@@ -291,9 +300,8 @@ class Run:
             messages=self.messages + self._start_messages(), converged=converged,
             message=sol.message if sol else "", nfev=f.nfev, njev=f.njev,
             elapsed=time.perf_counter() - self.t0, chisqr=chi2, redchi=chi2 / dof,
-            error_scale=max((h for n, h in factors.items() if not n.startswith("baseline_")),
-                            default=1.0), error_factors=factors,
-            structured_residual=bool(factors), domain=self.opts.domain,
+            error_scale=error_scale, error_factors=factors,
+            structured_residual=structured, domain=self.opts.domain,
             lines=model.line_table(theta), quick=pr,
             spec={**spec, "structure_temperature": self.t_struct},
             theta={n: float(v) for n, v in zip(names, theta, strict=True)})
@@ -332,7 +340,7 @@ class Run:
         return [f"start of {p.name}: {p.source}" for p in self.params
                 if p.source not in ("fixed", "given", "default") and not p.name.startswith("baseline")]
 
-    def _reasons(self, corr, free_names, theta, se, scale) -> list[str]:
+    def _reasons(self, corr, free_names, theta, se, scale, widen=True) -> list[str]:
         out = []
         k_s = self.model.index["band_area"]
         if theta[k_s] < 3.0 * se[k_s] or theta[k_s] <= 0:
@@ -365,7 +373,9 @@ class Run:
                        + " rotational numbering comes from the contour only; check B against the line "
                        "spacing, or give start values (start={'band_origin': ..., 'B_lower': ...})")
         if scale > 3.0:
-            out.append(f"the residuals are strongly correlated (noise scale ×{scale:.1f}): "
+            # without the widening the errors are scaled by f alone (the wording of then)
+            what = f"noise scale ×{scale:.1f}" if widen else f"errors scaled by {scale:.1f}"
+            out.append(f"the residuals are strongly correlated ({what}): "
                        "the model misses structure (other bands, impurity lines, baseline, "
                        "line shape)")
         return out

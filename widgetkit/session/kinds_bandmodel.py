@@ -116,6 +116,9 @@ class FitBandModel(StepKind):
               doc="band type (only parallel bands are modelled)"),
         Param("max_nfev", "integer", 3000, minimum=3, maximum=100_000),
         Param("max_time", "number", 60.0, above=0, maximum=86_400.0, unit="s"),
+        Param("widen_errors", "boolean", False,
+              doc="widen each standard error for a structured residual (absent in a record: "
+                  "off, errors scaled by one factor as then; Session.fit_band_model turns it on)"),
     )
 
     def apply(self, state: State, params: dict, ctx):
@@ -124,6 +127,8 @@ class FitBandModel(StepKind):
         sp = state.require_spectrum()
         opts = dict(params)
         molecule = band_molecule(opts.pop("molecule"))
+        # the function's default is on; a record without the key was made before it existed
+        opts["widen_errors"] = bool(opts.get("widen_errors", False))
         fit = bandmodel.fit_spectrum(sp, molecule, progress=_PROGRESS.get(), **opts)
         summary = (f"band model of {' '.join(molecule.atoms)}: {fit.status}, "
                    f"{plural(int((fit.parameters['status'] == 'free').sum()), 'parameter')} fitted, "

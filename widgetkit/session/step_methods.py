@@ -169,7 +169,9 @@ class StepMethods:
         iteration, chisqr, elapsed)`` is called during the fit and not recorded. The
         constants join :attr:`constants` with ``method`` "band model". A fit that cannot
         be set up raises :class:`~widgetkit.errors.FitError` and changes nothing; a fit
-        that stops early is kept and marked "doubtful".
+        that stops early is kept and marked "doubtful". ``widen_errors=True`` (default)
+        widens the standard errors for a structured residual and is recorded (a step
+        recorded without it replays with ``False``, as it was made).
 
         Returns the :class:`~widgetkit.bandmodel.BandFit` (also :attr:`band_model`).
         """
@@ -177,7 +179,7 @@ class StepMethods:
 
         if hasattr(molecule, "to_dict"):
             molecule = molecule.to_dict()
-        params = {"molecule": molecule, **options}
+        params = {"molecule": molecule, "widen_errors": True, **options}
         if params.get("band") is not None:
             params["band"] = plain_bands(params["band"])
         with progress_to(progress):
