@@ -96,8 +96,9 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
     reasons = list(st.reasons)
     consts, covs, cd_rows, trot = [], {}, [], {}
     order = [i.name for i in molecule.isotopologues if i.name in st.models]
-    hidden = hidden_neighbours(data, st, good, molecule, band, order,
-                               opts["temperature"] or 296.0, opts.get("resolution"))
+    hidden = (hidden_neighbours(data, st, good, molecule, band, order,
+                                opts["temperature"] or 296.0, opts.get("resolution"))
+              if opts.get("exclude_hidden", True) else {})
     for name in order:
         mdl = st.models[name]
         iso = molecule.isotopologue(name)

@@ -153,6 +153,7 @@ def assign_rovibrational(
     technique: str | None = None,
     sample_state: str | None = None,
     joint: bool = False,
+    exclude_hidden: bool = True,
 ) -> BandAssignment:
     """Assign the P and R lines of a v′ ← v″ band and fit the molecular constants.
 
@@ -208,6 +209,13 @@ def assign_rovibrational(
         coefficients U_10, U_20, U_01, U_11 (U_02 with centrifugal="shared")
         and r_e. Needs lines of at least two isotopologues (AssignmentError
         otherwise).
+    exclude_hidden : bool
+        True (default): a line whose area may hold an unresolved line of another
+        isotopologue (a predicted line not found as one of its own, within a few
+        widths and with a predicted area above half the area's standard error;
+        :mod:`._rovib_hidden`) is left out of T_rot and the area ratios, and a
+        message names it. False: every assigned line enters them, as before this
+        check existed (a session step recorded without the option replays so).
 
     Returns
     -------
@@ -248,7 +256,7 @@ def assign_rovibrational(
                 centrifugal=centrifugal, band=band, molecule=molecule,
                 temperature=None if temperature is None else float(temperature),
                 resolution=None if resolution is None else float(resolution),
-                joint=bool(joint))
+                joint=bool(joint), exclude_hidden=bool(exclude_hidden))
     refuse_unresolved_lines(data, None, opts)
     final = solve(data, lk, opts, seed_fraction=seed_fraction, max_rounds=max_rounds,
                   min_rounds=min_rounds)

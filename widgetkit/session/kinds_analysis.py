@@ -94,6 +94,8 @@ def _assign(state: State, spec: dict, locks: dict):
         return _assign_linear(state, fit, opts, molecule, kind, locks, context)
     if kind == "rovibrational":
         _only(opts, _ROVIB_OPTIONS, kind)
+        # the function's default is on; a record without the key was made before it existed
+        opts["exclude_hidden"] = bool(opts.get("exclude_hidden", False))
         try:
             out = levels.assign_rovibrational(fit.table, molecule, locks=locks, **{**context, **opts})
         except UnresolvedLines as exc:
@@ -114,7 +116,7 @@ def _assign(state: State, spec: dict, locks: dict):
 
 _ROVIB_OPTIONS = frozenset({"temperature", "outlier_sigma", "max_rounds", "min_rounds", "band",
                             "centrifugal", "match_fraction", "seed_fraction", "resolution",
-                            "technique", "sample_state", "joint"})
+                            "technique", "sample_state", "joint", "exclude_hidden"})
 _PROGRESSION_OPTIONS = frozenset({"temperature", "outlier_sigma", "isotopologue", "v_max",
                                   "hot_max", "max_anharmonicity", "n_terms", "max_labellings"})
 
@@ -208,6 +210,10 @@ class AssignBand(StepKind):
         Param("seed_fraction", "number", 0.25, above=0, below=1, doc="seeding tolerance"),
         Param("joint", "boolean", False,
               doc="fit all isotopologues with one set of mass-independent constants"),
+        Param("exclude_hidden", "boolean", False,
+              doc="leave lines that may hide another isotopologue's line out of T_rot and the "
+                  "area ratios (absent in a record: off; Session.assign_band turns it on for "
+                  "kind='rovibrational')"),
         # what the spectrum's metadata say unless given (widgetkit.levels.plausibility)
         Param("resolution", "number", None, above=0, maximum=1e4, nullable=True, unit="cm-1",
               doc="instrument resolution (default: the file's)"),

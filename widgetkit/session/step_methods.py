@@ -150,12 +150,17 @@ class StepMethods:
         ``"raman_vibrational"`` (Raman-shift spectra; ``detector="energy"`` or
         ``"photon_counting"`` for the Stokes/anti-Stokes temperature). See
         :func:`widgetkit.levels.assign_rovibrational` and
-        :func:`widgetkit.levels.assign_linear` for the options.
+        :func:`widgetkit.levels.assign_linear` for the options. For ``"rovibrational"``,
+        ``exclude_hidden=True`` (default) leaves lines that may hold an unresolved line of
+        another isotopologue out of T_rot and the area ratios and is recorded (a step
+        recorded without it replays with ``False``, as it was made).
         Returns :attr:`assignments`; constants are in :attr:`constants`.
         """
         if hasattr(molecule, "to_dict"):
             molecule = molecule.to_dict()
         params = {"molecule": molecule, "kind": kind, "temperature": temperature, **options}
+        if kind == "rovibrational":
+            params.setdefault("exclude_hidden", True)
         self._run("assign_band", params)
         return self.assignments
 
