@@ -118,3 +118,24 @@ def test_the_session_records_the_widening_and_verifies():
     old = {k: v for k, v in rec.items() if k not in ("structured_residual", "error_factors")}
     older = kind.restore(s.state_at(0), dict(step.params), old, s._ctx).band_model
     assert older.structured_residual and older.error_factors == {}
+
+
+def test_widen_errors_false_scales_by_the_single_factor_as_before():
+    # the fits of before the widening: every error scaled by f alone, no factors, no notes
+    sp = simulate(CO_MOL, CO, resolution=4.0, step=1.0, noise=0.002, seed=1)
+    opts = dict(y_kind="absorbance", resolution=4.0, instrument="triangular",
+                fix={"temperature": 296.0})
+    wide = fit(sp.x, sp.y, CO_MOL, **opts)
+    plain = fit(sp.x, sp.y, CO_MOL, widen_errors=False, **opts)
+    assert plain.error_factors == {} and plain.structured_residual
+    assert plain.error_scale > 1.0
+    assert not any("widened" in m for m in plain.messages)
+    assert not plain.parameters["note"].str.contains("widened").any()
+    # the widened error is the plain one times h/f (bandmodel.structure), the values the same
+    se_w = wide.parameters.set_index("name")["stderr"]
+    se_p = plain.parameters.set_index("name")["stderr"]
+    h = wide.error_factors["B_e"]
+    assert se_w["B_e"] == pytest.approx(se_p["B_e"] * h / plain.error_scale, rel=1e-9)
+    assert wide.theta["B_e"] == plain.theta["B_e"]
+    with pytest.raises(wk.FitError, match="widen_errors"):
+        fit(sp.x, sp.y, CO_MOL, widen_errors="yes", **opts)
