@@ -21,6 +21,7 @@ from widgetkit.processing import (
     peak_table,
     refine_parabola,
     search_peaks,
+    typical_width,
 )
 
 
@@ -323,3 +324,25 @@ def test_the_local_baseline_leaves_out_the_whole_top_of_a_band_hundreds_of_point
     assert not free[9_000:11_001].any()
     # the baseline bridges the band at the level of the noise around it (true level 0)
     assert abs(base[10_000]) < 1.0
+
+
+def test_two_narrow_lines_on_a_strongly_curved_baseline_keep_their_width_and_significance():
+    # invented data (self-consistency): two Gaussian lines of FWHM 0.04 cm-1 (6 samples),
+    # heights 800 and 2400 noise sigmas, on a cubic baseline 2500 sigmas deep; the weaker
+    # line sits on the steep flank, where its width at half prominence takes in the curve
+    x = np.linspace(3543.8, 3678.8, 20_000)
+    u = (x - x.mean()) / (0.5 * np.ptp(x))
+    sigma = 1.6e-5
+    base = -0.022 - 0.025 * u - 0.041 * u**2 - 0.001 * u**3
+    fw = 0.04
+    lines = [(3589.37, 800 * sigma), (3640.20, 2400 * sigma)]
+    y = base + sum(h * np.exp(-4 * math.log(2) * (x - p) ** 2 / fw**2) for p, h in lines)
+    y = y + np.random.default_rng(7).normal(0.0, sigma, x.size)
+    width = typical_width(y, sigma) * np.median(np.diff(x))
+    assert width == pytest.approx(fw, rel=0.3)
+    table = find_peaks(x, y)
+    assert len(table) == 2
+    for (p, h), (_, row) in zip(lines, table.iterrows(), strict=True):
+        assert row["position"] == pytest.approx(p, abs=fw / 4)
+        assert row["snr"] == pytest.approx(h / sigma, rel=0.1)
+        assert row["fwhm"] == pytest.approx(fw, rel=0.3)
