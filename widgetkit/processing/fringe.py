@@ -78,6 +78,8 @@ QUARTER_RATIO = 2.0
 QUARTER_PHASE = 50.0
 #: most fringes sought
 MAX_FRINGES = 2
+#: points used by the search of the frequency within a bin
+SEARCH_POINTS = 40_000
 #: scales a median absolute value to σ for Gaussian noise (1 / Φ⁻¹(3/4))
 _MAD = 1.482602218505602
 
@@ -162,16 +164,28 @@ def _robust_scale(r: np.ndarray) -> float:
 def _design(x: np.ndarray, x0: float, half: float, freqs) -> np.ndarray:
     """Columns: cubic trend, then 4 per frequency (cos, t·cos, sin, t·sin)."""
     t = (x - x0) / half
-    cols = [np.ones_like(t), t, t * t, t**3]
-    for f in freqs:
-        ph = 2.0 * math.pi * f * (x - x0)
-        c, s = np.cos(ph), np.sin(ph)
-        cols += [c, t * c, s, t * s]
-    return np.column_stack(cols)
+    a = np.empty((x.size, 4 + 4 * len(freqs)))
+    a[:, 0] = 1.0
+    a[:, 1] = t
+    a[:, 2] = t * t
+    a[:, 3] = a[:, 2] * t
+    for k, f in enumerate(freqs):
+        ph = (2.0 * math.pi * f) * (x - x0)
+        j = 4 + 4 * k
+        np.cos(ph, out=a[:, j])
+        np.sin(ph, out=a[:, j + 2])
+        np.multiply(a[:, j], t, out=a[:, j + 1])
+        np.multiply(a[:, j + 2], t, out=a[:, j + 3])
+    return a
 
 
 def _lsq(a: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, float]:
-    coef, *_ = np.linalg.lstsq(a, y, rcond=None)
+    """Least-squares coefficients and residual sum of squares (normal equations: the columns
+    are bounded by 1 and nearly orthogonal; a singular set falls back to an SVD)."""
+    try:
+        coef = np.linalg.solve(a.T @ a, a.T @ y)
+    except np.linalg.LinAlgError:
+        coef = np.linalg.lstsq(a, y, rcond=None)[0]
     r = y - a @ coef
     return coef, float(r @ r)
 
@@ -179,16 +193,19 @@ def _lsq(a: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, float]:
 def _clipped(x, y, x0, half, freqs, keep, rounds: int = 4):
     """Least squares of trend + fringes with iterative clipping; coefficients, kept mask,
     robust scale of the residual on the kept points."""
-    coef = np.zeros(4 + 4 * len(freqs))
+    a = _design(x, x0, half, freqs)
+    coef = np.zeros(a.shape[1])
     for _ in range(rounds):
-        coef, _ = _lsq(_design(x[keep], x0, half, freqs), y[keep])
-        r = y - _design(x, x0, half, freqs) @ coef
+        # a few columns need no more than a few 10^5 points for their coefficients
+        use = np.flatnonzero(keep)[::max(1, int(keep.sum()) // (5 * SEARCH_POINTS))]
+        coef, _ = _lsq(a[use], y[use])
+        r = y - a @ coef
         s = _robust_scale(r[keep])
         new = np.abs(r) <= CLIP * max(s, 1e-300)
         if np.array_equal(new, keep) or new.sum() < 0.5 * x.size:
             break
         keep = new
-    return coef, keep, _robust_scale((y - _design(x, x0, half, freqs) @ coef)[keep])
+    return coef, keep, _robust_scale((y - a @ coef)[keep])
 
 
 def _strongest_frequency(x, r, keep, fmin: float, fmax: float) -> tuple[float, float, int]:
@@ -246,11 +263,16 @@ def _one_more(x, y, x0, half, freqs: list, keep, sigma: float
     if not math.isfinite(f0) or nf < 1:
         return None
 
+    # the search compares frequencies within a bin of each other: every k-th kept point does
+    # (a stride aliases only frequencies k samples apart, far outside the bin)
+    pick = np.flatnonzero(keep0)[::max(1, int(keep0.sum()) // SEARCH_POINTS)]
+    xs, ys = x[pick], y[pick]
+
     def rss(f: float) -> float:
-        return _lsq(_design(x[keep0], x0, half, [*freqs, f]), y[keep0])[1]
+        return _lsq(_design(xs, x0, half, [*freqs, f]), ys)[1]
 
     best = minimize_scalar(rss, bounds=(max(f0 - df, 1e-12), f0 + df), method="bounded",
-                           options={"xatol": 1e-3 * df})
+                           options={"xatol": 1e-2 * df})
     f = float(best.x)
     coef, keep1, scale = _clipped(x, y, x0, half, [*freqs, f], keep0)
     if scale <= 0:
