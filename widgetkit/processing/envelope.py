@@ -40,6 +40,8 @@ __all__ = ["local_baseline", "typical_width", "baseline_window", "three_point_wi
 
 #: points above the baseline by more than this many σ (of a line-width average) are left out
 ABOVE_SIGMAS = 4.0
+#: a strong peak wider than this many times the lower quartile of their widths is a curve
+WIDTH_OUTLIER = 5.0
 #: lines narrower than this many samples (FWHM) get their width from three samples
 NARROW = 4.0
 
@@ -151,13 +153,13 @@ def local_baseline(y, sigma: float, *, window: int, free=None, width: float = 1.
 def typical_width(y, sigma: float, *, min_prominence: float = 10.0, top: int = 25) -> float:
     """Typical FWHM, in points, of the strongest features of ``y`` (peaks up).
 
-    The lower quartile of the widths at half prominence
-    (:func:`scipy.signal.peak_widths`) of the ``top`` most prominent peaks whose
-    prominence exceeds ``min_prominence`` σ (the narrower of two). Prominence-based
-    widths do not depend on a flat or sloping baseline, but a line on the flank of a
-    strongly curved one has the curve in its prominence, and its width at half
-    prominence is the curve's; so are blends. Both only ever widen, so the lower
-    quartile, not the median, is the typical line. NaN when no peak is that prominent.
+    The median width at half prominence (:func:`scipy.signal.peak_widths`) of the
+    ``top`` most prominent peaks whose prominence exceeds ``min_prominence`` σ, leaving
+    out widths above :data:`WIDTH_OUTLIER` times their lower quartile (the narrower of
+    two). Prominence-based widths do not depend on a flat or sloping baseline, but a line
+    on the flank of a strongly curved one has the curve in its prominence, and its width
+    at half prominence is the curve's: with two lines the median was the curve's width.
+    NaN when no peak is that prominent.
     """
     ya = np.asarray(y, dtype=np.float64)
     idx, props = signal.find_peaks(ya, prominence=min_prominence * sigma)
@@ -166,7 +168,8 @@ def typical_width(y, sigma: float, *, min_prominence: float = 10.0, top: int = 2
     order = np.argsort(props["prominences"])[::-1][:top]
     sel = idx[order]
     widths = np.sort(signal.peak_widths(ya, sel, rel_height=0.5)[0])
-    width = float(widths[(widths.size - 1) // 4])
+    low = widths[(widths.size - 1) // 4]
+    width = float(np.median(widths[widths <= WIDTH_OUTLIER * low]))
     if width < NARROW:
         width = three_point_width(ya, sel, ya[sel] - props["prominences"][order], width)
     return width
