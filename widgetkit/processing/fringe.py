@@ -32,7 +32,8 @@ background.
    - relevant: its amplitude is at least :data:`MIN_AMPLITUDE` times the residual scale or
      the noise σ when one is given, whichever is smaller (a smaller ripple makes no false
      peak; the wings of wide lines left among the kept points can raise the residual
-     scale well above the noise);
+     scale well above the noise), and at least :data:`ABOVE_SCATTER` times that residual
+     scale (a ripple lost in what the model leaves is not worth a claim);
    - everywhere: fitted on each quarter of the data alone (frequency held), it has in at
      least three quarters (all, when fewer than four can be judged) an amplitude within a
      factor :data:`QUARTER_RATIO` of the whole fit's there and a phase within
@@ -70,6 +71,8 @@ MIN_PERIOD_WIDTHS = 6.0
 CLIP = 4.0
 #: a fringe is at least this many residual scales high (mean amplitude)
 MIN_AMPLITUDE = 2.0
+#: ... and at least this many times the scatter of what the model leaves
+ABOVE_SCATTER = 1.25
 #: false-alarm probability of the periodogram's highest peak
 ALPHA = 1e-4
 #: quarters agree with the whole fit within this factor of amplitude ...
@@ -283,7 +286,8 @@ def _one_more(x, y, x0, half, freqs: list, keep, sigma: float
     gain = (rss_without - rss_with) / scale**2
     amp = float(np.mean(np.hypot(coef[-4] + coef[-3] * (x - x0) / half,
                                  coef[-2] + coef[-1] * (x - x0) / half)))
-    if gain < 2.0 * math.log(nf / ALPHA) + 8.0 or amp < MIN_AMPLITUDE * min(scale, sigma):
+    if (gain < 2.0 * math.log(nf / ALPHA) + 8.0 or amp < MIN_AMPLITUDE * min(scale, sigma)
+            or amp < ABOVE_SCATTER * scale):
         return None
     if not _quarters_agree(x, y, x0, half, [*freqs, f], coef, keep1):
         return None
