@@ -94,3 +94,18 @@ def test_a_line_weaker_than_the_peaks_asked_for_is_not_added():
     s.find_peaks(min_snr=20)
     s.fit_lines()
     assert len(s.line_fit.added) == 1
+
+
+def test_a_refit_with_the_added_lines_cut_short_by_its_budget_is_not_kept():
+    # the same shoulder; the refit with the line from the residual is stopped after two
+    # evaluations (replay_nfev counts the time limit as reached there), so it cannot have
+    # converged: the converged fit before it is kept, and the flag says why
+    x, y, _ = _shoulder()
+    pos = wk.processing.find_peaks(x, y)["position"].to_numpy()
+    full = wl.fit(x, y, pos, add_missed=True, prune=False)
+    assert full.converged and len(full.added) == 1  # the refit is kept when it converges
+    cut = wl.fit(x, y, pos, add_missed=True, prune=False, replay_nfev=[None, 2])
+    assert cut.solve_stopped[-1] == "time"
+    assert cut.converged and cut.added.empty
+    assert len(cut.table) == len(pos)
+    assert any("stopped before converging" in f for f in cut.flags["fit"])

@@ -68,3 +68,26 @@ def test_a_weighted_session_is_saved_reopened_and_verified(tmp_path):
     again = wk.Session.load(path)
     assert again.state.from_transmittance
     assert again.verify().ok
+
+
+def test_a_weighted_solve_cut_short_by_its_budget_does_not_replace_a_converged_fit():
+    # the band of _pulls, in the pure function; the weighted solve is stopped after two
+    # evaluations (replay_nfev counts the time limit as reached there): the converged
+    # unweighted fit is kept, and the flag says so
+    sp = wk.simulate.rovibrational(HCL, wk.simulate.HANDBOOK["1H-35Cl"], x_range=(2950, 3050),
+                                   step=0.02, temperature=296, resolution=0.05,
+                                   lorentz_hwhm=0.03, strength=1.5, noise=0.003, seed=1,
+                                   y_kind="transmittance")
+    a = wk.processing.to_absorbance(sp)
+    pos = wk.processing.find_peaks(a.x, a.y)["position"].to_numpy()
+    whole = wk.lines.fit(a.x, a.y, pos, weights="from_transmittance", prune=False)
+    assert len(whole.solve_nfev) == 2 and whole.converged
+    cut = wk.lines.fit(a.x, a.y, pos, weights="from_transmittance", prune=False,
+                       replay_nfev=[None, 2])
+    assert cut.solve_stopped[-1] == "time"
+    assert cut.converged
+    assert any("weighted fit stopped before converging" in f for f in cut.flags["fit"])
+    # what is kept is the unweighted fit: the same lines as a fit without weights
+    plain = wk.lines.fit(a.x, a.y, pos, prune=False)
+    np.testing.assert_allclose(cut.table["position"], plain.table["position"], rtol=0,
+                               atol=1e-9)

@@ -137,7 +137,10 @@ def weighted_stage(run: Run) -> None:
     last = refit_weighted(
         run.prob, run.fields, shared_width=run.shared, holds=run.held, args=run.args,
         budget=run.budget("fitting again with the noise of absorbance from transmittance",
-                          late=True), max_passes=run.max_passes)
+                          late=True), max_passes=run.max_passes,
+        previous_converged=run.sol.converged)
     run.solves.append(last.solution)
     if last.prob is not None:
         run.keep(last.prob, last.fields)
+    elif last.flag:
+        run.flag("fit", last.flag)

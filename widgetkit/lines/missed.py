@@ -24,8 +24,9 @@ spectroscopist looks at the residual for exactly this; :func:`find_missed` does 
 
 The fit driver (:func:`~.fitting.fit`) fits again with the added lines, starting the old
 ones where they ended, and keeps the result only if chi-square fell by more than the added
-parameters explain (their number plus three standard deviations, in reduced chi-squares)
-and every added line's area is at least three of its standard errors;
+parameters explain (their number plus three standard deviations, in reduced chi-squares),
+every added line's area is at least three of its standard errors, and the fit converged
+when the one before it had (a converged fit is never traded for one cut short by the budget);
 ``LineFit.added`` lists what was added and why. ``add_missed=False`` turns this off.
 """
 
@@ -190,10 +191,15 @@ def refit_with_missed(prob, fields, sol, *, shared_width, holds, args, budget, m
     weak = [] if fields2 is None else [
         i for i, a, e in zip(fields2["table"]["line_id"], fields2["table"]["area"],
                              fields2["table"]["area_err"]) if i in new and not abs(a) >= 3 * e]
-    if fields2 is not None and fell > need and not weak:
+    unfinished = sol.converged and not sol2.converged
+    if fields2 is not None and fell > need and not weak and not unfinished:
         return MissedStage(sol2, prob2, fields2, list(zip(new, cands)))
-    why = (f"line {weak[0]} among them was not significant" if fields2 is not None and weak
-           else f"with them chi-square fell by {fell:.3g} reduced chi-squares, not more than "
-                f"the {need:.3g} that {k} more parameters explain")
+    if unfinished:  # a converged fit is never traded for one that stopped short
+        why = "the fit with them stopped before converging (" + sol2.stopped + ")"
+    elif fields2 is not None and weak:
+        why = f"line {weak[0]} among them was not significant"
+    else:
+        why = (f"with them chi-square fell by {fell:.3g} reduced chi-squares, not more than "
+               f"the {need:.3g} that {k} more parameters explain")
     return MissedStage(sol2, flag=f"{len(cands)} lines found in the residual were not kept: "
                                   + why)

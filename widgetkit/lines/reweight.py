@@ -45,12 +45,14 @@ class WeightedStage:
     solution: object
     prob: object = None
     fields: dict | None = None
+    flag: str = ""
 
 
-def refit_weighted(prob, fields, *, shared_width, holds, args, budget, max_passes
-                   ) -> WeightedStage:
+def refit_weighted(prob, fields, *, shared_width, holds, args, budget, max_passes,
+                   previous_converged: bool = False) -> WeightedStage:
     """Fit once more from ``fields``' values with :func:`transmittance_weights`, within
-    ``budget``."""
+    ``budget``; not kept (``prob`` None, ``flag`` says why) when it stops short of its
+    minimum and the fit before it had converged (``previous_converged``)."""
     from ._assemble import assemble
     from ._setup import set_up
     from ._solve import solve
@@ -65,4 +67,8 @@ def refit_weighted(prob, fields, *, shared_width, holds, args, budget, max_passe
     sol = solve(prob2, budget, max_passes)
     if sol.error is not None or not np.isfinite(sol.result.chisqr):
         return WeightedStage(sol)
+    if previous_converged and not sol.converged:  # never trade a converged fit for a cut one
+        return WeightedStage(sol, flag="the weighted fit stopped before converging ("
+                             f"{sol.stopped}); the unweighted fit is kept, and the errors of "
+                             "its strongest lines may be too small")
     return WeightedStage(sol, prob2, assemble(prob2, sol))
