@@ -15,8 +15,9 @@ from widgetkit.session.joint_view import joint_facts
 HCL = wk.Diatomic("H", "Cl")
 
 
-@pytest.fixture(scope="module")
-def joint_session():
+def _fitted_hcl() -> wk.Session:
+    """HCl 1-0 with both chlorine isotopologues (handbook constants of the simulator), peaks
+    and Lorentzian lines fitted, not assigned."""
     c = {k: v for k, v in wk.simulate.HANDBOOK["1H-35Cl"].items()
          if k not in ("r_e", "omega_e_y_e", "gamma_e")}
     sp = wk.simulate.rovibrational(HCL, c, x_range=(2600, 3150), step=0.02, seed=5,
@@ -24,6 +25,12 @@ def joint_session():
     s = wk.Session(sp)
     s.find_peaks(min_snr=8)
     s.fit_lines(shape="lorentzian")
+    return s
+
+
+@pytest.fixture(scope="module")
+def joint_session():
+    s = _fitted_hcl()
     s.assign_band("HCl", joint=True)
     return s
 
@@ -59,13 +66,7 @@ def test_a_saved_session_keeps_the_field_and_verifies(joint_session, tmp_path):
 
 
 def test_a_separate_assignment_has_no_joint_field():
-    c = {k: v for k, v in wk.simulate.HANDBOOK["1H-35Cl"].items()
-         if k not in ("r_e", "omega_e_y_e", "gamma_e")}
-    sp = wk.simulate.rovibrational(HCL, c, x_range=(2600, 3150), step=0.02, seed=5,
-                                   noise=0.0005, lorentz_hwhm=0.1, temperature=296.0)
-    s = wk.Session(sp)
-    s.find_peaks(min_snr=8)
-    s.fit_lines(shape="lorentzian")
+    s = _fitted_hcl()
     s.assign_band("HCl")
     assert s.assignment.joint is None and joint_facts(s.assignment) is None
 
