@@ -3,8 +3,9 @@
 Light reflected back and forth between two parallel faces (cell windows, a beamsplitter, a
 thin sample) modulates the baseline of an absorption spectrum with a near-sinusoid whose
 period in wavenumber, 1/(2·n·d) for faces a distance d apart in a medium of refractive
-index n, is the same across the whole spectrum (Fabry–Pérot: Hecht, *Optics*, 5th ed.,
-§9.6; common practice in infrared spectroscopy). Its maxima look like broad peaks: a fringe
+index n, is the same across the whole spectrum (Fabry–Pérot multiple-beam
+interference: Hecht, *Optics*, chapter on interference, cited from memory; common practice in
+infrared spectroscopy). Its maxima look like broad peaks: a fringe
 a few line widths long makes a peak search report every maximum as a line, and a line fit
 then bends its lines into the fringe. :func:`find_fringe` finds such a modulation so that the
 peak search can measure heights above it and the line fit can subtract it with its
@@ -26,9 +27,11 @@ background.
    within one periodogram bin; the clipping is repeated on the residual of this model.
 4. *Accepted* only when it is
    - significant: the fitted sinusoid lowers the sum of squares by more than
-     ``2·ln(F/α) + 8`` residual variances (F frequencies searched, α = 10⁻⁴; the peak of a
-     periodogram of white noise exceeds 2·ln(F/α) variances with probability about α:
-     Scargle, *ApJ* 263 (1982) 835, eq. 14);
+     ``2·ln(F/α) + 8`` residual variances (F frequencies searched, α = 10⁻⁴: the highest of
+     F independent periodogram values of white noise, a chi-square of two degrees of freedom
+     each, exceeds 2·ln(F/α) variances with probability about α; Scargle, *ApJ* 263 (1982)
+     835, cited from memory; the 8 covers the two drift terms, which make it a chi-square
+     of four);
    - relevant: its amplitude is at least :data:`MIN_AMPLITUDE` times the residual scale or
      the noise σ when one is given, whichever is smaller (a smaller ripple makes no false
      peak; the wings of wide lines left among the kept points can raise the residual
