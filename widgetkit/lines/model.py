@@ -82,9 +82,6 @@ class WindowedModel:
         self.wings = np.zeros(x.size)
         #: normal equations in banded-plus-arrowhead form (:mod:`.structured`), never dense
         self.structured = tmap is not None and len(tmap.var_names) > STRUCTURED_MIN_VARS
-        #: every evaluation computes the derivatives too, for the normal equations that
-        #: follow an accepted step (Voigt: the Faddeeva function once, not twice)
-        self.with_gradient = tmap is not None
 
     # ------------------------------------------------------------- windows
     def window_ranges(self, theta: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -235,7 +232,7 @@ class WindowedModel:
         if self._same(self._last_values, lp):
             return self._last_values[1]
         full = None
-        if self.with_gradient:  # the derivatives too: the next normal equations need them
+        if self.structured:  # the derivatives too: the next normal equations need them
             full = self._full_on_windows(lp)
             self._last_grad = (lp.copy(), full[1:], full)
             vals = full[0]
