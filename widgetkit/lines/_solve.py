@@ -36,6 +36,11 @@ CONVERGENCE_TOL = solver.CONVERGENCE_TOL
 DENSE_TR_WORK = 20_000_000
 #: evaluations the trust-region stage may spend after a stage one that did not converge
 RESCUE_NFEV = 50
+#: ... and after one that converged (it then only gives lmfit's result there; on real
+#: spectra with many widths on their bounds it was measured wandering along them for
+#: 900 evaluations): where it ends at a point our certificate does not call converged,
+#: the converged point of stage one is kept
+REFINE_NFEV = 50
 
 
 @dataclass
@@ -92,6 +97,14 @@ def _result_at(mini: SparseMinimizer, prob: Problem, v: np.ndarray):
     return res
 
 
+def _certified(res, prob: Problem) -> tuple[float, list]:
+    """Our certificate at ``res``: remaining reduction and the names held at a bound."""
+    v = prob.model.variables(res.params)
+    crit, held = solver.certify(getattr(res, "jac", None), res.residual, v, prob.lo,
+                                prob.hi, res.redchi, model=prob.model)
+    return crit, [prob.tmap.var_names[k] for k in held]
+
+
 def _stage_one(prob: Problem, counted: Counted, budget: Budget, max_passes: int):
     """Levenberg–Marquardt passes; returns variables, certificate, held names, Jacobian
     evaluations (the budget may stop it: BudgetSpent propagates with the best kept)."""
@@ -136,14 +149,16 @@ def solve(prob: Problem, budget: Budget, max_passes: int = 4) -> Solution:
                            expr_stderr=expr_stderr, **extra_opts)
     crit, at_bound, error, njev, res = np.inf, [], None, 0, None
     v = model.variables(prob.params)
+    settled = None  # the variables of a stage one that converged
     try:
         v, crit, at_bound, njev = _stage_one(prob, counted, budget, max_passes)
         _set_values(prob.params, tmap.var_names, v)
         # from a converged point one cheap trust-region iteration is all lmfit needs
         extra = {"tr_options": {"maxiter": 25}} if crit < CONVERGENCE_TOL else {}
+        settled = v.copy() if crit < CONVERGENCE_TOL else None
         # a stage one that did not converge gets a short rescue: the trust-region solver
         # was measured crawling for thousands of evaluations on fits it cannot rescue
-        budget.mark("refining", None if crit < CONVERGENCE_TOL else RESCUE_NFEV)
+        budget.mark("refining", REFINE_NFEV if settled is not None else RESCUE_NFEV)
         if model.structured:  # many variables: no dense step anywhere (lines.structured)
             res = structured.lmfit_result(mini, model, prob.params, v)
         else:
@@ -151,7 +166,7 @@ def solve(prob: Problem, budget: Budget, max_passes: int = 4) -> Solution:
         njev += int(getattr(res, "njev", 0) or 0)
         if res.aborted or not np.isfinite(res.chisqr):
             error = "the solver stopped: the model could not be evaluated"
-    except BudgetSpent:  # the fit's budget, or the rescue stage's share of it
+    except BudgetSpent:  # the fit's budget, or the refining stage's share of it
         v = budget.best if budget.best is not None else v
         res = None
     except (ValueError, FloatingPointError, np.linalg.LinAlgError) as exc:
@@ -163,10 +178,12 @@ def solve(prob: Problem, budget: Budget, max_passes: int = 4) -> Solution:
     if res is None or error is not None:
         res = _result_at(mini, prob, v)
     if error is None and np.isfinite(res.chisqr):
-        v = model.variables(res.params)
-        crit, held = solver.certify(getattr(res, "jac", None), res.residual, v, prob.lo,
-                                    prob.hi, res.redchi, model=model)
-        at_bound = [tmap.var_names[k] for k in held]
+        crit, at_bound = _certified(res, prob)
+        if settled is not None and not crit < CONVERGENCE_TOL:
+            # the refinement left the converged point of stage one for one it cannot
+            # certify (it wandered along bounds, or was cut short there): back to it
+            res = _result_at(mini, prob, settled)
+            crit, at_bound = _certified(res, prob)
     if error is not None:
         stopped = "failed"
         res.message = error
