@@ -121,3 +121,25 @@ def test_the_stages_after_the_first_solve_share_what_the_limit_left():
     assert stage_seconds(8.0, 8.0, late=True) == 2.0
     assert stage_seconds(8.0, 10.0, late=True) == LATE_SHARE * 8.0
     assert stage_seconds(None, 3.0, late=True) is None
+
+
+def test_a_refinement_that_wanders_from_a_converged_point_is_not_kept(band, starts,
+                                                                      monkeypatch):
+    # the trust-region refinement after a converged first stage was seen (real spectra,
+    # many widths on their bounds) to wander for hundreds of evaluations and end where
+    # our certificate no longer calls the fit converged: the first stage's point is kept
+    from widgetkit.lines import _lmfit_sparse
+
+    good = wl.fit(band.x, band.y, starts, prune=False, time_limit=None)
+    real = _lmfit_sparse.SparseMinimizer.least_squares
+
+    def wander(self, params=None, **kws):  # leaves the point and stops early on tolerances
+        name = next(n for n in params if n.endswith("_position"))
+        params[name].value += 0.05
+        return real(self, params=params, ftol=0.5, xtol=0.5, gtol=0.5)
+
+    monkeypatch.setattr(_lmfit_sparse.SparseMinimizer, "least_squares", wander)
+    res = wl.fit(band.x, band.y, starts, prune=False, time_limit=None)
+    assert res.converged and res.stopped == "converged"
+    assert np.allclose(res.table["position"], good.table["position"], rtol=0, atol=1e-6)
+    assert res.chisqr == pytest.approx(good.chisqr, rel=1e-6)
