@@ -109,3 +109,27 @@ def test_a_refit_with_the_added_lines_cut_short_by_its_budget_is_not_kept():
     assert cut.converged and cut.added.empty
     assert len(cut.table) == len(pos)
     assert any("stopped before converging" in f for f in cut.flags["fit"])
+
+
+def test_what_an_earlier_stage_said_stays_when_a_later_fit_is_kept():
+    # a stage's flags (a protected line kept although it failed a test) were lost when a
+    # later stage's fit was kept: the flags of the kept fit came from its own solve only
+    import pandas as pd
+
+    from widgetkit.lines._stages import Run
+
+    first = {"flags": {}, "table": pd.DataFrame({"line_id": [3, 5]})}
+    run = Run(prob=None, fields=first, solves=[None], shared=False, args={},
+              max_nfev=None, time_limit=None, progress=None, replays=[None] * 5,
+              max_passes=1)
+    run.flag(3, "kept although its area is below 3 standard errors")
+    run.flag(5, "removed later")
+    run.flag("fit", "a note about the whole fit")
+    run.solves.append(None)
+    later = {"flags": {3: ("its own",)}, "table": pd.DataFrame({"line_id": [3, 8]})}
+    run.keep(None, later)
+    flags = run.fields["flags"]
+    assert flags[3] == ("its own", "kept although its area is below 3 standard errors")
+    assert 5 not in flags            # line 5 is not in the kept fit
+    assert flags["fit"] == ("a note about the whole fit",)
+    assert run.kept == 1

@@ -44,6 +44,7 @@ class Run:
     replays: list
     max_passes: int
     held: dict = field(default_factory=dict)
+    said: dict = field(default_factory=dict)  # line id -> texts the stages flagged
 
     @property
     def sol(self):
@@ -63,12 +64,22 @@ class Run:
         return b
 
     def keep(self, prob, fields) -> None:
-        """The last solve is the one kept, with its problem and fields."""
+        """The last solve is the one kept, with its problem and fields; what the stages
+        said so far (:meth:`flag`) stays with the lines still there and the fit."""
         self.prob, self.fields, self.kept = prob, fields, len(self.solves) - 1
+        ids = set(fields["table"]["line_id"]) | {"fit"}
+        for lid, texts in self.said.items():
+            if lid in ids:
+                self._add(lid, texts)
 
     def flag(self, lid, *texts) -> None:
+        """Add ``texts`` to the flags of line ``lid`` (or ``"fit"``), for good."""
+        self.said.setdefault(lid, []).extend(texts)
+        self._add(lid, texts)
+
+    def _add(self, lid, texts) -> None:
         flags = {k: list(v) for k, v in self.fields["flags"].items()}
-        flags.setdefault(lid, []).extend(texts)
+        flags.setdefault(lid, []).extend(t for t in texts if t not in flags.get(lid, ()))
         self.fields["flags"] = {k: tuple(v) for k, v in flags.items()}
 
 
