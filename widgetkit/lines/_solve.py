@@ -4,7 +4,9 @@
    windows and far wings refreshed between passes;
 2. lmfit's ``least_squares`` (scipy's trust-region solver on the sparse Jacobian,
    :class:`~._lmfit_sparse.SparseMinimizer`) from that solution, which gives the
-   lmfit result there and takes over if stage 1 stalled.
+   lmfit result there and takes over if stage 1 stalled. After a stage 1 that
+   converged it has :data:`REFINE_NFEV` evaluations, and where it ends at a point our
+   certificate does not call converged, stage 1's point is kept.
 
 Every model evaluation is paid from a :class:`~.budget.Budget`. When it is spent,
 the fit is kept where it stood (the best point of the stage then running) and its
