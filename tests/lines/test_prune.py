@@ -154,3 +154,28 @@ def test_more_than_a_third_of_the_lines_failing_is_not_pruned(monkeypatch, band,
     assert len(res.table) == 12 and res.removed.empty
     assert any("11 of 12 lines failed" in f and "every line is kept" in f
                for f in res.flags["fit"])
+
+
+def test_a_converged_fit_is_kept_when_the_fit_without_the_pruned_lines_stops_short(
+        band, starts, monkeypatch):
+    # the repeat after pruning stopped before converging and was kept over a converged
+    # first fit (real spectra: converged, pruned, 325 reduced chi-squares short)
+    import dataclasses
+
+    from widgetkit.lines import _stages
+
+    real, calls = _stages.solve, []
+
+    def second_stops_short(prob, budget, max_passes=4):
+        sol = real(prob, budget, max_passes)
+        calls.append(sol)
+        return dataclasses.replace(sol, stopped="tolerance") if len(calls) == 1 else sol
+
+    monkeypatch.setattr(_stages, "solve", second_stops_short)
+    empty = 0.5 * (band.positions[0] + band.positions[1])   # between two lines: only noise
+    res = wl.fit(band.x, band.y, np.r_[starts, empty], line_ids=list(range(1, 14)))
+    assert len(calls) == 1 and res.converged                # the repeat ran, and was not kept
+    assert 13 in list(res.table["line_id"]) and res.removed.empty
+    assert any(f.startswith("pruning undone") and "stopped before converging" in f
+               for f in res.flags["fit"])
+    assert any("not removed although" in t for t in res.flags[13])

@@ -85,7 +85,8 @@ class Run:
 
 def prune_stage(run: Run, *, heights, widths, keep, constraints, conf_interval) -> list:
     """Remove (and hold) what the data cannot support and fit again once; the first fit
-    stays when the data needed what was removed. Returns the removals kept."""
+    stays when the data needed what was removed, or when it converged and the repeat
+    stopped short. Returns the removals kept."""
     prob, first_sol = run.prob, run.sol
     named = {"ci": [conf_interval] if isinstance(conf_interval, str)
              else list(conf_interval or [])}
@@ -116,8 +117,16 @@ def prune_stage(run: Run, *, heights, widths, keep, constraints, conf_interval) 
         run.solves.append(solve(again, budget, run.max_passes))
         # a hold may raise chi-square on purpose (a line kept from swallowing a fringe)
         worse = None if held else worse_without(first_sol, run.solves[-1], prob, again)
+        unkept = {}
+        if worse is None and first_sol.converged and not run.solves[-1].converged:
+            # a converged fit is never traded for one that stopped short
+            worse = (f"pruning undone: the fit without {len(removals)} lines"
+                     + (f" and with {len(held)} held" if held else "")
+                     + f" stopped before converging ({run.solves[-1].stopped}); the first "
+                     "fit, which converged, is kept with every line")
+            unkept = {r.line_id: [f"not removed although {r.reason}"] for r in removals}
         if worse is not None:  # the data supports what was removed: keep the first fit
-            removals, kept_flags = [], {"fit": [worse]}
+            removals, kept_flags = [], {**unkept, "fit": [worse]}
         else:
             run.keep(again, assemble(again, run.solves[-1]))
             run.shared, run.held = shared, held
