@@ -179,3 +179,18 @@ def test_a_converged_fit_is_kept_when_the_fit_without_the_pruned_lines_stops_sho
     assert any(f.startswith("pruning undone") and "stopped before converging" in f
                for f in res.flags["fit"])
     assert any("not removed although" in t for t in res.flags[13])
+
+
+def test_a_line_stays_near_where_it_was_found(band, starts):
+    """A start on the baseline between two lines (0.3 and 1.0 cm-1 past line 4, the lines
+    3.8 cm-1 apart) is kept by the first fit within reach of where it started; it was
+    measured running 16 and 36 cm-1 away to lines of its own choosing without the bound."""
+    for offset in (0.3, 1.0):
+        extra = band.positions[3] + offset
+        res = wl.fit(band.x, band.y, np.r_[starts, extra], line_ids=list(range(1, 14)),
+                     prune=False)
+        ended = res.table.set_index("line_id").loc[13, "position"]
+        spacing = band.positions[4] - band.positions[3]
+        assert abs(ended - extra) < 0.5 * spacing, (offset, ended)
+        assert any("position ended at its bound" in f for f in res.flags[13]) or \
+            abs(ended - extra) < 0.1

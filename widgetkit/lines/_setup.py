@@ -43,6 +43,14 @@ MAX_WIDTH_GROWTH = 10.0
 #: narrowed between two samples) would otherwise run off to 1e200 and beyond
 AREA_LIMIT = 1e3
 MIN_MAX_WIDTH = 20.0
+#: a line's centre stays within this many starting FWHM of where it was found (at least
+#: :data:`MIN_REACH` sampling steps): further away it is not the line that was found. Left
+#: free over the whole data range, the lines of a spectrum the model cannot describe were
+#: measured wandering hundreds of cm-1 to soak up baseline structure, which kept such fits
+#: from converging; a centre that ends on this bound is flagged, and pruning judges a line
+#: that moved more than :data:`~.prune.MOVE_WIDTHS` FWHM anyway
+POSITION_REACH = 1.5
+MIN_REACH = 3.0
 #: a background on which this fraction more of the lines start against the majority sign
 #: is not used
 MAX_FLIPPED = 0.05
@@ -215,12 +223,14 @@ def set_up(x, y, positions, *, shape, shared_width, baseline, region, window, li
     dx = float(np.median(np.diff(xs)))
     span = float(xs[-1] - xs[0])
     bounds = {}
-    for i, h, f in zip(ids, st.heights, st.fwhm):
+    for i, x0, h, f in zip(ids, pos, st.heights, st.fwhm):
         p = line_prefix(i)
         bounds[p + "area"] = (0.0, np.inf) if h >= 0 else (-np.inf, 0.0)
         hold = (holds or {}).get(i, {})
         lo_p, hi_p = hold.get("position") or (xs[0], xs[-1])
-        bounds[p + "position"] = (max(float(lo_p), float(xs[0])), min(float(hi_p), float(xs[-1])))
+        reach = max(POSITION_REACH * abs(float(f)), MIN_REACH * dx)
+        bounds[p + "position"] = (max(float(lo_p), float(x0) - reach, float(xs[0])),
+                                  min(float(hi_p), float(x0) + reach, float(xs[-1])))
         wmax = min(span, max(MAX_WIDTH_GROWTH * abs(float(f)), MIN_MAX_WIDTH * dx))
         if hold.get("width_max") is not None:
             wmax = max(min(wmax, float(hold["width_max"])), 2.0 * MIN_WIDTH * dx)
