@@ -116,10 +116,13 @@ def test_the_stages_after_the_first_solve_share_what_the_limit_left():
     # the repeat after pruning: what is left of the limit, at least a quarter of it
     assert stage_seconds(8.0, 2.0, late=False) == 6.0
     assert stage_seconds(8.0, 8.0, late=False) == REFIT_SHARE * 8.0
-    # later stages: what is left of 1.25 times the limit, at least a tenth of it, so that
-    # first solve + repeat + two later stages end within (1 + 0.25 + 2 x 0.1) x the limit
+    # later stages: what is left of 1.25 times the limit, at least a tenth of it, ...
     assert stage_seconds(8.0, 8.0, late=True) == 2.0
     assert stage_seconds(8.0, 10.0, late=True) == LATE_SHARE * 8.0
+    # ... but never past 1.35 times the limit for all solves together (first solve +
+    # repeat + two later stages at their least share would reach 1.45 times it)
+    assert stage_seconds(8.0, 10.5, late=True) == pytest.approx(0.3)
+    assert stage_seconds(8.0, 11.0, late=True) == 0.0
     assert stage_seconds(None, 3.0, late=True) is None
 
 

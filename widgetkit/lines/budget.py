@@ -40,17 +40,22 @@ REFIT_SHARE = 0.25
 #: a later stage (lines from the residual, the weighted solve) gets what is left of
 #: (1 + REFIT_SHARE) times the limit, and at least this share of it
 LATE_SHARE = 0.1
+#: ... but all the solves of a fit together never more than this many times the limit
+#: (two later stages at their least share took fits of 200 lines past 10 s)
+TOTAL_SHARE = 1.35
 
 
 def stage_seconds(time_limit: float | None, used: float, late: bool) -> float | None:
     """Seconds a solve after the first may use (None: no limit): the repeat after pruning
     what the limit left, at least :data:`REFIT_SHARE` of it; a later stage what
-    ``(1 + REFIT_SHARE)`` times the limit left, at least :data:`LATE_SHARE` of it (a whole
-    fit ends within about 1.45 times its limit)."""
+    ``(1 + REFIT_SHARE)`` times the limit left, at least :data:`LATE_SHARE` of it, and never
+    past :data:`TOTAL_SHARE` times the limit for all solves together (a later stage with
+    nothing left stops at once and the fit before it is kept)."""
     if time_limit is None:
         return None
     if late:
-        return max((1.0 + REFIT_SHARE) * time_limit - used, LATE_SHARE * time_limit)
+        share = max((1.0 + REFIT_SHARE) * time_limit - used, LATE_SHARE * time_limit)
+        return max(min(share, TOTAL_SHARE * time_limit - used), 0.0)
     return max(time_limit - used, REFIT_SHARE * time_limit)
 
 

@@ -258,7 +258,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         fit repeated after pruning gets what the first solve left, at least a
         quarter of the limit; the later solves (``add_missed``, weighting) what
         1.25 times the limit left, at least a tenth of it
-        (:func:`.budget.stage_seconds`: the whole ends within about 1.45 times it).
+        (:func:`.budget.stage_seconds`: the solves together end within 1.35 times it).
     progress : callable, optional
         ``progress(fraction, text)`` during the fit (about four times a second):
         the share of the budget used and what the fit is doing.
