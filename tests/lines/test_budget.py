@@ -118,11 +118,11 @@ def test_the_stages_after_the_first_solve_share_what_the_limit_left():
     assert stage_seconds(8.0, 8.0, late=False) == REFIT_SHARE * 8.0
     # later stages: what is left of 1.25 times the limit, at least a tenth of it, ...
     assert stage_seconds(8.0, 8.0, late=True) == 2.0
-    assert stage_seconds(8.0, 10.0, late=True) == LATE_SHARE * 8.0
-    # ... but never past 1.35 times the limit for all solves together (first solve +
-    # repeat + two later stages at their least share would reach 1.45 times it)
-    assert stage_seconds(8.0, 10.5, late=True) == pytest.approx(0.3)
-    assert stage_seconds(8.0, 11.0, late=True) == 0.0
+    assert stage_seconds(8.0, 9.5, late=True) == LATE_SHARE * 8.0
+    # ... but never past 1.3 times the limit since the fit began (first solve + repeat +
+    # two later stages at their least share would reach 1.45 times it)
+    assert stage_seconds(8.0, 10.0, late=True) == pytest.approx(0.4)
+    assert stage_seconds(8.0, 10.5, late=True) == 0.0
     assert stage_seconds(None, 3.0, late=True) is None
 
 

@@ -6,6 +6,7 @@ the data cannot support (:mod:`.prune`), adding the lines found in the residual
 
 from __future__ import annotations
 
+import time
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -45,6 +46,7 @@ class Run:
     max_passes: int
     held: dict = field(default_factory=dict)
     said: dict = field(default_factory=dict)  # line id -> texts the stages flagged
+    started: float | None = None  # time.perf_counter() when the fit began
 
     @property
     def sol(self):
@@ -53,7 +55,10 @@ class Run:
     kept: int = 0
 
     def used(self) -> float:
-        return float(sum(s.seconds for s in self.solves))
+        """Seconds used: the solves', or the wall time since the fit began when that is
+        known (it also counts the set-up and the results between solves)."""
+        solves = float(sum(s.seconds for s in self.solves))
+        return solves if self.started is None else max(solves, time.perf_counter() - self.started)
 
     def budget(self, text: str, late: bool = False) -> Budget:
         """The budget of the next solve (:func:`.budget.stage_seconds`), with its progress

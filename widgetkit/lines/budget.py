@@ -40,17 +40,17 @@ REFIT_SHARE = 0.25
 #: a later stage (lines from the residual, the weighted solve) gets what is left of
 #: (1 + REFIT_SHARE) times the limit, and at least this share of it
 LATE_SHARE = 0.1
-#: ... but all the solves of a fit together never more than this many times the limit
-#: (two later stages at their least share took fits of 200 lines past 10 s)
-TOTAL_SHARE = 1.35
+#: ... but never past this many times the limit since the fit began (two later stages at
+#: their least share took fits of 200 lines past 10 s)
+TOTAL_SHARE = 1.3
 
 
 def stage_seconds(time_limit: float | None, used: float, late: bool) -> float | None:
     """Seconds a solve after the first may use (None: no limit): the repeat after pruning
     what the limit left, at least :data:`REFIT_SHARE` of it; a later stage what
     ``(1 + REFIT_SHARE)`` times the limit left, at least :data:`LATE_SHARE` of it, and never
-    past :data:`TOTAL_SHARE` times the limit for all solves together (a later stage with
-    nothing left stops at once and the fit before it is kept)."""
+    past :data:`TOTAL_SHARE` times the limit (a later stage with nothing left stops at once
+    and the fit before it is kept). ``used``: seconds since the fit began."""
     if time_limit is None:
         return None
     if late:

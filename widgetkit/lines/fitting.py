@@ -45,6 +45,7 @@ from __future__ import annotations
 
 import dataclasses
 import functools
+import time
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -258,7 +259,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         fit repeated after pruning gets what the first solve left, at least a
         quarter of the limit; the later solves (``add_missed``, weighting) what
         1.25 times the limit left, at least a tenth of it
-        (:func:`.budget.stage_seconds`: the solves together end within 1.35 times it).
+        (:func:`.budget.stage_seconds`: the last solve ends within 1.3 times it).
     progress : callable, optional
         ``progress(fraction, text)`` during the fit (about four times a second):
         the share of the budget used and what the fit is doing.
@@ -305,6 +306,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         outside the data, bad ids, a bad constraint, a bad budget. A fit that
         fails is returned with ``converged=False``.
     """
+    started = time.perf_counter()
     max_nfev = budget_number(max_nfev, "max_nfev", integer=True)
     if not (isinstance(time_limit, str) and time_limit == "auto"):
         time_limit = budget_number(time_limit, "time_limit", integer=False)
@@ -331,7 +333,7 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     first = solve(prob, budget, max_passes)
     run = Run(prob=prob, fields=assemble(prob, first), solves=[first], shared=shared_width,
               args=args, max_nfev=max_nfev, time_limit=time_limit, progress=progress,
-              replays=replays, max_passes=max_passes)
+              replays=replays, max_passes=max_passes, started=started)
     removals, added = [], []
     unjudged = not_judged(first) if prune or add_missed else None
     if unjudged is not None:
