@@ -146,3 +146,27 @@ def test_a_refinement_that_wanders_from_a_converged_point_is_not_kept(band, star
     assert res.converged and res.stopped == "converged"
     assert np.allclose(res.table["position"], good.table["position"], rtol=0, atol=1e-6)
     assert res.chisqr == pytest.approx(good.chisqr, rel=1e-6)
+
+
+def test_a_pass_that_used_its_iterations_while_improving_is_followed_by_another(
+        band, starts, monkeypatch):
+    """Stage one runs another Levenberg-Marquardt pass after one that ran out of iterations
+    without converging (it was still on its way), up to ``max_passes``; with three
+    iterations a pass, this band needs more than one pass (self-consistency)."""
+    from widgetkit.lines import solver
+
+    calls = []
+    real = solver.levenberg_marquardt
+
+    def counting(*args, **kwargs):
+        out = real(*args, **kwargs)
+        calls.append(out[1])  # the certificate each pass ended with
+        return out
+
+    monkeypatch.setattr(solver, "LM_MAX_ITER", 3, raising=False)
+    monkeypatch.setattr(solver, "levenberg_marquardt",
+                        lambda *a, **k: counting(*a, **{"max_iter": 3, **k}))
+    res = wl.fit(band.x, band.y, starts + 0.05, prune=False, add_missed=False)
+    assert len(calls) > 1 and calls[0] >= solver.CONVERGENCE_TOL  # the first stopped short
+    assert len(calls) <= 4  # max_passes
+    assert res.converged

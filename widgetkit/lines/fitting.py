@@ -249,7 +249,8 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
         Parameter names for :func:`lmfit.conf_interval` (1 and 2 sigma); only
         for a converged fit, outside the budget.
     max_passes : int
-        Solver restarts allowed by the convergence test.
+        Levenberg–Marquardt passes: another follows one that converged on windows
+        that then moved, or one that used its 60 iterations while still improving.
     max_nfev : int or None
         Most model evaluations of one solve, over both solver stages (default
         :data:`DEFAULT_MAX_NFEV`; None: no cap).

@@ -23,6 +23,9 @@ __all__ = ["levenberg_marquardt", "certify", "gauss_newton", "rewindow", "CONVER
 
 #: converged when the remaining Gauss–Newton reduction is below this many reduced chi-squares
 CONVERGENCE_TOL = 1e-4
+#: iterations and evaluations of one Levenberg–Marquardt pass (the fit may run several)
+LM_MAX_ITER = 60
+LM_MAX_NFEV = 150
 
 
 def rewindow(model: WindowedModel, theta: np.ndarray) -> bool:
@@ -131,8 +134,8 @@ def certify(jac, r, v, lo, hi, redchi, model: WindowedModel | None = None):
     return pred / max(redchi, 1e-300), np.nonzero(held)[0]
 
 
-def levenberg_marquardt(model: WindowedModel, v, lo, hi, nfree: int, max_iter: int = 60,
-                         max_nfev: int = 150):
+def levenberg_marquardt(model: WindowedModel, v, lo, hi, nfree: int, max_iter: int = LM_MAX_ITER,
+                         max_nfev: int = LM_MAX_NFEV):
     """Bounded Levenberg–Marquardt on the exact sparse normal equations.
 
     The trust-region solver's LSMR subproblem needs about one sparse product
