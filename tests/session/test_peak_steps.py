@@ -98,3 +98,33 @@ def test_the_resolution_in_the_metadata_sets_the_width_when_no_line_stands_out()
     s.find_peaks(min_snr=1e6)
     pid = s.add_peak(2902.0)  # 0.57 FWHM down the flank: within one width of 3.5 cm-1
     assert s.peaks.set_index("peak_id").loc[pid, "position"] == pytest.approx(2900.0, abs=0.05)
+
+
+def _dense_band(seed=0):
+    """Invented data (self-consistency only): 260 Gaussian lines of FWHM 4 cm-1 scattered
+    over 720 cm-1 and sampled every 4 cm-1 (a dense band at low resolution with no gap
+    between its lines), noise 0.003."""
+    rng = np.random.default_rng(seed)
+    x = np.linspace(1300.0, 2000.0, 176)
+    pos, h = rng.uniform(1290.0, 2010.0, 260), rng.exponential(0.3, 260)
+    s = 4.0 / (2.0 * np.sqrt(2.0 * np.log(2.0)))
+    y = (h[:, None] * np.exp(-0.5 * ((x[None, :] - pos[:, None]) / s) ** 2)).sum(axis=0)
+    return wk.Spectrum(x, y + rng.normal(0.0, 0.003, x.size), y_kind="absorbance")
+
+
+def test_a_fit_with_no_peaks_in_a_dense_band_says_how_to_measure_the_noise():
+    s = wk.Session(_dense_band())
+    assert len(s.find_peaks()) == 0  # the lines' own scatter passed for noise
+    assert "(100 %)" in s.history[-1].summary
+    with pytest.raises(SessionStateError, match=r"noise_region=\(lo, hi\)") as err:
+        s.fit_lines()
+    assert "every point taken as line-free" in str(err.value)
+    assert len(s.history) == 2  # the refused fit recorded nothing
+
+
+def test_no_hint_when_the_peaks_lie_outside_the_region_asked_for():
+    s = wk.Session(_three_lines())
+    s.find_peaks()
+    with pytest.raises(SessionStateError) as err:
+        s.fit_lines(region=(2820.0, 2880.0))
+    assert "inside the region" in str(err.value) and "noise_region" not in str(err.value)

@@ -30,7 +30,7 @@ from collections.abc import Callable, Iterator
 import numpy as np
 import pandas as pd
 
-from ..errors import FitError, SessionStateError
+from ..errors import FitError, SessionStateError, WidgetkitError
 from ..formatting import plural
 from .params import Param, ParamProblem, show
 from .records import Restored, decode, encode, encode_fields, table_from_json
@@ -95,6 +95,24 @@ SHAPE_WIDTHS = {"gaussian": ("sigma",), "lorentzian": ("gamma",), "voigt": ("sig
 SHAPE_NAMES = tuple(SHAPE_WIDTHS)
 BASELINE_NAMES = ("auto", "none", "constant", "linear", "poly2", "exponential")
 _CONSTRAINT_KEYS = ("value", "min", "max", "vary", "expr")
+
+
+def _dense_band_hint(sp) -> str:
+    """A hint for a spectrum whose every point the noise measure takes as line-free: either
+    pure noise, or a dense band with no gap (at low resolution), whose lines' own scatter
+    then passes for noise and hides them. Only for the message (nothing is recorded)."""
+    from ..processing import measure_noise
+
+    try:
+        est = measure_noise(sp.x, sp.y)
+    except WidgetkitError:  # a hint never hides the message it joins
+        return ""
+    if est.method != "line-free points" or est.line_free_fraction < 0.99:
+        return ""
+    return (f". The noise ({est.sigma:.3g}) was measured with every point taken as "
+            "line-free: if the spectrum holds only a dense band with no gap between its lines, "
+            "that is the lines' own scatter and it hides them; give find_peaks a flat stretch "
+            "(noise_region=(lo, hi) in cm-1) or crop a wider range with some baseline")
 
 
 def _check_constraints(constraints: dict | None) -> None:
@@ -205,7 +223,8 @@ class FitLines(StepKind):
         if len(peaks) == 0:
             where = "" if region is None else f" inside the region {region}"
             raise SessionStateError(
-                f"fit_lines: there are no peaks{where} to fit; run find_peaks() or add_peak() first")
+                f"fit_lines: there are no peaks{where} to fit; run find_peaks() or add_peak() "
+                f"first{_dense_band_hint(sp) if len(state.peaks) == 0 else ''}")
         _check_fit_size(peaks["fwhm"].to_numpy(dtype=float) if "fwhm" in peaks
                         else np.full(len(peaks), np.nan), sp, region, opts.get("window", 100.0))
         strict = bool(opts.pop("strict", False))
