@@ -19,8 +19,13 @@ CHI_FLAG = 1.5
 
 def _line_flags(prob: Problem, sol: Solution, table: pd.DataFrame, flags: dict) -> None:
     ids, dx = prob.ids, prob.dx
+    owner = {line_prefix(i): i for i in ids} if sol.at_bound else {}
     for name in sol.at_bound:
-        lid = next((i for i in ids if name.startswith(line_prefix(i))), "fit")
+        # a line's parameter is its prefix and one word ("l12_position"); anything else
+        # (a baseline coefficient, a shared width) belongs to the fit
+        lid = owner.get(name[:name.rfind("_") + 1], None)
+        if lid is None:  # (a width name with "_" in it: search, as before)
+            lid = next((i for i in ids if name.startswith(line_prefix(i))), "fit")
         flags.setdefault(lid, []).append(f"{name} ended at its bound")
     t_fwhm, t_area, t_err = (table[c].to_numpy() for c in ("fwhm", "area", "area_err"))
     for k in np.nonzero(t_fwhm < dx)[0]:
