@@ -62,6 +62,7 @@ the true one and no peak was found); ``fit_lines`` then says so. A flat stretch
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass
 
@@ -117,6 +118,10 @@ class NoiseEstimate:
         The user's flat region, cm⁻¹.
     note : str
         A warning for people ("" when there is none).
+    profile : tuple of (tuple of float, tuple of float) or None
+        Where the spectrum is noisier than ``sigma``: segment centres (cm⁻¹) and the
+        factors (≥ 1) σ is raised by there (:mod:`.noise_profile`); None where the noise
+        is uniform or was not measured along the spectrum. :meth:`at` gives σ at any x.
     """
 
     sigma: float
@@ -128,6 +133,16 @@ class NoiseEstimate:
     floor: str = ""
     region: tuple[float, float] | None = None
     note: str = ""
+    profile: tuple[tuple[float, ...], tuple[float, ...]] | None = None
+
+    def at(self, x) -> np.ndarray:
+        """σ at the wavenumbers ``x`` (cm⁻¹): ``sigma`` times the profile's factor,
+        interpolated between segment centres and held beyond the end ones."""
+        xa = np.asarray(x, dtype=np.float64)
+        if self.profile is None:
+            return np.full(xa.shape, self.sigma)
+        centres, factors = self.profile
+        return self.sigma * np.interp(xa, centres, factors)
 
     def describe(self) -> str:
         """One line for people: σ and how it was measured."""
@@ -144,6 +159,11 @@ class NoiseEstimate:
             text += f"; raised to the digitisation floor (step {self.quantum:.3g})"
         elif self.floor == "exact data":
             text += "; no noise found in the data (exact values), so a floor of 1e-9 of the range"
+        if self.profile is not None:
+            centres, factors = self.profile
+            k = int(np.argmax(factors))
+            text += (f"; up to {factors[k]:.2g} x higher near {centres[k]:.0f} cm-1, where "
+                     "peaks are judged against that higher noise")
         if self.note:
             text += f"; {self.note}"
         return text
@@ -154,7 +174,10 @@ class NoiseEstimate:
                 "line_free_fraction": float(self.line_free_fraction), "lag": int(self.lag),
                 "quantum": float(self.quantum), "floor": self.floor,
                 "region": None if self.region is None else [float(v) for v in self.region],
-                "note": self.note}
+                "note": self.note,
+                # recorded only when there is one, so that earlier records stay as they were
+                **({"profile": {"x": list(self.profile[0]), "factor": list(self.profile[1])}}
+                   if self.profile is not None else {})}
 
 
 # ---------------------------------------------------------------------------- helpers
@@ -380,7 +403,8 @@ def measure_noise(x, y, *, noise_region=None) -> NoiseEstimate:
     Returns
     -------
     NoiseEstimate
-        σ (> 0) and how it was obtained.
+        σ (> 0) and how it was obtained; with ``x`` given and σ measured on the line-free
+        points, also where the spectrum is noisier (``profile``, :mod:`.noise_profile`).
 
     Raises
     ------
@@ -392,8 +416,16 @@ def measure_noise(x, y, *, noise_region=None) -> NoiseEstimate:
             raise ProcessingError("noise_region needs the x values (cm-1) of the spectrum")
         xa, ya = as_xy(x, y)
         return _region(xa, ya, noise_region)
-    ya = as_y(y) if x is None else as_xy(x, y)[1]
-    return _auto(ya)
+    if x is None:
+        return _auto(as_y(y))
+    xa, ya = as_xy(x, y)
+    est = _auto(ya)
+    if est.floor:
+        return est
+    from .noise_profile import noise_profile
+
+    profile = noise_profile(xa, ya, est.sigma, est.lag)
+    return est if profile is None else dataclasses.replace(est, profile=profile)
 
 
 def estimate_noise(y, *, x=None, noise_region=None) -> float:

@@ -43,6 +43,12 @@ samples), with the false-alarm budget shared between the two searches; it
 adds the lines the first search missed. This finds undersampled weak lines
 (FWHM 2–5 samples) that a single sample cannot show.
 
+**Noise that varies along the spectrum.** Where a stretch of the spectrum is
+significantly noisier than the overall σ (the ends of a detector's range, strong
+absorption), σ there is raised to what that stretch shows (:mod:`.noise_profile`,
+``NoiseEstimate.profile``), and its peaks (threshold, prominence, snr) are judged against
+it; elsewhere σ stays the overall one.
+
 **Fringes.** An interference fringe in the baseline (a sinusoid of constant period,
 :mod:`.fringe`) is found first and set aside: its maxima are not reported as peaks, the
 noise is measured without it, and the local baseline (the ``baseline`` column) follows it.
@@ -62,7 +68,7 @@ The table has the columns of :data:`PEAK_COLUMNS`:
 ``peak_id`` (1..n ascending), ``position`` (cm⁻¹, vertex of the parabola
 through the three highest smoothed samples), ``height`` (the data's value
 there, y units: where a marker sits on the curve), ``snr`` (|height −
-baseline| / σ), ``prominence`` (y units), ``fwhm`` (cm⁻¹, full width at half
+baseline| / σ, σ where the peak is), ``prominence`` (y units), ``fwhm`` (cm⁻¹, full width at half
 height above the local baseline, stopping at the valleys to the neighbours),
 ``baseline`` (the local baseline at the peak, y units), ``index`` (sample of
 the maximum).
@@ -239,20 +245,21 @@ def _threshold(ctx: PeakContext, n: int, min_snr, gain: float, rho: float | None
     return t * gain, why
 
 
-def _plateau_merge(ctx: PeakContext, idx: np.ndarray, p_min: float) -> np.ndarray:
+def _plateau_merge(ctx: PeakContext, idx: np.ndarray, p_min: float,
+                   sigma: np.ndarray) -> np.ndarray:
     """Keep-mask over peaks sorted by position: of two neighbours that no real valley
     separates on the gently smoothed data (a flat, saturated top whose smoothed edges
-    overshoot), only the higher is kept."""
+    overshoot), only the higher is kept; ``sigma`` is σ at every sample."""
     keep = np.ones(idx.size, dtype=bool)
     if ctx.gentle is None or idx.size < 2:
         return keep
-    r, tol = ctx.gentle, p_min * ctx.gentle_gain * ctx.noise.sigma
+    r, tol = ctx.gentle, p_min * ctx.gentle_gain * sigma
     last = 0
     for k in range(1, idx.size):
         a, b = idx[last], idx[k]
         lo, hi = (a, b) if a <= b else (b, a)
         dip = min(r[a], r[b]) - float(r[lo:hi + 1].min())
-        if dip >= tol:
+        if dip >= max(tol[a], tol[b]):
             last = k
             continue
         if r[b] > r[a]:
@@ -309,7 +316,8 @@ def search_peaks(x, y, *, min_snr: float | None = None, min_separation: float | 
     xa, ya = as_xy(x, y)
     ctx = context or peak_context(xa, ya, noise=noise, noise_region=noise_region,
                                   direction=direction, width=width, fringe=fringe)
-    sigma = ctx.noise.sigma
+    # σ where each sample is (the overall σ, raised where the spectrum is noisier)
+    sigma = ctx.noise.at(xa)
     p_min = MIN_PROMINENCE if min_prominence is None else float(min_prominence)
     if not (math.isfinite(p_min) and p_min >= 0):
         raise ProcessingError(f"min_prominence must be a number >= 0 (in noise sigmas), got "
@@ -334,7 +342,7 @@ def search_peaks(x, y, *, min_snr: float | None = None, min_separation: float | 
                 else ctx.baseline_variance)
         height = t_snr * sigma * np.sqrt(1.0 + bvar / gain**2)
         idx, props = signal.find_peaks(sig, height=height, distance=distance,
-                                       prominence=max(p_min * gain * sigma, 1e-300))
+                                       prominence=np.maximum(p_min * gain * sigma, 1e-300))
         if idx.size == 0:
             continue
         pos, hgt = refine_parabola(xa, sig, idx)
@@ -351,14 +359,14 @@ def search_peaks(x, y, *, min_snr: float | None = None, min_separation: float | 
         return PeakSearch(_empty_table(), ctx, t_main, why, p_min)
     idx, pos, hgt, prom, fw = (np.concatenate(parts) for parts in zip(*found))
     order = np.argsort(pos, kind="stable")
-    keep = _plateau_merge(ctx, idx[order], p_min)
+    keep = _plateau_merge(ctx, idx[order], p_min, sigma)
     idx, pos, hgt, prom, fw = (a[order][keep] for a in (idx, pos, hgt, prom, fw))
     base_at = np.interp(pos, xa, ctx.baseline)
     table = pd.DataFrame({
         "peak_id": np.arange(1, idx.size + 1, dtype=np.int64),
         "position": pos,
         "height": base_at + ctx.sign * hgt,
-        "snr": hgt / sigma,
+        "snr": hgt / sigma[idx],
         "prominence": prom,
         "fwhm": fw,
         "baseline": base_at,
