@@ -150,7 +150,7 @@ def local_baseline(y, sigma: float, *, window: int, free=None, width: float = 1.
     return base, use, np.clip(var, 0.0, 1.0)
 
 
-def typical_width(y, sigma: float, *, min_prominence: float = 10.0, top: int = 25) -> float:
+def typical_width(y, sigma, *, min_prominence: float = 10.0, top: int = 25) -> float:
     """Typical FWHM, in points, of the strongest features of ``y`` (peaks up).
 
     The median width at half prominence (:func:`scipy.signal.peak_widths`) of the

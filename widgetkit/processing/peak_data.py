@@ -135,7 +135,7 @@ def _matched(s: np.ndarray, width: float) -> tuple[np.ndarray | None, float, flo
     return out, float(np.sqrt(np.sum(k * k))), _rho(k)
 
 
-def _first_pass_width(s: np.ndarray, sigma: float, n: int) -> float:
+def _first_pass_width(s: np.ndarray, sigma, n: int) -> float:
     """Median width (samples, at half prominence) of what a raw search finds, when
     at least three peaks stand out; NaN otherwise."""
     t = default_threshold(n)
@@ -198,7 +198,9 @@ def _context(xa, ya, noise, noise_region, direction: str, wf: float | None,
     est = _noise(xa, ya, noise, noise_region)
     sigma = est.sigma
     s0 = ya if direction == "up" else -ya
-    w = typical_width(s0, sigma, min_prominence=WIDTH_PROMINENCE)
+    # where the spectrum is noisier, its noise must not pass as the strongest lines
+    local = est.at(xa)
+    w = typical_width(s0, local, min_prominence=WIDTH_PROMINENCE)
     dx = float(np.median(np.diff(xa)))
     if wf is not None and not math.isfinite(w):
         w = wf / dx
@@ -206,7 +208,7 @@ def _context(xa, ya, noise, noise_region, direction: str, wf: float | None,
     base, _, base_var = local_baseline(s0, sigma, window=baseline_window(wb, ya.size), width=wb)
     above = s0 - base
     if not math.isfinite(w):
-        w = _first_pass_width(above, sigma, ya.size)
+        w = _first_pass_width(above, local, ya.size)
     sm, win, gain, rho = _savgol(above, w)
     mf, mgain, mrho = _matched(above, w)
     gentle, ggain = None, 1.0
