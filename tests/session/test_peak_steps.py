@@ -128,3 +128,20 @@ def test_no_hint_when_the_peaks_lie_outside_the_region_asked_for():
     with pytest.raises(SessionStateError) as err:
         s.fit_lines(region=(2820.0, 2880.0))
     assert "inside the region" in str(err.value) and "noise_region" not in str(err.value)
+
+
+def test_noise_higher_at_one_end_is_recorded_said_and_replayed():
+    # invented data (self-consistency): noise sigma 4x higher at the low end, falling to
+    # 1x beyond about 1500 cm-1, one line of 60 sigma (the overall one) at 3000 cm-1
+    rng = np.random.default_rng(5)
+    x = np.linspace(500.0, 4000.0, 20_001)
+    sigma = 0.001 * (1.0 + 3.0 * np.exp(-(x - 500.0) / 300.0))
+    y = 0.06 * np.exp(-0.5 * ((x - 3000.0) / 0.3) ** 2) + rng.normal(0.0, 1.0, x.size) * sigma
+    s = wk.Session(wk.Spectrum(x, y, y_kind="absorbance"))
+    peaks = s.find_peaks()
+    # judged against the overall sigma this gave 14 peaks, 13 of them noise at the low end
+    assert np.allclose(peaks["position"], [3000.0], atol=0.1)
+    noise = s.history[-1].result["search"]["noise"]
+    assert noise["profile"]["factor"][0] > 2.0 and max(noise["profile"]["factor"][-4:]) == 1.0
+    assert "higher near" in s.history[-1].summary
+    assert s.verify().ok
