@@ -188,7 +188,7 @@ def _snap(sp, pos: float, context, width: float) -> float | None:
     the smoothed data above the local baseline, peaks up); None otherwise."""
     from .. import processing
 
-    noise_s = context.noise.sigma * context.gain
+    noise_s = float(context.noise.at(pos)) * context.gain  # the noise where the peak is
     try:
         top = float(processing.nearest_maximum(sp.x, context.signal, pos, search=width,
                                                noise=noise_s))
@@ -232,7 +232,7 @@ class AddPeak(StepKind):
                     "place the new one further away")
         pid = state.next_peak_id
         row = {"peak_id": pid, **processing.peak_row(
-            sp.x, sp.y, pos, context.noise.sigma, baseline=context.baseline,
+            sp.x, sp.y, pos, float(context.noise.at(pos)), baseline=context.baseline,
             direction=context.direction), "origin": "manual"}
         row.pop("index", None)
         row["fwhm"] = width
