@@ -88,3 +88,17 @@ def test_the_snr_column_uses_the_noise_where_the_peak_is():
     assert factor > 2.0
     # the same height over a noise `factor` times higher: `factor` times lower snr
     assert snr_quiet / snr_noisy == pytest.approx(factor, rel=0.15)
+
+
+def test_a_noisier_stretch_inside_the_range_is_not_taken_for_noise():
+    # design choice (module docstring): inside the range a segment that looks noisier is far
+    # more often a dense band; only runs from an end of the spectrum raise sigma
+    rng = np.random.default_rng(2)
+    x = np.linspace(500.0, 4000.0, N)
+    inside = (x > 2000.0) & (x < 2400.0)
+    y = rng.normal(0.0, 1.0, N) * np.where(inside, 3.0, 1.0)
+    assert measure_noise(x, y).profile is None
+    # the same stretch moved to the end is followed
+    y_end = rng.normal(0.0, 1.0, N) * np.where(x > 3600.0, 3.0, 1.0)
+    est = measure_noise(x, y_end)
+    assert est.profile is not None and est.profile[1][-1] > 2.0
