@@ -3,7 +3,7 @@
 An FTIR spectrum is not equally noisy everywhere: near the ends of the detector's range,
 and where the sample absorbs most of the light, fewer photons arrive and the noise grows.
 Measured on a public gas-phase survey spectrum (575-3975 cm⁻¹, 0.48 cm⁻¹ resolution, 14,104
-points): σ of its overall line-free points 1.85·10⁻⁷, by segment from 2.8 times that at
+points): σ of its overall line-free points 1.85·10⁻⁷, by segment from 2.6 times that at
 575-787 cm⁻¹ down to 0.6 times at 1850-2060 cm⁻¹. Judged against the overall σ, the noise
 at the low end passed as lines: seven "peaks" of 3.7-8.4 σ below 625 cm⁻¹, each 2-4
 samples wide.
@@ -15,22 +15,24 @@ local mean removed) iterated from the overall σ (:mod:`.noise`). Weak lines lef
 line-free points of a segment crowded with lines give the differences heavy tails, which
 raise their RMS but not their Gaussian core (the normal-scaled median absolute difference):
 the segment's σ is the smaller of the two (on simulated spectra of uniform noise, dense
-rotational bands raised the RMS of a segment up to 2.1 times, its core up to 1.4 times,
-and only where under half of the segment was line-free). A segment counts as noisier only
-when at least :data:`MIN_FREE_FRACTION` of it is line-free, and when its σ exceeds the
-overall one by more than :data:`SIGNIFICANCE` standard errors (σ measured on m differences
-scatters by about :data:`SE_GAIN`/√(2m) of itself for Gaussian noise; with
-:data:`SEGMENTS` segments, four standard errors keep a uniformly noisy spectrum from
-showing a profile but in about one in a thousand). Only raised segments that run without a break from an end of the spectrum are kept: the
-noise of a spectrometer grows toward the ends of its range, where the detector and the
-beamsplitter pass less light, and a single segment inside the range that looks noisier is
-far more often a band of lines one or two samples wide, which no statistic of the
+rotational bands raised the RMS of a segment up to 2.1 times, its core up to 1.4 times, and
+only where under half of the segment was line-free). A segment counts as noisier only when
+at least :data:`MIN_FREE_FRACTION` of it is line-free, when its differences do not spread
+more at two and three times the lag (:data:`STRUCTURE_LAGS`: a band of lines a few samples
+wide that passed as line-free once σ was raised), and when its σ exceeds the overall one by
+more than :data:`SIGNIFICANCE` standard errors (σ measured on m differences scatters by
+about :data:`SE_GAIN`/√(2m) of itself for Gaussian noise; with :data:`SEGMENTS` segments,
+four standard errors keep a uniformly noisy spectrum from showing a profile but in about one
+in a thousand). Only raised segments that run without a break from an end of the spectrum
+are kept: the noise of a spectrometer grows toward the ends of its range, where the detector
+and the beamsplitter pass less light, and a single segment inside the range that looks
+noisier is far more often a band of lines one or two samples wide, which no statistic of the
 differences tells from noise (on the public survey spectra tried, the C-H stretch band of a
 gas at 0.24 cm⁻¹ sampling looked 28 times noisier than the rest, and with it 243 of its
-lines would have been lost). The profile is the overall σ times the factor of each
-segment, at least 1, interpolated between segment centres: it only ever
-raises σ, so a spectrum whose noise is uniform is searched exactly as before, and weak
-lines where the noise is low are judged against the overall σ as before.
+lines would have been lost). The profile is the overall σ times the factor of each segment,
+at least 1, interpolated between segment centres: it only ever raises σ, so a spectrum whose
+noise is uniform is searched exactly as before, and weak lines where the noise is low are
+judged against the overall σ as before.
 """
 
 from __future__ import annotations
