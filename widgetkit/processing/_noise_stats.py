@@ -10,7 +10,7 @@ import numpy as np
 from scipy import ndimage
 from scipy.stats import norm
 
-__all__ = ["line_free_mask", "quantum", "FEATURE_SIGMAS", "CLIP", "TREND_POINTS"]
+__all__ = ["line_free_mask", "quantum", "lag_sigma", "FEATURE_SIGMAS", "CLIP", "TREND_POINTS"]
 
 #: a point departing this many σ from its neighbours belongs to a feature
 FEATURE_SIGMAS = 4.0
@@ -109,3 +109,21 @@ def line_free_mask(y, sigma: float, *, k: float = FEATURE_SIGMAS) -> np.ndarray:
     bend = np.abs(ya[1:-1] - 0.5 * (ya[:-2] + ya[2:])) > k * sigma * math.sqrt(1.5)
     flag[1:-1] |= bend
     return ~_dilate_runs(flag)
+
+
+def lag_sigma(y: np.ndarray, free: np.ndarray, lag: int, min_count: int = 8
+              ) -> tuple[float, float, int]:
+    """σ from lag-``lag`` differences whose whole span is line-free (``free``), their local
+    mean removed: the clipped RMS, the normal-scaled median absolute value (the Gaussian
+    core), and the count (NaN for both below ``min_count`` differences)."""
+    if y.size <= lag + 2:
+        return math.nan, math.nan, 0
+    blocked = np.concatenate(([0], np.cumsum(~free)))
+    ok = (blocked[lag + 1:] - blocked[:-lag - 1]) == 0
+    count = int(ok.sum())
+    if count < min_count:
+        return math.nan, math.nan, count
+    d = y[lag:] - y[:-lag]
+    d = (d - _local_mean(d, ok))[ok]
+    core = _MAD_TO_SIGMA * float(np.median(np.abs(d))) / math.sqrt(2.0)
+    return _clipped_rms(d) / math.sqrt(2.0), core, count

@@ -75,12 +75,11 @@ import numpy as np
 
 from ._common import ProcessingError, as_xy, as_y
 from ._noise_stats import (  # noqa: F401  (FEATURE_SIGMAS, CLIP, TREND_POINTS: documented here)
-    _MAD_TO_SIGMA,
     CLIP,
     FEATURE_SIGMAS,
     TREND_POINTS,
     _clipped_rms,
-    _local_mean,
+    lag_sigma,
     line_free_mask,
     quantum,
 )
@@ -184,22 +183,6 @@ class NoiseEstimate:
 
 
 # ---------------------------------------------------------------------------- helpers
-def _lag_sigma(y: np.ndarray, free: np.ndarray, lag: int) -> tuple[float, float, int]:
-    """σ from lag-``lag`` differences whose whole span is line-free: the clipped RMS,
-    the normal-scaled median absolute value (the Gaussian core), and the count."""
-    if y.size <= lag + 2:
-        return math.nan, math.nan, 0
-    blocked = np.concatenate(([0], np.cumsum(~free)))
-    ok = (blocked[lag + 1:] - blocked[:-lag - 1]) == 0
-    count = int(ok.sum())
-    if count < 8:
-        return math.nan, math.nan, count
-    d = y[lag:] - y[:-lag]
-    d = (d - _local_mean(d, ok))[ok]
-    core = _MAD_TO_SIGMA * float(np.median(np.abs(d))) / math.sqrt(2.0)
-    return _clipped_rms(d) / math.sqrt(2.0), core, count
-
-
 def _start_sigma(y: np.ndarray) -> float:
     """A low first guess: the 10th percentile of σ over short segments."""
     d = np.diff(y)
@@ -247,7 +230,7 @@ def _auto(y: np.ndarray) -> NoiseEstimate:
     lag, used = 1, n
     for _ in range(60):
         free = line_free_mask(y, sigma)
-        rms, core, counts = zip(*(_lag_sigma(y, free, L) for L in LAGS))
+        rms, core, counts = zip(*(lag_sigma(y, free, L) for L in LAGS))
         if not math.isfinite(rms[0]):
             sigma *= 1.25  # too few line-free pairs at this σ: look less strictly
             continue

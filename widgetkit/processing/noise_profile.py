@@ -41,7 +41,7 @@ import math
 
 import numpy as np
 
-from ._noise_stats import _MAD_TO_SIGMA, _clipped_rms, _local_mean, line_free_mask
+from ._noise_stats import lag_sigma, line_free_mask
 
 __all__ = ["noise_profile", "SEGMENT_POINTS", "SEGMENTS", "SIGNIFICANCE", "MIN_FREE_FRACTION"]
 
@@ -75,50 +75,29 @@ def _segment_sigma(y: np.ndarray, sigma: float, lag: int) -> tuple[float, int]:
     """σ of one segment and the line-free differences it rests on (NaN when too few are):
     the line-free mask and the clipped RMS iterated from the overall σ (from below for a
     noisier segment, as the overall estimate is, :mod:`.noise` part 4), then the smaller of
-    that RMS and the Gaussian core (the normal-scaled median absolute difference). Weak lines
-    left among the line-free points give heavy tails, which raise the RMS but not the core;
-    noise that is really higher raises both."""
-    d = y[lag:] - y[:-lag]
-    need = max(MIN_FREE_POINTS, MIN_FREE_FRACTION * d.size)
-    s, dd = sigma, d[:0]
+    that RMS and the Gaussian core (module docstring), unless the differences spread more
+    at a longer lag (lines, not noise)."""
+    s, core, m = sigma, math.nan, 0
+    free = np.ones(y.size, dtype=bool)
     for _ in range(ITERATIONS):
         free = line_free_mask(y, s)
-        ok = _span_free(free, lag)
-        if ok.sum() < MIN_FREE_POINTS:
+        rms, core, m = lag_sigma(y, free, lag, MIN_FREE_POINTS)
+        if not math.isfinite(rms):
             s *= 1.25  # too few line-free pairs at this σ: look less strictly
             continue
-        dd = (d - _local_mean(d, ok))[ok]
-        new = _clipped_rms(dd) / math.sqrt(2.0)
-        done = abs(new - s) <= 1e-3 * s
-        s = new
+        done = abs(rms - s) <= 1e-3 * s
+        s = rms
         if done:
             break
-    if dd.size < need:
-        return math.nan, int(dd.size)
-    core = _core(y, ok, lag)
+    if not math.isfinite(core) or m < MIN_FREE_FRACTION * (y.size - lag):
+        return math.nan, m
     # noise is white: its differences spread alike at any lag; lines (smooth over a few
     # points) that passed as line-free once σ was raised spread more at a longer lag
-    tol = core * (1.0 + SIGNIFICANCE * SE_GAIN / math.sqrt(2.0 * dd.size))
+    tol = core * (1.0 + SIGNIFICANCE * SE_GAIN / math.sqrt(2.0 * m))
     for k in STRUCTURE_LAGS:
-        if not _core(y, _span_free(free, k * lag), k * lag) <= tol:
-            return math.nan, int(dd.size)
-    return min(s, core), int(dd.size)
-
-
-def _span_free(free: np.ndarray, lag: int) -> np.ndarray:
-    """Lag-``lag`` differences whose whole span is line-free."""
-    blocked = np.concatenate(([0], np.cumsum(~free)))
-    return (blocked[lag + 1:] - blocked[:-lag - 1]) == 0
-
-
-def _core(y: np.ndarray, ok: np.ndarray, lag: int) -> float:
-    """Normal-scaled median absolute lag-``lag`` difference over ``ok``, local mean removed,
-    as a σ (NaN when fewer than :data:`MIN_FREE_POINTS`)."""
-    if y.size <= lag + 2 or ok.sum() < MIN_FREE_POINTS:
-        return math.nan
-    d = y[lag:] - y[:-lag]
-    dd = (d - _local_mean(d, ok))[ok]
-    return _MAD_TO_SIGMA * float(np.median(np.abs(dd))) / math.sqrt(2.0)
+        if not lag_sigma(y, free, k * lag, MIN_FREE_POINTS)[1] <= tol:
+            return math.nan, m
+    return min(s, core), m
 
 
 def noise_profile(x: np.ndarray, y: np.ndarray, sigma: float, lag: int = 1):
