@@ -41,7 +41,10 @@ the baseline are also searched after a Gaussian filter of FWHM w scaled to
 give a line's height (a matched filter: noise √(Σk²)·σ, 0.66 σ for w = 3
 samples), with the false-alarm budget shared between the two searches; it
 adds the lines the first search missed. This finds undersampled weak lines
-(FWHM 2–5 samples) that a single sample cannot show.
+(FWHM 2–5 samples) that a single sample cannot show. Their ``snr`` (the height the
+filter estimates over σ) can be below ``PeakSearch.min_snr``, which is the first
+search's threshold: the filter's own noise is lower (0.66 σ for lines 3 samples wide),
+so a line 4 σ high stands 6 of the filter's σ out.
 
 **Noise that varies along the spectrum.** Where a stretch of the spectrum is
 significantly noisier than the overall σ (the ends of a detector's range, strong
