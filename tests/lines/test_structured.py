@@ -375,3 +375,50 @@ def test_kept_shape_values_are_never_overwritten_by_later_evaluations(monkeypatc
         assert np.allclose(model.window_gradient(lps[k_grad]), fresh[k_grad][1:], rtol=1e-14,
                            atol=0)
         assert np.array_equal(model.window_values(thetas[k_val]), fresh[k_val][0])
+
+
+def test_the_widest_windows_of_a_dense_spectrum_join_the_globals_when_that_is_cheaper():
+    # invented data (self-consistency against numpy's dense inverse): 120 narrow lines with
+    # every fourth one 30 times wider, whose windows overlap most of the others (so many
+    # that the median line overlaps dozens of windows: a rule on the degree alone kept
+    # them all in the band)
+    from widgetkit.lines.baselines import get_baseline
+    from widgetkit.lines.params import ThetaMap, build_params, theta_names
+    from widgetkit.lines.shapes import get_shape
+
+    rng = np.random.default_rng(11)
+    x = np.linspace(0.0, 240.0, 12000)
+    m = 120
+    pos = np.linspace(2.0, 238.0, m)
+    broad = np.arange(m) % 4 == 1
+    sig = np.where(broad, 0.9, 0.03)
+    gam = np.where(broad, 0.9, 0.03)
+    area = np.where(broad, 3.0, 0.1)
+    y = 0.1 + rng.normal(0.0, 0.005, x.size)
+    for a, p, s_, g_ in zip(area, pos, sig, gam):
+        y = y + wl.voigt(x, a, p, s_, g_)
+    shp, bl = get_shape("voigt"), get_baseline("linear")
+    ids = list(range(1, m + 1))
+    theta = np.r_[area, pos, sig, gam, 0.1, 0.0]
+    params = build_params(shp, bl, ids, theta, {})
+    tmap = ThetaMap(params, theta_names(shp, ids, bl))
+    model = model_mod.WindowedModel(x, y, None, shp, bl, 120.0, m, tmap, 100.0)
+    model.set_windows(theta)
+    wide = structured.wide_lines(model)
+    assert np.all(wide[broad]) and wide.sum() <= broad.sum() + 10  # the broad lines
+    all_local = structured.band_cost(model.starts, model.ends, 0, 4)
+    chosen = structured.band_cost(model.starts[~wide], model.ends[~wide], int(wide.sum()), 4)
+    assert chosen < 0.5 * all_local
+    v = model.variables(params)
+    r = model.residual_vec(v)
+    model.structured = False
+    H, _ = model.normal_equations(v, r)
+    model.structured = True
+    S, _ = model.normal_equations(v, r)
+    computed = S.covariance().to_sparse().toarray()
+    inv = np.linalg.inv(H)
+    mask = computed != 0
+    scale = np.sqrt(np.outer(np.diag(inv), np.diag(inv)))
+    assert np.max(np.abs(computed - inv)[mask] / scale[mask]) < 1e-7
+    k = np.arange(v.size)
+    assert np.allclose(S.covariance().entries(k, k), np.diag(inv), rtol=1e-7)

@@ -258,15 +258,19 @@ class ArrowCovariance:
         gl = ~la & ~lb
         if np.any(gl):
             out[gl] = self.sinv[pa[gl] - nl, pb[gl] - nl]
-        # a variable the data hardly touch (a zero Jacobian column at a stopped fit) has a
-        # scale near 0: its variance overflows; it is kept enormous and its covariances 0,
-        # as in lines._lmfit_sparse.inverse_normal
-        with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
-            out = np.asarray(out / (self.d[pa] * self.d[pb]))
-        bad = np.isinf(out)  # NaN stays: "not computed"
-        if np.any(bad):
-            out = np.where(bad, np.where(np.asarray(pa) == np.asarray(pb), 1e300, 0.0), out)
+        out = _unscaled(out, self.d[pa], self.d[pb], np.asarray(pa) == np.asarray(pb))
         return out[()] if out.ndim == 0 else out
+
+    def band_diagonal(self, r: int) -> np.ndarray:
+        """``cov`` between local variables ``j + r`` and ``j`` along the band (permuted
+        order), j = 0 … n_loc − r − 1: diagonal ``r`` of the band, from slices (no
+        gathered copies of the global rows: with hundreds of globals those were gigabytes)."""
+        nl = self.n_loc
+        val = self.sig[r, : nl - r].copy()
+        if self.W.shape[1]:
+            val += np.einsum("ij,ij->i", self.WS[r:nl], self.W[: nl - r])
+        d = self.d[:nl]
+        return _unscaled(val, d[r:], d[: nl - r], np.full(val.shape, r == 0))
 
     def diagonal(self) -> np.ndarray:
         """Variances, variables in their own order."""
@@ -277,17 +281,35 @@ class ArrowCovariance:
         """The computed entries as a sparse (n, n) array, variables in their own order:
         every pair of local variables within the band, every row and column of a global."""
         nl, bw, n = self.n_loc, self.bw, self.n
-        rows, cols = [], []
+        rows, cols, vals = [], [], []
         for r in range(bw + 1):
             j = np.arange(nl - r)
+            v = self.band_diagonal(r)
             rows += [j + r, j] if r else [j]
             cols += [j, j + r] if r else [j]
+            vals += [v, v] if r else [v]
         gidx = np.arange(nl, n)
         if gidx.size:
             allk = np.arange(n)
-            rows += [np.repeat(gidx, n), np.tile(allk[:nl], gidx.size)]
-            cols += [np.tile(allk, gidx.size), np.repeat(gidx, nl)]
-        pr, pc = np.concatenate(rows), np.concatenate(cols)
-        a, b = self.order[pr], self.order[pc]
-        vals = self.entries(a, b)
-        return sp.csr_array((vals, (a, b)), shape=(n, n))
+            gr = [np.repeat(gidx, n), np.tile(allk[:nl], gidx.size)]
+            gc = [np.tile(allk, gidx.size), np.repeat(gidx, nl)]
+            rows += gr
+            cols += gc
+            vals.append(self.entries(self.order[np.concatenate(gr)],
+                                     self.order[np.concatenate(gc)]))
+        a = self.order[np.concatenate(rows)]
+        b = self.order[np.concatenate(cols)]
+        return sp.csr_array((np.concatenate(vals), (a, b)), shape=(n, n))
+
+
+def _unscaled(out: np.ndarray, da: np.ndarray, db: np.ndarray, same: np.ndarray) -> np.ndarray:
+    """Covariances of the unit-diagonal matrix back in the variables' units. A variable the
+    data hardly touch (a zero Jacobian column at a stopped fit) has a scale near 0: its
+    variance overflows; it is kept enormous and its covariances 0, as in
+    lines._lmfit_sparse.inverse_normal. NaN stays ("not computed")."""
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        out = np.asarray(out / (da * db))
+    bad = np.isinf(out)
+    if np.any(bad):
+        out = np.where(bad, np.where(same, 1e300, 0.0), out)
+    return out
