@@ -34,6 +34,7 @@ a strongly structured residual still makes the result doubtful.
 from __future__ import annotations
 
 import math
+import threading
 
 import numpy as np
 
@@ -41,15 +42,40 @@ from .solver import normal_inverse
 
 __all__ = ["block_variances", "widen"]
 
+_LOCAL = threading.local()
+#: largest work array (elements) a thread keeps between widenings (a few MB)
+_KEEP_MAX = 1 << 20
 
-def _dots(a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    """Σ_i a[j, i] b[j, i] for every row j (one dot product per row: faster than a reduction)."""
-    return np.array([float(np.dot(u, v)) for u, v in zip(a, b, strict=True)])
+
+def _edge_sums(w: np.ndarray, L_max: int) -> tuple[np.ndarray, ...]:
+    """Running sums over the first and last ``L_max`` columns of ``w`` (P, N + 1), entry
+    L − 1 for block length L: Σ_{i<L} w_i², Σ_{i>N−L} w_i², Σ_{0<t<L} (w_t − w_0)² and
+    Σ_{N−L<t<N} (w_N − w_t)² (the windows that begin before the data and that end after it)."""
+    head, tail = w[:, :L_max], w[:, ::-1][:, :L_max]  # tail: w_N, w_{N−1}, …
+    return (np.cumsum(head * head, axis=1), np.cumsum(tail * tail, axis=1),
+            np.cumsum(np.square(head - head[:, :1]), axis=1),
+            np.cumsum(np.square(tail - tail[:, :1]), axis=1))
 
 
-def _squares(a: np.ndarray) -> np.ndarray:
-    """Σ_i a[j, i]² for every row j of a short array (one call)."""
-    return np.einsum("ij,ij->i", a, a)
+def _projected_running_sum(J: np.ndarray, r: np.ndarray, bread: np.ndarray) -> np.ndarray:
+    """w (P, N + 1): w_0 = 0, w_t = Σ_{i<t} (JᵀJ)⁻¹ J_i r_i, centred on its mean (in the
+    thread's kept work array for moderate N: a fresh one of this size costs page faults
+    worth half the computation)."""
+    N, P = J.shape
+    shape = (P, N + 1)
+    if P * (N + 1) <= _KEEP_MAX:
+        w = getattr(_LOCAL, "w", None)
+        if w is None or w.shape != shape:
+            w = _LOCAL.w = np.empty(shape)
+    else:
+        w = np.empty(shape)
+    body = w[:, 1:]
+    np.matmul(bread.T, J.T, out=body)
+    body *= r
+    w[:, 0] = 0.0
+    np.cumsum(body, axis=1, out=body)
+    w -= w.mean(axis=1, keepdims=True)
+    return w
 
 
 def block_variances(J: np.ndarray, r: np.ndarray, bread: np.ndarray | None = None) -> np.ndarray:
@@ -61,33 +87,37 @@ def block_variances(J: np.ndarray, r: np.ndarray, bread: np.ndarray | None = Non
     window sums projected on (JᵀJ)⁻¹ are differences of w: w_{t+L} − w_t inside the data,
     w_t − w_0 for the L − 1 windows that begin before it and w_N − w_t for those that end
     after it. Their sum of squares inside is Σ w_{t+L}² + Σ w_t² − 2 Σ w_{t+L} w_t (the
-    first two are Σ w² less the first or last L terms: dot products only, O(N P) for each
-    L, no array written). w is first centred (the differences do not change); the
-    cancellation in that sum then costs about five of the sixteen digits (1e-11 relative
-    to the direct sums in tests with 5·10⁴ points; ample for a factor on an error)."""
+    first two are Σ w² less the first or last L terms, from running sums over the ends):
+    dot products only, O(N P) for each L, no array written; the lag products of one
+    parameter are taken together, while its row of w is in the processor's cache. w is
+    first centred (the differences do not change); the cancellation in that sum then costs
+    about five of the sixteen digits (1e-11 relative to the direct sums in tests with 5·10⁴
+    points; ample for a factor on an error)."""
     J = np.asarray(J, dtype=float)
     r = np.asarray(r, dtype=float)
     N, P = J.shape
     if P == 0 or N < 16:
         return np.zeros(P)
     bread = normal_inverse(J.T @ J) if bread is None else bread
-    c = np.zeros((P, N + 1))
-    np.cumsum((J * r[:, None]).T, axis=1, out=c[:, 1:])
-    w = bread.T @ c  # (P, N + 1): row j is parameter j
-    w -= w.mean(axis=1, keepdims=True)
-    total = _dots(w, w)
+    w = _projected_running_sum(J, r, bread)
+    lengths = [1 << k for k in range(max(N // 8, 1).bit_length()) if 1 << k <= N // 8]
     best = np.zeros(P)
+    if not lengths:
+        return best
+    total = np.empty(P)
+    lag = np.empty((P, len(lengths)))
+    for j in range(P):
+        row = w[j]
+        total[j] = np.dot(row, row)
+        for i, L in enumerate(lengths):
+            lag[j, i] = np.dot(row[L:], row[:N + 1 - L])
+    first, last, before, after = _edge_sums(w, lengths[-1])
     dof = N / max(N - P, 1)
-    L = 1
-    while L <= N // 8:
-        first, last = w[:, :L], w[:, N + 1 - L:]
-        inside = (2.0 * total - _squares(first) - _squares(last)
-                  - 2.0 * _dots(w[:, L:], w[:, :N + 1 - L]))
-        if L > 1:
-            inside += _squares(w[:, 1:L] - w[:, :1])  # windows that begin before the data
-            inside += _squares(w[:, N:N + 1] - w[:, N - L + 1:N])  # and that end after it
+    for i, L in enumerate(lengths):
+        k = L - 1
+        inside = (2.0 * total - first[:, k] - last[:, k] - 2.0 * lag[:, i] + before[:, k]
+                  + after[:, k])
         best = np.maximum(best, inside * (dof / L))
-        L *= 2
     return best
 
 
