@@ -24,16 +24,19 @@ def deposit(grid: Grid, pos, s, weights: list[np.ndarray],
     """Columns Σ_k a_k g(u − ν_k; s_k) + b_k ∂g/∂ν + c_k ∂g/∂s on the grid.
 
     ``weights`` is a list of (a, b, c) triples of arrays (L,) or None; returns (n_cols, M),
-    in ``out`` (float, n_cols · M elements) when given.
+    in ``out`` when given: a flat float array of n_cols · M elements or more, or a C-ordered
+    2-d float array of at least n_cols rows of at least M (row j gets column j in its first
+    M entries, the rest of it is left as it is: the zero padding of a transform; float32
+    rows sum the deposits in float32).
     """
     h = grid.h
     if s.size and not float(np.max(s)) * WINDOW < 0.5 * grid.M * h:
         # lines wider than the spectrum (a solver's absurd trial step): no model
         if out is None:
             return np.full((len(weights), grid.M), np.nan)
-        out = out.reshape(-1)[:len(weights) * grid.M]
-        out.fill(np.nan)
-        return out.reshape(len(weights), grid.M)
+        view = _rows(out, len(weights), grid.M)
+        view.fill(np.nan)
+        return view
     w = int(math.ceil(WINDOW * float(np.max(s)) / h)) if s.size else 0
     offs = np.arange(-w, w + 1)
     centre = np.rint((pos - grid.u0) / h).astype(np.int64)
@@ -58,14 +61,26 @@ def deposit(grid: Grid, pos, s, weights: list[np.ndarray],
         if c is not None:
             vj = vj + g_s * c[:, None]
         v[j] = vj
-    # one histogram for all columns: column j's grid index i goes to bin j·M + i
-    flat = (idx[None, :, :] + (grid.M * np.arange(n))[:, None, None]).ravel()
+    # one histogram for all columns: column j's grid index i goes to bin j·stride + i
+    stride = out.shape[1] if out is not None and out.ndim == 2 else grid.M
+    flat = (idx[None, :, :] + (stride * np.arange(n))[:, None, None]).ravel()
     if out is None:
         return np.bincount(flat, weights=v.ravel(), minlength=n * grid.M).reshape(n, grid.M)
-    out = out.reshape(-1)[:n * grid.M]
-    out.fill(0.0)
-    np.add.at(out, flat, v.ravel())  # (the same sums, in the same order, as bincount)
-    return out.reshape(n, grid.M)
+    view = _rows(out, n, grid.M)
+    view.fill(0.0)
+    # (the same sums, in the same order, as bincount; values in the type of ``out``: ufunc.at
+    # is slow when it casts)
+    np.add.at(out.reshape(-1), flat, v.ravel().astype(out.dtype, copy=False))
+    return view
+
+
+def _rows(out: np.ndarray, n: int, M: int) -> np.ndarray:
+    """The (n, M) part of ``out`` that :func:`deposit` writes."""
+    if out.ndim == 2:
+        if out.shape[0] < n or out.shape[1] < M or not out.flags.c_contiguous:
+            raise ValueError("deposit: out must be C-ordered with at least (columns, M) entries")
+        return out[:n, :M]
+    return out.reshape(-1)[:n * M].reshape(n, M)
 
 
 def sample(grid: Grid, rows: np.ndarray) -> np.ndarray:

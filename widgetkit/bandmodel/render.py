@@ -321,6 +321,7 @@ def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, 
         if kernel.tau > 0 and kernel.instrument != "gaussian":
             k = k * np.exp(2.0 * math.pi**2 * kernel.tau**2 * t * t)
         cache["k"], cache["lor"] = k, lor
+        cache["k32"] = k.astype(np.complex64)  # (for the float32 derivative rows)
     k = cache["k"]
     if "v" not in cache:
         padded = _scratch(work, "value", (n,), np.float64)  # zeros beyond M
@@ -337,9 +338,10 @@ def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, 
     # rows to transform back: the live deposits, then kernel-only columns (γ, Δ)
     kern_terms = {}
     if d_gamma is not None:
+        if "gk" not in cache:
+            cache["gk"] = (-2.0 * math.pi * t) * k  # ∂k/∂γ
         term = _scratch(work, "term", fv.shape, fv.dtype)
-        np.multiply(fv, -2.0 * math.pi * t, out=term)
-        kern_terms[d_gamma] = np.multiply(term, k, out=term)
+        kern_terms[d_gamma] = np.multiply(fv, cache["gk"], out=term)
     if d_resolution is not None and kernel.instrument != "gaussian":
         dt = 1.0 / (n * grid.h)
         dk = cache["lor"] * transfer_derivative(kernel.instrument, kernel.resolution, t, dt=dt) * \
@@ -352,12 +354,9 @@ def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, 
         return y, np.zeros((y.size, n_par), dtype=np.float32)
     d = _scratch(work, "spectra", (len(order), fv.size), np.complex64)
     if n_live:
-        dep = _deposit(grid, pos, s, weights, out=_scratch(work, "deposit", (n_live * M,),
-                                                              np.float64))
         padded = _scratch(work, "padded", (n_live, n), np.float32)  # zeros beyond M
-        padded[:, :M] = dep
-        np.multiply(sfft.rfft(padded, axis=-1, workers=1), k.astype(np.complex64)[None, :],
-                    out=d[:n_live])
+        _deposit(grid, pos, s, weights, out=padded)
+        np.multiply(sfft.rfft(padded, axis=-1, workers=1), cache["k32"][None, :], out=d[:n_live])
     for p, term in kern_terms.items():
         r = order.index(p)
         if live[p]:
