@@ -65,6 +65,7 @@ class Fitter:
         self.last: Solution | None = None
         self._cache: tuple | None = None  # (θ, free indices, J, data − model) of the last run
         self._cov_memo: tuple | None = None  # (the _cache it belongs to, covariance(), (JᵀJ)⁻¹)
+        self._cache_normal: np.ndarray | None = None
         self.messages: list[str] = []
 
     def index(self, name: str) -> int:
@@ -84,15 +85,22 @@ class Fitter:
         n_left, t_left = self.budget_left()
         cap = max(3, n_left if max_nfev is None else min(max_nfev, n_left))
 
-        # one array for all Jacobians of this run: the solver needs only the latest (and
-        # the run's last one stays valid in the cache below)
-        jbuf = np.empty((len(idx), self.y.size))
+        # one array for all Jacobians of this run, with the residual as its last row (the
+        # solver forms JᵀJ and Jᵀr in one pass): the solver needs only the latest (and the
+        # run's last one stays valid in the cache below)
+        jbuf = np.empty((len(idx) + 1, self.y.size))
 
         def fun(v, jac):
             th = base.copy()
             th[idx] = v
-            y, J = self.model.evaluate(th, idx, jac=jac, out=jbuf)
-            return y - self.y, J
+            if not jac:
+                y, _ = self.model.evaluate(th, idx, jac=False)
+                return y - self.y, None
+            y, J = self.model.evaluate(th, idx, jac=True, out=jbuf[:-1])
+            r = jbuf[-1]
+            np.subtract(y, self.y, out=r)
+            stacked = jbuf if J.T.ctypes.data == jbuf.ctypes.data else None
+            return r, J, stacked
 
         sol = levenberg_marquardt(fun, self.theta[idx], self.lower[idx], self.upper[idx],
                                   dof=max(self.y.size - len(idx), 1), max_nfev=cap,
@@ -100,6 +108,7 @@ class Fitter:
                                   stage=stage)
         self.theta[idx] = sol.theta
         self._cache = (self.theta.copy(), list(idx), sol.jac, -sol.residual)
+        self._cache_normal = sol.normal  # JᵀJ of that J (None when not formed)
         self.nfev += sol.nfev
         self.njev += sol.njev
         self.last = sol
@@ -147,16 +156,19 @@ class Fitter:
                 cov, r, chi2, f, ix = self._cov_memo[1]
                 return cov.copy(), r, chi2, f, ix.copy()
             J, r = c[2], c[3]
+            A = self._cache_normal
         else:
             y, J = self.model.evaluate(self.theta, idx, jac=True)
             self.nfev += 1
             self.njev += 1
             r = self.y - y
             self._cache = (self.theta.copy(), list(idx), J, r)
+            self._cache_normal = A = None
         chi2 = float(r @ r)
         dof = max(self.y.size - len(idx), 1)
         f = error_scale(r)
-        A = J.T @ J
+        if A is None:
+            A = J.T @ J
         P = len(idx)
         inv = normal_inverse(A) if P else np.zeros((0, 0))
         cov = np.zeros((self.theta.size, self.theta.size))

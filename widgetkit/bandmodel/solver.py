@@ -33,6 +33,8 @@ class Solution:
     nfev: int
     njev: int
     iterations: int
+    #: JᵀJ of ``jac`` (at ``theta``) when the solver formed it, else None
+    normal: np.ndarray | None = None
 
 
 def normal_solve(A: np.ndarray, g: np.ndarray, lam: float = 0.0, rcond: float = 1e-13) -> np.ndarray:
@@ -63,12 +65,19 @@ def normal_inverse(A: np.ndarray, rcond: float = 1e-13) -> np.ndarray:
     return (V @ Z) / d[:, None]
 
 
-def _normal_equations(J, r, chi2) -> tuple[np.ndarray, np.ndarray, bool]:
+def _normal_equations(J, r, chi2, stacked=None) -> tuple[np.ndarray, np.ndarray, bool]:
     """(JᵀJ, Jᵀr, whether J and r are finite); non-finite J or r make JᵀJ, Jᵀr or χ²
-    non-finite, so the elementwise check runs only then."""
+    non-finite, so the elementwise check runs only then. ``stacked``: the rows of Jᵀ and
+    then r in one C-ordered array (J and r its views), whose Gram matrix gives both in one
+    pass over the memory."""
     with np.errstate(all="ignore"):
-        A = J.T @ J
-        g = J.T @ r
+        if stacked is not None:
+            G = stacked @ stacked.T
+            P = G.shape[0] - 1
+            A, g = G[:P, :P], G[:P, P]
+        else:
+            A = J.T @ J
+            g = J.T @ r
     finite = (np.isfinite(chi2) and np.isfinite(A).all() and np.isfinite(g).all()) or \
         (np.all(np.isfinite(J)) and np.all(np.isfinite(r)))
     return A, g, bool(finite)
@@ -97,7 +106,10 @@ def levenberg_marquardt(fun: Callable, theta0: np.ndarray, lower: np.ndarray, up
     ----------
     fun : callable
         Residuals (N,) and, when ``jac`` is true, their Jacobian (N, P). It may return the
-        same array for every Jacobian: only the latest one is used (and returned).
+        same array for every Jacobian: only the latest one is used (and returned). With the
+        Jacobian it may return a third item: a C-ordered (P + 1, N) array whose rows are Jᵀ
+        and then r (the two returned arrays being its views), for one pass over the memory
+        in the normal equations.
     theta0, lower, upper : ndarray (P,)
     dof : int
         Degrees of freedom, for the reduced chi-square of the convergence test.
@@ -112,15 +124,17 @@ def levenberg_marquardt(fun: Callable, theta0: np.ndarray, lower: np.ndarray, up
     """
     t0 = time.perf_counter()
     theta = np.clip(np.asarray(theta0, dtype=float), lower, upper)
-    r, J = fun(theta, True)
+    r, J, stacked = _with_jacobian(fun, theta)
     nfev, njev = 1, 1
     chi2 = float(r @ r)
     lam = 1e-3
     it = 0
     message, converged = "", False
     stall = 0
+    normal = None  # JᵀJ of the current J
     while True:
-        A, g, finite = _normal_equations(J, r, chi2)
+        A, g, finite = _normal_equations(J, r, chi2, stacked)
+        normal = A
         if not finite:
             message = "stopped: the model or its derivatives are not finite at these parameters"
             break
@@ -158,7 +172,8 @@ def levenberg_marquardt(fun: Callable, theta0: np.ndarray, lower: np.ndarray, up
             break
         gain = (chi2 - ct) / max(chi2, 1e-300)
         theta = trial
-        r, J = fun(theta, True)
+        r, J, stacked = _with_jacobian(fun, theta)
+        normal = None
         nfev += 1
         njev += 1
         chi2 = float(r @ r)
@@ -171,4 +186,11 @@ def levenberg_marquardt(fun: Callable, theta0: np.ndarray, lower: np.ndarray, up
             converged, message = True, "converged: chi-square no longer falls"
             break
     return Solution(theta=theta, chisqr=chi2, residual=r, jac=J, converged=converged,
-                    message=message, nfev=nfev, njev=njev, iterations=it)
+                    message=message, nfev=nfev, njev=njev, iterations=it,
+                    normal=normal if finite else None)
+
+
+def _with_jacobian(fun: Callable, theta: np.ndarray):
+    """(r, J, stacked or None) from ``fun(theta, True)`` (see :func:`levenberg_marquardt`)."""
+    out = fun(theta, True)
+    return (out[0], out[1], out[2]) if len(out) > 2 else (out[0], out[1], None)
