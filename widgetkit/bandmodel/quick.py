@@ -8,6 +8,7 @@ honest error.
 
 from __future__ import annotations
 
+import bisect
 import math
 from dataclasses import dataclass
 
@@ -161,16 +162,19 @@ def strong_peaks(x: np.ndarray, a: np.ndarray, spacing: float, *, floor: float =
     pk = np.flatnonzero((a[1:-1] > a[:-2]) & (a[1:-1] >= a[2:])) + 1
     pk = pk[a[pk] > floor]
     r = radius * spacing
-    xs = x[pk]  # ascending
-    near = np.zeros(pk.size, dtype=bool)  # within r of a peak taken
+    xs = x[pk].tolist()  # ascending (Python floats: a few dozen peaks, no array calls each)
+    near = [False] * len(xs)  # within r of a peak taken
     taken: list[int] = []
-    for q in np.argsort(-a[pk]):  # strongest first
+    for q in np.argsort(-a[pk]).tolist():  # strongest first
         if near[q]:
             continue
         taken.append(int(pk[q]))
-        lo = int(np.searchsorted(xs, xs[q] - 2.0 * abs(r), "left"))
-        hi = int(np.searchsorted(xs, xs[q] + 2.0 * abs(r), "right"))
-        near[lo:hi] |= np.abs(xs[lo:hi] - xs[q]) <= r
+        xq = xs[q]
+        lo = bisect.bisect_left(xs, xq - 2.0 * abs(r))
+        hi = bisect.bisect_right(xs, xq + 2.0 * abs(r))
+        for i in range(lo, hi):
+            if abs(xs[i] - xq) <= r:
+                near[i] = True
     return np.array(sorted(taken), dtype=int)
 
 
