@@ -321,7 +321,7 @@ def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, 
         if kernel.tau > 0 and kernel.instrument != "gaussian":
             k = k * np.exp(2.0 * math.pi**2 * kernel.tau**2 * t * t)
         cache["k"], cache["lor"] = k, lor
-        cache["k32"] = k.astype(np.complex64)  # (for the float32 derivative rows)
+        cache["k32"] = k.astype(np.float32)  # (for the float32 derivative rows)
     k = cache["k"]
     if "v" not in cache:
         padded = _scratch(work, "value", (n,), np.float64)  # zeros beyond M
@@ -335,18 +335,17 @@ def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, 
     n_par = live.size
     if not n_par:
         return y, None
-    # rows to transform back: the live deposits, then kernel-only columns (γ, Δ)
+    # rows to transform back: the live deposits, then kernel-only columns (γ, Δ): ∂k/∂p
     kern_terms = {}
     if d_gamma is not None:
         if "gk" not in cache:
             cache["gk"] = (-2.0 * math.pi * t) * k  # ∂k/∂γ
-        term = _scratch(work, "term", fv.shape, fv.dtype)
-        kern_terms[d_gamma] = np.multiply(fv, cache["gk"], out=term)
+        kern_terms[d_gamma] = cache["gk"]
     if d_resolution is not None and kernel.instrument != "gaussian":
         dt = 1.0 / (n * grid.h)
         dk = cache["lor"] * transfer_derivative(kernel.instrument, kernel.resolution, t, dt=dt) * \
             np.exp(2.0 * math.pi**2 * kernel.tau**2 * t * t)
-        kern_terms[d_resolution] = fv * dk
+        kern_terms[d_resolution] = dk
     order = [p for p in range(n_par) if live[p]]
     n_live = len(order)
     order += [p for p in kern_terms if not live[p]]
@@ -356,13 +355,17 @@ def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, 
     if n_live:
         padded = _scratch(work, "padded", (n_live, n), np.float32)  # zeros beyond M
         _deposit(grid, pos, s, weights, out=padded)
-        np.multiply(sfft.rfft(padded, axis=-1, workers=1), cache["k32"][None, :], out=d[:n_live])
-    for p, term in kern_terms.items():
+        # the real kernel on the real and imaginary parts (the complex product with a zero
+        # imaginary part gives the same numbers, with three times the work)
+        spec = sfft.rfft(padded, axis=-1, workers=1)
+        np.multiply(spec.view(np.float32).reshape(n_live, -1, 2), cache["k32"][None, :, None],
+                    out=d[:n_live].view(np.float32).reshape(n_live, -1, 2))
+    for p, dk in kern_terms.items():  # the value's spectrum times ∂k/∂p
         r = order.index(p)
         if live[p]:
-            d[r] += term.astype(np.complex64)
-        else:
-            d[r] = term  # (a zero deposit plus the kernel term)
+            d[r] += (fv * dk).astype(np.complex64)
+        else:  # (a zero deposit plus the kernel term: the product rounded once, in one pass)
+            np.multiply(fv, dk, out=d[r], casting="same_kind")
     back = _sample(grid, sfft.irfft(d, n=n, axis=-1, workers=1)[:, :M])
     if order == list(range(n_par)):
         return y, back.T  # (the usual case: every column in order, no copy)
