@@ -26,6 +26,7 @@ from .checks import (
     check_number,
     instrument_name,
 )
+from .deposit import ready_allocator
 from .domain import exact_for_transmittance, guess_y_kind, note_approximation
 from .instrument import fwhm_factor
 from .linear import check_kind, check_linear_options, is_linear_polyatomic, spacing_in_B
@@ -43,11 +44,13 @@ def _one_blas_thread(func):
     """Run ``func`` with one BLAS thread: the dense algebra here is (data × parameters)
     products, where more threads only contend on a busy machine (lines.fit measured the
     same). The thread-pool libraries are looked up once (a lookup reads the process's
-    memory map: 0.6 ms, a hundredth of a fit)."""
+    memory map: 0.6 ms, a hundredth of a fit). The C allocator is readied for megabyte
+    arrays once per process (:func:`.deposit.ready_allocator`)."""
 
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
         global _CONTROLLER
+        ready_allocator()
         if _CONTROLLER is None:
             _CONTROLLER = ThreadpoolController()
         with _CONTROLLER.limit(limits=1, user_api="blas"):

@@ -34,17 +34,12 @@ a strongly structured residual still makes the result doubtful.
 from __future__ import annotations
 
 import math
-import threading
 
 import numpy as np
 
 from .solver import normal_inverse
 
 __all__ = ["block_variances", "widen"]
-
-_LOCAL = threading.local()
-#: largest work array (elements) a thread keeps between widenings (a few MB)
-_KEEP_MAX = 1 << 20
 
 
 def _edge_sums(w: np.ndarray, L_max: int) -> tuple[np.ndarray, ...]:
@@ -58,17 +53,10 @@ def _edge_sums(w: np.ndarray, L_max: int) -> tuple[np.ndarray, ...]:
 
 
 def _projected_running_sum(J: np.ndarray, r: np.ndarray, bread: np.ndarray) -> np.ndarray:
-    """w (P, N + 1): w_0 = 0, w_t = Σ_{i<t} (JᵀJ)⁻¹ J_i r_i, centred on its mean (in the
-    thread's kept work array for moderate N: a fresh one of this size costs page faults
-    worth half the computation)."""
+    """w (P, N + 1): w_0 = 0, w_t = Σ_{i<t} (JᵀJ)⁻¹ J_i r_i, centred on its mean (one array
+    written in place)."""
     N, P = J.shape
-    shape = (P, N + 1)
-    if P * (N + 1) <= _KEEP_MAX:
-        w = getattr(_LOCAL, "w", None)
-        if w is None or w.shape != shape:
-            w = _LOCAL.w = np.empty(shape)
-    else:
-        w = np.empty(shape)
+    w = np.empty((P, N + 1))
     body = w[:, 1:]
     np.matmul(bread.T, J.T, out=body)
     body *= r
