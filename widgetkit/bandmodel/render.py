@@ -321,7 +321,9 @@ def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, 
         if kernel.tau > 0 and kernel.instrument != "gaussian":
             k = k * np.exp(2.0 * math.pi**2 * kernel.tau**2 * t * t)
         cache["k"], cache["lor"] = k, lor
-        cache["k32"] = k.astype(np.float32)  # (for the float32 derivative rows)
+        # for the float32 derivative spectra: each value twice, for the real and the
+        # imaginary part of each bin
+        cache["k32"] = np.repeat(k.astype(np.float32), 2)
     k = cache["k"]
     if "v" not in cache:
         padded = _scratch(work, "value", (n,), np.float64)  # zeros beyond M
@@ -358,8 +360,7 @@ def _render_absorbance(grid: Grid, pos, s, area, weights, live, kernel: Kernel, 
         # the real kernel on the real and imaginary parts (the complex product with a zero
         # imaginary part gives the same numbers, with three times the work)
         spec = sfft.rfft(padded, axis=-1, workers=1)
-        np.multiply(spec.view(np.float32).reshape(n_live, -1, 2), cache["k32"][None, :, None],
-                    out=d[:n_live].view(np.float32).reshape(n_live, -1, 2))
+        np.multiply(spec.view(np.float32), cache["k32"][None, :], out=d[:n_live].view(np.float32))
     for p, dk in kern_terms.items():  # the value's spectrum times ∂k/∂p
         r = order.index(p)
         if live[p]:
