@@ -1,5 +1,6 @@
 """Lines deposited on the working grid, and the grid sampled at the data points (private;
-the steps 1 and 3 of :mod:`.render`); the renderer's work arrays."""
+the steps 1 and 3 of :mod:`.render`); the renderer's work arrays, and the C allocator
+readied for a fit's megabyte arrays (:func:`ready_allocator`)."""
 
 from __future__ import annotations
 
