@@ -2,7 +2,8 @@
 
 Normal equations on the analytic Jacobian (a few to twenty parameters, many data):
 the step solves (JᵀJ + λ diag(JᵀJ)) δ = −Jᵀr in the scaled variables, by an
-eigen-decomposition so that directions the data do not determine are left alone;
+eigen-decomposition (one per iteration, for every λ tried) so that directions the data do
+not determine are left alone;
 the new point is clipped to the bounds. Converged when the Gauss–Newton step would
 lower χ² by less than ``tol`` reduced chi-squares (that is, the point is within
 √tol standard errors of the minimum) or χ² stops falling; stopped, and said so,
@@ -89,11 +90,34 @@ def _held(theta, g, lower, upper) -> np.ndarray:
     return (((theta - lower) <= 1e-10 * scale) & (g > 0)) | (((upper - theta) <= 1e-10 * scale) & (g < 0))
 
 
-def _solve_free(A, g, free, lam: float = 0.0) -> np.ndarray:
-    step = np.zeros_like(g)
-    if np.any(free):
-        step[free] = normal_solve(A[np.ix_(free, free)], g[free], lam)
-    return step
+class _Steps:
+    """The steps of one iteration, (A + λ diag A) δ = −g on the ``free`` variables as
+    :func:`normal_solve` solves it, from one eigen-decomposition of the scaled A: the
+    damped matrix A_s + λ I has the eigenvectors of A_s and the eigenvalues w + λ (the
+    Gauss–Newton step and every trial λ of the iteration)."""
+
+    def __init__(self, A, g, free, rcond: float = 1e-13):
+        self.g, self.free, self.rcond = g, free, rcond
+        self.ok = bool(np.any(free))
+        if not self.ok:
+            return
+        Af, gf = A[np.ix_(free, free)], g[free]
+        self.finite = bool(np.all(np.isfinite(Af)) and np.all(np.isfinite(gf)))
+        if not self.finite:
+            return
+        self.d = np.sqrt(np.maximum(np.diag(Af), 1e-300))
+        self.w, self.V = np.linalg.eigh(Af / np.outer(self.d, self.d))
+        self.z = self.V.T @ (gf / self.d)
+
+    def __call__(self, lam: float = 0.0) -> np.ndarray:
+        step = np.zeros_like(self.g)
+        if not self.ok or not self.finite:
+            return step
+        w = self.w + lam
+        keep = w > self.rcond * max(w.max(), 1e-300)
+        z = np.where(keep, self.z / np.where(keep, w, 1.0), 0.0)
+        step[self.free] = -(self.V @ z) / self.d
+        return step
 
 
 def levenberg_marquardt(fun: Callable, theta0: np.ndarray, lower: np.ndarray, upper: np.ndarray, *,
@@ -140,7 +164,8 @@ def levenberg_marquardt(fun: Callable, theta0: np.ndarray, lower: np.ndarray, up
             break
         redchi = max(chi2 / max(dof, 1), 1e-300)
         free = ~_held(theta, g, lower, upper)
-        gn = _solve_free(A, g, free)
+        steps = _Steps(A, g, free)
+        gn = steps()
         pred = float(-(g @ gn))  # predicted χ² reduction of the Gauss–Newton step
         if pred < tol * redchi:
             converged, message = True, "converged: the Gauss-Newton step would lower chi-square " \
@@ -154,7 +179,7 @@ def levenberg_marquardt(fun: Callable, theta0: np.ndarray, lower: np.ndarray, up
             break
         accepted = False
         while nfev < max_nfev:
-            delta = _solve_free(A, g, free, lam)
+            delta = steps(lam)
             trial = np.clip(theta + delta, lower, upper)
             rt, _ = fun(trial, False)
             nfev += 1
