@@ -124,6 +124,10 @@ def test_the_stages_after_the_first_solve_share_what_the_limit_left():
     assert stage_seconds(8.0, 10.0, late=True) == pytest.approx(0.4)
     assert stage_seconds(8.0, 10.5, late=True) == 0.0
     assert stage_seconds(None, 3.0, late=True) is None
+    # the repeat after pruning keeps to it too (a first solve that used 1.2 times the
+    # limit left the repeat its quarter, which took it to 1.5 times)
+    assert stage_seconds(8.0, 9.6, late=False) == pytest.approx(0.8)
+    assert stage_seconds(8.0, 11.0, late=False) == 0.0
 
 
 def test_a_refinement_that_wanders_from_a_converged_point_is_not_kept(band, starts,

@@ -113,3 +113,27 @@ def test_the_size_check_counts_what_a_large_fit_holds_on_its_windows():
     assert _held_cells(np.full(2000, 50.0), 100_000, 0.01, 100.0) == 2000 * 100_000
     # small fits are dense (every line on every point), and a missing width is the median
     assert _held_cells([0.1, np.nan], 1000, 0.01, 100.0) == 2000
+
+
+def test_a_trust_region_stage_left_too_little_time_is_skipped_and_replayed_as_such(
+        peaked, monkeypatch):
+    from widgetkit.lines import _solve
+
+    # every fit counts as short of time after stage one, and is not small enough for the
+    # exact trust-region subproblem: the fit keeps stage one's point, as if the time had
+    # run out at the trust-region stage's first evaluation
+    monkeypatch.setattr(_solve, "DENSE_TR_WORK", 0)
+    with monkeypatch.context() as m:
+        m.setattr(_solve, "TR_MIN_SHARE", 2.0)
+        peaked.fit_lines(shape="gaussian", prune=False)
+    fit = peaked.line_fit
+    budget = peaked._steps[-1].result["budget"]
+    assert fit.converged and fit.solve_cut == (True,)
+    assert budget["cut_by_solve"] == [True] and budget["stopped_by_solve"] == ["converged"]
+    cut_nfev = budget["nfev"]
+    # with time to spare the same fit runs the stage and evaluates more
+    peaked.fit_lines(shape="gaussian", prune=False)
+    assert peaked.line_fit.nfev > cut_nfev and "cut_by_solve" not in \
+        peaked._steps[-1].result["budget"]
+    # the replay of the cut fit follows its record, not today's clock (which has time)
+    assert peaked.verify().ok

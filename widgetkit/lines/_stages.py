@@ -47,6 +47,7 @@ class Run:
     held: dict = field(default_factory=dict)
     said: dict = field(default_factory=dict)  # line id -> texts the stages flagged
     started: float | None = None  # time.perf_counter() when the fit began
+    replaying: bool = False  # a replay of a recorded fit (the clock decides nothing)
 
     @property
     def sol(self):
@@ -64,7 +65,8 @@ class Run:
         """The budget of the next solve (:func:`.budget.stage_seconds`), with its progress
         line."""
         left = stage_seconds(self.time_limit, self.used(), late)
-        b = Budget(self.max_nfev, left, self.progress, self.replays[len(self.solves)])
+        b = Budget(self.max_nfev, left, self.progress, self.replays[len(self.solves)],
+                   replaying=self.replaying)
         b.report(text, force=True)
         return b
 

@@ -40,23 +40,25 @@ REFIT_SHARE = 0.25
 #: a later stage (lines from the residual, the weighted solve) gets what is left of
 #: (1 + REFIT_SHARE) times the limit, and at least this share of it
 LATE_SHARE = 0.1
-#: ... but never past this many times the limit since the fit began (two later stages at
-#: their least share took fits of 200 lines past 10 s)
+#: ... but no solve after the first runs past this many times the limit since the fit
+#: began (two later stages at their least share took fits of 200 lines past 10 s)
 TOTAL_SHARE = 1.3
 
 
 def stage_seconds(time_limit: float | None, used: float, late: bool) -> float | None:
     """Seconds a solve after the first may use (None: no limit): the repeat after pruning
     what the limit left, at least :data:`REFIT_SHARE` of it; a later stage what
-    ``(1 + REFIT_SHARE)`` times the limit left, at least :data:`LATE_SHARE` of it, and never
-    past :data:`TOTAL_SHARE` times the limit (a later stage with nothing left stops at once
-    and the fit before it is kept). ``used``: seconds since the fit began."""
+    ``(1 + REFIT_SHARE)`` times the limit left, at least :data:`LATE_SHARE` of it; neither
+    past :data:`TOTAL_SHARE` times the limit (a solve with nothing left stops at once and
+    the fit before it is kept: measured, a refit after a first solve that used its whole
+    limit ran to 1.5 times it). ``used``: seconds since the fit began."""
     if time_limit is None:
         return None
     if late:
         share = max((1.0 + REFIT_SHARE) * time_limit - used, LATE_SHARE * time_limit)
-        return max(min(share, TOTAL_SHARE * time_limit - used), 0.0)
-    return max(time_limit - used, REFIT_SHARE * time_limit)
+    else:
+        share = max(time_limit - used, REFIT_SHARE * time_limit)
+    return max(min(share, TOTAL_SHARE * time_limit - used), 0.0)
 
 
 def auto_time_limit(n_lines: int) -> float:
@@ -99,8 +101,10 @@ class Budget:
     def __init__(self, max_nfev: int | None = DEFAULT_MAX_NFEV,
                  time_limit: float | None = DEFAULT_TIME_LIMIT,
                  progress: Callable[[float, str], object] | None = None,
-                 replay_nfev: int | None = None):
+                 replay_nfev: int | None = None, replaying: bool = False):
         self.max_nfev = None if max_nfev is None else int(max_nfev)
+        #: a replay of a recorded fit: the clock decides nothing (:meth:`short_of`)
+        self.replaying = bool(replaying) or replay_nfev is not None
         self.time_limit = None if time_limit is None else float(time_limit)
         self.progress = progress
         self.replay_nfev = None if replay_nfev is None else int(replay_nfev)
@@ -135,6 +139,16 @@ class Budget:
         if self.stopped is not None:
             raise BudgetSpent(self.stopped)
         self.nfev += 1
+
+    def short_of(self, share: float) -> bool:
+        """Whether less than ``share`` of the time limit is left (never in a replay, where
+        the recorded counts stop the fit where it stopped)."""
+        return (not self.replaying and self.time_limit is not None
+                and self.time_limit - self.seconds < share * self.time_limit)
+
+    def run_out(self) -> None:
+        """Count the time as spent now: the next evaluation raises :class:`BudgetSpent`."""
+        self.stopped = "time"
 
     def disarm(self) -> str | None:
         """End the fit's accounting: returns how it stopped (None: not by the budget) and

@@ -141,6 +141,9 @@ class LineFit:
     solve_nfev, solve_stopped : tuple
         Evaluations used and how it stopped, for each solve (two when lines were
         removed and the fit repeated).
+    solve_cut : tuple of bool
+        For each solve, whether its budget ran out, also where the point it reached then
+        counts as converged (a replay stops such a solve at the same evaluation).
     added : pandas.DataFrame
         Lines added from the residual (``add_missed``; :mod:`.missed`), one row each:
         line_id, position, height, snr, reason. Empty when none was added.
@@ -176,6 +179,7 @@ class LineFit:
     solve_nfev: tuple = ()
     solve_stopped: tuple = ()
     background: Any = None
+    solve_cut: tuple = ()
     added: pd.DataFrame = field(default_factory=lambda: added_table([]))
 
 
@@ -292,7 +296,9 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     replay_nfev : int or sequence, optional
         For replaying a recorded fit that ran out of time: per solve, the time
         limit counts as reached before evaluation ``n + 1``, whatever the clock
-        says, so the replay ends where the record did (``Session.verify``).
+        says, so the replay ends where the record did (``Session.verify``). Given at all
+        (even as a list of None), the fit is a replay: no decision is taken by the clock
+        (the trust-region stage's start, :data:`._solve.TR_MIN_SHARE`).
 
     Returns
     -------
@@ -329,12 +335,14 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     spec = prob.spec
     if time_limit == "auto":
         time_limit = auto_time_limit(len(prob.ids))
-    budget = Budget(max_nfev, time_limit, progress, replays[0])
+    budget = Budget(max_nfev, time_limit, progress, replays[0],
+                    replaying=replay_nfev is not None)
     budget.report(f"fitting {len(prob.ids)} lines", force=True)
     first = solve(prob, budget, max_passes)
     run = Run(prob=prob, fields=assemble(prob, first), solves=[first], shared=shared_width,
               args=args, max_nfev=max_nfev, time_limit=time_limit, progress=progress,
-              replays=replays, max_passes=max_passes, started=started)
+              replays=replays, max_passes=max_passes, started=started,
+              replaying=replay_nfev is not None)
     removals, added = [], []
     unjudged = not_judged(first) if prune or add_missed else None
     if unjudged is not None:
@@ -352,7 +360,8 @@ def fit(x, y, positions, *, shape: str = "voigt", shared_width=False,
     fields.update(spec=spec, removed=removed_table(removals), added=added_table(added),
                   nfev=sum(s.nfev for s in solves), seconds=sum(s.seconds for s in solves),
                   solve_nfev=tuple(s.nfev for s in solves),
-                  solve_stopped=tuple(s.stopped for s in solves))
+                  solve_stopped=tuple(s.stopped for s in solves),
+                  solve_cut=tuple(bool(s.cut) for s in solves))
     cis = None
     if conf_interval is not None and sol.converged:
         res = sol.result

@@ -205,10 +205,12 @@ class FitLines(StepKind):
         budget = budget if isinstance(budget, dict) else {}
         counts = budget.get("nfev_by_solve") or [budget.get("nfev")]
         stops = budget.get("stopped_by_solve") or [budget.get("stopped")]
-        caps = [n if (s == "time" and isinstance(n, int) and not isinstance(n, bool)
-                      and n >= 0) else None
-                for n, s in zip(list(counts)[:4], list(stops)[:4])]
-        return self._fit(state, params, caps if any(c is not None for c in caps) else None)
+        cuts = list(budget.get("cut_by_solve") or []) + [False] * 4
+        caps = [n if ((s == "time" or cut is True) and isinstance(n, int)
+                      and not isinstance(n, bool) and n >= 0) else None
+                for n, s, cut in zip(list(counts)[:4], list(stops)[:4], cuts)]
+        # a list, even of None only: the fit knows it is a replay (the clock decides nothing)
+        return self._fit(state, params, caps)
 
     def _fit(self, state: State, params: dict, replay_nfev: list | None):
         from .. import lines
@@ -252,7 +254,12 @@ class FitLines(StepKind):
                              "time_limit": fit.spec.get("time_limit"), "nfev": int(fit.nfev),
                              "seconds": float(fit.seconds), "stopped": fit.stopped,
                              "nfev_by_solve": [int(n) for n in fit.solve_nfev],
-                             "stopped_by_solve": list(fit.solve_stopped)},
+                             "stopped_by_solve": list(fit.solve_stopped),
+                             # recorded only when a solve's budget ran out and its point
+                             # still counts as converged, so earlier records stay as they were
+                             **({"cut_by_solve": [bool(c) for c in fit.solve_cut]}
+                                if any(c and s != "time" for c, s in
+                                       zip(fit.solve_cut, fit.solve_stopped)) else {})},
                   "removed": table_to_json(fit.removed[["line_id", "rule", "reason",
                                                         "merged_into"]])}
         cleared = {} if state.assignment is None else {"assignment": assigned_count(state.assignment)}
