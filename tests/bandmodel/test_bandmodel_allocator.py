@@ -9,7 +9,6 @@ timings."""
 
 import os
 import platform
-import resource
 import subprocess
 import sys
 
