@@ -124,3 +124,23 @@ def test_a_refusal_without_p_r_maxima_says_no_quick_estimate_was_found():
     x = np.linspace(2000, 2300, 2000)
     text = quick_estimate_text(x, np.exp(-0.5 * ((x - 2150) / 20) ** 2))  # one smooth hump
     assert text.startswith("No P and R branch maxima")
+
+
+def test_a_co_band_at_one_wavenumber_whose_outlier_test_cycles_is_assigned():
+    # CO 1-0 at 296 K (HANDBOOK constants, from memory), 1 cm-1 resolution, seeded noise: the
+    # outlier rejection judged one line in and out in turn and its last fit no longer matched
+    # the lines it reported (the combination differences then raised a ValueError)
+    co = wk.Diatomic("C", "O")
+    c = wk.simulate.HANDBOOK["12C-16O"]
+    x = np.arange(1950.0, 2300.0, 1.0 / 3.0)
+    sp = wk.simulate.rovibrational(co, c, x=x, temperature=296.0, resolution=1.0, noise=0.002,
+                                   seed=1)
+    s = wk.Session(sp)
+    s.find_peaks()
+    s.fit_lines()
+    s.assign_band(co)
+    const = s.constants.set_index("name")
+    assert "B_lower_cd" in const.index
+    # self-consistency: the simulated B'' (B_v of v = 0) within 4 standard errors
+    b_lower = wk.levels.rot_constant([0], c["B_e"], c["alpha_e"], c.get("gamma_e", 0.0))[0]
+    assert abs(const.loc["B_lower", "value"] - b_lower) < 4 * const.loc["B_lower", "stderr"]
