@@ -158,3 +158,17 @@ def test_exact_transmittance_data_are_fitted_in_transmittance():
     assert any("look like transmittance" in m for m in res.messages)
     assert_within(res, CO, temperature=296.0)
     assert abs(res.value("band_area") - 1.5) < 3 * res.stderr("band_area")
+
+
+def test_an_implausible_secondary_constant_is_held_at_its_start():
+    # CO 1-0 with natural 13CO at 2 cm-1, 600 K (simulator, seeded): omega_e_x_e, carried only
+    # by the weak 13CO band, ran to -268 cm-1 (true 13.3) with a standard error of a few cm-1,
+    # reported as "ok"; the misfit it left widened the errors of B and T 2-3 times
+    x = np.arange(1893.0, 2393.0, 2.0 / 3.0)
+    sp = simulate(CO_MOL, CO, x=x, temperature=600.0, resolution=2.0, noise=0.002, seed=14,
+                  baseline=None)
+    res = fit(sp.x, sp.y, CO_MOL, resolution=2.0, temperature=600.0)
+    p = res.parameters.set_index("name")
+    assert p.loc["omega_e_x_e", "status"] == "held"
+    assert "implausible" in p.loc["omega_e_x_e", "note"]
+    assert_within(res, CO, names=("band_origin", "B_lower"), temperature=600.0)
