@@ -32,8 +32,9 @@ __all__ = ["Run", "relevance", "IMPLAUSIBLE_SHIFT", "PLAUSIBILITY_NAMES"]
 #: a secondary parameter of :data:`PLAUSIBILITY_NAMES` that ends further than this many of its
 #: relevance scales (:func:`relevance`) from its start is held there: its start comes from
 #: the handbook or a physical estimate (Pekeris), and a value that far off is the model's
-#: misfit taken up, not a measurement (measured: CO 1-0 with natural 13CO at 2 cm⁻¹ gave
-#: ω_e x_e = −179 ± 3 cm⁻¹ against 13.3, with B and T right)
+#: misfit taken up, not a measurement (measured: CO 1-0 with natural 13CO at 2 cm⁻¹, started
+#: from a line width that ran over the neighbours, gave ω_e x_e = −179 ± 3 cm⁻¹ against 13.3,
+#: with B and T right; that start is mended, :func:`.start._observed_fwhm`)
 IMPLAUSIBLE_SHIFT = 4.0
 #: the parameters judged so (an abundance ratio or a line width may legitimately move far)
 PLAUSIBILITY_NAMES = ("omega_e_x_e", "D", "D_e", "D_upper", "D_lower")

@@ -124,15 +124,19 @@ def _central_spacing(xu: np.ndarray, au: np.ndarray, pr: PRSeparation) -> float:
 
 
 def _observed_fwhm(xu: np.ndarray, au: np.ndarray, i: int) -> float | None:
-    """FWHM of the peak at index i (linear interpolation of the half-height crossings)."""
+    """FWHM of the peak at index i (linear interpolation of the half-height crossings); None
+    when a side reaches the end of the data, or a valley to a neighbouring line, before half
+    height (blended lines: measured on CO at 2 cm⁻¹, lines 3.9 cm⁻¹ apart, the walk ran on
+    over the neighbours and gave 21 cm⁻¹, and the fit started the resolution there and lost
+    the band)."""
     half = 0.5 * au[i]
     lo = i
-    while lo > 0 and au[lo] > half:
+    while lo > 0 and au[lo] > half and au[lo - 1] <= au[lo]:
         lo -= 1
     hi = i
-    while hi < au.size - 1 and au[hi] > half:
+    while hi < au.size - 1 and au[hi] > half and au[hi + 1] <= au[hi]:
         hi += 1
-    if lo == 0 or hi == au.size - 1:
+    if lo == 0 or hi == au.size - 1 or au[lo] > half or au[hi] > half:
         return None
     xl = np.interp(half, [au[lo], au[lo + 1]], [xu[lo], xu[lo + 1]])
     xh = np.interp(half, [au[hi], au[hi - 1]], [xu[hi], xu[hi - 1]])
