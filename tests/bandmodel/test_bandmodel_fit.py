@@ -15,6 +15,7 @@ from widgetkit.levels import scale_constants
 from .bands import CO, DCL, HBR, HCL, assert_within, simulate, truth
 
 CO_MOL = wk.Diatomic("C", "O")
+HCL_MOL = wk.Diatomic("H", "Cl")
 
 
 def test_high_resolution_band_gives_constants_and_temperature():
@@ -200,3 +201,15 @@ def test_the_resolution_is_found_when_not_given_and_lines_overlap_their_neighbou
     assert p.loc["resolution", "status"] == "free"
     assert abs(p.loc["resolution", "value"] - 2.0) < 3 * p.loc["resolution", "stderr"]
     assert_within(res, CO, temperature=296.0)
+
+
+def test_a_hot_resolved_band_whose_spacing_drifts_is_started_from_its_line_spacing():
+    # HCl 1-0 at 600 K, 0.01 cm-1 (simulator, seeded): the line spacing drifts over the many J
+    # and the periodogram missed it; two neighbouring R lines were then taken for the P-R
+    # maxima, B started at 0.19 cm-1 and the fit found "no band"
+    x = np.arange(2436.0, 3336.0, 0.01)
+    sp = simulate(HCL_MOL, HCL, x=x, temperature=600.0, resolution=0.01, noise=0.002, seed=3,
+                  baseline=None)
+    res = fit(sp.x, sp.y, HCL_MOL, resolution=0.01)
+    assert res.status == "ok", res.reasons
+    assert_within(res, HCL, temperature=600.0)

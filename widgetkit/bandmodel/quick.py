@@ -9,6 +9,7 @@ honest error.
 from __future__ import annotations
 
 import bisect
+import dataclasses
 import math
 from dataclasses import dataclass
 
@@ -249,6 +250,11 @@ def pr_separation(x, y, *, y_kind: str = "absorbance", smoothing: float | None =
     return _pr_from_uniform(xu, yu, step, smoothing=smoothing, resolution=resolution)
 
 
+#: a smoothed contour with this many maxima above a quarter of the highest holds resolved
+#: lines, not the two branches
+RESOLVED_MAXIMA = 6
+
+
 def _pr_from_uniform(xu: np.ndarray, yu: np.ndarray, step: float, *,
                      smoothing: float | None = None,
                      resolution: float | None = None) -> PRSeparation:
@@ -277,6 +283,14 @@ def _pr_from_uniform(xu: np.ndarray, yu: np.ndarray, step: float, *,
     # local maxima that stand out from the dip between them
     peaks = np.flatnonzero((sm[1:-1] > sm[:-2]) & (sm[1:-1] >= sm[2:])) + 1
     peaks = peaks[(sm[peaks] > 0.25 * top) & (peaks >= edge) & (peaks < sm.size - edge)]
+    if spacing is None and peaks.size >= RESOLVED_MAXIMA and smoothing < 0.5 * float(
+            np.median(np.diff(xu[peaks]))):
+        # resolved lines whose spacing the periodogram missed (it drifts along a hot band's
+        # many J): smoothed to a contour over the spacing of the maxima found (measured on HCl
+        # at 600 K and 0.01 cm-1: two neighbouring R lines were taken for the P-R maxima)
+        gap = float(np.median(np.diff(xu[peaks])))
+        found = _pr_from_uniform(xu, yu, step, resolution=resolution, smoothing=1.2 * gap)
+        return dataclasses.replace(found, line_spacing=gap)
     best = None
     for j in peaks:
         if j == i_max:
