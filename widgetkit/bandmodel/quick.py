@@ -283,12 +283,11 @@ def _pr_from_uniform(xu: np.ndarray, yu: np.ndarray, step: float, *,
     # local maxima that stand out from the dip between them
     peaks = np.flatnonzero((sm[1:-1] > sm[:-2]) & (sm[1:-1] >= sm[2:])) + 1
     peaks = peaks[(sm[peaks] > 0.25 * top) & (peaks >= edge) & (peaks < sm.size - edge)]
-    if spacing is None and peaks.size >= RESOLVED_MAXIMA and smoothing < 0.5 * float(
-            np.median(np.diff(xu[peaks]))):
+    gap = float(np.median(np.diff(xu[peaks]))) if peaks.size >= RESOLVED_MAXIMA else 0.0
+    if spacing is None and smoothing < 0.5 * gap:
         # resolved lines whose spacing the periodogram missed (it drifts along a hot band's
         # many J): smoothed to a contour over the spacing of the maxima found (measured on HCl
         # at 600 K and 0.01 cm-1: two neighbouring R lines were taken for the P-R maxima)
-        gap = float(np.median(np.diff(xu[peaks])))
         found = _pr_from_uniform(xu, yu, step, resolution=resolution, smoothing=1.2 * gap)
         return dataclasses.replace(found, line_spacing=gap)
     best = None
