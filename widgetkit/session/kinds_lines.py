@@ -18,7 +18,8 @@ would replay differently on a faster or busier machine, so its replay
 computed again) stops before the evaluation after the recorded ``nfev`` and counts
 that as the time limit: the same evaluations, the same result. So does a solve whose
 budget ran out while its point still counted as converged (``cut_by_solve``, recorded only
-then), and a replay takes no decision by the clock. Seconds are not compared. Progress (``Session.fit_lines(progress=...)``) is not recorded.
+then), and a replay takes no decision by the clock. Seconds are not compared. Progress
+(``Session.fit_lines(progress=...)``) is not recorded.
 """
 
 from __future__ import annotations
