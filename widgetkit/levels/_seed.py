@@ -32,7 +32,7 @@ from ._lsq import robust_scale
 from .bandfit import fit_band
 
 __all__ = ["gap_hypotheses", "bootstrap", "m_to_J", "scaled_band_constants", "natural_seed",
-           "lock_seed", "shift_index"]
+           "lock_seed", "shift_index", "anharmonic_estimate"]
 
 
 def m_to_J(m) -> tuple[np.ndarray, np.ndarray]:
@@ -242,16 +242,7 @@ def scaled_band_constants(values: dict, v_upper: int, v_lower: int, rho: float) 
     alpha = (Bl - Bu) / dv
     Be = Bl + alpha * hl
     nu0 = values["band_origin"]
-    wx = 0.0
-    if Be > 0 and alpha > 0:
-        for _ in range(30):
-            we = (nu0 + wx * q) / dv
-            wx = ((alpha * we + 6 * Be**2) / 6) ** 2 / Be**3
-            if not (np.isfinite(wx) and wx < 0.1 * we):
-                break
-    we = (nu0 + wx * q) / dv
-    if not (np.isfinite(wx) and 0 <= wx < 0.1 * we):
-        wx, we = 0.0, nu0 / dv
+    we, wx = anharmonic_estimate(values, v_upper, v_lower)
     we2, wx2 = we * rho, wx * rho**2
     Be2, a2 = Be * rho**2, alpha * rho**3
     out = {
@@ -263,6 +254,31 @@ def scaled_band_constants(values: dict, v_upper: int, v_lower: int, rho: float) 
     }
     anh = out["band_origin"] - rho * nu0
     return out, float(anh)
+
+
+def anharmonic_estimate(values: dict, v_upper: int, v_lower: int) -> tuple[float, float]:
+    """(ωe, ωexe) in cm⁻¹ estimated from one band's constants (band_origin, B_upper, B_lower)
+    with the Pekeris relation αe = 6 sqrt(ωexe Be³)/ωe − 6Be²/ωe and the two-term origin
+    ν0 = ωe(v′ − v″) − ωexe((v′+½)² − (v″+½)²); ωexe = 0 (ωe = ν0/(v′ − v″)) when the
+    relation gives no root."""
+    dv = v_upper - v_lower
+    hu, hl = v_upper + 0.5, v_lower + 0.5
+    q = hu**2 - hl**2
+    Bl, Bu = values["B_lower"], values["B_upper"]
+    alpha = (Bl - Bu) / dv
+    Be = Bl + alpha * hl
+    nu0 = values["band_origin"]
+    wx = 0.0
+    if Be > 0 and alpha > 0:
+        for _ in range(30):
+            we = (nu0 + wx * q) / dv
+            wx = ((alpha * we + 6 * Be**2) / 6) ** 2 / Be**3
+            if not (np.isfinite(wx) and wx < 0.1 * we):
+                break
+    we = (nu0 + wx * q) / dv
+    if not (np.isfinite(wx) and 0 <= wx < 0.1 * we):
+        wx, we = 0.0, nu0 / dv
+    return float(we), float(wx)
 
 
 def natural_seed(xs, area, *, frac: float, forbidden: frozenset = frozenset(), partners=(),
