@@ -38,12 +38,15 @@ from ._rovib_core import Lines, State, seed_model
 from ._rovib_match import refine
 from ._rovib_relabel import relabel
 from ._seed import lock_seed, m_to_J, natural_seed, shift_index
+from ._seed_strong import strong_seed
 from .candidates import format_label, parse_label
 from .molecule import Diatomic
 from .plausibility import rotational_problems
 
-__all__ = ["parse_locks", "solve"]
+__all__ = ["parse_locks", "solve", "solve_again"]
 
+#: the seeds found from the lines alone (the band-origin gap, the strongest lines), not locks
+_FROM_THE_BAND = ("automatic", "strong")
 #: a candidate numbering must fit at least this fraction of the lines the best one fits
 MIN_GOOD_FRACTION = 0.75
 
@@ -227,6 +230,12 @@ def solve(data: Lines, locks: dict, opts: dict, *, seed_fraction: float, max_rou
     g = natural_seed(xs, area_s, frac=seed_fraction, forbidden=cleared, partners=partners)
     if g is not None:
         seeds.append(("automatic", g, None))
+    if opts.get("hot_bands"):
+        # weaker series beside the band (a hot band) can mislead the gap search: the band is
+        # also sought from its strongest lines (:mod:`._seed_strong`)
+        gs = strong_seed(xs, area_s, frac=seed_fraction, forbidden=cleared, partners=partners)
+        if gs is not None and len(gs) >= 4 and gs != g:
+            seeds.append(("strong", gs, None))
     if not seeds:
         raise AssignmentError(NO_GAP)
     tried: list[tuple[str, State]] = []
@@ -255,7 +264,8 @@ def solve(data: Lines, locks: dict, opts: dict, *, seed_fraction: float, max_rou
                                           _two_branches(t[1]),
                                           _n_good(t[1]) >= MIN_GOOD_FRACTION * most,
                                           _honoured(locks, t[1]), t[1].score,
-                                          t[0] == "automatic"), reverse=True)
+                                          t[0] in _FROM_THE_BAND, t[0] == "automatic"),
+                    reverse=True)
     tag, st = ranked[0]
     problems = _problems(st, molecule, band)
     if problems:
@@ -272,7 +282,7 @@ def _lock_reasons(data: Lines, locks: dict, st: State, tag: str, base: State | N
                   molecule: Diatomic) -> list[str]:
     out = []
     main = next((n for n in (i.name for i in molecule.isotopologues) if n in st.models), None)
-    if tag != "automatic" and base is not None and main in base.models and main in st.models:
+    if tag not in _FROM_THE_BAND and base is not None and main in base.models and main in st.models:
         v0 = base.models[main].values["band_origin"]
         v1 = st.models[main].values["band_origin"]
         spacing = base.models[main].values["B_upper"] + base.models[main].values["B_lower"]
@@ -293,3 +303,20 @@ def _lock_reasons(data: Lines, locks: dict, st: State, tag: str, base: State | N
                        f"cannot agree with it: obs − calc = {omc:+.4f} cm-1; the lock is kept, the "
                        "line is flagged as an outlier and left out of the fit")
     return out
+
+
+def solve_again(data: Lines, locks: dict, st: State, opts: dict, *, max_rounds: int,
+                min_rounds: int) -> State:
+    """The band refined again on ``data`` (a subset of the lines ``st`` was found on, with the
+    locks renumbered to it), from the numbering ``st`` gave its first sub-band: only what the
+    lines left out change (a weak isotopologue's sub-band that had taken them); ``st``'s
+    reasons for doubt are kept."""
+    pos_of = np.empty(data.n, dtype=int)
+    pos_of[data.order] = np.arange(data.n)
+    g = {_m(int(st.Ju[i]), int(st.Jl[i])): int(pos_of[i]) for i in range(data.n)
+         if st.iso[i] == st.seed_iso and not st.outlier[i] and not st.blended[i]
+         and i not in locks}
+    again = _refine_seed(data, locks, g, st.seed_iso, opts, max_rounds=max_rounds,
+                         min_rounds=min_rounds)
+    again.reasons = list(st.reasons)
+    return again

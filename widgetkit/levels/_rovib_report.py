@@ -7,9 +7,10 @@ import pandas as pd
 
 from ._rovib_core import Lines, State
 from ._rovib_hidden import hidden_neighbours
+from ._rovib_hot_report import add_hot_bands
 from ._rovib_joint import joint_constants
 from .bandfit import combination_differences, equilibrium_constants, rotational_temperature
-from .candidates import C2, format_label, honl_london, rotational_partition
+from .candidates import C2, band_label, format_label, honl_london, rotational_partition
 from .plausibility import abundance_reason, expected_B, refuse_unresolved
 from .terms import rot_term
 
@@ -53,7 +54,7 @@ def _fmt(v: float, e: float) -> str:
     return f"{v:.6g} ± {e:.2g}" if np.isfinite(e) else f"{v:.6g}"
 
 
-def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
+def analyse(data: Lines, locks: dict, st: State, opts: dict, cls, hot: list | None = None):
     molecule = opts["molecule"]
     band = opts["band"]
     msgs = list(data.messages) + list(st.messages)
@@ -167,10 +168,19 @@ def analyse(data: Lines, locks: dict, st: State, opts: dict, cls):
     _abundance(data, st, good & ~np.isin(np.arange(n), list(hidden)), molecule, order, trot, opts,
                consts, msgs, reasons)
     _temperature_reason(consts, order, opts, reasons)
+    cd_cols = ["isotopologue", "state", "J", "lines", "value", "stderr", "calc", "obs_minus_calc"]
+    c_cols = ["isotopologue", "name", "value", "stderr", "unit"]
+    if hot:
+        # with a hot band found, every row says its band
+        label = band_label(*band)
+        consts = [dict(c, band=label) for c in consts]
+        cd_rows = [dict(r, band=label) for r in cd_rows]
+        good = good | add_hot_bands(data, hot, table, consts, covs, cd_rows, msgs, reasons,
+                                    opts)
+        cd_cols, c_cols = cd_cols + ["band"], c_cols + ["band"]
     _report_flags(table, msgs, opts["outlier_sigma"])
-    cd = pd.DataFrame(cd_rows, columns=["isotopologue", "state", "J", "lines", "value", "stderr",
-                                        "calc", "obs_minus_calc"])
-    cdf = pd.DataFrame(consts, columns=["isotopologue", "name", "value", "stderr", "unit"])
+    cd = pd.DataFrame(cd_rows, columns=cd_cols)
+    cdf = pd.DataFrame(consts, columns=c_cols)
     msgs.append(f"{int(good.sum())} of {n} {'line' if n == 1 else 'lines'} fitted after "
                 f"{st.rounds} {'round' if st.rounds == 1 else 'rounds'}")
     if good.sum() < 0.6 * n:

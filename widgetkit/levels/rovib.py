@@ -56,11 +56,13 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 
+import numpy as np
 import pandas as pd
 
 from ..errors import AssignmentError
 from ._rovib_core import prepare_lines
-from ._rovib_locks import parse_locks, solve
+from ._rovib_hot import expand, find_hot_bands, restrict, subset
+from ._rovib_locks import _problems, parse_locks, solve, solve_again
 from ._rovib_report import analyse, refuse_unresolved_lines
 from .joint import JointSummary
 from .molecule import Diatomic
@@ -154,6 +156,7 @@ def assign_rovibrational(
     sample_state: str | None = None,
     joint: bool = False,
     exclude_hidden: bool = True,
+    hot_bands: bool = True,
 ) -> BandAssignment:
     """Assign the P and R lines of a v′ ← v″ band and fit the molecular constants.
 
@@ -256,10 +259,40 @@ def assign_rovibrational(
                 centrifugal=centrifugal, band=band, molecule=molecule,
                 temperature=None if temperature is None else float(temperature),
                 resolution=None if resolution is None else float(resolution),
-                joint=bool(joint), exclude_hidden=bool(exclude_hidden))
+                joint=bool(joint), exclude_hidden=bool(exclude_hidden), hot_bands=bool(hot_bands))
     refuse_unresolved_lines(data, None, opts)
     final = solve(data, lk, opts, seed_fraction=seed_fraction, max_rounds=max_rounds,
                   min_rounds=min_rounds)
+    hot: list = []
+    if opts["hot_bands"]:
+        final, hot = _with_hot_bands(data, lk, final, opts, seed_fraction=seed_fraction,
+                                     max_rounds=max_rounds, min_rounds=min_rounds)
     refuse_unresolved_lines(data, final, opts)
-    return analyse(data, lk, final, opts, BandAssignment)
+    return analyse(data, lk, final, opts, BandAssignment, hot=hot)
+
+
+def _with_hot_bands(data, locks: dict, st, opts: dict, *, seed_fraction: float, max_rounds: int,
+                    min_rounds: int):
+    """The hot bands beside the band (:mod:`._rovib_hot`), and the band assigned again without
+    their lines (a hot line may have been taken for a line of a weak isotopologue)."""
+    hot, msgs = find_hot_bands(data, st, locks, opts, max_rounds=max_rounds)
+    if hot:
+        mine = np.zeros(data.n, dtype=bool)
+        for hb in hot:
+            mine[hb.idx] = True
+        keep = np.nonzero(~mine)[0]
+        where = {int(i): k for k, i in enumerate(keep)}
+        sub_locks = {where[i]: v for i, v in locks.items() if i in where}
+        sub = subset(data, keep)
+        try:
+            again = solve_again(sub, sub_locks, restrict(st, keep), opts, max_rounds=max_rounds,
+                                min_rounds=min_rounds)
+        except AssignmentError:
+            again = None  # the first assignment stands, with the hot bands found beside it
+        if again is not None and not _problems(again, opts["molecule"], opts["band"]):
+            st = expand(again, keep, data.n)
+            # the lines the weak sub-bands give up go back to the hot bands
+            hot, msgs = find_hot_bands(data, st, locks, opts, max_rounds=max_rounds)
+    st.messages = list(st.messages) + msgs
+    return st, hot
 
