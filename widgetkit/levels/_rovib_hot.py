@@ -20,8 +20,9 @@ predicted from their fitted constants and looked for among the lines they left:
   within 0.45 of the line spacing) and refined by the predict -> match -> refit rounds of the band
   (:func:`._rovib_match.refine`) on the lines left;
 * it is accepted with at least :data:`MIN_HOT_LINES` well-fitted lines, two of each
-  branch, and plausible B values (:func:`.plausibility.rotational_problems`); otherwise
-  its lines stay unassigned and a message says why. Its free B″ must agree with the B′
+  branch, plausible B values (:func:`.plausibility.rotational_problems`), a B″ within
+  1 % of the band's B′ and lines that scatter less than ten times the band's about its
+  fit; otherwise its lines stay unassigned and a message says why. Its free B″ must agree with the B′
   of the band (the same level) within five standard errors or 0.2 %, or the result is
   doubtful (blends at low resolution bend it).
 """
@@ -49,6 +50,11 @@ MIN_HOT_LINES = 6
 _B_SIGMA = 5.0
 #: ... or within this fraction of B
 _B_FRACTION = 2e-3
+#: a B″ this fraction off the band's B′ refuses the hot band (a J numbering off by one changes
+#: B′ + B″ by about 2α_e: 1.8 % for CO, 3 % for HCl)
+_B_REFUSE = 1e-2
+#: a hot band whose lines scatter this many times more than the band's about its fit is refused
+_SCATTER = 10.0
 #: the offset search takes the offset nearest the prediction that puts at least this fraction
 #: of the most lines any offset puts on observed ones
 _NEARLY = 0.6
@@ -211,6 +217,8 @@ def _one(data: Lines, st: State, iso, pool: np.ndarray, opts: dict, rounds: int)
         problems = rotational_problems(fit.values, iso, hot)
         if problems:
             why = "; ".join(problems)
+        else:
+            why = _b_disagreement(fit, mdl, _B_REFUSE) or _scatter_problem(fit, mdl)
     if why:
         return None, f"no {name} accepted: {why} ({where}); its lines stay unassigned"
     hb = HotBand(iso.name, hot, pool[sel], hs.Ju[sel], hs.Jl[sel], hs.calc[sel],
@@ -290,11 +298,23 @@ def _fit_lower_held(Ju, Jl, y, sigma, Bl: float, Dl: float, outlier_sigma: float
     return vals, f.cov, out, s
 
 
-def _b_disagreement(fit: Model, band_model: Model) -> str | None:
-    """Why B″ of the hot band and B′ of the band (the same level) disagree, or None."""
+def _scatter_problem(fit: Model, band_model: Model) -> str | None:
+    """Why the hot band's lines scatter too much about its fit (more than :data:`_SCATTER`
+    times the band's own scatter, or its rms without stated errors), or None."""
+    if fit.scatter <= _SCATTER * max(band_model.scatter, 1.0 if fit.fit.fit.absolute else 0.0):
+        return None
+    return (f"its lines scatter {fit.scatter / band_model.scatter:.0f} times more about its fit "
+            "than the band's lines about theirs")
+
+
+def _b_disagreement(fit: Model, band_model: Model, fraction: float = 0.0) -> str | None:
+    """Why B″ of the hot band and B′ of the band (the same level) disagree, or None: beyond
+    five standard errors and :data:`_B_FRACTION` of B, or, with ``fraction``, beyond that
+    fraction of B."""
     b_hot, b_band = fit.values["B_lower"], band_model.values["B_upper"]
     e = float(np.sqrt(max(fit.cov5[2, 2], 0.0) + max(band_model.cov5[1, 1], 0.0)))
-    if abs(b_hot - b_band) <= max(_B_SIGMA * e, _B_FRACTION * abs(b_band)):
+    lim = fraction * abs(b_band) if fraction else max(_B_SIGMA * e, _B_FRACTION * abs(b_band))
+    if abs(b_hot - b_band) <= lim:
         return None
     return (f"its B_lower = {b_hot:.6g} cm-1 disagrees with B_upper = {b_band:.6g} cm-1 of the "
             "band, the same level")

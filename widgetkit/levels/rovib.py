@@ -44,6 +44,11 @@ numbering can agree (the result is then doubtful, with the evidence against
 it), and otherwise the lock is shown as an outlier with its obs − calc and
 left out of the fit.
 
+Hot bands (``hot_bands=True``, :mod:`._seed_strong`, :mod:`._rovib_hot`): the band is also
+sought from its strongest lines, which a weaker series beside it cannot mislead, and the hot
+band (v′+1) ← (v″+1) of each isotopologue is then assigned among the lines left, from the
+band's constants; the band is refined again without the hot band's lines.
+
 Limits (found with simulated bands): the band-origin gap must be visible (at
 most one of R(0), P(1) missing); spectra without areas that also miss lines
 and hold a dense weak isotopologue (13CO in CO) can be mis-indexed. The
@@ -84,7 +89,8 @@ class BandAssignment:
         (weight = 1/σ² in the fit, 0 when left out); unassigned lines have
         missing labels.
     constants : DataFrame
-        ``isotopologue, name, value, stderr, unit``.
+        ``isotopologue, name, value, stderr, unit`` (+ ``band``, "1-0" or "2-1", when a
+        hot band was found).
     covariance : dict of str -> DataFrame
         Covariance of the fitted band constants of each isotopologue.
     combination_differences : DataFrame
@@ -94,7 +100,8 @@ class BandAssignment:
     messages : list of str
         What was flagged, left out, degraded or cross-checked, and why.
     band : tuple of int
-        (v_upper, v_lower).
+        (v_upper, v_lower) of the band assigned; lines of a hot band found beside it
+        carry their own v_upper, v_lower in ``assignments``.
     status : {"ok", "doubtful"}
         "doubtful" when a plausibility check failed in a way the data could
         still explain (see :mod:`widgetkit.levels.plausibility`); ``reasons``
@@ -212,6 +219,20 @@ def assign_rovibrational(
         coefficients U_10, U_20, U_01, U_11 (U_02 with centrifugal="shared")
         and r_e. Needs lines of at least two isotopologues (AssignmentError
         otherwise).
+    hot_bands : bool
+        True (default): the band is also sought from its strongest lines
+        (:mod:`._seed_strong`; a hot band's lines beside it fill the band-origin gap
+        and halve the apparent spacing), and after the band the hot band
+        (v′+1) ← (v″+1) of each isotopologue is looked for among the lines left
+        (:mod:`._rovib_hot`): predicted from the band's constants (B″ = B′ of the band,
+        B′ smaller by α_e, origin shifted by −2ωexe(v′ − v″) with the handbook
+        anharmonicity, or the Pekeris estimate), its lines get its v_upper, v_lower
+        and labels, its constants rows of their own. When one is found the
+        ``constants`` and ``combination_differences`` gain a column ``band`` ("1-0",
+        "2-1") and ``covariance`` a key "<isotopologue> <band>" ("12C-16O 2-1"); when
+        none is found (too few lines fit the prediction), its lines stay unassigned and
+        ``messages`` says why. False: neither, as before this option existed (a session
+        step recorded without the option replays so).
     exclude_hidden : bool
         True (default): a line whose area may hold an unresolved line of another
         isotopologue (a predicted line not found as one of its own, within a few
