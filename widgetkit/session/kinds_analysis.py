@@ -94,8 +94,9 @@ def _assign(state: State, spec: dict, locks: dict):
         return _assign_linear(state, fit, opts, molecule, kind, locks, context)
     if kind == "rovibrational":
         _only(opts, _ROVIB_OPTIONS, kind)
-        # the function's default is on; a record without the key was made before it existed
+        # the function's defaults are on; a record without the key was made before it existed
         opts["exclude_hidden"] = bool(opts.get("exclude_hidden", False))
+        opts["hot_bands"] = bool(opts.get("hot_bands", False))
         try:
             out = levels.assign_rovibrational(fit.table, molecule, locks=locks, **{**context, **opts})
         except UnresolvedLines as exc:
@@ -116,7 +117,7 @@ def _assign(state: State, spec: dict, locks: dict):
 
 _ROVIB_OPTIONS = frozenset({"temperature", "outlier_sigma", "max_rounds", "min_rounds", "band",
                             "centrifugal", "match_fraction", "seed_fraction", "resolution",
-                            "technique", "sample_state", "joint", "exclude_hidden"})
+                            "technique", "sample_state", "joint", "exclude_hidden", "hot_bands"})
 _PROGRESSION_OPTIONS = frozenset({"temperature", "outlier_sigma", "isotopologue", "v_max",
                                   "hot_max", "max_anharmonicity", "n_terms", "max_labellings"})
 
@@ -232,7 +233,10 @@ class AssignBand(StepKind):
         Param("max_labellings", "integer", 24, minimum=1, maximum=10_000,
               doc="labellings compared"),
         # linear-molecule and Raman options (widgetkit.levels.assign_linear)
-        Param("hot_bands", "boolean", True, doc="look for a hot band beside a parallel band"),
+        Param("hot_bands", "boolean", True,
+              doc="look for a hot band beside a parallel band, or (kind='rovibrational') the "
+                  "band (v'+1)-(v''+1) beside a diatomic's band (absent in a rovibrational "
+                  "record: off; Session.assign_band turns it on)"),
         Param("detector", "choice", None, choices=("energy", "photon_counting"), nullable=True,
               doc="Raman detector: frequency factor nu^4 (energy) or nu^3 (photon counting)"),
         Param("band_labels", "json", None, nullable=True, doc="(upper, lower) level names"),

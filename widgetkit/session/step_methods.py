@@ -152,8 +152,11 @@ class StepMethods:
         :func:`widgetkit.levels.assign_rovibrational` and
         :func:`widgetkit.levels.assign_linear` for the options. For ``"rovibrational"``,
         ``exclude_hidden=True`` (default) leaves lines that may hold an unresolved line of
-        another isotopologue out of T_rot and the area ratios and is recorded (a step
-        recorded without it replays with ``False``, as it was made).
+        another isotopologue out of T_rot and the area ratios, and ``hot_bands=True``
+        (default) also seeks the band from its strongest lines and assigns the hot band
+        (v′+1) ← (v″+1) beside it (lines with their own v_upper, v_lower; constants with a
+        ``band`` column, e.g. "2-1", when one is found); both are recorded (a step recorded
+        without them replays with ``False``, as it was made).
         Returns :attr:`assignments`; constants are in :attr:`constants`.
         """
         if hasattr(molecule, "to_dict"):
@@ -161,6 +164,7 @@ class StepMethods:
         params = {"molecule": molecule, "kind": kind, "temperature": temperature, **options}
         if kind == "rovibrational":
             params.setdefault("exclude_hidden", True)
+            params.setdefault("hot_bands", True)
         self._run("assign_band", params)
         return self.assignments
 
