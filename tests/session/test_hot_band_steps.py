@@ -92,3 +92,19 @@ def test_a_hot_band_record_without_the_key_does_not_verify(hot_saved, tmp_path):
                                           "hot_bands")).verify()
     assert not report.ok
     assert any("assign_band" in m for m in report.mismatches), report.mismatches
+
+
+def test_the_report_methods_count_the_hot_band_lines_on_their_own(hot_saved):
+    from widgetkit.report.methods import describe_methods
+
+    s, _ = hot_saved
+    text = " ".join(describe_methods(s))
+    assert "the hot band 2–1 of ¹²C¹⁶O" in text
+    a = s.assignments
+    n_hot = int(((a["v_lower"].fillna(-1).to_numpy(dtype=int) == 1)
+                 & (a["weight"].to_numpy(dtype=float) > 0)).sum())
+    n_band = int(((a["isotopologue"] == "12C-16O").to_numpy(dtype=bool)
+                  & (a["v_lower"].fillna(-1).to_numpy(dtype=int) == 0)
+                  & (a["weight"].to_numpy(dtype=float) > 0)).sum())
+    assert "Free for the hot band 2–1 of ¹²C¹⁶O: " in text and f"({n_hot} lines, " in text
+    assert "Free for ¹²C¹⁶O: " in text and f"({n_band} lines, " in text

@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import inspect
 import os
+import re
 
 import numpy as np
 import pandas as pd
@@ -137,11 +138,24 @@ def _default(func_name: str, arg: str, fallback):
         return fallback
 
 
-def _chi2_text(a: pd.DataFrame, iso: str, n_free: int) -> str | None:
+def _hot_band_key(key: str) -> tuple[str, tuple[int, int] | None]:
+    """(isotopologue, band) of a covariance key: "12C-16O 2-1" is the hot band 2-1 of 12C-16O
+    (:func:`widgetkit.levels._rovib_hot_report.covariance_key`); other keys have no band."""
+    m = _HOT_KEY.fullmatch(str(key))
+    return (m.group(1), (int(m.group(2)), int(m.group(3)))) if m else (str(key), None)
+
+
+_HOT_KEY = re.compile(r"(\S+) (\d+)-(\d+)")
+
+
+def _chi2_text(a: pd.DataFrame, iso: str, n_free: int, band=None) -> str | None:
     if not {"weight", "obs_minus_calc"} <= set(a.columns):
         return None
     sel = a[(a["weight"] > 0) & a["obs_minus_calc"].notna()] if "isotopologue" not in a or not iso \
         else a[(a["isotopologue"] == iso) & (a["weight"] > 0) & a["obs_minus_calc"].notna()]
+    if band is not None and {"v_upper", "v_lower"} <= set(sel.columns):
+        sel = sel[(sel["v_upper"].fillna(-1).to_numpy(int) == band[0])
+                  & (sel["v_lower"].fillna(-1).to_numpy(int) == band[1])]
     n = len(sel)
     dof = n - n_free
     if dof <= 0:
@@ -159,7 +173,8 @@ def _assignment_paragraph(session, state) -> str | None:
     kind = p.get("kind", "rovibrational")
     a = asg.assignments
     free = free_constants(asg)
-    isos = [k for k in free if k != JOINT_KEY] or sorted(
+    hot = {k: _hot_band_key(k) for k in free if _hot_band_key(k)[1] is not None}
+    isos = [k for k in free if k != JOINT_KEY and k not in hot] or sorted(
         {str(v) for v in a.get("isotopologue", []) if pd.notna(v)})
     names = _and([display_isotopologue(k) for k in isos if k]) or "the molecule"
     has_err = "position_err" in a and a["position_err"].notna().any()
@@ -169,6 +184,11 @@ def _assignment_paragraph(session, state) -> str | None:
                  f"{band[0]}–{band[1]} band of {names}, and for each isotopologue "
                  "ν = ν₀ + F′(J′) − F″(J″) with F(J) = B J(J+1) − D J²(J+1)² was fitted to the "
                  "assigned line positions by weighted linear least squares.")
+        if hot:
+            model += (" Beside it, the hot band " + _and(
+                [f"{b[0]}–{b[1]} of {display_isotopologue(k)}" for k, b in hot.values()])
+                + " was predicted from the band's constants (its lower level is the band's "
+                "upper level), assigned among the lines the band left and fitted the same way.")
         rule = _default("assign_rovibrational", "outlier_sigma", 4.0)
     elif kind == "progression":
         model = (f"Assignment (step {i}). The band centres were assigned to vibrational "
@@ -196,8 +216,11 @@ def _assignment_paragraph(session, state) -> str | None:
         out.append("The covariance matrix is (AᵀA)⁻¹ multiplied by χ²/ν: the scatter of the "
                    "residuals sets the standard errors.")
     for iso, names_ in free.items():
-        chi = _chi2_text(a, iso, len(names_))
-        label = display_isotopologue(iso) if iso else "all lines"
+        key_iso, kb = hot.get(iso, (iso, None))
+        chi = _chi2_text(a, key_iso, len(names_), kb or (known(asg, "band", (1, 0)) if hot else None))
+        label = display_isotopologue(key_iso) if key_iso else "all lines"
+        if kb is not None:
+            label = f"the hot band {kb[0]}–{kb[1]} of {label}"
         if facts is not None:  # the first, separate fits; then the joint one
             label = "the joint fit" if iso == JOINT_KEY else f"the separate fit of {label}"
             if iso == JOINT_KEY:
