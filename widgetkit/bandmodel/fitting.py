@@ -67,7 +67,8 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
         shape: str = "doppler", lorentz_hwhm: float | None = None, convolve: str = "auto",
         start: Mapping | None = None, free=None, kind: str | None = None,
         max_nfev: int = 3000, max_time: float = 60.0, widen_errors: bool = True,
-        progress: Callable | None = None, meta: Mapping | None = None) -> BandFit:
+        check_contour: bool = True, progress: Callable | None = None,
+        meta: Mapping | None = None) -> BandFit:
     """Fit the spectrum of a diatomic's band (or bands) to the data.
 
     The model (see :mod:`widgetkit.bandmodel`): the simulator's line list (term values,
@@ -147,6 +148,15 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
         the standard errors are only scaled by the residual's single correlation factor
         (``error_scale``), as fits did before the widening existed; a session step recorded
         without this option replays that way.
+    check_contour : bool
+        True (default): the P and R branch maxima of the fitted model are compared with the
+        data's (the same smoothing; :mod:`.crosscheck`). A model that misses them by more
+        than the noise allows and 2 % of the separation does not describe the contour (its
+        least-squares B or T can then be far off with a small standard error): the fit is
+        "doubtful", the reason gives B from the separation alone, and the standard errors
+        of the parameters the contour determines (B and T; T alone when the lines are
+        resolved) are widened by the relative error the mismatch implies (``contour``). A
+        session step recorded without this option replays with False, as it was made.
     progress : callable, optional
         ``progress(stage, iteration, chisqr, elapsed)``.
     meta : dict, optional
@@ -164,8 +174,9 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
         Bad input (names the argument and value), or no band found in the data.
     """
     t0 = time.perf_counter()
-    if not isinstance(widen_errors, bool | np.bool_):
-        raise FitError(f"widen_errors must be True or False, got {widen_errors!r}")
+    for name, flag in (("widen_errors", widen_errors), ("check_contour", check_contour)):
+        if not isinstance(flag, bool | np.bool_):
+            raise FitError(f"{name} must be True or False, got {flag!r}")
     o = _options(x, y, molecule, band=band, temperature=temperature, resolution=resolution,
                  instrument=instrument, isotopologues=isotopologues, fix=fix, baseline=baseline,
                  y_kind=y_kind, joint=joint, centrifugal=centrifugal, shape=shape,
@@ -207,7 +218,7 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
     elif convolve == "auto":
         run = (exact_for_transmittance(run) if y_kind == "transmittance" and not simulated
                else note_approximation(run, simulated))
-    return run.result(spec, pr, widen=bool(widen_errors))
+    return run.result(spec, pr, widen=bool(widen_errors), contour=bool(check_contour))
 
 
 def _options(x, y, molecule, *, band, temperature, resolution, instrument, isotopologues, fix,
@@ -323,7 +334,8 @@ def restore_fit(spectrum: Spectrum, molecule, options: Mapping, recorded: Mappin
         raise FitError(f"restore_fit needs a widgetkit Spectrum, got {type(spectrum).__name__}")
     t0 = time.perf_counter()
     opts = {"y_kind": spectrum.y_kind, "meta": spectrum.meta, **dict(options)}
-    for k in ("max_nfev", "max_time", "progress", "widen_errors"):  # the record holds their effect
+    for k in ("max_nfev", "max_time", "progress", "widen_errors", "check_contour"):
+        # the record holds their effect
         opts.pop(k, None)
     keys = ("band", "temperature", "resolution", "instrument", "isotopologues", "fix", "baseline",
             "y_kind", "joint", "centrifugal", "shape", "lorentz_hwhm", "convolve", "start", "free",

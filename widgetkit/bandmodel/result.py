@@ -23,6 +23,7 @@ import pandas as pd
 from ..fitmarks import FIXED_NOTE, HELD_NOTE, mark_not_fitted, unmarked
 from ..levels.bandfit import R_E_CONSTANT
 from ..simulate.linesystem import BAND_NAMES, DunhamMap
+from .crosscheck import ContourCheck
 from .quick import PRSeparation
 
 __all__ = ["BandFit", "derived_constants", "CONSTANT_COLUMNS", "PARAMETER_COLUMNS", "FIXED_NOTE",
@@ -81,6 +82,11 @@ class BandFit:
         The modelled lines at the fitted parameters.
     quick : PRSeparation or None
         The P–R separation of the contour.
+    contour : ContourCheck or None
+        The data's P–R branch maxima against the model's (:mod:`.crosscheck`): when the
+        model misses them by more than the noise and 2 % of the separation, the fit is
+        doubtful and the standard errors of B and T are widened. None when not checked
+        (no P–R maxima in the data, or ``check_contour=False``).
     spec : dict
         The options of the fit (JSON data).
     theta : dict
@@ -113,6 +119,7 @@ class BandFit:
     domain: str = "absorbance"
     lines: pd.DataFrame = field(default=None, repr=False)
     quick: PRSeparation | None = None
+    contour: ContourCheck | None = None
     spec: dict = field(default_factory=dict, repr=False)
     theta: dict = field(default_factory=dict, repr=False)
 

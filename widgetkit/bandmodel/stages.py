@@ -21,6 +21,7 @@ import pandas as pd
 from ..errors import FitError
 from .build import build_model
 from .checks import check_mapping
+from .crosscheck import check_contour, contour_reason, widen_for_contour
 from .engine import Fitter
 from .params import PRIMARY
 from .quick import PRSeparation
@@ -247,15 +248,18 @@ class Run:
         return float(th.get("B_lower", th.get("B_e", 1.0)))
 
     # -------------------------------------------------------------- result
-    def result(self, spec: dict, pr: PRSeparation | None, widen: bool = True) -> BandFit:
+    def result(self, spec: dict, pr: PRSeparation | None, widen: bool = True,
+               contour: bool = False) -> BandFit:
         """The fit's result; ``widen``: standard errors widened for a structured residual
         (:mod:`.structure`), else only scaled by the engine's factor f as before the
-        widening existed (what a session record without ``widen_errors`` replays)."""
+        widening existed (what a session record without ``widen_errors`` replays);
+        ``contour``: the P–R maxima of model and data compared (:mod:`.crosscheck`)."""
         f = self.fitter
         model = self.model
         cov, r, chi2, scale, idx = f.covariance()
         theta = f.theta
         names = model.names
+        comp = model.components(theta)
         if widen:
             cov, factors = self._widened(cov, r, scale, idx)
             error_scale = max((h for n, h in factors.items() if not n.startswith("baseline_")),
@@ -263,6 +267,10 @@ class Run:
             structured = bool(factors)
         else:
             factors, error_scale, structured = {}, float(scale), bool(scale > 1.0)
+        check = check_contour(self.x, self.y, comp["model"], comp["baseline"], self.opts.y_kind,
+                              pr, self._b_scale()) if contour else None
+        if check is not None:
+            cov, check = widen_for_contour(cov, theta, names, list(idx), check)
         se = np.sqrt(np.clip(np.diag(cov), 0.0, None))
         status = ["free" if p.vary else ("held" if p.name in self.held else "fixed")
                   for p in self.params]
@@ -298,9 +306,10 @@ class Run:
                                                               for n in isos],
                                    band=self.opts.bands[0])
         consts = mark_not_fitted(consts, ptab)
-        comp = model.components(theta)
         dof = max(self.y.size - len(idx), 1)
         reasons = self._reasons(corr, free_names, theta, se, scale, widen)
+        if check is not None and not check.passed:
+            reasons.append(contour_reason(check, dict(zip(names, theta, strict=True))))
         sol = f.last
         converged = bool(sol.converged) if sol is not None else False
         if not converged:
@@ -317,7 +326,7 @@ class Run:
             elapsed=time.perf_counter() - self.t0, chisqr=chi2, redchi=chi2 / dof,
             error_scale=error_scale, error_factors=factors,
             structured_residual=structured, domain=self.opts.domain,
-            lines=model.line_table(theta), quick=pr,
+            lines=model.line_table(theta), quick=pr, contour=check,
             spec={**spec, "structure_temperature": self.t_struct},
             theta={n: float(v) for n, v in zip(names, theta, strict=True)})
 

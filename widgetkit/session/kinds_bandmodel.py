@@ -119,6 +119,9 @@ class FitBandModel(StepKind):
         Param("widen_errors", "boolean", False,
               doc="widen each standard error for a structured residual (absent in a record: "
                   "off, errors scaled by one factor as then; Session.fit_band_model turns it on)"),
+        Param("check_contour", "boolean", False,
+              doc="compare the model's P-R branch maxima with the data's (absent in a record: "
+                  "off, as then; Session.fit_band_model turns it on)"),
     )
 
     def apply(self, state: State, params: dict, ctx):
@@ -129,6 +132,7 @@ class FitBandModel(StepKind):
         molecule = band_molecule(opts.pop("molecule"))
         # the function's default is on; a record without the key was made before it existed
         opts["widen_errors"] = bool(opts.get("widen_errors", False))
+        opts["check_contour"] = bool(opts.get("check_contour", False))
         fit = bandmodel.fit_spectrum(sp, molecule, progress=_PROGRESS.get(), **opts)
         summary = (f"band model of {' '.join(molecule.atoms)}: {fit.status}, "
                    f"{plural(int((fit.parameters['status'] == 'free').sum()), 'parameter')} fitted, "

@@ -179,8 +179,9 @@ class StepMethods:
         constants join :attr:`constants` with ``method`` "band model". A fit that cannot
         be set up raises :class:`~widgetkit.errors.FitError` and changes nothing; a fit
         that stops early is kept and marked "doubtful". ``widen_errors=True`` (default)
-        widens the standard errors for a structured residual and is recorded (a step
-        recorded without it replays with ``False``, as it was made).
+        widens the standard errors for a structured residual and ``check_contour=True``
+        (default) compares the model's P and R branch maxima with the data's; both are
+        recorded (a step recorded without them replays with ``False``, as it was made).
 
         Returns the :class:`~widgetkit.bandmodel.BandFit` (also :attr:`band_model`).
         """
@@ -188,7 +189,7 @@ class StepMethods:
 
         if hasattr(molecule, "to_dict"):
             molecule = molecule.to_dict()
-        params = {"molecule": molecule, "widen_errors": True, **options}
+        params = {"molecule": molecule, "widen_errors": True, "check_contour": True, **options}
         if params.get("band") is not None:
             params["band"] = plain_bands(params["band"])
         with progress_to(progress):

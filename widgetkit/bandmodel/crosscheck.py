@@ -1,0 +1,208 @@
+"""Does the fitted model put the P and R branch maxima where the data have them?
+(private; :func:`check_contour`, used by :meth:`.stages.Run.result`)
+
+A band model fitted to an unresolved contour takes B·T from the whole shape of the
+contour: its wings, its depth, the slit function, the line shape. When the model cannot
+describe that shape (saturated lines under a coarse slit, a trace smoothed by hand when
+it was digitised, another band underneath) the least-squares optimum can sit far from
+the constants while the residual still looks modest. The positions of the two branch
+maxima depend on B·T alone to first order (Δν ≈ K √(B T), :mod:`widgetkit.levels.contour`)
+and are the most robust measure of it, so the data's and the model's maxima are compared
+with the same smoothing. A mismatch larger than the noise allows and than
+:data:`TOLERANCE` of the separation marks the fit doubtful, says what the separation
+alone gives, and widens the standard errors of the parameters that the contour
+determines (B and T for an unresolved band, T alone when the lines are resolved and
+their positions fix B) by the relative error it implies: δ(BT)/(BT) = 2 δΔ/Δ.
+
+Measured on a real digitised CO spectrum (a 1964 grating spectrum, 400 mmHg in 10 cm,
+transmittance down to 0.15, nominal resolution 4 cm⁻¹, "congested rotational lines
+smoothened" by the digitiser): with T fixed at 296 K the model gave B_e = 2.31 ± 0.045
+cm⁻¹ "ok" while the maxima 56.3 cm⁻¹ apart give 1.93 (B_e of CO is 1.931 cm⁻¹).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..errors import FitError
+from .quick import PRSeparation, _absorbance_like, _pr_from_uniform, _uniform, smooth
+
+__all__ = ["ContourCheck", "check_contour", "TOLERANCE", "NOISE_SIGMAS"]
+
+#: a separation mismatch below this fraction of the separation passes whatever the noise
+#: (2 % of Δν is 4 % of B·T)
+TOLERANCE = 0.02
+#: and a mismatch must exceed this many standard deviations of the noise-driven spread of
+#: the separation (:func:`separation_noise`)
+NOISE_SIGMAS = 5.0
+#: the contour is smoothed over this many line spacings for the check (the spacing found
+#: in the data, else 2B of the fit), so that no ripple of resolved lines is left to decide
+#: where a maximum sits (at 1.2 spacings the maxima of simulated CO bands jumped by a whole
+#: spacing from one noise draw to the next)
+RESOLVED_SMOOTHING = 2.0
+
+
+@dataclass(frozen=True)
+class ContourCheck:
+    """The comparison of the data's and the model's P–R branch maxima.
+
+    Attributes
+    ----------
+    data, model : PRSeparation
+        The maxima of the data and of the fitted model (the same smoothing, both with the
+        model's baseline removed); ``model`` is None when the model has no two maxima.
+    allowed : float
+        The largest mismatch (cm⁻¹) that passes.
+    passed : bool
+    widened : dict
+        Parameter name -> factor its standard error was widened by (empty when passed).
+    """
+
+    data: PRSeparation
+    model: PRSeparation | None
+    allowed: float
+    passed: bool
+    widened: dict = field(default_factory=dict)
+
+    @property
+    def mismatch(self) -> float:
+        """Model minus data separation (cm⁻¹); inf when the model has no maxima."""
+        return math.inf if self.model is None else self.model.separation - self.data.separation
+
+    def relative_product_error(self) -> float:
+        """The relative error of B·T the mismatch implies, 2|δΔ|/Δ."""
+        return 2.0 * abs(self.mismatch) / self.data.separation
+
+    def to_dict(self) -> dict:
+        return {"data_separation": self.data.separation,
+                "model_separation": None if self.model is None else self.model.separation,
+                "allowed": self.allowed, "passed": self.passed, "widened": dict(self.widened)}
+
+
+def _band_absorbance(x: np.ndarray, y: np.ndarray, baseline_y: np.ndarray, y_kind: str):
+    """The band's absorbance above the model's baseline, on a uniform grid."""
+    a = _absorbance_like(y, y_kind) - _absorbance_like(baseline_y, y_kind)
+    return _uniform(x, a)
+
+
+def point_noise(y: np.ndarray) -> float:
+    """Standard deviation of white noise per point, from the spread of successive
+    differences (median absolute deviation, scaled to a standard deviation: common practice)."""
+    d = np.diff(y)
+    return float(1.4826 * np.median(np.abs(d - np.median(d))) / math.sqrt(2.0))
+
+
+def separation_noise(xu: np.ndarray, smoothed: np.ndarray, sigma: np.ndarray, width: float,
+                     maxima: tuple[float, float]) -> float:
+    """Standard deviation (cm⁻¹) of the separation of two maxima of a contour smoothed by a
+    Gaussian of FWHM ``width`` from independent noise ``sigma`` per point (absorbance; an
+    array, as transmittance noise grows as 1/T in absorbance). A maximum moves by
+    δx = −δs′/s″ (s the smoothed contour), and δs′ = Σ h g′(x₀ − x_k) ε_k for the kernel g
+    on a grid of step h (first-order propagation; common practice for a peak's position)."""
+    h = float(xu[1] - xu[0])
+    s = width / 2.3548
+    var = 0.0
+    for x0 in maxima:
+        i = int(np.clip(np.searchsorted(xu, x0), 1, xu.size - 2))
+        curv = (smoothed[i - 1] - 2.0 * smoothed[i] + smoothed[i + 1]) / h ** 2
+        if not curv < 0:
+            return math.inf
+        near = slice(max(i - int(5 * s / h) - 1, 0), i + int(5 * s / h) + 2)
+        t = x0 - xu[near]
+        g1 = -t / s ** 2 * np.exp(-0.5 * (t / s) ** 2) / (s * math.sqrt(2.0 * math.pi))
+        var += float(np.sum((h * g1 * sigma[near]) ** 2)) / curv ** 2
+    return math.sqrt(var)
+
+
+def check_contour(x, y, model_y, baseline_y, y_kind: str, start: PRSeparation | None,
+                  rotational_constant: float) -> ContourCheck | None:
+    """Compare the maxima (None when the data have no P–R maxima to compare: no ``start``
+    separation, or none found above the model's baseline). ``rotational_constant``: the
+    fitted B (cm⁻¹), for the smoothing when the data's line spacing was not found."""
+    if start is None:
+        return None
+    xu, au, step = _band_absorbance(x, y, baseline_y, y_kind)
+    spacing = start.line_spacing or 2.0 * abs(rotational_constant)
+    width = max(start.smoothing, RESOLVED_SMOOTHING * spacing)
+    try:
+        data = _pr_from_uniform(xu, au, step, smoothing=width)
+    except FitError:
+        return None
+    xm, am, _ = _band_absorbance(x, model_y, baseline_y, y_kind)
+    try:
+        model = _pr_from_uniform(xm, am, step, smoothing=data.smoothing)
+    except FitError:
+        model = None
+    if model is None:
+        return ContourCheck(data=data, model=None, allowed=TOLERANCE * data.separation,
+                            passed=False)
+    sigma = np.full(xu.size, point_noise(np.asarray(y, dtype=float)))
+    if y_kind == "transmittance":
+        # σ_A = σ_T / (T ln 10): the noise of the absorbance grows where the band absorbs
+        sigma = sigma / (math.log(10.0) * np.clip(10.0 ** -np.interp(xu, xm, am), 1e-3, None))
+    # the curvature of the maxima from the model's (noise-free) contour
+    noise = separation_noise(xm, smooth(am, max(data.smoothing / step / 2.3548, 0.5)), sigma,
+                             data.smoothing, (model.p_max, model.r_max))
+    allowed = max(NOISE_SIGMAS * noise, TOLERANCE * data.separation)
+    passed = abs(model.separation - data.separation) <= allowed
+    return ContourCheck(data=data, model=model, allowed=allowed, passed=passed)
+
+
+def contour_parameters(names: list[str], free: list[int], resolved: bool) -> list[int]:
+    """Indices of the free parameters the contour's width determines: T, and B unless the
+    lines are resolved (their positions fix B)."""
+    out = []
+    for k in free:
+        n = names[k]
+        if n == "temperature" or (not resolved and (n == "B_e" or n.startswith(("B_lower",
+                                                                                "B_upper")))):
+            out.append(k)
+    return out
+
+
+def widen_for_contour(cov: np.ndarray, theta: np.ndarray, names: list[str], free: list[int],
+                      check: ContourCheck) -> tuple[np.ndarray, ContourCheck]:
+    """``cov`` with the contour-determined parameters' standard errors widened (rows and
+    columns scaled, correlations kept) to cover the relative error 2|δΔ|/Δ."""
+    if check.passed:
+        return cov, check
+    resolved = check.data.line_spacing is not None
+    rel = check.relative_product_error() if check.model is not None else 1.0
+    cov = cov.copy()
+    widened = {}
+    for k in contour_parameters(names, free, resolved):
+        var = float(cov[k, k])
+        extra = (rel * abs(theta[k])) ** 2
+        h = math.sqrt(1.0 + extra / var) if var > 0 else 1.0
+        if h > 1.0:
+            cov[k, :] *= h
+            cov[:, k] *= h
+            widened[names[k]] = h
+    return cov, ContourCheck(check.data, check.model, check.allowed, False, widened)
+
+
+def contour_reason(check: ContourCheck, theta: dict) -> str:
+    """Why a fit whose maxima miss the data's is doubtful, with what the separation alone
+    gives for the parameter that was not fitted (B with T fixed, T with B fixed)."""
+    d = check.data
+    if check.model is None:
+        head = (f"the data's P and R branch maxima are {d.separation:.1f} cm-1 apart but the "
+                "fitted model has no two maxima")
+    else:
+        head = (f"the model's P and R branch maxima are {check.model.separation:.1f} cm-1 apart, "
+                f"the data's {d.separation:.1f} (the same smoothing, {d.smoothing:.2g} cm-1)")
+    text = (head + ": the model does not reproduce the band contour (saturated lines, the slit "
+            "function, a trace smoothed when it was digitised, another band underneath)")
+    T = float(theta.get("temperature", float("nan")))
+    if math.isfinite(T) and T > 0:
+        B = d.rotational_constant(T)
+        eB = 2.0 * B * d.uncertainty / d.separation
+        text += (f"; the separation alone gives B ≈ {B:.4g} ± {eB:.2g} cm-1 at {T:.4g} K "
+                 "(widgetkit.bandmodel.pr_separation)")
+    if check.widened:
+        text += "; standard errors widened for the mismatch (" + ", ".join(
+            f"{n} ×{h:.2g}" for n, h in check.widened.items()) + ")"
+    return text
