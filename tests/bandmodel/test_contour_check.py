@@ -10,7 +10,6 @@ on a real digitised 1964 CO grating spectrum (public collection, not redistribut
 B_e = 2.31 ± 0.045 cm⁻¹ "ok" with T fixed at 296 K, against 1.931 (Huber and Herzberg).
 """
 
-import math
 
 import numpy as np
 import pytest
