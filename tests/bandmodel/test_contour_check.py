@@ -105,3 +105,39 @@ def test_check_contour_must_be_a_flag():
     x, y, _ = saturated_co()
     with pytest.raises(wk.FitError, match="check_contour"):
         fit(x, y, CO_MOL, check_contour="yes")
+
+
+def _without_key(path, out, step_index: int, key: str):
+    """The saved session with ``key`` deleted from one step's parameters and the step's seal
+    recomputed: a record as the code before the option wrote it."""
+    import json
+
+    from widgetkit.session.steps import Step
+
+    doc = json.loads(path.read_text())
+    st = doc["steps"][step_index]
+    del st["params"][key]
+    st["sha256"] = Step(**{k: v for k, v in st.items() if k != "sha256"}).seal()
+    out.write_text(json.dumps(doc))
+    return out
+
+
+def test_the_session_records_the_check_and_an_older_record_replays_without_it(tmp_path):
+    x, y, _ = saturated_co()
+    s = wk.Session(wk.Spectrum(x, y, y_kind="transmittance"))
+    opts = dict(resolution=4.0, fix={"temperature": 296.0}, convolve="absorbance")
+    s.fit_band_model("CO", check_contour=False, **opts)   # as before the option
+    fit_now = s.fit_band_model("CO", **opts)
+    assert s.history[1].params["check_contour"] is False
+    assert s.history[2].params["check_contour"] is True
+    assert fit_now.status == "doubtful" and not fit_now.contour.passed
+    path = tmp_path / "band.session.json"
+    s.save(path)
+    assert wk.Session.load(path).verify().ok
+    # a record without the key replays unchecked: the old one verifies ...
+    report = wk.Session.load(_without_key(path, tmp_path / "old1.json", 1, "check_contour")).verify()
+    assert report.ok, report.mismatches
+    # ... and the checked one no longer does (its widened errors and reason are not remade)
+    report = wk.Session.load(_without_key(path, tmp_path / "old2.json", 2, "check_contour")).verify()
+    assert not report.ok
+    assert any(m.startswith("step 2 (fit_band_model)") for m in report.mismatches), report.mismatches
