@@ -28,7 +28,15 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import FitError
-from .quick import PRSeparation, _absorbance_like, _pr_from_uniform, _uniform, smooth
+from .quick import (
+    PRSeparation,
+    _absorbance_like,
+    _pr_from_uniform,
+    _uniform,
+    point_noise,
+    smooth,
+    transmittance_floor,
+)
 
 __all__ = ["ContourCheck", "check_contour", "TOLERANCE", "NOISE_SIGMAS"]
 
@@ -82,17 +90,11 @@ class ContourCheck:
                 "allowed": self.allowed, "passed": self.passed, "widened": dict(self.widened)}
 
 
-def _band_absorbance(x: np.ndarray, y: np.ndarray, baseline_y: np.ndarray, y_kind: str):
+def _band_absorbance(x: np.ndarray, y: np.ndarray, baseline_y: np.ndarray, y_kind: str,
+                     floor: float):
     """The band's absorbance above the model's baseline, on a uniform grid."""
-    a = _absorbance_like(y, y_kind) - _absorbance_like(baseline_y, y_kind)
+    a = _absorbance_like(y, y_kind, floor) - _absorbance_like(baseline_y, y_kind, floor)
     return _uniform(x, a)
-
-
-def point_noise(y: np.ndarray) -> float:
-    """Standard deviation of white noise per point, from the spread of successive
-    differences (median absolute deviation, scaled to a standard deviation: common practice)."""
-    d = np.diff(y)
-    return float(1.4826 * np.median(np.abs(d - np.median(d))) / math.sqrt(2.0))
 
 
 def separation_noise(xu: np.ndarray, smoothed: np.ndarray, sigma: np.ndarray, width: float,
@@ -124,14 +126,15 @@ def check_contour(x, y, model_y, baseline_y, y_kind: str, start: PRSeparation | 
     fitted B (cm⁻¹), for the smoothing when the data's line spacing was not found."""
     if start is None:
         return None
-    xu, au, step = _band_absorbance(x, y, baseline_y, y_kind)
+    floor = transmittance_floor(y)  # the data's, for data and model alike
+    xu, au, step = _band_absorbance(x, y, baseline_y, y_kind, floor)
     spacing = start.line_spacing or 2.0 * abs(rotational_constant)
     width = max(start.smoothing, RESOLVED_SMOOTHING * spacing)
     try:
         data = _pr_from_uniform(xu, au, step, smoothing=width)
     except FitError:
         return None
-    xm, am, _ = _band_absorbance(x, model_y, baseline_y, y_kind)
+    xm, am, _ = _band_absorbance(x, model_y, baseline_y, y_kind, floor)
     try:
         model = _pr_from_uniform(xm, am, step, smoothing=data.smoothing)
     except FitError:

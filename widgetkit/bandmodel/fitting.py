@@ -30,6 +30,7 @@ from .deposit import ready_allocator
 from .domain import exact_for_transmittance, guess_y_kind, note_approximation
 from .instrument import fwhm_factor
 from .linear import check_kind, check_linear_options, is_linear_polyatomic, spacing_in_B
+from .quick import _absorbance_like
 from .result import PARAMETER_COLUMNS, BandFit, mark_not_fitted
 from .stages import Run
 from .start import estimate_starts
@@ -289,7 +290,7 @@ def fit_spectrum(spectrum: Spectrum, molecule, **options) -> BandFit:
 
 # ---------------------------------------------------------------------- start values
 def _fallback_starts(x, y, y_kind, user_start, temperature) -> dict:
-    a = -np.log10(np.clip(y, 1e-6, None)) if y_kind == "transmittance" else y
+    a = _absorbance_like(y, y_kind)
     B = float(user_start["B_lower"])
     nu = float(user_start["band_origin"])
     return {"band_origin": nu, "B_lower": B, "B_upper": B * 0.99, "D": kratzer_d(B, nu),

@@ -111,9 +111,29 @@ def _uniform(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray, floa
     return xu, yu, step
 
 
-def _absorbance_like(y: np.ndarray, y_kind: str) -> np.ndarray:
+def point_noise(y: np.ndarray) -> float:
+    """Standard deviation of white noise per point, from the spread of successive
+    differences (median absolute deviation scaled to a standard deviation, over √2: common
+    practice; lines, baselines and smooth contours barely move it)."""
+    d = np.diff(np.asarray(y, dtype=float))
+    return float(1.4826 * np.median(np.abs(d - np.median(d))) / math.sqrt(2.0))
+
+
+def transmittance_floor(y: np.ndarray) -> float:
+    """The lowest transmittance taken at face value when converting to absorbance: twice the
+    noise per point (at least 1e-6). Below it a saturated line's noise, negative values
+    included, would become spikes of absorbance up to 6 that the smoothing of a contour
+    cannot remove (measured: a CO band at 0.5 cm-1 whose lines reach T = 0 with noise 0.03
+    gave P-R "maxima" 10.8 cm-1 apart, two lines of the R branch)."""
+    return max(1e-6, 2.0 * point_noise(y))
+
+
+def _absorbance_like(y: np.ndarray, y_kind: str, floor: float | None = None) -> np.ndarray:
+    """Absorbance of transmittance data (floored at ``floor``, default
+    :func:`transmittance_floor` of ``y``), absorbance data as they are."""
     if y_kind == "transmittance":
-        return -np.log10(np.clip(y, 1e-6, None))
+        y = np.asarray(y, dtype=float)
+        return -np.log10(np.clip(y, transmittance_floor(y) if floor is None else floor, None))
     return np.asarray(y, dtype=float)
 
 
@@ -275,8 +295,7 @@ def _pr_from_uniform(xu: np.ndarray, yu: np.ndarray, step: float, *,
     i_max = edge + int(np.argmax(sm[inner]))
     top = sm[i_max]
     # the noise left after smoothing: σ of the raw data over sqrt(2√π σ_points)
-    d = np.diff(yu)
-    noise = 1.4826 * float(np.median(np.abs(d - np.median(d)))) / math.sqrt(2.0)
+    noise = point_noise(yu)
     if top - float(np.median(sm)) < 8.0 * noise / math.sqrt(2.0 * math.sqrt(math.pi) * sig_pts):
         raise FitError("no band found: the contour does not rise above the noise; crop the "
                        "spectrum to the band, or give start values")

@@ -404,7 +404,3 @@ class Run:
                        "line shape)")
         return out
 
-
-def _noise(y: np.ndarray) -> float:
-    d = np.diff(y)
-    return float(1.4826 * np.median(np.abs(d - np.median(d))) / math.sqrt(2.0))
