@@ -30,12 +30,9 @@ import numpy as np
 from ..errors import FitError
 from .quick import (
     PRSeparation,
-    _absorbance_like,
     _pr_from_uniform,
-    _uniform,
     point_noise,
     smooth,
-    transmittance_floor,
 )
 
 __all__ = ["ContourCheck", "check_contour", "TOLERANCE", "NOISE_SIGMAS"]
@@ -90,11 +87,33 @@ class ContourCheck:
                 "allowed": self.allowed, "passed": self.passed, "widened": dict(self.widened)}
 
 
-def _band_absorbance(x: np.ndarray, y: np.ndarray, baseline_y: np.ndarray, y_kind: str,
-                     floor: float):
-    """The band's absorbance above the model's baseline, on a uniform grid."""
-    a = _absorbance_like(y, y_kind, floor) - _absorbance_like(baseline_y, y_kind, floor)
-    return _uniform(x, a)
+#: the contour is averaged in bins of at most this fraction of the smoothing width before it
+#: is smoothed (the check's cost; the maxima of the smoothed contour do not move)
+BIN_FRACTION = 0.05
+
+
+def _band_part(y: np.ndarray, baseline_y: np.ndarray, y_kind: str) -> np.ndarray:
+    """What the band adds to the baseline: absorbance, or for transmittance data the
+    absorptance 1 − T/T_baseline, linear in the data, so that noise stays unbiased where
+    saturated lines reach T = 0 (a logarithm must floor it there, and the floor biased the
+    data against the model by a whole standard deviation of the separation)."""
+    if y_kind == "transmittance":
+        return 1.0 - y / np.clip(baseline_y, 1e-6, None)
+    return y - baseline_y
+
+
+def _binned(x: np.ndarray, a: np.ndarray, width: float) -> tuple[np.ndarray, np.ndarray, int]:
+    """``a`` on a uniform grid of the mean step, averaged in bins of :data:`BIN_FRACTION` of
+    ``width``: (grid, values, points per bin)."""
+    step = (x[-1] - x[0]) / (x.size - 1)
+    xu = np.linspace(x[0], x[-1], x.size)
+    au = np.interp(xu, x, a)
+    b = max(int(BIN_FRACTION * width / step), 1)
+    if b > 1:
+        m = au.size // b
+        xu = xu[:m * b].reshape(m, b).mean(axis=1)
+        au = au[:m * b].reshape(m, b).mean(axis=1)
+    return xu, au, b
 
 
 def separation_noise(xu: np.ndarray, smoothed: np.ndarray, sigma: np.ndarray, width: float,
@@ -126,28 +145,27 @@ def check_contour(x, y, model_y, baseline_y, y_kind: str, start: PRSeparation | 
     fitted B (cm⁻¹), for the smoothing when the data's line spacing was not found."""
     if start is None:
         return None
-    floor = transmittance_floor(y)  # the data's, for data and model alike
-    xu, au, step = _band_absorbance(x, y, baseline_y, y_kind, floor)
     spacing = start.line_spacing or 2.0 * abs(rotational_constant)
     width = max(start.smoothing, RESOLVED_SMOOTHING * spacing)
+    xu, au, b = _binned(x, _band_part(y, baseline_y, y_kind), width)
+    _, am, _ = _binned(x, _band_part(model_y, baseline_y, y_kind), width)
+    step = float(xu[1] - xu[0])
     try:
-        data = _pr_from_uniform(xu, au, step, smoothing=width)
+        data = _pr_from_uniform(xu, au, step, smoothing=width, find_spacing=False)
     except FitError:
         return None
-    xm, am, _ = _band_absorbance(x, model_y, baseline_y, y_kind, floor)
     try:
-        model = _pr_from_uniform(xm, am, step, smoothing=data.smoothing)
+        model = _pr_from_uniform(xu, am, step, smoothing=data.smoothing, find_spacing=False)
     except FitError:
         model = None
     if model is None:
         return ContourCheck(data=data, model=None, allowed=TOLERANCE * data.separation,
                             passed=False)
-    sigma = np.full(xu.size, point_noise(np.asarray(y, dtype=float)))
-    if y_kind == "transmittance":
-        # σ_A = σ_T / (T ln 10): the noise of the absorbance grows where the band absorbs
-        sigma = sigma / (math.log(10.0) * np.clip(10.0 ** -np.interp(xu, xm, am), 1e-3, None))
+    # white noise per point (of the absorptance too: 1 - T is linear in T), averaged over
+    # the bins
+    sigma = np.full(xu.size, point_noise(np.asarray(y, dtype=float)) / math.sqrt(b))
     # the curvature of the maxima from the model's (noise-free) contour
-    noise = separation_noise(xm, smooth(am, max(data.smoothing / step / 2.3548, 0.5)), sigma,
+    noise = separation_noise(xu, smooth(am, max(data.smoothing / step / 2.3548, 0.5)), sigma,
                              data.smoothing, (model.p_max, model.r_max))
     allowed = max(NOISE_SIGMAS * noise, TOLERANCE * data.separation)
     passed = abs(model.separation - data.separation) <= allowed

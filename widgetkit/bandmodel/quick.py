@@ -276,12 +276,13 @@ RESOLVED_MAXIMA = 6
 
 
 def _pr_from_uniform(xu: np.ndarray, yu: np.ndarray, step: float, *,
-                     smoothing: float | None = None,
-                     resolution: float | None = None) -> PRSeparation:
-    """:func:`pr_separation` on the detrended absorbance on a uniform grid (:func:`_uniform`)."""
+                     smoothing: float | None = None, resolution: float | None = None,
+                     find_spacing: bool = True) -> PRSeparation:
+    """:func:`pr_separation` on the detrended absorbance on a uniform grid (:func:`_uniform`);
+    ``find_spacing=False`` (with ``smoothing``): the line spacing is not looked for."""
     span = xu[-1] - xu[0]
     spacing = line_spacing(xu, yu, min_period=max(4 * step, 1.5 * (resolution or 0.0)),
-                           max_period=span / 12.0)
+                           max_period=span / 12.0) if find_spacing or smoothing is None else None
     if smoothing is None:
         smoothing = (1.2 * spacing if spacing is not None
                      else max(3.0 * step, 0.5 * (resolution or 0.0)))
