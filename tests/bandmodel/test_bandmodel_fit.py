@@ -213,3 +213,18 @@ def test_a_hot_resolved_band_whose_spacing_drifts_is_started_from_its_line_spaci
     res = fit(sp.x, sp.y, HCL_MOL, resolution=0.01)
     assert res.status == "ok", res.reasons
     assert_within(res, HCL, temperature=600.0)
+
+
+@pytest.mark.parametrize("seed", [7, 8])
+def test_saturated_lines_under_noise_in_transmittance(seed):
+    # CO 1-0 at 0.5 cm-1 whose strongest lines reach T = 0 under noise 0.03 (our simulator,
+    # seeded): the noise around zero became spikes of absorbance that were taken for the
+    # branch maxima (7.3 and 23 cm-1 apart); the fits ran 48 s to "doubtful", or ended 40
+    # standard errors from B. Now the maxima are read from 1 - T.
+    sp = wk.simulate.vibrational(CO_MOL, CO, bands=((1, 0),), x_range=(2000.0, 2300.0),
+                                 step=0.125, temperature=296.0, strength=3.0, resolution=0.5,
+                                 y_kind="transmittance", noise=0.03, seed=seed)
+    assert float(np.min(sp.y)) < 0.0
+    res = fit_spectrum(sp, CO_MOL, max_time=20)
+    assert res.status == "ok", res.reasons
+    assert_within(res, CO, names=("band_origin", "B_lower"), temperature=296.0)

@@ -31,6 +31,7 @@ from ..errors import FitError
 from .quick import (
     PRSeparation,
     _pr_from_uniform,
+    contour_like,
     point_noise,
     smooth,
 )
@@ -94,11 +95,10 @@ BIN_FRACTION = 0.05
 
 def _band_part(y: np.ndarray, baseline_y: np.ndarray, y_kind: str) -> np.ndarray:
     """What the band adds to the baseline: absorbance, or for transmittance data the
-    absorptance 1 − T/T_baseline, linear in the data, so that noise stays unbiased where
-    saturated lines reach T = 0 (a logarithm must floor it there, and the floor biased the
-    data against the model by a whole standard deviation of the separation)."""
+    absorptance 1 − T/T_baseline (:func:`.quick.contour_like`; a floored logarithm biased
+    noisy data against the model by a whole standard deviation of the separation)."""
     if y_kind == "transmittance":
-        return 1.0 - y / np.clip(baseline_y, 1e-6, None)
+        return contour_like(y / np.clip(baseline_y, 1e-6, None), y_kind)
     return y - baseline_y
 
 

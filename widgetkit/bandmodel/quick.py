@@ -27,7 +27,8 @@ from ..levels.contour import (
 
 __all__ = ["PR_COEFFICIENT", "PR_COEFFICIENT_PRINTED", "PRSeparation", "pr_separation",
            "rotational_constant_from_separation", "temperature_from_separation", "line_spacing",
-           "strong_peaks", "quick_estimate_text", "smooth"]
+           "strong_peaks", "quick_estimate_text", "smooth", "point_noise", "contour_like",
+           "pr_from_transmittance"]
 
 @dataclass(frozen=True)
 class PRSeparation:
@@ -119,21 +120,21 @@ def point_noise(y: np.ndarray) -> float:
     return float(1.4826 * np.median(np.abs(d - np.median(d))) / math.sqrt(2.0))
 
 
-def transmittance_floor(y: np.ndarray) -> float:
-    """The lowest transmittance taken at face value when converting to absorbance: twice the
-    noise per point (at least 1e-6). Below it a saturated line's noise, negative values
-    included, would become spikes of absorbance up to 6 that the smoothing of a contour
-    cannot remove (measured: a CO band at 0.5 cm-1 whose lines reach T = 0 with noise 0.03
-    gave P-R "maxima" 10.8 cm-1 apart, two lines of the R branch)."""
-    return max(1e-6, 2.0 * point_noise(y))
-
-
-def _absorbance_like(y: np.ndarray, y_kind: str, floor: float | None = None) -> np.ndarray:
-    """Absorbance of transmittance data (floored at ``floor``, default
-    :func:`transmittance_floor` of ``y``), absorbance data as they are."""
+def _absorbance_like(y: np.ndarray, y_kind: str) -> np.ndarray:
     if y_kind == "transmittance":
-        y = np.asarray(y, dtype=float)
-        return -np.log10(np.clip(y, transmittance_floor(y) if floor is None else floor, None))
+        return -np.log10(np.clip(y, 1e-6, None))
+    return np.asarray(y, dtype=float)
+
+
+def contour_like(y: np.ndarray, y_kind: str) -> np.ndarray:
+    """What the branch maxima are read from: absorbance, or for transmittance data the
+    absorptance 1 − T. Linear in T, it keeps the noise of saturated lines unbiased and
+    bounded, where a logarithm turns noise around T = 0 (negative values included) into
+    spikes of absorbance up to 6 that the smoothing cannot remove (measured: a CO band at
+    0.5 cm-1 whose lines reach T = 0 under noise 0.03 gave "maxima" 10.8 cm-1 apart, two
+    lines of its R branch). For weak bands the two are proportional (1 − T ≈ A ln 10)."""
+    if y_kind == "transmittance":
+        return 1.0 - np.asarray(y, dtype=float)
     return np.asarray(y, dtype=float)
 
 
@@ -266,8 +267,30 @@ def pr_separation(x, y, *, y_kind: str = "absorbance", smoothing: float | None =
     if np.any(np.diff(x) <= 0):
         order = np.argsort(x)
         x, y = x[order], y[order]
-    xu, yu, step = _uniform(x, _detrend(x, _absorbance_like(y, y_kind)))
-    return _pr_from_uniform(xu, yu, step, smoothing=smoothing, resolution=resolution)
+    xu, au, step = _uniform(x, _detrend(x, _absorbance_like(y, y_kind)))
+    if y_kind != "transmittance":
+        return _pr_from_uniform(xu, au, step, smoothing=smoothing, resolution=resolution)
+    cu = _uniform(x, _detrend(x, contour_like(y, y_kind)))[1]
+    return pr_from_transmittance(xu, au, cu, step, smoothing=smoothing, resolution=resolution)
+
+
+def pr_from_transmittance(xu: np.ndarray, au: np.ndarray, cu: np.ndarray, step: float, *,
+                          smoothing: float | None = None,
+                          resolution: float | None = None) -> PRSeparation:
+    """Transmittance data on a uniform grid: the line spacing and the smoothing from the
+    absorbance ``au`` (its lines stand out best), the maxima from the absorptance ``cu``
+    (:func:`contour_like`: no spikes from noisy saturated lines); the absorptance alone when
+    the absorbance shows no band."""
+    try:
+        first = _pr_from_uniform(xu, au, step, smoothing=smoothing, resolution=resolution)
+    except FitError:
+        return _pr_from_uniform(xu, cu, step, smoothing=smoothing, resolution=resolution)
+    try:
+        found = _pr_from_uniform(xu, cu, step, smoothing=first.smoothing, find_spacing=False)
+    except FitError:
+        return first
+    return dataclasses.replace(found, line_spacing=first.line_spacing,
+                              uncertainty=max(found.uncertainty, first.uncertainty))
 
 
 #: a smoothed contour with this many maxima above a quarter of the highest holds resolved

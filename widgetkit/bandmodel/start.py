@@ -33,6 +33,8 @@ from .quick import (
     _pr_from_uniform,
     _uniform,
     baseline_line,
+    contour_like,
+    pr_from_transmittance,
     strong_peaks,
 )
 
@@ -161,8 +163,13 @@ def estimate_starts(x, y, *, y_kind: str, band, temperature: float | None,
     b0, b1 = baseline_line(x, a)
     xu, au, step = _uniform(x, _detrend(x, a, (b0, b1)))
     src: dict[str, str] = {}
-    try:  # pr_separation(x, y, ...) on the grid made above
-        pr = _pr_from_uniform(xu, au, step, resolution=resolution)
+    # pr_separation(x, y, ...) on the grid made above
+    try:
+        if y_kind == "transmittance":
+            cu = _uniform(x, _detrend(x, contour_like(y, y_kind)))[1]
+            pr = pr_from_transmittance(xu, au, cu, step, resolution=resolution)
+        else:
+            pr = _pr_from_uniform(xu, au, step, resolution=resolution)
     except FitError:
         pr = None
     T0 = float(temperature) if temperature is not None else DEFAULT_TEMPERATURE
