@@ -22,6 +22,7 @@ cm⁻¹ "ok" while the maxima 56.3 cm⁻¹ apart give 1.93 (B_e of CO is 1.931 c
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass, field
 
@@ -62,6 +63,9 @@ class ContourCheck:
         model's baseline removed); ``model`` is None when the model has no two maxima.
     allowed : float
         The largest mismatch (cm⁻¹) that passes.
+    estimate : PRSeparation or None
+        The data's maxima at the start's (lighter) smoothing: the quick estimate quoted
+        when the check fails (the heavier smoothing of the comparison moves both maxima).
     passed : bool
     widened : dict
         Parameter name -> factor its standard error was widened by (empty when passed).
@@ -72,6 +76,7 @@ class ContourCheck:
     allowed: float
     passed: bool
     widened: dict = field(default_factory=dict)
+    estimate: PRSeparation | None = None
 
     @property
     def mismatch(self) -> float:
@@ -160,7 +165,7 @@ def check_contour(x, y, model_y, baseline_y, y_kind: str, start: PRSeparation | 
         model = None
     if model is None:
         return ContourCheck(data=data, model=None, allowed=TOLERANCE * data.separation,
-                            passed=False)
+                            passed=False, estimate=start)
     # white noise per point (of the absorptance too: 1 - T is linear in T), averaged over
     # the bins
     sigma = np.full(xu.size, point_noise(np.asarray(y, dtype=float)) / math.sqrt(b))
@@ -169,7 +174,7 @@ def check_contour(x, y, model_y, baseline_y, y_kind: str, start: PRSeparation | 
                              data.smoothing, (model.p_max, model.r_max))
     allowed = max(NOISE_SIGMAS * noise, TOLERANCE * data.separation)
     passed = abs(model.separation - data.separation) <= allowed
-    return ContourCheck(data=data, model=model, allowed=allowed, passed=passed)
+    return ContourCheck(data=data, model=model, allowed=allowed, passed=passed, estimate=start)
 
 
 def contour_parameters(names: list[str], free: list[int], resolved: bool) -> list[int]:
@@ -202,12 +207,12 @@ def widen_for_contour(cov: np.ndarray, theta: np.ndarray, names: list[str], free
             cov[k, :] *= h
             cov[:, k] *= h
             widened[names[k]] = h
-    return cov, ContourCheck(check.data, check.model, check.allowed, False, widened)
+    return cov, dataclasses.replace(check, passed=False, widened=widened)
 
 
-def contour_reason(check: ContourCheck, theta: dict) -> str:
+def contour_reason(check: ContourCheck, theta: dict, free: list[str]) -> str:
     """Why a fit whose maxima miss the data's is doubtful, with what the separation alone
-    gives for the parameter that was not fitted (B with T fixed, T with B fixed)."""
+    gives: T with B held (fixed by the user), else B at the fit's T."""
     d = check.data
     if check.model is None:
         head = (f"the data's P and R branch maxima are {d.separation:.1f} cm-1 apart but the "
@@ -217,13 +222,20 @@ def contour_reason(check: ContourCheck, theta: dict) -> str:
                 f"the data's {d.separation:.1f} (the same smoothing, {d.smoothing:.2g} cm-1)")
     text = (head + ": the model does not reproduce the band contour (saturated lines, the slit "
             "function, a trace smoothed when it was digitised, another band underneath)")
+    d = check.estimate or d
     T = float(theta.get("temperature", float("nan")))
-    if math.isfinite(T) and T > 0:
-        B = d.rotational_constant(T)
-        eB = 2.0 * B * d.uncertainty / d.separation
-        text += (f"; the separation alone gives B ≈ {B:.4g} ± {eB:.2g} cm-1 at {T:.4g} K "
-                 "(widgetkit.bandmodel.pr_separation)")
+    B = float(theta.get("B_lower", theta.get("B_e", float("nan"))))
+    b_free = any(n == "B_e" or n.startswith(("B_lower", "B_upper")) for n in free)
+    rel = 2.0 * d.uncertainty / d.separation
+    if "temperature" in free and not b_free and math.isfinite(B) and B > 0:
+        t_alt = d.temperature(B)
+        text += (f"; the separation alone gives T ≈ {t_alt:.4g} ± {rel * t_alt:.2g} K with "
+                 f"B = {B:.5g} cm-1")
+    elif math.isfinite(T) and T > 0:
+        b_alt = d.rotational_constant(T)
+        text += (f"; the separation alone gives B ≈ {b_alt:.4g} ± {rel * b_alt:.2g} cm-1 at "
+                 f"{T:.4g} K")
     if check.widened:
         text += "; standard errors widened for the mismatch (" + ", ".join(
             f"{n} ×{h:.2g}" for n, h in check.widened.items()) + ")"
-    return text
+    return text + " (widgetkit.bandmodel.pr_separation gives the estimate)"

@@ -309,7 +309,8 @@ class Run:
         dof = max(self.y.size - len(idx), 1)
         reasons = self._reasons(corr, free_names, theta, se, scale, widen)
         if check is not None and not check.passed:
-            reasons.append(contour_reason(check, dict(zip(names, theta, strict=True))))
+            reasons.append(contour_reason(check, dict(zip(names, theta, strict=True)),
+                                          free_names))
         sol = f.last
         converged = bool(sol.converged) if sol is not None else False
         if not converged:
