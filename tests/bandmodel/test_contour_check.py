@@ -66,6 +66,18 @@ def test_a_model_that_misses_the_branch_maxima_is_doubtful_with_errors_that_cove
     assert e == pytest.approx(e0 * c.widened["B_e"], rel=0.05)
 
 
+def test_with_b_held_the_reason_gives_t_from_the_separation():
+    x, y, b_true = saturated_co()
+    res = fit(x, y, CO_MOL, resolution=4.0, convolve="absorbance", y_kind="transmittance",
+              fix={"B_e": CO["B_e"], "alpha_e": CO["alpha_e"]})
+    assert not res.contour.passed
+    reason = next(r for r in res.reasons if "branch maxima" in r)
+    assert "gives T ≈" in reason and "gives B" not in reason
+    assert set(res.contour.widened) == {"temperature"}
+    t, e = res.constant("T_rot")
+    assert abs(t - 296.0) < 3 * e, (t, e)
+
+
 @pytest.mark.parametrize("mol, constants, kw", [
     (CO_MOL, CO, dict(resolution=4.0, step=1.0, x_range=(1950.0, 2350.0))),
     (CO_MOL, CO, dict(resolution=0.5, step=0.1, temperature=600.0, x_range=(1950.0, 2350.0),
