@@ -228,3 +228,20 @@ def test_saturated_lines_under_noise_in_transmittance(seed):
     res = fit_spectrum(sp, CO_MOL, max_time=20)
     assert res.status == "ok", res.reasons
     assert_within(res, CO, names=("band_origin", "B_lower"), temperature=296.0)
+
+
+def test_a_four_wavenumber_band_sampled_finely():
+    # CO at 4 cm-1 sampled every 0.02 cm-1 (15,001 points; our simulator, seeded; the
+    # resolution not given). Before: the noise's wiggles were taken for lines 0.16 cm-1 apart
+    # (B started at half its value), each line was deposited 7 instrument σ wide (0.12 s a
+    # deposit), and the fit ran into its time limit (60 s, "doubtful"); after a start from
+    # half the true B, ω_e x_e was held at 2.6 cm-1 (13.3) and biased B by 5 errors.
+    sp = wk.simulate.vibrational(CO_MOL, CO, bands=((1, 0),), x_range=(2000.0, 2300.0),
+                                 step=0.02, temperature=296.0, strength=0.3, resolution=4.0,
+                                 noise=1e-3, seed=2)
+    res = fit_spectrum(sp, CO_MOL, fix={"temperature": 296.0}, max_time=30)
+    assert res.converged and res.status == "ok", res.reasons
+    # the weak modulation of the 3.9 cm-1 comb may be seen; the noise's 0.16 must not be
+    assert res.quick.line_spacing is None or res.quick.line_spacing > 3.0
+    assert_within(res, CO, names=("band_origin", "B_lower"))
+    assert abs(res.value("resolution") - 4.0) < 3 * res.stderr("resolution")

@@ -34,7 +34,15 @@ from ..oscillator import C2
 from ..simulate.linesystem import LineSystem
 from .deposit import thread_work
 from .instrument import SIGMA_PER_FWHM, fwhm_factor
-from .render import LN10, Kernel, auxiliary_tau, deposit_extra, make_grid, render
+from .render import (
+    LN10,
+    Kernel,
+    auxiliary_tau,
+    deposit_extra,
+    fourier_sigma,
+    make_grid,
+    render,
+)
 
 __all__ = ["BandModel"]
 
@@ -68,6 +76,8 @@ class BandModel:
                  domain: str, instrument: str, shape: str, baseline_degree: int | None,
                  theta0: np.ndarray):
         self.x = np.asarray(x, dtype=float)
+        #: the smallest step of the data (the working grid is never coarser)
+        self._step = float(np.min(np.diff(self.x))) if self.x.size > 1 else 0.0
         self.y_kind = y_kind
         self.system = system
         self.names = list(names)
@@ -109,8 +119,11 @@ class BandModel:
     def kernel(self, theta) -> Kernel:
         res = self._get(theta, "resolution")
         tau = auxiliary_tau(self.instrument, res) if self.domain == "absorbance" else self.tau_l
+        fs = fourier_sigma(self.instrument, res, self.smoothing, self._step) \
+            if self.domain == "absorbance" else 0.0
         return Kernel(gamma=max(self._get(theta, "lorentz_hwhm"), 0.0), instrument=self.instrument,
-                      resolution=res, tau=tau, domain=self.domain, smooth=self.smoothing)
+                      resolution=res, tau=tau, domain=self.domain, smooth=self.smoothing,
+                      fourier_sigma=fs)
 
     def _sigma(self, theta, pos) -> np.ndarray:
         if self.shape == "voigt":

@@ -16,6 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import fft as sfft
 from scipy.ndimage import gaussian_filter1d
+from scipy.signal import find_peaks
 
 from ..errors import FitError
 from ..levels.contour import (
@@ -296,6 +297,9 @@ def pr_from_transmittance(xu: np.ndarray, au: np.ndarray, cu: np.ndarray, step: 
 #: a smoothed contour with this many maxima above a quarter of the highest holds resolved
 #: lines, not the two branches
 RESOLVED_MAXIMA = 6
+#: ... maxima that stand this many standard deviations of the smoothed noise above the
+#: higher of their neighbouring minima (scipy's prominence)
+LINE_PROMINENCE = 5.0
 
 
 def _pr_from_uniform(xu: np.ndarray, yu: np.ndarray, step: float, *,
@@ -319,14 +323,17 @@ def _pr_from_uniform(xu: np.ndarray, yu: np.ndarray, step: float, *,
     i_max = edge + int(np.argmax(sm[inner]))
     top = sm[i_max]
     # the noise left after smoothing: σ of the raw data over sqrt(2√π σ_points)
-    noise = point_noise(yu)
-    if top - float(np.median(sm)) < 8.0 * noise / math.sqrt(2.0 * math.sqrt(math.pi) * sig_pts):
+    noise = point_noise(yu) / math.sqrt(2.0 * math.sqrt(math.pi) * sig_pts)
+    if top - float(np.median(sm)) < 8.0 * noise:
         raise FitError("no band found: the contour does not rise above the noise; crop the "
                        "spectrum to the band, or give start values")
     # local maxima that stand out from the dip between them
     peaks = np.flatnonzero((sm[1:-1] > sm[:-2]) & (sm[1:-1] >= sm[2:])) + 1
     peaks = peaks[(sm[peaks] > 0.25 * top) & (peaks >= edge) & (peaks < sm.size - edge)]
-    gap = float(np.median(np.diff(xu[peaks]))) if peaks.size >= RESOLVED_MAXIMA else 0.0
+    # lines, not wiggles of the noise (a smooth 4 cm-1 band sampled every 0.02 cm-1 and
+    # smoothed over 0.06 cm-1 "had" maxima 0.16 cm-1 apart)
+    lines = np.intersect1d(peaks, find_peaks(sm, prominence=LINE_PROMINENCE * noise)[0])
+    gap = float(np.median(np.diff(xu[lines]))) if lines.size >= RESOLVED_MAXIMA else 0.0
     if spacing is None and smoothing < 0.5 * gap:
         # resolved lines whose spacing the periodogram missed (it drifts along a hot band's
         # many J): smoothed to a contour over the spacing of the maxima found (measured on HCl

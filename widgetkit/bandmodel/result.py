@@ -8,7 +8,7 @@ are linear in the fitted parameters θ (the term map is linear), so their standa
 errors are exact propagations sqrt(gᵀ C g) of the parameter covariance C;
 r_e = sqrt(h/(8π²cμB_e)) has σ(r_e) = r_e σ(B_e)/(2B_e). A parameter the fit *held*
 because the data do not determine it contributes its plausible range (the scale of
-:func:`widgetkit.bandmodel.stages.relevance`) to the variance of every constant that
+:func:`widgetkit.bandmodel.secondary.relevance`) to the variance of every constant that
 depends on it directly: ω_e and a minor isotopologue's band origin on a held ω_e x_e, say.
 """
 

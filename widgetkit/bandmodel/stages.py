@@ -26,45 +26,10 @@ from .engine import Fitter
 from .params import PRIMARY
 from .quick import PRSeparation
 from .result import PARAMETER_COLUMNS, BandFit, derived_constants, mark_not_fitted
+from .secondary import IMPLAUSIBLE_SHIFT, PLAUSIBILITY_NAMES, estimate_again, relevance
 from .structure import widen
 
 __all__ = ["Run", "relevance", "IMPLAUSIBLE_SHIFT", "PLAUSIBILITY_NAMES"]
-
-#: a secondary parameter of :data:`PLAUSIBILITY_NAMES` that ends further than this many of its
-#: relevance scales (:func:`relevance`) from its start is held there: its start comes from
-#: the handbook or a physical estimate (Pekeris), and a value that far off is the model's
-#: misfit taken up, not a measurement (measured: CO 1-0 with natural 13CO at 2 cm⁻¹, started
-#: from a line width that ran over the neighbours, gave ω_e x_e = −179 ± 3 cm⁻¹ against 13.3,
-#: with B and T right; that start is mended, :func:`.start._observed_fwhm`)
-IMPLAUSIBLE_SHIFT = 4.0
-#: the parameters judged so (an abundance ratio or a line width may legitimately move far)
-PLAUSIBILITY_NAMES = ("omega_e_x_e", "D", "D_e", "D_upper", "D_lower")
-
-
-def relevance(name: str, value: float, start: float, B: float, step: float) -> float:
-    """The scale above which the standard error of secondary parameter ``name`` means
-    "not determined" (cm⁻¹ or the parameter's unit)."""
-    base = name.split("(")[0]
-    if base in ("D", "D_e", "D_upper", "D_lower"):
-        return max(abs(start), 1e-12)
-    if base == "lorentz_hwhm":
-        return max(abs(value), 0.005)
-    if base == "resolution":
-        return max(abs(value), step)
-    if base == "gauss_fwhm":
-        return max(abs(value), step)
-    if base == "omega_e_x_e":
-        return 0.5 * max(abs(start), 1e-6)
-    if base.startswith("abundance_ratio"):
-        return 0.5 * max(abs(start), 1e-6)
-    if base == "band_origin":
-        return 0.5 * B
-    if base in ("B_upper", "B_lower"):
-        return 0.05 * B
-    if base == "herman_wallis":
-        return 0.05
-    return math.inf
-
 
 # ---------------------------------------------------------------------- the run
 class Run:
@@ -208,8 +173,19 @@ class Run:
                 break
             f.run(stage="refit")
 
+    def _refresh_estimates(self) -> None:
+        """Estimated starts of ω_e x_e and D made again from the fitted constants
+        (:func:`.secondary.estimate_again`)."""
+        th = dict(zip(self.model.names, self.fitter.theta, strict=True))
+        for p in self.params:
+            if p.vary and p.source.startswith("estimated"):
+                new = estimate_again(p.name, th, self.opts.bands[0])
+                if new is not None and new != p.value:
+                    p.value, p.source = new, "estimated (again, from the fitted B)"
+
     def _hold_undetermined(self) -> list[str]:
         f = self.fitter
+        self._refresh_estimates()
         cov, *_ = f.covariance()
         B = self._b_scale()
         step = self.step
