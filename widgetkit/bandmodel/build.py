@@ -39,6 +39,8 @@ class ModelOptions:
     domain: str
     baseline_degree: int | None
     y_kind: str
+    #: the fit's rule for implausible secondary constants (:meth:`.stages.Run._estimate_again`)
+    estimate_again: bool = False
 
 
 class _Selection:

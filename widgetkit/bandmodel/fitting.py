@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import functools
 import math
 import time
@@ -68,7 +69,8 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
         shape: str = "doppler", lorentz_hwhm: float | None = None, convolve: str = "auto",
         start: Mapping | None = None, free=None, kind: str | None = None,
         max_nfev: int = 3000, max_time: float = 60.0, widen_errors: bool = True,
-        check_contour: bool = True, progress: Callable | None = None,
+        check_contour: bool = True, estimate_again: bool = True,
+        progress: Callable | None = None,
         meta: Mapping | None = None) -> BandFit:
     """Fit the spectrum of a diatomic's band (or bands) to the data.
 
@@ -158,6 +160,12 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
         of the parameters the contour determines (B and T; T alone when the lines are
         resolved) are widened by the relative error the mismatch implies (``contour``). A
         session step recorded without this option replays with False, as it was made.
+    estimate_again : bool
+        True (default): an estimated ω_e x_e or D that ends implausibly far from its start
+        is first estimated again (Pekeris, Kratzer) from the fitted B, α_e and band origin
+        and judged, and held, against that; the first estimate comes from the first B, which
+        can be far off. False: against the first estimate, as a session step recorded
+        without this option replays.
     progress : callable, optional
         ``progress(stage, iteration, chisqr, elapsed)``.
     meta : dict, optional
@@ -175,7 +183,8 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
         Bad input (names the argument and value), or no band found in the data.
     """
     t0 = time.perf_counter()
-    for name, flag in (("widen_errors", widen_errors), ("check_contour", check_contour)):
+    for name, flag in (("widen_errors", widen_errors), ("check_contour", check_contour),
+                       ("estimate_again", estimate_again)):
         if not isinstance(flag, bool | np.bool_):
             raise FitError(f"{name} must be True or False, got {flag!r}")
     o = _options(x, y, molecule, band=band, temperature=temperature, resolution=resolution,
@@ -199,7 +208,8 @@ def fit(x, y, molecule, *, band=(1, 0), temperature: float | None = None,
         st, sources, pr = _fallback_starts(x, y, y_kind, user_start, temperature), {}, None
     st = _complete_starts(st, user_start, fix or {}, resolution, lorentz_hwhm, inst, x, pr)
     # every fit starts in the absorbance approximation (cheap, and a good start for the exact one)
-    opts = o["model_options"]("absorbance")
+    opts = dataclasses.replace(o["model_options"]("absorbance"),
+                               estimate_again=bool(estimate_again))
     t_struct = 1.5 * max(st["temperature"], 300.0)
     run = Run(x, y, mol, opts, st, sources, t_struct, user_start, fix or {}, free or [],
                resolution, lorentz_hwhm, max_nfev, max_time, progress, t0)
@@ -335,7 +345,8 @@ def restore_fit(spectrum: Spectrum, molecule, options: Mapping, recorded: Mappin
         raise FitError(f"restore_fit needs a widgetkit Spectrum, got {type(spectrum).__name__}")
     t0 = time.perf_counter()
     opts = {"y_kind": spectrum.y_kind, "meta": spectrum.meta, **dict(options)}
-    for k in ("max_nfev", "max_time", "progress", "widen_errors", "check_contour"):
+    for k in ("max_nfev", "max_time", "progress", "widen_errors", "check_contour",
+              "estimate_again"):
         # the record holds their effect
         opts.pop(k, None)
     keys = ("band", "temperature", "resolution", "instrument", "isotopologues", "fix", "baseline",

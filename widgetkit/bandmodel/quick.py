@@ -29,7 +29,7 @@ from ..levels.contour import (
 __all__ = ["PR_COEFFICIENT", "PR_COEFFICIENT_PRINTED", "PRSeparation", "pr_separation",
            "rotational_constant_from_separation", "temperature_from_separation", "line_spacing",
            "strong_peaks", "quick_estimate_text", "smooth", "point_noise", "contour_like",
-           "pr_from_transmittance"]
+           "pr_from_transmittance", "saturated"]
 
 @dataclass(frozen=True)
 class PRSeparation:
@@ -125,6 +125,19 @@ def _absorbance_like(y: np.ndarray, y_kind: str) -> np.ndarray:
     if y_kind == "transmittance":
         return -np.log10(np.clip(y, 1e-6, None))
     return np.asarray(y, dtype=float)
+
+
+#: transmittance within this many noise standard deviations of zero is saturated
+SATURATED_SIGMAS = 3.0
+
+
+def saturated(y: np.ndarray, y_kind: str) -> bool:
+    """Transmittance data that reach zero within the noise (:data:`SATURATED_SIGMAS`),
+    where the logarithm of noisy values breaks down (:func:`contour_like`)."""
+    if y_kind != "transmittance":
+        return False
+    y = np.asarray(y, dtype=float)
+    return bool(np.min(y) < SATURATED_SIGMAS * point_noise(y))
 
 
 def contour_like(y: np.ndarray, y_kind: str) -> np.ndarray:
@@ -269,7 +282,7 @@ def pr_separation(x, y, *, y_kind: str = "absorbance", smoothing: float | None =
         order = np.argsort(x)
         x, y = x[order], y[order]
     xu, au, step = _uniform(x, _detrend(x, _absorbance_like(y, y_kind)))
-    if y_kind != "transmittance":
+    if not saturated(y, y_kind):
         return _pr_from_uniform(xu, au, step, smoothing=smoothing, resolution=resolution)
     cu = _uniform(x, _detrend(x, contour_like(y, y_kind)))[1]
     return pr_from_transmittance(xu, au, cu, step, smoothing=smoothing, resolution=resolution)
@@ -278,8 +291,9 @@ def pr_separation(x, y, *, y_kind: str = "absorbance", smoothing: float | None =
 def pr_from_transmittance(xu: np.ndarray, au: np.ndarray, cu: np.ndarray, step: float, *,
                           smoothing: float | None = None,
                           resolution: float | None = None) -> PRSeparation:
-    """Transmittance data on a uniform grid: the line spacing and the smoothing from the
-    absorbance ``au`` (its lines stand out best), the maxima from the absorptance ``cu``
+    """Saturated transmittance data (:func:`saturated`) on a uniform grid: the line spacing
+    and the smoothing from the absorbance ``au`` (its lines stand out best), the maxima from
+    the absorptance ``cu``
     (:func:`contour_like`: no spikes from noisy saturated lines); the absorptance alone when
     the absorbance shows no band."""
     try:

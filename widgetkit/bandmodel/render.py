@@ -13,8 +13,8 @@ per column:
    for band-limited instruments (boxcar, triangular) the deconvolution
    exp(+2π²τ²t²) of a common auxiliary width τ put into every deposit
    (s_k² = σ_k² + τ², τ ≤ 0.3/L, so the factor never exceeds e^{1.8} where A(t) ≠ 0).
-   With a Gaussian instrument its σ goes into the deposit instead, up to two data steps
-   of it when it is wider (the rest is applied as its transform, exp(−2π²σ²t²)).
+   With a Gaussian instrument its σ goes into the deposit instead; beyond 8 data steps
+   only two steps of it do (the rest is applied as its transform, exp(−2π²σ²t²)).
 3. **Sample** at the data points: the grid is aligned with a uniform data grid
    (h = Δx/k), otherwise a cubic spline interpolates.
 
@@ -56,7 +56,8 @@ from .deposit import sample as _sample
 from .deposit import scratch as _scratch
 from .instrument import SIGMA_PER_FWHM, transfer, transfer_derivative
 
-__all__ = ["Grid", "make_grid", "render", "MAX_GRID", "fourier_sigma", "GAUSS_DEPOSIT_STEPS"]
+__all__ = ["Grid", "make_grid", "render", "MAX_GRID", "fourier_sigma", "GAUSS_DEPOSIT_STEPS",
+           "GAUSS_SPLIT_STEPS"]
 
 LN10 = math.log(10.0)
 #: largest working grid (points) before the fit refuses and asks for a narrower range
@@ -147,25 +148,35 @@ def deposit_extra(kernel: Kernel) -> float:
         return kernel.tau
     if kernel.instrument == "gaussian":
         total = math.hypot(kernel.resolution * SIGMA_PER_FWHM, kernel.smooth)
+        if not kernel.fourier_sigma > 0:
+            return total  # (to the last bit as before the split existed)
         return math.sqrt(max(total * total - kernel.fourier_sigma ** 2, 0.0))
     return math.hypot(kernel.tau, kernel.smooth)
 
 
-#: a Gaussian instrument wider than this many grid steps (of the data) is split: this
-#: much goes into the deposits (enough to sample them), the rest is applied in Fourier
-#: space. All of it in the deposits made each line's window 7 σ_instrument wide: 4 cm-1 on
-#: data every 0.02 cm-1 took 0.12 s per deposit and a fit ran past its 60 s.
+#: a Gaussian instrument whose σ exceeds this many steps of the data is split: all of it
+#: in the deposits made each line's window 7 σ_instrument wide (4 cm-1 on data every 0.02
+#: cm-1 took 0.12 s per deposit and a fit ran past its 60 s). Below it nothing changes, so
+#: fits of data sampled as usual (2-8 points per resolution) are computed as before
+GAUSS_SPLIT_STEPS = 8.0
+#: ... then this many steps of it go into the deposits (enough to sample them), the rest
+#: is applied in Fourier space
 GAUSS_DEPOSIT_STEPS = 2.0
 
 
 def fourier_sigma(instrument: str, resolution: float, smooth: float, step: float) -> float:
     """σ of a Gaussian instrument (with the extra smoothing) applied in Fourier space, for
-    data every ``step`` cm⁻¹ (the deposits keep GAUSS_DEPOSIT_STEPS steps of it)."""
+    data every ``step`` cm⁻¹: 0 unless the instrument's σ exceeds GAUSS_SPLIT_STEPS steps,
+    else all but GAUSS_DEPOSIT_STEPS steps of it."""
     if instrument != "gaussian" or not step > 0:
         return 0.0
-    total = math.hypot(resolution * SIGMA_PER_FWHM, smooth)
+    if not resolution * SIGMA_PER_FWHM > GAUSS_SPLIT_STEPS * step:
+        # (the instrument alone decides, so that no stage of a fit on data sampled as
+        # usual is computed otherwise than before the split existed: records replay)
+        return 0.0
     keep = GAUSS_DEPOSIT_STEPS * step
-    return math.sqrt(total * total - keep * keep) if total > keep else 0.0
+    total = math.hypot(resolution * SIGMA_PER_FWHM, smooth)
+    return math.sqrt(total * total - keep * keep)
 
 
 def auxiliary_tau(instrument: str, resolution: float) -> float:

@@ -173,33 +173,48 @@ class Run:
                 break
             f.run(stage="refit")
 
-    def _refresh_estimates(self) -> None:
-        """Estimated starts of ω_e x_e and D made again from the fitted constants
-        (:func:`.secondary.estimate_again`)."""
+    def _verdict(self, k: int, p, se: float, B: float) -> tuple[bool, bool, bool, float]:
+        """(hold, at a bound, implausibly moved, relevance scale) of secondary parameter k."""
+        f = self.fitter
+        scale = relevance(p.name, f.theta[k], p.value, B, self.step)
+        at_bound = f.theta[k] <= p.lower + 1e-12 or f.theta[k] >= p.upper - 1e-12
+        moved = (p.name.split("(")[0] in PLAUSIBILITY_NAMES
+                 and abs(f.theta[k] - p.value) > IMPLAUSIBLE_SHIFT * scale)
+        hold = (se > scale or not np.isfinite(se) or (at_bound and p.name != "lorentz_hwhm")
+                or moved)
+        return hold, at_bound, moved, scale
+
+    def _estimate_again(self, k: int, p, se: float, B: float):
+        """Before an estimated ω_e x_e or D is held as implausible, its estimate is made
+        again from the fitted constants (:func:`.secondary.estimate_again`) and the verdict
+        taken again: the first estimate came from the first B, which can be far off (only
+        then does the start change, so other fits are computed as before)."""
+        if not p.source.startswith("estimated"):
+            return self._verdict(k, p, se, B)
         th = dict(zip(self.model.names, self.fitter.theta, strict=True))
-        for p in self.params:
-            if p.vary and p.source.startswith("estimated"):
-                new = estimate_again(p.name, th, self.opts.bands[0])
-                if new is not None and new != p.value:
-                    p.value, p.source = new, "estimated (again, from the fitted B)"
+        new = estimate_again(p.name, th, self.opts.bands[0])
+        if new is None or new == p.value:
+            return self._verdict(k, p, se, B)
+        old = p.value, p.source
+        p.value, p.source = new, "estimated (again, from the fitted B)"
+        out = self._verdict(k, p, se, B)
+        if out[0] and not out[2] and out[1]:
+            p.value, p.source = old  # held at a bound either way: keep the first estimate
+        return out
 
     def _hold_undetermined(self) -> list[str]:
         f = self.fitter
-        self._refresh_estimates()
         cov, *_ = f.covariance()
         B = self._b_scale()
-        step = self.step
         newly = []
         for k, p in enumerate(self.params):
             if not (p.vary and p.secondary) or p.name.startswith("baseline_"):
                 continue
             se = math.sqrt(max(cov[k, k], 0.0))
-            scale = relevance(p.name, f.theta[k], p.value, B, step)
-            at_bound = f.theta[k] <= p.lower + 1e-12 or f.theta[k] >= p.upper - 1e-12
-            moved = (p.name.split("(")[0] in PLAUSIBILITY_NAMES
-                     and abs(f.theta[k] - p.value) > IMPLAUSIBLE_SHIFT * scale)
-            if (se > scale or not np.isfinite(se) or (at_bound and p.name != "lorentz_hwhm")
-                    or moved):
+            hold, at_bound, moved, scale = self._verdict(k, p, se, B)
+            if moved and self.opts.estimate_again:
+                hold, at_bound, moved, scale = self._estimate_again(k, p, se, B)
+            if hold:
                 start, went = p.value, float(f.theta[k])
                 p.vary = False
                 f.theta[k] = start
@@ -235,7 +250,6 @@ class Run:
         cov, r, chi2, scale, idx = f.covariance()
         theta = f.theta
         names = model.names
-        comp = model.components(theta)
         if widen:
             cov, factors = self._widened(cov, r, scale, idx)
             error_scale = max((h for n, h in factors.items() if not n.startswith("baseline_")),
@@ -243,6 +257,8 @@ class Run:
             structured = bool(factors)
         else:
             factors, error_scale, structured = {}, float(scale), bool(scale > 1.0)
+        # (after the widening: its Jacobian is computed as before this check existed)
+        comp = model.components(theta)
         check = check_contour(self.x, self.y, comp["model"], comp["baseline"], self.opts.y_kind,
                               pr, self._b_scale()) if contour else None
         if check is not None:

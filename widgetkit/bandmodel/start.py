@@ -35,6 +35,7 @@ from .quick import (
     baseline_line,
     contour_like,
     pr_from_transmittance,
+    saturated,
     strong_peaks,
 )
 
@@ -165,7 +166,7 @@ def estimate_starts(x, y, *, y_kind: str, band, temperature: float | None,
     src: dict[str, str] = {}
     # pr_separation(x, y, ...) on the grid made above
     try:
-        if y_kind == "transmittance":
+        if saturated(y, y_kind):
             cu = _uniform(x, _detrend(x, contour_like(y, y_kind)))[1]
             pr = pr_from_transmittance(xu, au, cu, step, resolution=resolution)
         else:

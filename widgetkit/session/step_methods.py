@@ -179,9 +179,11 @@ class StepMethods:
         constants join :attr:`constants` with ``method`` "band model". A fit that cannot
         be set up raises :class:`~widgetkit.errors.FitError` and changes nothing; a fit
         that stops early is kept and marked "doubtful". ``widen_errors=True`` (default)
-        widens the standard errors for a structured residual and ``check_contour=True``
-        (default) compares the model's P and R branch maxima with the data's; both are
-        recorded (a step recorded without them replays with ``False``, as it was made).
+        widens the standard errors for a structured residual, ``check_contour=True``
+        (default) compares the model's P and R branch maxima with the data's, and
+        ``estimate_again=True`` (default) judges implausible estimated constants against
+        estimates from the fitted B; all are recorded (a step recorded without them replays
+        with ``False``, as it was made).
 
         Returns the :class:`~widgetkit.bandmodel.BandFit` (also :attr:`band_model`).
         """
@@ -189,7 +191,8 @@ class StepMethods:
 
         if hasattr(molecule, "to_dict"):
             molecule = molecule.to_dict()
-        params = {"molecule": molecule, "widen_errors": True, "check_contour": True, **options}
+        params = {"molecule": molecule, "widen_errors": True, "check_contour": True,
+                  "estimate_again": True, **options}
         if params.get("band") is not None:
             params["band"] = plain_bands(params["band"])
         with progress_to(progress):
