@@ -245,3 +245,19 @@ def test_a_four_wavenumber_band_sampled_finely():
     assert res.quick.line_spacing is None or res.quick.line_spacing > 3.0
     assert_within(res, CO, names=("band_origin", "B_lower"))
     assert abs(res.value("resolution") - 4.0) < 3 * res.stderr("resolution")
+
+
+def test_a_second_look_scans_the_resolution_first():
+    # CO 1-0 at 4 cm-1 and 600 K every 0.05 cm-1, transmittance (our simulator, seed from a
+    # sweep), T fixed, the resolution not given: the coarse stages ran at the first guess of
+    # the resolution, the fit ended with omega_e x_e held as implausible and B 5.9 standard
+    # errors off; fitted again with the resolution scanned first, B is right
+    sp = wk.simulate.vibrational(CO_MOL, CO, bands=((1, 0),), x_range=(2000.0, 2300.0),
+                                 step=0.05, temperature=600.0, strength=1.0, resolution=4.0,
+                                 noise=0.001, seed=224126, y_kind="transmittance")
+    res = fit_spectrum(sp, CO_MOL, fix={"temperature": 600.0})
+    assert any(m.startswith("looked again") for m in res.messages), res.messages
+    assert_within(res, CO, names=("band_origin", "B_lower"))
+    first = fit_spectrum(sp, CO_MOL, fix={"temperature": 600.0}, second_look=False)
+    b, e = first.constant("B_lower")
+    assert abs(b - truth(CO)["B_lower"]) > 3 * e  # the first look alone misses

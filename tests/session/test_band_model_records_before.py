@@ -3,7 +3,7 @@
 The files (tests/data/sessions/README.md; our simulator's bands, self-consistency) were
 written by the code of commit 4a2c48a, before three changes to the band model: the P–R check
 (``check_contour``), the second estimates of implausible secondary constants
-(``estimate_again``) and the Fourier-space share of a Gaussian instrument wider than eight
+(``second_look``) and the Fourier-space share of a Gaussian instrument wider than eight
 data steps. A record without the two options replays with them off, and data sampled as these
 are (2–4 points per resolution) are computed as before, so every step verifies to the step
 kind's tolerance; one of them held ω_e x_e as implausible, where the second estimate would
@@ -25,7 +25,7 @@ def test_a_band_model_record_from_before_the_new_options_verifies(name):
     s = wk.Session.load(DATA / name)
     steps = [st for st in s.history if st.kind == "fit_band_model"]
     assert len(steps) >= 2
-    assert all("check_contour" not in st.params and "estimate_again" not in st.params
+    assert all("check_contour" not in st.params and "second_look" not in st.params
                for st in steps)
     report = s.verify()
     assert report.ok, report.mismatches
@@ -40,7 +40,7 @@ def test_the_implausible_hold_of_the_older_record_is_replayed_as_it_was_made():
     recorded = {r["name"]: r["value"] for r in _rows(step.result["parameters"])}
     again = wk.bandmodel.fit_spectrum(s.state_at(0).spectrum, "CO",
                                       **{k: v for k, v in step.params.items() if k != "molecule"},
-                                      estimate_again=True)
+                                      second_look=True)
     assert abs(again.value("omega_e_x_e") - recorded["omega_e_x_e"]) > 0.5
 
 

@@ -22,7 +22,7 @@ bands, Q branches, spin statistics) plugs in by building its own line system and
 map; :class:`~.model.BandModel` and the fit take it unchanged.
 """
 
-from .fitting import fit, fit_spectrum, restore_fit
+from .fitting import fit, fit_spectrum
 from .instrument import INSTRUMENTS, profile
 from .quick import (
     PR_COEFFICIENT,
@@ -32,6 +32,7 @@ from .quick import (
     rotational_constant_from_separation,
     temperature_from_separation,
 )
+from .restore import restore_fit
 from .result import BandFit
 
 __all__ = ["fit", "fit_spectrum", "restore_fit", "BandFit", "INSTRUMENTS", "profile", "PR_COEFFICIENT",

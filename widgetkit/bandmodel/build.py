@@ -40,7 +40,7 @@ class ModelOptions:
     baseline_degree: int | None
     y_kind: str
     #: the fit's rule for implausible secondary constants (:meth:`.stages.Run._estimate_again`)
-    estimate_again: bool = False
+    second_look: bool = False
 
 
 class _Selection:

@@ -26,7 +26,7 @@ from .engine import Fitter
 from .params import PRIMARY
 from .quick import PRSeparation
 from .result import PARAMETER_COLUMNS, BandFit, derived_constants, mark_not_fitted
-from .secondary import IMPLAUSIBLE_SHIFT, PLAUSIBILITY_NAMES, estimate_again, relevance
+from .secondary import IMPLAUSIBLE_SHIFT, PLAUSIBILITY_NAMES, hold_undetermined, relevance
 from .structure import widen
 
 __all__ = ["Run", "relevance", "IMPLAUSIBLE_SHIFT", "PLAUSIBILITY_NAMES"]
@@ -54,6 +54,7 @@ class Run:
                 if n in theta and self.params[k].vary:
                     self.fitter.theta[k] = theta[n]
         self.held: dict[str, str] = {}
+        self.scanned_late = False
 
     def _configure(self) -> None:
         names = [p.name for p in self.params]
@@ -110,23 +111,40 @@ class Run:
         return new
 
     # -------------------------------------------------------------- stages
-    def stages(self) -> None:
+    def stages(self, scan_first: bool = False) -> None:
+        """The staged fit: linear parameters, the coarse-to-fine stages of resolved lines
+        without indexed starts, the scan of a resolution not given (after the coarse stages,
+        or before them with ``scan_first``), the final stage."""
         f = self.fitter
         linear = [p.name for p in self.params if p.vary and
                   (p.name == "band_area" or p.name.startswith("baseline_"))]
         if linear:
             f.run(linear, stage="linear", max_nfev=10)
-        if not self.st.get("indexed", True) and self.st.get("spacing"):
-            self._coarse_to_fine(float(self.st["spacing"]))
+        coarse = not self.st.get("indexed", True) and self.st.get("spacing")
         res = self.params[f.index("resolution")]
-        if res.vary and res.source == "scanned":
-            B = self.st["B_lower"]
-            step = self.step
-            cands = np.geomspace(max(2 * step, 0.02 * B), max(8 * B, 4 * step), 9)
-            best = f.scan("resolution", cands, linear)
-            res.value = best
-            self.messages.append(f"resolution not given: scanned, best start {best:.3g} cm-1")
+        scan = res.vary and res.source == "scanned"
+        if scan and scan_first:
+            self._scan_resolution(linear)
+        if coarse:
+            self._coarse_to_fine(float(self.st["spacing"]))
+        if scan and not scan_first:
+            self._scan_resolution(linear)
+        #: a second look (:func:`.fitting.fit`) may scan the resolution first instead
+        self.scanned_late = bool(scan and coarse and not scan_first)
         self.final_stage()
+
+    def _scan_resolution(self, linear: list[str]) -> None:
+        f = self.fitter
+        res = self.params[f.index("resolution")]
+        B, step = self.st["B_lower"], self.step
+        cands = np.geomspace(max(2 * step, 0.02 * B), max(8 * B, 4 * step), 9)
+        best = f.scan("resolution", cands, linear)
+        res.value = best
+        self.messages.append(f"resolution not given: scanned, best start {best:.3g} cm-1")
+
+    def held_implausible(self) -> bool:
+        """Whether a secondary constant was held as implausible (the model's misfit)."""
+        return any(why.startswith("implausible") for why in self.held.values())
 
     def _coarse_to_fine(self, spacing: float) -> None:
         """Resolved lines without indexed start values: fit the contour smoothed (data and
@@ -173,66 +191,8 @@ class Run:
                 break
             f.run(stage="refit")
 
-    def _verdict(self, k: int, p, se: float, B: float) -> tuple[bool, bool, bool, float]:
-        """(hold, at a bound, implausibly moved, relevance scale) of secondary parameter k."""
-        f = self.fitter
-        scale = relevance(p.name, f.theta[k], p.value, B, self.step)
-        at_bound = f.theta[k] <= p.lower + 1e-12 or f.theta[k] >= p.upper - 1e-12
-        moved = (p.name.split("(")[0] in PLAUSIBILITY_NAMES
-                 and abs(f.theta[k] - p.value) > IMPLAUSIBLE_SHIFT * scale)
-        hold = (se > scale or not np.isfinite(se) or (at_bound and p.name != "lorentz_hwhm")
-                or moved)
-        return hold, at_bound, moved, scale
-
-    def _estimate_again(self, k: int, p, se: float, B: float):
-        """Before an estimated ω_e x_e or D is held as implausible, its estimate is made
-        again from the fitted constants (:func:`.secondary.estimate_again`) and the verdict
-        taken again: the first estimate came from the first B, which can be far off (only
-        then does the start change, so other fits are computed as before)."""
-        if not p.source.startswith("estimated"):
-            return self._verdict(k, p, se, B)
-        th = dict(zip(self.model.names, self.fitter.theta, strict=True))
-        new = estimate_again(p.name, th, self.opts.bands[0])
-        if new is None or new == p.value:
-            return self._verdict(k, p, se, B)
-        old = p.value, p.source
-        p.value, p.source = new, "estimated (again, from the fitted B)"
-        out = self._verdict(k, p, se, B)
-        if out[0] and not out[2] and out[1]:
-            p.value, p.source = old  # held at a bound either way: keep the first estimate
-        return out
-
     def _hold_undetermined(self) -> list[str]:
-        f = self.fitter
-        cov, *_ = f.covariance()
-        B = self._b_scale()
-        newly = []
-        for k, p in enumerate(self.params):
-            if not (p.vary and p.secondary) or p.name.startswith("baseline_"):
-                continue
-            se = math.sqrt(max(cov[k, k], 0.0))
-            hold, at_bound, moved, scale = self._verdict(k, p, se, B)
-            if moved and self.opts.estimate_again:
-                hold, at_bound, moved, scale = self._estimate_again(k, p, se, B)
-            if hold:
-                start, went = p.value, float(f.theta[k])
-                p.vary = False
-                f.theta[k] = start
-                why = ("at its bound" if at_bound else
-                       f"implausible: it went to {went:.4g} from {start:.4g}, further than "
-                       f"{IMPLAUSIBLE_SHIFT:g} x {scale:.2g}" if moved else
-                       f"not determined by the data (standard error {se:.2g} > {scale:.2g})")
-                self.held[p.name] = why
-                p.note = f"held at its start value {start:.6g}: {why}"
-                newly.append(p.name)
-            elif p.name == "lorentz_hwhm" and at_bound:
-                p.vary = False
-                self.held[p.name] = "at zero"
-                p.note = "held at 0: the lines show no Lorentzian width"
-                newly.append(p.name)
-        if newly:
-            self.messages.append("held " + ", ".join(f"{n} ({self.held[n]})" for n in newly))
-        return newly
+        return hold_undetermined(self)
 
     def _b_scale(self) -> float:
         th = dict(zip(self.model.names, self.fitter.theta, strict=True))

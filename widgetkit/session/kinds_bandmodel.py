@@ -122,7 +122,7 @@ class FitBandModel(StepKind):
         Param("check_contour", "boolean", False,
               doc="compare the model's P-R branch maxima with the data's (absent in a record: "
                   "off, as then; Session.fit_band_model turns it on)"),
-        Param("estimate_again", "boolean", False,
+        Param("second_look", "boolean", False,
               doc="implausible estimated constants judged against estimates from the fitted "
                   "B (absent in a record: off, as then; Session.fit_band_model turns it on)"),
     )
@@ -136,7 +136,7 @@ class FitBandModel(StepKind):
         # the function's default is on; a record without the key was made before it existed
         opts["widen_errors"] = bool(opts.get("widen_errors", False))
         opts["check_contour"] = bool(opts.get("check_contour", False))
-        opts["estimate_again"] = bool(opts.get("estimate_again", False))
+        opts["second_look"] = bool(opts.get("second_look", False))
         fit = bandmodel.fit_spectrum(sp, molecule, progress=_PROGRESS.get(), **opts)
         summary = (f"band model of {' '.join(molecule.atoms)}: {fit.status}, "
                    f"{plural(int((fit.parameters['status'] == 'free').sum()), 'parameter')} fitted, "

@@ -181,8 +181,8 @@ class StepMethods:
         that stops early is kept and marked "doubtful". ``widen_errors=True`` (default)
         widens the standard errors for a structured residual, ``check_contour=True``
         (default) compares the model's P and R branch maxima with the data's, and
-        ``estimate_again=True`` (default) judges implausible estimated constants against
-        estimates from the fitted B; all are recorded (a step recorded without them replays
+        ``second_look=True`` (default) looks again at fits that end with an implausible
+        constant (see :func:`widgetkit.bandmodel.fit`); all are recorded (a step recorded without them replays
         with ``False``, as it was made).
 
         Returns the :class:`~widgetkit.bandmodel.BandFit` (also :attr:`band_model`).
@@ -192,7 +192,7 @@ class StepMethods:
         if hasattr(molecule, "to_dict"):
             molecule = molecule.to_dict()
         params = {"molecule": molecule, "widen_errors": True, "check_contour": True,
-                  "estimate_again": True, **options}
+                  "second_look": True, **options}
         if params.get("band") is not None:
             params["band"] = plain_bands(params["band"])
         with progress_to(progress):
