@@ -171,8 +171,10 @@ def _offset_search(xf: np.ndarray, probe: Model, W: float, tol: float):
     return float(deltas[k]), int(counts[k]), jls[k]
 
 
-def _one(data: Lines, st: State, iso, pool: np.ndarray, opts: dict, rounds: int):
-    """The hot band of one isotopologue among the lines ``pool``: (HotBand or None, message)."""
+def _one(data: Lines, st: State, iso, pool: np.ndarray, near: np.ndarray, opts: dict,
+         rounds: int):
+    """The hot band of one isotopologue among the lines ``pool``: (HotBand or None, message);
+    ``near`` marks those that may hold a line of the band (blends, left out of its fits)."""
     band = opts["band"]
     hot = (band[0] + 1, band[1] + 1)
     name = f"hot band {band_label(*hot)} of {iso.name}"
@@ -180,7 +182,8 @@ def _one(data: Lines, st: State, iso, pool: np.ndarray, opts: dict, rounds: int)
     vals, shift, source = _predicted(mdl, iso, band)
     where = f"predicted origin {vals['band_origin']:.2f} cm-1 ({shift:+.2f} cm-1 from the band; {source})"
     if len(pool) < MIN_HOT_LINES:
-        return None, f"no {name}: only {len(pool)} lines are left ({where})"
+        left = f"{len(pool)} {'line is' if len(pool) == 1 else 'lines are'}"
+        return None, f"no {name}: only {left} left ({where})"
     spacing = vals["B_upper"] + vals["B_lower"]
     xf = np.sort(data.x[pool])
     sig = (float(np.median(data.sigma[pool])) * mdl.scatter if data.sigma is not None
@@ -192,13 +195,14 @@ def _one(data: Lines, st: State, iso, pool: np.ndarray, opts: dict, rounds: int)
                   mdl.jmax)
     d, count, jl = _offset_search(xf, probe, W, tol)
     if count < MIN_HOT_LINES:
-        return None, (f"no {name} found: at most {count} of the {len(pool)} lines left lie on it "
+        return None, (f"no {name} found: at most {count} of the {len(pool)} lines left "
+                      f"{'lies' if count == 1 else 'lie'} on it "
                       f"({where}); they stay unassigned")
     start = Model(dict(vals, band_origin=vals["band_origin"] + d), np.zeros((5, 5)), "scaled",
                   mdl.scatter, tol / 2, None, "scaled", int(jl.max()) + 3)
     sub = subset(data, pool)
     try:
-        hs = _label(sub, start, iso.name, mdl, opts, rounds)
+        hs = _label(sub, start, iso.name, mdl, opts, rounds, near)
     except AssignmentError as exc:
         return None, f"no {name}: its lines could not be fitted ({exc}); they stay unassigned"
     fit = hs.models.get(iso.name)
@@ -233,23 +237,27 @@ def _one(data: Lines, st: State, iso, pool: np.ndarray, opts: dict, rounds: int)
 
 
 def _label(sub: Lines, start: Model, name: str, band_model: Model, opts: dict,
-           rounds: int) -> State:
+           rounds: int, near: np.ndarray) -> State:
     """Predict -> match -> refit rounds of the hot band on the lines ``sub``, with its lower
     level held at the band's upper level (B″ = B′, D″ = D′ of the band: one level, known from
-    the strong band) so that a stray line cannot bend it; then its own free fit
-    (:func:`._rovib_core.fit_model`, all five constants, outliers flagged)."""
+    the strong band) and D′ = D″, so that a stray line cannot bend it (only ν0 and B′ are
+    fitted); then its own free fit (:func:`._rovib_core.fit_model`, all five constants,
+    outliers flagged). Lines ``near`` a prediction of the band are blends, left out of both."""
     frac = opts["match_fraction"]
     model, prev, st = start, None, None
     Bl, Dl = band_model.values["B_upper"], band_model.values["D_upper"]
     for r in range(1, max(1, rounds) + 1):
         st = match(sub, {}, {name: model}, frac, name)
+        both = near & (st.iso == name)
+        st.blended |= both
+        st.blend_with[both & (st.blend_with == None)] = "a line of the band"  # noqa: E711
         sel = np.nonzero((st.iso == name) & ~st.blended)[0]
-        vals, cov3, out, scatter = _fit_lower_held(st.Ju[sel], st.Jl[sel], sub.x[sel],
+        vals, cov2, out, scatter = _fit_lower_held(st.Ju[sel], st.Jl[sel], sub.x[sel],
                                                    None if sub.sigma is None else sub.sigma[sel],
                                                    Bl, Dl, opts["outlier_sigma"])
         st.outlier[sel] = out
         cov5 = np.zeros((5, 5))
-        cov5[np.ix_([0, 1, 3], [0, 1, 3])] = cov3
+        cov5[:2, :2] = cov2
         jmax = int(max(st.Jl[sel].max(initial=0), st.Ju[sel].max(initial=0))) + 3
         model = Model(vals, cov5, "held", scatter, 0.0, None, "held", jmax)
         model.intensity = _intensity_model(sub, st, sel[~out], model)
@@ -269,13 +277,13 @@ def _label(sub: Lines, start: Model, name: str, band_model: Model, opts: dict,
 
 
 def _fit_lower_held(Ju, Jl, y, sigma, Bl: float, Dl: float, outlier_sigma: float):
-    """ν0, B′, D′ with B″, D″ held: weighted least squares with outliers left out one at a time
-    (|obs − calc| > outlier_sigma × the robust scatter); (values, covariance of (ν0, B′, D′),
-    outlier mask, scatter factor)."""
+    """ν0 and B′ with B″ and D″ held, and D′ = D″ (D changes little with v): weighted least
+    squares with outliers left out one at a time (|obs − calc| > outlier_sigma × the robust
+    scatter); (values, covariance of (ν0, B′), outlier mask, scatter factor)."""
     xl = Jl * (Jl + 1.0)
     xu = Ju * (Ju + 1.0)
-    d = y + Bl * xl - Dl * xl**2
-    A = np.column_stack([np.ones(len(y)), xu, -(xu**2)])
+    d = y + Bl * xl - Dl * xl**2 + Dl * xu**2
+    A = np.column_stack([np.ones(len(y)), xu])
     out = np.zeros(len(y), dtype=bool)
     for _ in range(max(12, len(y))):
         use = ~out
@@ -294,7 +302,7 @@ def _fit_lower_held(Ju, Jl, y, sigma, Bl: float, Dl: float, outlier_sigma: float
             break
         out = new
     vals = {"band_origin": float(f.beta[0]), "B_upper": float(f.beta[1]), "B_lower": float(Bl),
-            "D_upper": float(f.beta[2]), "D_lower": float(Dl)}
+            "D_upper": float(Dl), "D_lower": float(Dl)}
     return vals, f.cov, out, s
 
 
@@ -320,26 +328,49 @@ def _b_disagreement(fit: Model, band_model: Model, fraction: float = 0.0) -> str
             "band, the same level")
 
 
+def _on_the_band(data: Lines, st: State, *, widths: bool = False) -> np.ndarray:
+    """Lines within 4 σ (σ² = σ_obs² + σ_calc²) of a prediction of a fitted sub-band of the band,
+    or, with ``widths``, within half their FWHM if that is more: lines of the band left
+    unmatched (a weak line of an abundant isotopologue is ten times stronger than a hot line
+    and must not be taken for one), or, with ``widths``, lines that may hold one."""
+    on = np.zeros(data.n, dtype=bool)
+    s0 = data.sigma if data.sigma is not None else np.ones(data.n)
+    half = np.zeros(data.n)
+    if widths and data.fwhm is not None:
+        half = np.where(np.isfinite(data.fwhm), 0.5 * data.fwhm, 0.0)
+    for mdl in st.models.values():
+        if mdl.kind != "fit":
+            continue
+        J = np.arange(0, mdl.jmax + 1)
+        c, e = mdl.predict(np.r_[J + 1, J[1:] - 1], np.r_[J, J[1:]])
+        order = np.argsort(c)
+        c, e = c[order], e[order]
+        k = np.searchsorted(c, data.x)
+        for j in (k - 1, k):
+            j = np.clip(j, 0, len(c) - 1)
+            on |= np.abs(data.x - c[j]) <= np.maximum(4 * np.hypot(s0 * mdl.scatter, e[j]), half)
+    return on
+
+
 def find_hot_bands(data: Lines, st: State, locks: dict, opts: dict, *,
                    max_rounds: int = 20) -> tuple[list[HotBand], list[str]]:
     """Hot bands of the isotopologues whose band was fitted (module docstring), most abundant
-    first, each among the lines left unassigned, unfitted by the sub-bands of other
-    isotopologues or outliers of the most abundant one's (such a line joins a hot band only
-    when it fits it well), not locked and not taken by a hot band found before."""
+    first, each among the lines left unassigned or outliers of the sub-bands of the band (such
+    a line joins a hot band only when it fits it well), not locked and not taken by a hot band
+    found before."""
     molecule = opts["molecule"]
     found, msgs = [], []
     taken = np.array([i in locks for i in range(data.n)], dtype=bool)
-    # the lines left: unassigned ones, those the sub-bands of other isotopologues could not
-    # fit, and the outliers of the sub-band of the most abundant one (a hot line near one of
-    # its lines may have been matched to it)
-    free = ((st.iso == None) | ((st.iso != st.seed_iso) & (st.outlier | st.blended))  # noqa: E711
-            | ((st.iso == st.seed_iso) & st.outlier))
+    # the lines left: unassigned ones and the outliers of the sub-bands (a hot line near one of
+    # their lines may have been matched to it)
+    free = ((st.iso == None) | st.outlier) & ~(_on_the_band(data, st) & ~st.outlier)  # noqa: E711
+    near = _on_the_band(data, st, widths=True)
     for iso in sorted(molecule.isotopologues, key=lambda i: -i.abundance):
         mdl = st.models.get(iso.name)
         if mdl is None or mdl.kind != "fit":
             continue
         pool = np.nonzero(free & ~taken)[0]
-        hb, msg = _one(data, st, iso, pool, opts, max_rounds)
+        hb, msg = _one(data, st, iso, pool, near[pool], opts, max_rounds)
         msgs.append(msg)
         if hb is not None:
             found.append(hb)

@@ -198,6 +198,12 @@ def locate_isotopologue(data: Lines, st: State, seed: Model, seed_mu: float, iso
         return None, (f"no sub-band of {iso.name} found: at most {best} lines near the prediction "
                       f"scaled from {st.seed_iso} (origin {vals['band_origin']:.2f} cm-1)")
     top = deltas[counts == best]
+    if best >= 5 and np.ptp(top) > 2 * tol and opts.get("hot_bands"):
+        # lines of a hot band may lie where the sub-band is sought: it is left out now (the
+        # band is refined again without the hot band's lines, :mod:`._rovib_hot`)
+        return None, (f"the sub-band of {iso.name} fits {best} lines at offsets "
+                      f"{top.min():+.3f} and {top.max():+.3f} cm-1 from its mass-scaled "
+                      "prediction (lines of a hot band may lie there): left unassigned")
     if best >= 5 and np.ptp(top) > 2 * tol:
         st.ambiguous.append(
             f"ambiguous isotopologue split: the sub-band of {iso.name} fits {best} lines at offsets "

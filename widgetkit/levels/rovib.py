@@ -67,6 +67,7 @@ import pandas as pd
 from ..errors import AssignmentError
 from ._rovib_core import prepare_lines
 from ._rovib_hot import expand, find_hot_bands, restrict, subset
+from ._rovib_hot_blends import mark_cross_blends
 from ._rovib_locks import _problems, parse_locks, solve, solve_again
 from ._rovib_report import analyse, refuse_unresolved_lines
 from .joint import JointSummary
@@ -282,38 +283,93 @@ def assign_rovibrational(
                 resolution=None if resolution is None else float(resolution),
                 joint=bool(joint), exclude_hidden=bool(exclude_hidden), hot_bands=bool(hot_bands))
     refuse_unresolved_lines(data, None, opts)
-    final = solve(data, lk, opts, seed_fraction=seed_fraction, max_rounds=max_rounds,
-                  min_rounds=min_rounds)
+    run = dict(seed_fraction=seed_fraction, max_rounds=max_rounds, min_rounds=min_rounds)
     hot: list = []
     if opts["hot_bands"]:
-        final, hot = _with_hot_bands(data, lk, final, opts, seed_fraction=seed_fraction,
-                                     max_rounds=max_rounds, min_rounds=min_rounds)
+        final, hot = _with_hot_bands(data, lk, opts, **run)
+        if hot:
+            final.messages = list(final.messages) + mark_cross_blends(data, lk, final, hot, opts)
+    else:
+        final = solve(data, lk, opts, **run)
     refuse_unresolved_lines(data, final, opts)
     return analyse(data, lk, final, opts, BandAssignment, hot=hot)
 
 
-def _with_hot_bands(data, locks: dict, st, opts: dict, *, seed_fraction: float, max_rounds: int,
-                    min_rounds: int):
-    """The hot bands beside the band (:mod:`._rovib_hot`), and the band assigned again without
-    their lines (a hot line may have been taken for a line of a weak isotopologue)."""
-    hot, msgs = find_hot_bands(data, st, locks, opts, max_rounds=max_rounds)
+def _with_hot_bands(data, locks: dict, opts: dict, **run):
+    """The band and the hot bands beside it (:mod:`._rovib_hot`).
+
+    A hot band of the most abundant isotopologue can be far stronger than the sub-band of a
+    rare one (at 1500 K the hot band of CO is a quarter of the band, 13C-16O a hundredth), and
+    the offset search for that sub-band then lands on hot lines. So the band of the most
+    abundant isotopologue is assigned first on its own, its hot band sought, and the band with
+    all isotopologues refined from that numbering on the lines the hot band leaves; the hot
+    bands are then sought again beside it. This is done when the other isotopologues are all
+    rarer than a tenth of it (a more abundant one, as 37Cl beside 35Cl, is found before the hot
+    band). Otherwise, or without a hot band there, or with locks on another isotopologue's
+    lines, the band is assigned as without hot bands and its hot bands are sought beside it,
+    the band refined again without their lines."""
+    st = _main_first(data, locks, opts, **run)
+    if st is not None:
+        hot, msgs = find_hot_bands(data, st, locks, opts, max_rounds=run["max_rounds"])
+        if any(hb.iso == opts["molecule"].main.name for hb in hot):
+            st.messages = list(st.messages) + msgs
+            return st, hot
+    st = solve(data, locks, opts, **run)
+    hot, msgs = find_hot_bands(data, st, locks, opts, max_rounds=run["max_rounds"])
     if hot:
-        mine = np.zeros(data.n, dtype=bool)
-        for hb in hot:
-            mine[hb.idx] = True
-        keep = np.nonzero(~mine)[0]
-        where = {int(i): k for k, i in enumerate(keep)}
-        sub_locks = {where[i]: v for i, v in locks.items() if i in where}
-        sub = subset(data, keep)
-        try:
-            again = solve_again(sub, sub_locks, restrict(st, keep), opts, max_rounds=max_rounds,
-                                min_rounds=min_rounds)
-        except AssignmentError:
-            again = None  # the first assignment stands, with the hot bands found beside it
-        if again is not None and not _problems(again, opts["molecule"], opts["band"]):
-            st = expand(again, keep, data.n)
+        again = _without(data, locks, st, hot, opts, **run)
+        if again is not None:
+            st = again
             # the lines the weak sub-bands give up go back to the hot bands
-            hot, msgs = find_hot_bands(data, st, locks, opts, max_rounds=max_rounds)
+            hot, msgs = find_hot_bands(data, st, locks, opts, max_rounds=run["max_rounds"])
     st.messages = list(st.messages) + msgs
     return st, hot
 
+
+#: isotopologues rarer than this fraction of the most abundant one are sought after its hot band
+_RARE = 0.1
+
+
+def _main_first(data, locks: dict, opts: dict, **run):
+    """The band refined with all isotopologues on the lines the hot band of the most abundant
+    one leaves, that band and its hot band found first on their own; None when there is no such
+    hot band, no other isotopologue, one a tenth as abundant or more, or locks on another's
+    lines."""
+    molecule = opts["molecule"]
+    main = molecule.main
+    others = [i for i in molecule.isotopologues if i.name != main.name]
+    # an isotopologue a tenth as abundant or more has a sub-band stronger than most hot bands,
+    # found before them (and, left out of the first pass, its lines would be taken for hot ones)
+    if not others or any(i.abundance >= _RARE * main.abundance for i in others) \
+            or any(v[0] not in (None, main.name) for v in locks.values()):
+        return None
+    one = dict(opts, molecule=Diatomic(main.atoms[0].symbol, main.atoms[1].symbol,
+                                       min_abundance=0.0))
+    try:
+        first = solve(data, locks, one, **run)
+    except AssignmentError:
+        return None
+    hot, _ = find_hot_bands(data, first, locks, one, max_rounds=run["max_rounds"])
+    if not hot:
+        return None
+    return _without(data, locks, first, hot, opts, **run)
+
+
+def _without(data, locks: dict, st, hot: list, opts: dict, *, seed_fraction: float,
+             max_rounds: int, min_rounds: int):
+    """The band refined again from ``st``'s numbering without the lines of the hot bands
+    ``hot`` (:func:`._rovib_locks.solve_again`), spread over all lines; None when it fails."""
+    mine = np.zeros(data.n, dtype=bool)
+    for hb in hot:
+        mine[hb.idx] = True
+    keep = np.nonzero(~mine)[0]
+    where = {int(i): k for k, i in enumerate(keep)}
+    sub_locks = {where[i]: v for i, v in locks.items() if i in where}
+    try:
+        again = solve_again(subset(data, keep), sub_locks, restrict(st, keep), opts,
+                            max_rounds=max_rounds, min_rounds=min_rounds)
+    except AssignmentError:
+        return None
+    if _problems(again, opts["molecule"], opts["band"]):
+        return None
+    return expand(again, keep, data.n)
