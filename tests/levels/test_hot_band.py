@@ -138,13 +138,20 @@ def test_without_hot_bands_a_hot_co_spectrum_is_refused():
         wk.levels.assign_rovibrational(lines, CO, temperature=1000.0, hot_bands=False)
 
 
-def test_a_hot_band_blended_at_low_resolution_is_left_unassigned_and_said_so():
-    # CO at 1500 K and 0.5 cm-1: hot and fundamental lines (1.9 cm-1 apart on average) blend;
-    # the fundamental is still found, the hot band's fit scatters too much to be accepted
+def test_a_hot_band_at_low_resolution_is_still_found_and_labelled():
+    # CO at 1500 K and 0.5 cm-1: hot and fundamental lines (1.9 cm-1 apart on average) blend.
+    # The hot band is labelled with B'' held at the band's B' (a free fit took high-J lines one
+    # to three J off) and its lines that hold an unfound line of the band are left out of its
+    # fit. Measured, not asserted: B' and B'' of the band come out 3.2-3.4 standard errors off
+    # here, partly blended lines being shifted beyond their stated position errors.
     lines = _lines(CO, 1500.0, 0.5)
     res = wk.levels.assign_rovibrational(lines, CO, temperature=1500.0)
     c = _truth(CO, "12C-16O")
-    v, e = res.constant("B_lower", "12C-16O")
-    assert abs(v - _B(c, 0)) <= 3 * e
-    assert any(m.startswith("no hot band 2-1 of 12C-16O accepted") for m in res.messages)
-    assert not (res.assignments["v_lower"].fillna(-1).to_numpy(dtype=int) == 1).any()
+    for const, band, true in (("band_origin", "1-0", _origin(c, 1, 0)),
+                              ("band_origin", "2-1", _origin(c, 2, 1)), ("B_upper", "2-1", _B(c, 2)),
+                              ("B_lower", "2-1", _B(c, 1))):
+        v, e = _row(res, "12C-16O", const, band)
+        assert abs(v - true) <= 3 * e, (const, band, v, e, true)
+    a = res.assignments
+    hot = a[a["v_lower"].fillna(-1).to_numpy(dtype=int) == 1]
+    assert len(hot) >= 25
