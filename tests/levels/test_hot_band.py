@@ -29,12 +29,12 @@ CASES = [(CO, 600.0, 0.1), (CO, 1000.0, 0.1), (HCL, 600.0, 0.05), (HCL, 1000.0, 
          (HCL, 1200.0, 0.1)]
 
 
-def _lines(molecule, temperature, resolution, bands=((1, 0), (2, 1))) -> pd.DataFrame:
+def _lines(molecule, temperature, resolution, bands=((1, 0), (2, 1)), seed=5) -> pd.DataFrame:
     key = molecule.main.name
     sp = wk.simulate.vibrational(molecule, wk.simulate.HANDBOOK[key], bands=bands,
                                  x_range=RANGES[key], step=resolution / 4,
                                  temperature=temperature, strength=1.0, resolution=resolution,
-                                 noise=2e-4, seed=5)
+                                 noise=2e-4, seed=seed)
     s = wk.Session(sp)
     s.find_peaks()
     s.fit_lines()
@@ -155,3 +155,31 @@ def test_a_hot_band_at_low_resolution_is_still_found_and_labelled():
     a = res.assignments
     hot = a[a["v_lower"].fillna(-1).to_numpy(dtype=int) == 1]
     assert len(hot) >= 25
+
+
+def test_a_rare_isotopologue_is_not_sought_on_the_stronger_hot_band():
+    # CO at 1500 K, 0.2 cm-1, noise seed 1: the hot band is a quarter of the band, 13C-16O a
+    # hundredth; sought first, the 13C-16O sub-band landed on hot lines and took the band's name
+    lines = _lines(CO, 1500.0, 0.2, seed=1)
+    res = wk.levels.assign_rovibrational(lines, CO, temperature=1500.0)
+    c = _truth(CO, "12C-16O")
+    for const, band, true in (("band_origin", "1-0", _origin(c, 1, 0)), ("B_lower", "1-0", _B(c, 0)),
+                              ("band_origin", "2-1", _origin(c, 2, 1))):
+        v, e = _row(res, "12C-16O", const, band)
+        assert abs(v - true) <= 3 * e, (const, band, v, e, true)
+    c13 = _truth(CO, "13C-16O")
+    v, e = _row(res, "13C-16O", "band_origin", "1-0")
+    assert abs(v - _origin(c13, 1, 0)) <= 3 * e
+    assert res.status == "ok", res.reasons
+
+
+def test_the_hot_bands_of_two_abundant_isotopologues_at_low_resolution():
+    # HCl at 1200 K and 0.5 cm-1: lines of H37Cl that merge with hot lines are blends, left out
+    # of the hot-band fits (one such line, of small position error, bent the H35Cl hot band)
+    lines = _lines(HCL, 1200.0, 0.5, seed=1)
+    res = wk.levels.assign_rovibrational(lines, HCL, temperature=1200.0)
+    for name in ("1H-35Cl", "1H-37Cl"):
+        c = _truth(HCL, name)
+        v, e = _row(res, name, "band_origin", "2-1")
+        assert abs(v - _origin(c, 2, 1)) <= 3 * e, (name, v, e)
+    assert res.status == "ok", res.reasons
