@@ -47,7 +47,9 @@ left out of the fit.
 Hot bands (``hot_bands=True``, :mod:`._seed_strong`, :mod:`._rovib_hot`): the band is also
 sought from its strongest lines, which a weaker series beside it cannot mislead, and the hot
 band (v′+1) ← (v″+1) of each isotopologue is then assigned among the lines left, from the
-band's constants; the band is refined again without the hot band's lines.
+band's constants; the band is refined again without the hot band's lines (rare isotopologues,
+weaker than the hot band, are sought only then), and lines that hold lines of both bands are
+blends.
 
 Limits (found with simulated bands): the band-origin gap must be visible (at
 most one of R(0), P(1) missing); spectra without areas that also miss lines
@@ -228,7 +230,8 @@ def assign_rovibrational(
         (:mod:`._rovib_hot`): predicted from the band's constants (B″ = B′ of the band,
         B′ smaller by α_e, origin shifted by −2ωexe(v′ − v″) with the handbook
         anharmonicity, or the Pekeris estimate), its lines get its v_upper, v_lower
-        and labels, its constants rows of their own. When one is found the
+        and labels, its constants rows of their own; a line that holds lines of both
+        bands is marked ``blended`` and left out of both fits. When one is found the
         ``constants`` and ``combination_differences`` gain a column ``band`` ("1-0",
         "2-1") and ``covariance`` a key "<isotopologue> <band>" ("12C-16O 2-1"); when
         none is found (too few lines fit the prediction), its lines stay unassigned and
