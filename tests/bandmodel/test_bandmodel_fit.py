@@ -261,3 +261,21 @@ def test_a_second_look_scans_the_resolution_first():
     first = fit_spectrum(sp, CO_MOL, fix={"temperature": 600.0}, second_look=False)
     b, e = first.constant("B_lower")
     assert abs(b - truth(CO)["B_lower"]) > 3 * e  # the first look alone misses
+
+
+def test_a_resolution_held_at_its_bound_is_looked_at_again():
+    # H35Cl/H37Cl 1-0 at 0.01 cm-1, Lorentzian HWHM 0.05, every 0.0025 cm-1 (180,001 points;
+    # our simulator, seeded), the resolution not given: the line widths read on a binned copy
+    # started the resolution at 0.15, it ran to its bound and was held back there with the
+    # Lorentzian width at 0 ("doubtful", 30x the noise left at the lines)
+    sp = wk.simulate.vibrational(HCL_MOL, HCL, bands=((1, 0),), x_range=(2650.0, 3100.0),
+                                 step=0.0025, temperature=296.0, strength=1.0, resolution=0.01,
+                                 noise=1e-3, seed=1)
+    res = fit_spectrum(sp, HCL_MOL)
+    assert res.status == "ok", res.reasons
+    assert any(m.startswith("looked again") for m in res.messages)
+    assert abs(res.value("resolution") - 0.01) < 3 * res.stderr("resolution")
+    assert abs(res.value("lorentz_hwhm") - 0.05) < 3 * res.stderr("lorentz_hwhm")
+    assert_within(res, HCL, temperature=296.0)
+    first = fit_spectrum(sp, HCL_MOL, second_look=False)
+    assert first.parameters.set_index("name").loc["resolution", "status"] == "held"
