@@ -124,8 +124,8 @@ def _binned(x: np.ndarray, a: np.ndarray, width: float) -> tuple[np.ndarray, np.
 def separation_noise(xu: np.ndarray, smoothed: np.ndarray, sigma: np.ndarray, width: float,
                      maxima: tuple[float, float]) -> float:
     """Standard deviation (cm⁻¹) of the separation of two maxima of a contour smoothed by a
-    Gaussian of FWHM ``width`` from independent noise ``sigma`` per point (absorbance; an
-    array, as transmittance noise grows as 1/T in absorbance). A maximum moves by
+    Gaussian of FWHM ``width`` from independent noise ``sigma`` per point (an array: the
+    noise may vary along the contour). A maximum moves by
     δx = −δs′/s″ (s the smoothed contour), and δs′ = Σ h g′(x₀ − x_k) ε_k for the kernel g
     on a grid of step h (first-order propagation; common practice for a peak's position)."""
     h = float(xu[1] - xu[0])

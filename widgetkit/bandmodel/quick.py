@@ -293,9 +293,8 @@ def pr_from_transmittance(xu: np.ndarray, au: np.ndarray, cu: np.ndarray, step: 
                           resolution: float | None = None) -> PRSeparation:
     """Saturated transmittance data (:func:`saturated`) on a uniform grid: the line spacing
     and the smoothing from the absorbance ``au`` (its lines stand out best), the maxima from
-    the absorptance ``cu``
-    (:func:`contour_like`: no spikes from noisy saturated lines); the absorptance alone when
-    the absorbance shows no band."""
+    the absorptance ``cu`` (:func:`contour_like`: no spikes from noisy saturated lines); the
+    absorptance alone when the absorbance shows no band."""
     try:
         first = _pr_from_uniform(xu, au, step, smoothing=smoothing, resolution=resolution)
     except FitError:

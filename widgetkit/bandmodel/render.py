@@ -156,8 +156,8 @@ def deposit_extra(kernel: Kernel) -> float:
 
 #: a Gaussian instrument whose σ exceeds this many steps of the data is split: all of it
 #: in the deposits made each line's window 7 σ_instrument wide (4 cm-1 on data every 0.02
-#: cm-1 took 0.12 s per deposit and a fit ran past its 60 s). Below it nothing changes, so
-#: fits of data sampled as usual (2-8 points per resolution) are computed as before
+#: cm-1 took 0.12 s per deposit and a fit ran past its 60 s). Below it (up to about 19
+#: points per resolution FWHM) nothing changes: such fits are computed as before
 GAUSS_SPLIT_STEPS = 8.0
 #: ... then this many steps of it go into the deposits (enough to sample them), the rest
 #: is applied in Fourier space
