@@ -279,3 +279,21 @@ def test_a_resolution_held_at_its_bound_is_looked_at_again():
     assert_within(res, HCL, temperature=296.0)
     first = fit_spectrum(sp, HCL_MOL, second_look=False)
     assert first.parameters.set_index("name").loc["resolution", "status"] == "held"
+
+
+def test_the_second_look_keeps_to_the_time_budget():
+    # a first fit that used over half of max_time is not fitted again (self-consistency: a
+    # stand-in for the first run, so no clock decides the test)
+    import time
+    from types import SimpleNamespace
+
+    from widgetkit.bandmodel.fitting import _second_look
+
+    made = []
+    res = SimpleNamespace(source="scanned")
+    first = SimpleNamespace(params=[res], fitter=SimpleNamespace(index=lambda name: 0),
+                            held={"omega_e_x_e": "implausible: ..."}, scanned_late=True,
+                            held_implausible=lambda: True, t0=time.perf_counter() - 40.0,
+                            max_time=60.0, messages=[])
+    assert _second_look(first, lambda: made.append(1)) is first
+    assert made == [] and first.messages[-1].startswith("not looked again")

@@ -317,6 +317,11 @@ def _second_look(run: Run, new_run: Callable[[], Run]) -> Run:
              and not res.source.startswith(("given", "fixed")))
     if not ((run.scanned_late and run.held_implausible()) or stuck):
         return run
+    if time.perf_counter() - run.t0 > 0.5 * run.max_time:
+        # (the second fit gets what is left of the budget, so the whole keeps to it)
+        run.messages.append("not looked again (a fit held a constant at an implausible value "
+                            "or the resolution at its bound): over half of max_time is spent")
+        return run
     alt = new_run()
     if stuck:
         # the resolution started from the line widths ran to its bound and was held back at
