@@ -34,15 +34,8 @@ from ..oscillator import C2
 from ..simulate.linesystem import LineSystem
 from .deposit import thread_work
 from .instrument import SIGMA_PER_FWHM, fwhm_factor
-from .render import (
-    LN10,
-    Kernel,
-    auxiliary_tau,
-    deposit_extra,
-    fourier_sigma,
-    make_grid,
-    render,
-)
+from .kernel import Kernel, auxiliary_tau, deposit_extra, fourier_sigma
+from .render import LN10, make_grid, render
 
 __all__ = ["BandModel"]
 
