@@ -138,3 +138,21 @@ def test_a_linear_molecule_typed_as_its_atoms_along_the_axis_is_fitted(tmp_path)
     s.save(tmp_path / "co2.json")
     again = wk.Session.load(tmp_path / "co2.json")  # and on reopening (from the record)
     assert again.constants["value"].tolist() == s.constants["value"].tolist()
+
+
+def test_the_controls_show_the_options_of_the_fit_shown(co_4cm):
+    # a fit made in code (or a session reopened): the controls say how it was made, so that
+    # "Fit band" repeats it; before, "fix T" stayed unticked and a click refitted T free
+    s = wk.Session(co_4cm)
+    s.fit_band_model("CO", resolution=4.0, instrument="triangular", baseline="poly2",
+                     fix={"temperature": 250.0, "B_e": 1.93128087})
+    panel = BandModelPanel(s)
+    assert panel.fix_temperature.value and panel.temperature.value == 250.0
+    assert parse_fix(panel.fix_more.value) == {"B_e": 1.93128087}
+    assert (panel.instrument.value, panel.baseline.value, panel.resolution.value) == \
+        ("triangular", "poly2", 4.0)
+    assert panel.fit_options()["fix"] == {"B_e": 1.93128087, "temperature": 250.0}
+    panel.fit_button.click()  # the same fit again, recorded as a second step
+    assert panel.last_error is None, panel.status.value
+    assert s.history[-1].params["fix"] == s.history[-2].params["fix"]
+    assert s.history[-1].params["instrument"] == "triangular"

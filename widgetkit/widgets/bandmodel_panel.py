@@ -171,6 +171,7 @@ class BandModelPanel(PlotPanel):
             self.plot.clear("model", "baseline", "residual")
             self._clear_tables()
             return
+        self._controls_from(fit.spec)
         self.plot.set_curve("model", fit.x, fit.model_y)
         base = fit.baseline_y
         self.plot.set_curve("baseline", fit.x, base if np.ndim(base) else np.full(fit.x.size, base))
@@ -188,6 +189,28 @@ class BandModelPanel(PlotPanel):
                                                columns=CONSTANT_COLUMNS,
                                                empty="no constants")
         self.correlations.value = self._correlation_html(fit)
+
+    def _controls_from(self, spec: dict) -> None:
+        """The controls set to the options of the fit shown (a session reopened, or a fit
+        made in code), so that "Fit band" repeats it unless the user changes something (the
+        temperature fixed at 296 K showed "fix T" unticked, and a click refitted T free)."""
+        bands = spec.get("band") or []
+        if len(bands) == 1:
+            self.band.value = f"{int(bands[0][0])}-{int(bands[0][1])}"
+        if spec.get("instrument") in dict(INSTRUMENT_CHOICES).values():
+            self.instrument.value = spec["instrument"]
+        if spec.get("baseline") in dict(BASELINE_CHOICES).values():
+            self.baseline.value = spec["baseline"]
+        res = spec.get("resolution")
+        self.resolution.value = float(res) if isinstance(res, (int, float)) and res > 0 else 0.0
+        self.joint.value = bool(spec.get("joint", True))
+        fix = dict(spec.get("fix") or {})
+        t_fixed = fix.pop("temperature", None)
+        self.fix_temperature.value = t_fixed is not None
+        t = t_fixed if t_fixed is not None else spec.get("temperature")
+        if isinstance(t, (int, float)) and t > 0:
+            self.temperature.value = float(t)
+        self.fix_more.value = ", ".join(f"{k}={float(v)!r}" for k, v in fix.items())
 
     def _clear_tables(self) -> None:
         for w in (self.summary, self.parameter_table, self.constant_table, self.correlations):
