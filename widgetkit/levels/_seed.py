@@ -221,6 +221,15 @@ def bootstrap(x, init: dict[int, int], *, frac: float = 0.25, max_miss: int = 2,
     return got
 
 
+def _band_terms(values: dict, v_upper: int, v_lower: int) -> tuple:
+    """(Δv, v′+½, v″+½, (v′+½)² − (v″+½)², αe, Be, ν0) of one band's constants."""
+    dv = v_upper - v_lower
+    hu, hl = v_upper + 0.5, v_lower + 0.5
+    Bl, Bu = values["B_lower"], values["B_upper"]
+    alpha = (Bl - Bu) / dv
+    return dv, hu, hl, hu**2 - hl**2, alpha, Bl + alpha * hl, values["band_origin"]
+
+
 def scaled_band_constants(values: dict, v_upper: int, v_lower: int, rho: float) -> tuple[dict, float]:
     """Band constants of another isotopologue, and the anharmonic part of its origin shift.
 
@@ -235,13 +244,7 @@ def scaled_band_constants(values: dict, v_upper: int, v_lower: int, rho: float) 
     -------
     (dict of the five band constants, anharmonic shift estimate in cm⁻¹)
     """
-    dv = v_upper - v_lower
-    hu, hl = v_upper + 0.5, v_lower + 0.5
-    q = hu**2 - hl**2
-    Bl, Bu = values["B_lower"], values["B_upper"]
-    alpha = (Bl - Bu) / dv
-    Be = Bl + alpha * hl
-    nu0 = values["band_origin"]
+    dv, hu, hl, q, alpha, Be, nu0 = _band_terms(values, v_upper, v_lower)
     we, wx = anharmonic_estimate(values, v_upper, v_lower)
     we2, wx2 = we * rho, wx * rho**2
     Be2, a2 = Be * rho**2, alpha * rho**3
@@ -261,13 +264,7 @@ def anharmonic_estimate(values: dict, v_upper: int, v_lower: int) -> tuple[float
     with the Pekeris relation αe = 6 sqrt(ωexe Be³)/ωe − 6Be²/ωe and the two-term origin
     ν0 = ωe(v′ − v″) − ωexe((v′+½)² − (v″+½)²); ωexe = 0 (ωe = ν0/(v′ − v″)) when the
     relation gives no root."""
-    dv = v_upper - v_lower
-    hu, hl = v_upper + 0.5, v_lower + 0.5
-    q = hu**2 - hl**2
-    Bl, Bu = values["B_lower"], values["B_upper"]
-    alpha = (Bl - Bu) / dv
-    Be = Bl + alpha * hl
-    nu0 = values["band_origin"]
+    dv, _, _, q, alpha, Be, nu0 = _band_terms(values, v_upper, v_lower)
     wx = 0.0
     if Be > 0 and alpha > 0:
         for _ in range(30):
