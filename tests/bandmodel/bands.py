@@ -52,3 +52,23 @@ def assert_within(fit, constants, *, names=("band_origin", "B_lower", "B_upper")
         assert e > 0 and abs(v - temperature) < k * e, f"T: {v} ± {e}, true {temperature}"
 
 
+def transmittance_band(x, *, band_area: float, lorentz_hwhm: float, resolution: float,
+                       seed: int, noise: float = 0.002):
+    """CO 1-0 (with 13CO) made by the band model itself in the transmittance domain (the
+    physics of a spectrometer: ILS ⊛ 10^-A) at 296 K, with seeded Gaussian noise
+    (self-consistency); returns the transmittance."""
+    import numpy as np
+
+    from widgetkit.bandmodel.build import ModelOptions, build_model
+
+    opts = ModelOptions(bands=((1, 0),), joint=True, centrifugal="shared",
+                        isotopologues=("12C-16O", "13C-16O"), abundance_ratios=(1.0, 0.0107),
+                        free_abundances=False, shape="doppler", instrument="gaussian",
+                        domain="transmittance", baseline_degree=1, y_kind="transmittance")
+    st = dict(truth(CO), D=CO["D_e"], temperature=296.0, band_area=band_area,
+              lorentz_hwhm=lorentz_hwhm, resolution=resolution,
+              omega_e_x_e=CO["omega_e_x_e"], baseline=[0.0, 0.0])
+    model, params = build_model(x, wk.Diatomic("C", "O"), opts, st, structure_temperature=450.0)
+    y, _ = model.evaluate(np.array([p.value for p in params]), [], jac=False)
+    return y + np.random.default_rng(seed).normal(0, noise, np.size(x))
+
