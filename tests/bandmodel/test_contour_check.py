@@ -110,22 +110,8 @@ def test_check_contour_must_be_a_flag():
         fit(x, y, CO_MOL, check_contour="yes")
 
 
-def _without_key(path, out, step_index: int, key: str):
-    """The saved session with ``key`` deleted from one step's parameters and the step's seal
-    recomputed: a record as the code before the option wrote it."""
-    import json
-
-    from widgetkit.session.steps import Step
-
-    doc = json.loads(path.read_text())
-    st = doc["steps"][step_index]
-    del st["params"][key]
-    st["sha256"] = Step(**{k: v for k, v in st.items() if k != "sha256"}).seal()
-    out.write_text(json.dumps(doc))
-    return out
-
-
-def test_the_session_records_the_check_and_an_older_record_replays_without_it(tmp_path):
+def test_the_session_records_the_check_and_an_older_record_replays_without_it(tmp_path,
+                                                                                without_key):
     x, y, _ = saturated_co()
     s = wk.Session(wk.Spectrum(x, y, y_kind="transmittance"))
     opts = dict(resolution=4.0, fix={"temperature": 296.0}, convolve="absorbance")
@@ -138,9 +124,9 @@ def test_the_session_records_the_check_and_an_older_record_replays_without_it(tm
     s.save(path)
     assert wk.Session.load(path).verify().ok
     # a record without the key replays unchecked: the old one verifies ...
-    report = wk.Session.load(_without_key(path, tmp_path / "old1.json", 1, "check_contour")).verify()
+    report = wk.Session.load(without_key(path, tmp_path / "old1.json", 1, "check_contour")).verify()
     assert report.ok, report.mismatches
     # ... and the checked one no longer does (its widened errors and reason are not remade)
-    report = wk.Session.load(_without_key(path, tmp_path / "old2.json", 2, "check_contour")).verify()
+    report = wk.Session.load(without_key(path, tmp_path / "old2.json", 2, "check_contour")).verify()
     assert not report.ok
     assert any(m.startswith("step 2 (fit_band_model)") for m in report.mismatches), report.mismatches

@@ -7,12 +7,10 @@ with the handbook constants of ``wk.simulate.HANDBOOK`` (self-consistency only: 
 value here comes from outside the code).
 """
 
-import json
 
 import pytest
 
 import widgetkit as wk
-from widgetkit.session.steps import Step
 
 CO = wk.Diatomic("C", "O")
 
@@ -25,19 +23,6 @@ def _session(temperature: float, bands) -> wk.Session:
     s.find_peaks()
     s.fit_lines()
     return s
-
-
-def _without_key(path, tmp_path, step_index: int, key: str):
-    """A copy of the saved session with ``key`` deleted from one step's parameters, the
-    step's seal recomputed: a record as the code before the option wrote it."""
-    doc = json.loads(path.read_text())
-    st = doc["steps"][step_index]
-    assert key in st["params"]
-    del st["params"][key]
-    st["sha256"] = Step(**{k: v for k, v in st.items() if k != "sha256"}).seal()
-    out = tmp_path / f"older-{step_index}.json"
-    out.write_text(json.dumps(doc))
-    return out
 
 
 @pytest.fixture(scope="module")
@@ -74,22 +59,23 @@ def test_a_session_with_a_hot_band_verifies_and_reopens_to_it(hot_saved, tmp_pat
     assert report.ok, report.mismatches
 
 
-def test_a_record_without_the_key_replays_without_hot_bands(tmp_path):
+def test_a_record_without_the_key_replays_without_hot_bands(tmp_path, without_key):
     s = _session(296.0, ((1, 0),))
     s.assign_band(CO, temperature=296.0, hot_bands=False)
     path = tmp_path / "cold.session.json"
     s.save(path)
-    old = wk.Session.load(_without_key(path, tmp_path, len(s.history) - 1, "hot_bands"))
+    old = wk.Session.load(without_key(path, tmp_path / "older.json", len(s.history) - 1,
+                                      "hot_bands"))
     assert "band" not in old.constants
     report = old.verify()
     assert report.ok, report.mismatches
 
 
-def test_a_hot_band_record_without_the_key_does_not_verify(hot_saved, tmp_path):
+def test_a_hot_band_record_without_the_key_does_not_verify(hot_saved, tmp_path, without_key):
     # the test above can fail: replayed with hot bands off, this spectrum is refused
     s, path = hot_saved
-    report = wk.Session.load(_without_key(path, tmp_path, len(s.history) - 1,
-                                          "hot_bands")).verify()
+    report = wk.Session.load(without_key(path, tmp_path / "older.json", len(s.history) - 1,
+                                         "hot_bands")).verify()
     assert not report.ok
     assert any("assign_band" in m for m in report.mismatches), report.mismatches
 

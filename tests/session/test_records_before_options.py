@@ -11,32 +11,14 @@ Spectra from our own simulator with the handbook constants of ``wk.simulate.HAND
 (self-consistency only: no check value here comes from outside the code).
 """
 
-import json
 
 import pytest
 
 import widgetkit as wk
-from widgetkit.session.steps import Step
 
 CO = wk.Diatomic("C", "O")
 CO_CONSTANTS = {k: v for k, v in wk.simulate.HANDBOOK["12C-16O"].items() if k != "r_e"}
 HIDDEN = "may hold an unresolved line of another sub-band"
-
-
-def _without_key(path, tmp_path, step_index: int, key: str, result_fields=()):
-    """A copy of the saved session with ``key`` deleted from one step's parameters (and
-    ``result_fields`` from its result), the step's seal recomputed: a record as an older
-    version wrote it."""
-    doc = json.loads(path.read_text())
-    st = doc["steps"][step_index]
-    assert key in st["params"]
-    del st["params"][key]
-    for f in result_fields:
-        st["result"].pop(f, None)
-    st["sha256"] = Step(**{k: v for k, v in st.items() if k != "sha256"}).seal()
-    out = tmp_path / f"older-{step_index}.json"
-    out.write_text(json.dumps(doc))
-    return out
 
 
 # ---------------------------------------------------------------------- band model
@@ -77,9 +59,10 @@ def _rows(table: dict) -> list[dict]:
     return [{c: table[c][i] for c in cols} for i in range(n)]
 
 
-def test_a_band_model_record_without_the_key_replays_unwidened_and_verifies(band_saved, tmp_path):
+def test_a_band_model_record_without_the_key_replays_unwidened_and_verifies(band_saved, tmp_path,
+                                                                            without_key):
     # as the code before the widening wrote it: no key, no flag, no factors in the result
-    old = _without_key(band_saved, tmp_path, 1, "widen_errors",
+    old = without_key(band_saved, tmp_path / "older-1.json", 1, "widen_errors",
                        ("structured_residual", "error_factors"))
     s = wk.Session.load(old)
     report = s.verify()
@@ -90,9 +73,9 @@ def test_a_band_model_record_without_the_key_replays_unwidened_and_verifies(band
     assert not any("widened" in m for m in fit.messages)
 
 
-def test_a_widened_record_without_the_key_does_not_verify(band_saved, tmp_path):
+def test_a_widened_record_without_the_key_does_not_verify(band_saved, tmp_path, without_key):
     # the test above can fail: replayed unwidened, a widened record's errors no longer match
-    old = _without_key(band_saved, tmp_path, 2, "widen_errors")
+    old = without_key(band_saved, tmp_path / "older-2.json", 2, "widen_errors")
     report = wk.Session.load(old).verify()
     assert not report.ok
     assert any(m.startswith("step 2 (fit_band_model)") for m in report.mismatches), \
@@ -132,17 +115,19 @@ def test_the_assignment_step_records_leaving_hidden_lines_out(co_saved):
     assert _t_rot(now.result) != _t_rot(before.result)
 
 
-def test_an_assignment_record_without_the_key_keeps_every_line_and_verifies(co_saved, tmp_path):
-    old = _without_key(co_saved, tmp_path, 3, "exclude_hidden")
+def test_an_assignment_record_without_the_key_keeps_every_line_and_verifies(co_saved, tmp_path,
+                                                                            without_key):
+    old = without_key(co_saved, tmp_path / "older-3.json", 3, "exclude_hidden")
     s = wk.Session.load(old)
     assert not any(HIDDEN in m for m in s.state_at(3).assignment.messages)
     report = s.verify()
     assert report.ok, report.mismatches
 
 
-def test_an_assignment_that_left_lines_out_without_the_key_does_not_verify(co_saved, tmp_path):
+def test_an_assignment_that_left_lines_out_without_the_key_does_not_verify(co_saved, tmp_path,
+                                                                          without_key):
     # the test above can fail: replayed as before, the T_rot of this record is not reproduced
-    old = _without_key(co_saved, tmp_path, 4, "exclude_hidden")
+    old = without_key(co_saved, tmp_path / "older-4.json", 4, "exclude_hidden")
     report = wk.Session.load(old).verify()
     assert not report.ok
     assert any(m.startswith("step 4 (assign_band)") for m in report.mismatches), report.mismatches
